@@ -1,0 +1,234 @@
+package dev.heed.graph;
+
+import java.util.Arrays;
+import java.util.Objects;
+
+/**
+ * An immutable directed graph in compressed sparse row form (Saad, <i>Iterative Methods for Sparse
+ * Linear Systems</i>, 2nd ed., SIAM 2003, §3.4). Rows are targets and columns are sources: the
+ * entries of row {@code i}, {@code column(rowStart(i)) .. column(rowEnd(i) - 1)}, are the nodes
+ * {@code j} with an edge {@code j -> i}, the nodes that {@code i} attends to.
+ *
+ * <p>Invariants, checked on construction: {@code rowOffsets.length == n + 1}, {@code rowOffsets[0]
+ * == 0}, offsets non-decreasing and ending at E, every column in {@code 0..n-1}, columns strictly
+ * increasing within each row (sorted, no duplicates). Storage is exactly the two int arrays, {@code
+ * 4·(n+1) + 4·E} bytes beyond object headers.
+ *
+ * <p>Thread safety: immutable; safe to share between threads.
+ */
+public final class CsrGraph implements AttentionPattern {
+
+  private final int[] rowOffsets;
+  private final int[] columns;
+
+  private CsrGraph(int[] rowOffsets, int[] columns) {
+    this.rowOffsets = rowOffsets;
+    this.columns = columns;
+  }
+
+  /**
+   * Creates a graph from CSR arrays, after validating them. The arrays are copied; the caller's
+   * arrays are not modified or retained.
+   *
+   * @param rowOffsets input, length {@code n + 1}: row {@code i} occupies entries {@code
+   *     rowOffsets[i] .. rowOffsets[i+1]-1}
+   * @param columns input, length E: the source node of each entry, sorted within each row
+   * @return the validated graph
+   * @throws IllegalArgumentException naming the offending row, entry and value if an invariant
+   *     fails
+   * @throws NullPointerException if either array is null
+   */
+  public static CsrGraph of(int[] rowOffsets, int[] columns) {
+    Objects.requireNonNull(rowOffsets, "rowOffsets");
+    Objects.requireNonNull(columns, "columns");
+    int[] offsets = rowOffsets.clone();
+    int[] cols = columns.clone();
+    validate(offsets, cols);
+    return new CsrGraph(offsets, cols);
+  }
+
+  /**
+   * Wraps arrays that the caller has just built and will never touch again, after validating them.
+   * For builders in this package only: no copy is made.
+   */
+  static CsrGraph adopt(int[] rowOffsets, int[] columns) {
+    validate(rowOffsets, columns);
+    return new CsrGraph(rowOffsets, columns);
+  }
+
+  private static void validate(int[] offsets, int[] cols) {
+    if (offsets.length == 0) {
+      throw new IllegalArgumentException(
+          "rowOffsets must have length n + 1 >= 1, got length 0; for an empty graph pass {0}");
+    }
+    int n = offsets.length - 1;
+    if (offsets[0] != 0) {
+      throw new IllegalArgumentException("rowOffsets[0] must be 0, got " + offsets[0]);
+    }
+    if (offsets[n] != cols.length) {
+      throw new IllegalArgumentException(
+          "rowOffsets[n] must equal the number of columns (E = "
+              + cols.length
+              + "), got rowOffsets["
+              + n
+              + "] = "
+              + offsets[n]);
+    }
+    for (int row = 0; row < n; row++) {
+      int start = offsets[row];
+      int end = offsets[row + 1];
+      if (end < start) {
+        throw new IllegalArgumentException(
+            "rowOffsets must be non-decreasing: row "
+                + row
+                + " starts at "
+                + start
+                + " but rowOffsets["
+                + (row + 1)
+                + "] = "
+                + end);
+      }
+      int previous = -1;
+      for (int e = start; e < end; e++) {
+        int c = cols[e];
+        if (c < 0 || c >= n) {
+          throw new IllegalArgumentException(
+              "column index out of range in row "
+                  + row
+                  + ": columns["
+                  + e
+                  + "] = "
+                  + c
+                  + ", expected 0.."
+                  + (n - 1));
+        }
+        if (c <= previous) {
+          throw new IllegalArgumentException(
+              "columns must be strictly increasing within a row: row "
+                  + row
+                  + " has columns["
+                  + (e - 1)
+                  + "] = "
+                  + previous
+                  + " followed by columns["
+                  + e
+                  + "] = "
+                  + c
+                  + (c == previous ? " (duplicate edge)" : " (unsorted)"));
+        }
+        previous = c;
+      }
+    }
+  }
+
+  @Override
+  public int nodeCount() {
+    return rowOffsets.length - 1;
+  }
+
+  @Override
+  public long entryCount() {
+    return columns.length;
+  }
+
+  /**
+   * Returns the number of edges E (entries), as an int.
+   *
+   * @return the edge count
+   */
+  public int edgeCount() {
+    return columns.length;
+  }
+
+  /**
+   * Returns the first entry of {@code row}.
+   *
+   * @param row a target node in {@code 0..n-1}
+   * @return the index of the row's first entry
+   */
+  public int rowStart(int row) {
+    return rowOffsets[row];
+  }
+
+  /**
+   * Returns one past the last entry of {@code row}.
+   *
+   * @param row a target node in {@code 0..n-1}
+   * @return the index after the row's last entry
+   */
+  public int rowEnd(int row) {
+    return rowOffsets[row + 1];
+  }
+
+  /**
+   * Returns the source node of an entry.
+   *
+   * @param entry an entry index in {@code 0..E-1}
+   * @return the source node id
+   */
+  public int column(int entry) {
+    return columns[entry];
+  }
+
+  @Override
+  public int degree(int target) {
+    Objects.checkIndex(target, nodeCount());
+    return rowOffsets[target + 1] - rowOffsets[target];
+  }
+
+  @Override
+  public boolean allows(int target, int source) {
+    Objects.checkIndex(target, nodeCount());
+    Objects.checkIndex(source, nodeCount());
+    return Arrays.binarySearch(columns, rowOffsets[target], rowOffsets[target + 1], source) >= 0;
+  }
+
+  /**
+   * Returns the entry index of the pair ({@code target}, {@code source}), or -1 if it is absent.
+   *
+   * @param target a node id in {@code 0..n-1}
+   * @param source a node id in {@code 0..n-1}
+   * @return the entry index, or -1
+   */
+  public int entryOf(int target, int source) {
+    Objects.checkIndex(target, nodeCount());
+    Objects.checkIndex(source, nodeCount());
+    int at = Arrays.binarySearch(columns, rowOffsets[target], rowOffsets[target + 1], source);
+    return at >= 0 ? at : -1;
+  }
+
+  /**
+   * Returns a copy of the row offsets.
+   *
+   * @return a new array of length {@code n + 1}
+   */
+  public int[] rowOffsets() {
+    return rowOffsets.clone();
+  }
+
+  /**
+   * Returns a copy of the column indices.
+   *
+   * @return a new array of length E
+   */
+  public int[] columns() {
+    return columns.clone();
+  }
+
+  @Override
+  public boolean equals(Object o) {
+    return o instanceof CsrGraph other
+        && Arrays.equals(rowOffsets, other.rowOffsets)
+        && Arrays.equals(columns, other.columns);
+  }
+
+  @Override
+  public int hashCode() {
+    return 31 * Arrays.hashCode(rowOffsets) + Arrays.hashCode(columns);
+  }
+
+  @Override
+  public String toString() {
+    return "CsrGraph[n=" + nodeCount() + ", E=" + columns.length + "]";
+  }
+}
