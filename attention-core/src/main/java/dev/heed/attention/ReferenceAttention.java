@@ -4,7 +4,8 @@ import dev.heed.graph.AttentionPattern;
 
 /**
  * A plain float64 evaluation of the attention equations, the reference every kernel is checked
- * against. Written for clarity, not speed: O(n² · H · d) whatever the pattern.
+ * against (by the tests, and on a user's machine by {@code heed verify}). Written for clarity, not
+ * speed: O(n² · H · d) time whatever the pattern, so use it on small inputs only.
  *
  * <ul>
  *   <li>Additive (GAT): e_ij = LeakyReLU(q_i + k_j) — Veličković et al. 2018, eq. 1 with aᵀ[Wh_i ‖
@@ -14,15 +15,33 @@ import dev.heed.graph.AttentionPattern;
  *   <li>α_ij = softmax over the allowed j of row i, computed with the row maximum subtracted
  *       (common practice); out_i = Σ_j α_ij v_j. Rows with no allowed j give zeros.
  * </ul>
+ *
+ * <p>Thread safety: stateless; safe from any thread.
  */
 public final class ReferenceAttention {
 
   private ReferenceAttention() {}
 
-  /** Result of a reference evaluation, in the kernel's layouts but in float64. */
+  /**
+   * Result of a reference evaluation, in the kernel's layouts but in float64.
+   *
+   * @param out the attention output, {@code n * heads * valueDim}
+   * @param weights the weights, {@code entryCount * heads}, or null when that exceeds 50 million
+   */
   public record Result(double[] out, double[] weights) {}
 
-  /** Score of one pair for one head, in float64. */
+  /**
+   * Returns the score of one pair for one head, in float64.
+   *
+   * @param score the score function
+   * @param shape the head shape
+   * @param query target-side terms, not modified
+   * @param key source-side terms, not modified
+   * @param i target node
+   * @param j source node
+   * @param h head
+   * @return e_ij for head h
+   */
   public static double score(
       ScoreFunction score, HeadShape shape, float[] query, float[] key, int i, int j, int h) {
     int dk = shape.keyDim();
@@ -47,14 +66,29 @@ public final class ReferenceAttention {
     }
   }
 
-  /** LeakyReLU in float64. */
+  /**
+   * Returns LeakyReLU of {@code x} in float64.
+   *
+   * @param x input
+   * @param slope negative slope
+   * @return x if positive, else slope·x
+   */
   public static double leakyRelu(double x, double slope) {
     return x > 0 ? x : slope * x;
   }
 
   /**
    * Evaluates attention over {@code pattern}. Weights come back entry-major as the kernel writes
-   * them: for a CSR pattern in CSR entry order, for the complete pattern row-major.
+   * them: for a CSR pattern in CSR entry order, for the complete pattern row-major. Inputs are not
+   * modified.
+   *
+   * @param pattern the allowed pairs
+   * @param score the score function
+   * @param shape the head shape
+   * @param query target-side terms
+   * @param key source-side terms
+   * @param value value rows
+   * @return output and weights in float64
    */
   public static Result attend(
       AttentionPattern pattern,
@@ -111,12 +145,18 @@ public final class ReferenceAttention {
   }
 
   /**
-   * Largest absolute difference divided by the largest absolute reference value (a norm-wise
-   * relative error; element-wise relative error is meaningless near zero).
+   * Returns the largest absolute difference divided by the largest absolute reference value (a
+   * norm-wise relative error; element-wise relative error is meaningless near zero).
+   *
+   * @param reference the float64 values
+   * @param actual the values to check, same length
+   * @return the relative error
+   * @throws IllegalArgumentException if the lengths differ
    */
   public static double relativeError(double[] reference, float[] actual) {
     if (reference.length != actual.length) {
-      throw new AssertionError("length " + reference.length + " != " + actual.length);
+      throw new IllegalArgumentException(
+          "lengths differ: reference " + reference.length + " != actual " + actual.length);
     }
     double maxDiff = 0;
     double maxRef = 0;
