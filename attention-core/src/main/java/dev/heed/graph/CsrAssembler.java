@@ -148,7 +148,11 @@ final class CsrAssembler {
         });
     String edge =
         symmetrise && from != to
-            ? "undirected edge {" + source.describeNode(from) + ", " + source.describeNode(to) + "}"
+            ? "undirected edge {"
+                + source.describeNode(Math.min(from, to))
+                + ", "
+                + source.describeNode(Math.max(from, to))
+                + "}"
             : "edge " + source.describeNode(from) + " -> " + source.describeNode(to);
     String where =
         found[1] >= 0
