@@ -215,7 +215,9 @@ public final class RmatGenerator {
     long ta = threshold(a);
     long tab = threshold(a + b);
     long tabc = threshold(a + b + c);
-    Scrambler scrambler = scramble ? new Scrambler(scale, random.split()) : null;
+    // Split always, so that the edges before relabelling do not depend on scrambling.
+    SplittableRandom relabelRandom = random.split();
+    Scrambler scrambler = scramble ? new Scrambler(scale, relabelRandom) : null;
     for (int k = 0; k < e; k++) {
       int row = 0;
       int col = 0;
