@@ -215,6 +215,17 @@ public final class CsrGraph implements AttentionPattern {
     return columns.clone();
   }
 
+  /**
+   * Returns the bytes held by the two arrays: {@code 4·(n+1) + 4·E} of payload plus two 16-byte
+   * array headers (common practice for a 64-bit JVM with compressed class pointers). For memory
+   * accounting.
+   *
+   * @return the storage in bytes
+   */
+  public long storageBytes() {
+    return 16L + 4L * rowOffsets.length + 16L + 4L * columns.length;
+  }
+
   @Override
   public boolean equals(Object o) {
     return o instanceof CsrGraph other

@@ -1,0 +1,4 @@
+/**
+ * JMH benchmarks and the memory measurement for building graphs (arrays, edge-list files, R-MAT).
+ */
+package dev.heed.bench.graph;
