@@ -159,6 +159,7 @@ final class DenseAttentionKernel implements AttentionKernel {
     private final ExecutorService pool;
     private final int workers;
     private final List<INDArray> owned = new ArrayList<>();
+    private float[] keyByHead;
 
     Call(
         AttentionPattern pattern,
@@ -237,7 +238,9 @@ final class DenseAttentionKernel implements AttentionKernel {
       FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
       INDArray outBlock = allocate(blockRows, valueDim);
       FloatBuffer outBuffer = outBlock.data().asNioFloat();
-      float[] row = new float[n];
+      float[][] workerRows = new float[workers][n];
+      float[] row = workerRows[0];
+      keyByHead = gatv2 && graph == null ? transposeKeys() : null;
       float scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
 
       for (int first = 0; first < n; first += blockRows) {
@@ -251,7 +254,7 @@ final class DenseAttentionKernel implements AttentionKernel {
         }
         for (int h = 0; h < heads; h++) {
           if (gatv2) {
-            gatv2Scores((ScoreFunction.Gatv2) score, first, rows, h, scoreBuffer);
+            gatv2Scores((ScoreFunction.Gatv2) score, first, rows, h, scoreBuffer, workerRows);
           } else {
             INDArray q =
                 packedQuery[h].get(NDArrayIndex.interval(first, first + rows), NDArrayIndex.all());
@@ -344,14 +347,19 @@ final class DenseAttentionKernel implements AttentionKernel {
 
     /** GATv2 scores of one block and head, written into the score block (rows × n). */
     private void gatv2Scores(
-        ScoreFunction.Gatv2 gatv2, int first, int rows, int h, FloatBuffer scoreBuffer) {
+        ScoreFunction.Gatv2 gatv2,
+        int first,
+        int rows,
+        int h,
+        FloatBuffer scoreBuffer,
+        float[][] workerRows) {
       float slope = gatv2.negativeSlope();
       float[] attention = new float[keyDim];
       for (int k = 0; k < keyDim; k++) {
         attention[k] = gatv2.attention(h * keyDim + k);
       }
       if (pool == null || (long) rows * n * keyDim < PARALLEL_GATV2_MIN_WORK) {
-        gatv2Rows(first, 0, rows, h, slope, attention, scoreBuffer, new float[n]);
+        gatv2Rows(first, 0, rows, h, slope, attention, scoreBuffer, workerRows[0]);
         return;
       }
       int parts = workers;
@@ -362,12 +370,12 @@ final class DenseAttentionKernel implements AttentionKernel {
         int to = Math.min(rows, from + chunk);
         if (from < to) {
           FloatBuffer view = scoreBuffer.duplicate();
+          float[] workerRow = workerRows[p];
           pending.add(
-              pool.submit(
-                  () -> gatv2Rows(first, from, to, h, slope, attention, view, new float[n])));
+              pool.submit(() -> gatv2Rows(first, from, to, h, slope, attention, view, workerRow)));
         }
       }
-      gatv2Rows(first, 0, Math.min(rows, chunk), h, slope, attention, scoreBuffer, new float[n]);
+      gatv2Rows(first, 0, Math.min(rows, chunk), h, slope, attention, scoreBuffer, workerRows[0]);
       for (Future<?> f : pending) {
         try {
           f.get();
@@ -378,6 +386,20 @@ final class DenseAttentionKernel implements AttentionKernel {
           throw new IllegalStateException("GATv2 score worker failed", e.getCause());
         }
       }
+    }
+
+    /** Keys as {@code [H][keyDim][n]}: element (h, k, j) at {@code (h·keyDim + k)·n + j}. */
+    private float[] transposeKeys() {
+      float[] t = new float[n * heads * keyDim];
+      for (int j = 0; j < n; j++) {
+        for (int h = 0; h < heads; h++) {
+          int from = (j * heads + h) * keyDim;
+          for (int k = 0; k < keyDim; k++) {
+            t[(h * keyDim + k) * n + j] = key[from + k];
+          }
+        }
+      }
+      return t;
     }
 
     /** Scores rows {@code from..to-1} of the block; disallowed pairs get -∞, empty rows 0. */
@@ -395,8 +417,17 @@ final class DenseAttentionKernel implements AttentionKernel {
         int i = first + r;
         System.arraycopy(query, (i * heads + h) * keyDim, q, 0, keyDim);
         if (graph == null) {
-          for (int j = 0; j < n; j++) {
-            row[j] = gatv2Score(q, (j * heads + h) * keyDim, slope, attention);
+          // Row form: for each k, one pass along all sources (contiguous, vectorisable by the JIT).
+          // Each row[j] still sums k = 0..keyDim-1 in order, as gatv2Score does.
+          Arrays.fill(row, 0f);
+          for (int k = 0; k < keyDim; k++) {
+            float qk = q[k];
+            float a = attention[k];
+            int at = (h * keyDim + k) * n;
+            for (int j = 0; j < n; j++) {
+              float x = qk + keyByHead[at + j];
+              row[j] += a * Math.max(x, slope * x);
+            }
           }
         } else {
           int start = graph.rowStart(i);

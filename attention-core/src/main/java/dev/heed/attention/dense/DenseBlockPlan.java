@@ -17,7 +17,9 @@ import dev.heed.attention.ScoreFunction;
  *       {@code [1, k]}); GATv2 scores read the caller's arrays directly and pack nothing;
  *   <li>per block row: {@code n} for the score row, {@code n} more for the mask row when the
  *       pattern is a CSR mask and scores come from a matrix product, and {@code dv} for the output;
- *   <li>Java scratch: one score row of {@code n} floats per worker thread.
+ *   <li>Java scratch: one score row of {@code n} floats per worker thread, and for GATv2 over the
+ *       complete pattern the keys transposed per head ({@code n·H·keyDim}), so that the score loop
+ *       runs along contiguous rows.
  * </ul>
  *
  * @param blockRows target rows per block, in {@code 1..n}
@@ -27,11 +29,11 @@ import dev.heed.attention.ScoreFunction;
 record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
 
   /**
-   * Default upper bound on one score block, in floats (8 MiB): large enough that each ND4J call
+   * Default upper bound on one score block, in floats (4 MiB): large enough that each ND4J call
    * handles a big batch of work (every call costs microseconds), small enough that the block stays
    * near the caches. Tuned on the benchmark machine; see benchmarks/results/dense-kernel.md.
    */
-  static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 21;
+  static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 20;
 
   /**
    * Returns the bytes the call will allocate with this block height.
@@ -66,10 +68,13 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
     assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1;
     long heads = shape.heads();
     boolean gemmScores = !(score instanceof ScoreFunction.Gatv2);
+
     long packedKeyWidth = score instanceof ScoreFunction.Additive ? 2 : shape.keyDim();
     long packedFloats =
         (long) n * heads * shape.valueDim() + (gemmScores ? 2L * n * heads * packedKeyWidth : 0);
-    long javaScratchFloats = (long) n * javaThreads;
+    boolean gatv2 = score instanceof ScoreFunction.Gatv2;
+    long javaScratchFloats =
+        (long) n * javaThreads + (gatv2 && !masked ? (long) n * heads * shape.keyDim() : 0);
     long fixedBytes = 4 * (packedFloats + javaScratchFloats);
     long perRowBytes = 4 * ((masked && gemmScores ? 2L : 1L) * n + shape.valueDim());
     long minimum = fixedBytes + perRowBytes;
