@@ -1,0 +1,455 @@
+package dev.heed.attention.dense;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.KernelOptions;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CsrGraph;
+import java.nio.FloatBuffer;
+import java.util.ArrayList;
+import java.util.Arrays;
+import java.util.List;
+import java.util.concurrent.ExecutionException;
+import java.util.concurrent.ExecutorService;
+import java.util.concurrent.Executors;
+import java.util.concurrent.Future;
+import org.nd4j.linalg.api.buffer.DataType;
+import org.nd4j.linalg.api.memory.MemoryWorkspace;
+import org.nd4j.linalg.api.ndarray.INDArray;
+import org.nd4j.linalg.api.ops.impl.scalar.LeakyReLU;
+import org.nd4j.linalg.api.ops.impl.transforms.custom.SoftMax;
+import org.nd4j.linalg.factory.Nd4j;
+import org.nd4j.linalg.indexing.NDArrayIndex;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
+
+/**
+ * The dense kernel: for each block of target rows and each head, forms the block's scores against
+ * all n sources, masks them, applies softmax across each row and multiplies by the values.
+ *
+ * <ul>
+ *   <li>Scaled dot-product (Vaswani et al. 2017, eq. 1): {@code S = (1/√d)·Q_blk·K_hᵀ}, one BLAS
+ *       gemm with the scale as its alpha.
+ *   <li>Additive (GAT, Veličković et al. 2018, eq. 1 split into per-target and per-source terms):
+ *       {@code S_ij = q_i + k_j} as one rank-2 gemm of {@code [q_i, 1]} by {@code [1, k_j]}ᵀ
+ *       (exact: one rounding, like a float add), then LeakyReLU in place. No n×n×d work.
+ *   <li>GATv2 (Brody et al. 2022): {@code S_ij = aᵀ LeakyReLU(q_i + k_j)} is inherently n×n×d and
+ *       has no matrix-product form, so it is computed in Java loops (on up to {@code
+ *       options.threads()} threads), one score row at a time, only for allowed pairs.
+ *   <li>A CSR pattern is a 0/1 mask: a bias block holding 0 for allowed and -∞ for other pairs is
+ *       added after the score (and after LeakyReLU, so a slope of 0 never meets -∞), and softmax
+ *       gives those pairs exactly 0. Rows with no allowed source get a zero output row.
+ *   <li>Softmax: ND4J's native softmax along each row of the whole block (it subtracts the row
+ *       maximum, common practice); then {@code out_blk = P·V_h}, one gemm into a preallocated
+ *       array.
+ * </ul>
+ *
+ * <p>Memory: see {@link DenseBlockPlan}. All ND4J arrays are allocated outside any workspace the
+ * caller may have open and closed before the call returns, so repeated calls do not accumulate
+ * off-heap memory.
+ *
+ * <p>Thread safety: immutable; every call uses only its own scratch. Results are deterministic for
+ * a fixed ND4J/OpenBLAS thread configuration (the order of each reduction does not depend on
+ * timing).
+ */
+final class DenseAttentionKernel implements AttentionKernel {
+
+  private static final Logger LOG = LoggerFactory.getLogger(DenseAttentionKernel.class);
+
+  /** Below this many score terms per block (rows·n·keyDim), GATv2 scores stay on one thread. */
+  private static final long PARALLEL_GATV2_MIN_WORK = 1L << 18;
+
+  private final KernelOptions options;
+  private final long targetBlockFloats;
+
+  DenseAttentionKernel(KernelOptions options, long targetBlockFloats) {
+    this.options = options;
+    this.targetBlockFloats = targetBlockFloats;
+  }
+
+  @Override
+  public ComputePath path() {
+    return ComputePath.DENSE;
+  }
+
+  @Override
+  public String describe() {
+    return "dense-nd4j(row blocks, BLAS gemm, native softmax), budget "
+        + options.denseMemoryBudgetBytes()
+        + " bytes, GATv2 score threads "
+        + options.threads()
+        + ", BLAS threads process-wide";
+  }
+
+  @Override
+  public void attend(
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value,
+      float[] out,
+      float[] weights) {
+    AttentionKernels.checkCall(pattern, score, shape, query, key, value, out, weights);
+    int n = pattern.nodeCount();
+    if (n == 0) {
+      return;
+    }
+    boolean gatv2 = score instanceof ScoreFunction.Gatv2;
+    int javaThreads = gatv2 ? options.threads() : 1;
+    DenseBlockPlan plan =
+        DenseBlockPlan.of(
+            n,
+            score,
+            shape,
+            pattern instanceof CsrGraph,
+            javaThreads,
+            options.denseMemoryBudgetBytes(),
+            targetBlockFloats);
+    if (LOG.isTraceEnabled()) {
+      LOG.trace(
+          "dense call n={} {} {}: block rows {}, scratch {} bytes",
+          n,
+          shape,
+          score,
+          plan.blockRows(),
+          plan.bytesUsed());
+    }
+    ExecutorService pool =
+        javaThreads > 1 && (long) n * n * shape.keyDim() >= PARALLEL_GATV2_MIN_WORK
+            ? Executors.newFixedThreadPool(javaThreads - 1, DenseAttentionKernel::daemon)
+            : null;
+    // Allocate outside any workspace the caller has open, so close() below really frees.
+    MemoryWorkspace outside = Nd4j.getWorkspaceManager().scopeOutOfWorkspaces();
+    try {
+      new Call(pattern, score, shape, query, key, value, out, weights, plan, pool, javaThreads)
+          .run();
+    } finally {
+      outside.close();
+      if (pool != null) {
+        pool.shutdownNow();
+      }
+    }
+  }
+
+  private static Thread daemon(Runnable r) {
+    Thread t = new Thread(r, "heed-dense-gatv2");
+    t.setDaemon(true);
+    return t;
+  }
+
+  /** The state of one call: its arguments and its own scratch. Used once, on one thread. */
+  private static final class Call {
+    private final CsrGraph graph;
+    private final ScoreFunction score;
+    private final int n;
+    private final int heads;
+    private final int keyDim;
+    private final int valueDim;
+    private final float[] query;
+    private final float[] key;
+    private final float[] value;
+    private final float[] out;
+    private final float[] weights;
+    private final DenseBlockPlan plan;
+    private final ExecutorService pool;
+    private final int workers;
+    private final List<INDArray> owned = new ArrayList<>();
+    private float[] keyByHead;
+
+    Call(
+        AttentionPattern pattern,
+        ScoreFunction score,
+        HeadShape shape,
+        float[] query,
+        float[] key,
+        float[] value,
+        float[] out,
+        float[] weights,
+        DenseBlockPlan plan,
+        ExecutorService pool,
+        int workers) {
+      this.graph = pattern instanceof CsrGraph g ? g : null;
+      this.score = score;
+      this.n = pattern.nodeCount();
+      this.heads = shape.heads();
+      this.keyDim = shape.keyDim();
+      this.valueDim = shape.valueDim();
+      this.query = query;
+      this.key = key;
+      this.value = value;
+      this.out = out;
+      this.weights = weights;
+      this.plan = plan;
+      this.pool = pool;
+      this.workers = workers;
+    }
+
+    void run() {
+      try {
+        compute();
+      } finally {
+        for (INDArray a : owned) {
+          a.close();
+        }
+        owned.clear();
+      }
+    }
+
+    private INDArray allocate(long rows, long cols) {
+      INDArray a = Nd4j.create(DataType.FLOAT, new long[] {rows, cols}, 'c');
+      owned.add(a);
+      return a;
+    }
+
+    private void compute() {
+      boolean additive = score instanceof ScoreFunction.Additive;
+      boolean gatv2 = score instanceof ScoreFunction.Gatv2;
+      INDArray[] packedQuery = null;
+      INDArray[] packedKey = null;
+      if (!gatv2) {
+        packedQuery = new INDArray[heads];
+        packedKey = new INDArray[heads];
+        for (int h = 0; h < heads; h++) {
+          packedQuery[h] = allocate(n, additive ? 2 : keyDim);
+          packedKey[h] = allocate(n, additive ? 2 : keyDim);
+          if (additive) {
+            packPair(query, h, packedQuery[h], false);
+            packPair(key, h, packedKey[h], true);
+          } else {
+            pack(query, keyDim, h, packedQuery[h]);
+            pack(key, keyDim, h, packedKey[h]);
+          }
+        }
+      }
+      INDArray[] packedValue = new INDArray[heads];
+      for (int h = 0; h < heads; h++) {
+        packedValue[h] = allocate(n, valueDim);
+        pack(value, valueDim, h, packedValue[h]);
+      }
+      int blockRows = plan.blockRows();
+      INDArray scoreBlock = allocate(blockRows, n);
+      FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
+      INDArray biasBlock = graph != null && !gatv2 ? allocate(blockRows, n) : null;
+      FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
+      INDArray outBlock = allocate(blockRows, valueDim);
+      FloatBuffer outBuffer = outBlock.data().asNioFloat();
+      float[][] workerRows = new float[workers][n];
+      float[] row = workerRows[0];
+      keyByHead = gatv2 && graph == null ? transposeKeys() : null;
+      float scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
+
+      for (int first = 0; first < n; first += blockRows) {
+        int rows = Math.min(blockRows, n - first);
+        INDArray s = rows == blockRows ? scoreBlock : leadingRows(scoreBlock, rows);
+        INDArray o = rows == blockRows ? outBlock : leadingRows(outBlock, rows);
+        INDArray bias = null;
+        if (biasBlock != null) {
+          bias = rows == blockRows ? biasBlock : leadingRows(biasBlock, rows);
+          fillBias(first, rows, biasBuffer, row);
+        }
+        for (int h = 0; h < heads; h++) {
+          if (gatv2) {
+            gatv2Scores((ScoreFunction.Gatv2) score, first, rows, h, scoreBuffer, workerRows);
+          } else {
+            INDArray q =
+                packedQuery[h].get(NDArrayIndex.interval(first, first + rows), NDArrayIndex.all());
+            Nd4j.gemm(q, packedKey[h], s, false, true, scale, 0.0);
+            if (additive) {
+              Nd4j.exec(new LeakyReLU(s, s, ((ScoreFunction.Additive) score).negativeSlope()));
+            }
+            if (bias != null) {
+              s.addi(bias);
+            }
+          }
+          Nd4j.exec(new SoftMax(s, s, 1));
+          Nd4j.gemm(s, packedValue[h], o, false, false, 1.0, 0.0);
+          copyOut(first, rows, h, outBuffer);
+          if (weights != null) {
+            copyWeights(first, rows, h, scoreBuffer, row);
+          }
+        }
+      }
+    }
+
+    private static INDArray leadingRows(INDArray block, int rows) {
+      return block.get(NDArrayIndex.interval(0, rows), NDArrayIndex.all());
+    }
+
+    /** Copies head {@code h} of a node-major, head-contiguous array into {@code [n, width]}. */
+    private void pack(float[] source, int width, int h, INDArray target) {
+      FloatBuffer buffer = target.data().asNioFloat();
+      for (int j = 0; j < n; j++) {
+        buffer.put(j * width, source, (j * heads + h) * width, width);
+      }
+    }
+
+    /** Packs one-wide terms as rows {@code [t, 1]}, or {@code [1, t]} when {@code second}. */
+    private void packPair(float[] source, int h, INDArray target, boolean second) {
+      FloatBuffer buffer = target.data().asNioFloat();
+      for (int j = 0; j < n; j++) {
+        float t = source[j * heads + h];
+        buffer.put(2 * j, second ? 1f : t);
+        buffer.put(2 * j + 1, second ? t : 1f);
+      }
+    }
+
+    /** Mask bias for rows first..first+rows-1: 0 where allowed, -∞ elsewhere; 0 for empty rows. */
+    private void fillBias(int first, int rows, FloatBuffer biasBuffer, float[] row) {
+      for (int r = 0; r < rows; r++) {
+        int i = first + r;
+        int start = graph.rowStart(i);
+        int end = graph.rowEnd(i);
+        Arrays.fill(row, start == end ? 0f : Float.NEGATIVE_INFINITY);
+        for (int e = start; e < end; e++) {
+          row[graph.column(e)] = 0f;
+        }
+        biasBuffer.put(r * n, row, 0, n);
+      }
+    }
+
+    private boolean isolated(int i) {
+      return graph != null && graph.rowStart(i) == graph.rowEnd(i);
+    }
+
+    private void copyOut(int first, int rows, int h, FloatBuffer outBuffer) {
+      for (int r = 0; r < rows; r++) {
+        int i = first + r;
+        int at = (i * heads + h) * valueDim;
+        if (isolated(i)) {
+          Arrays.fill(out, at, at + valueDim, 0f);
+        } else {
+          outBuffer.get(r * valueDim, out, at, valueDim);
+        }
+      }
+    }
+
+    private void copyWeights(int first, int rows, int h, FloatBuffer scoreBuffer, float[] row) {
+      for (int r = 0; r < rows; r++) {
+        int i = first + r;
+        scoreBuffer.get(r * n, row, 0, n);
+        if (graph == null) {
+          int base = i * n;
+          for (int j = 0; j < n; j++) {
+            weights[(base + j) * heads + h] = row[j];
+          }
+        } else {
+          for (int e = graph.rowStart(i); e < graph.rowEnd(i); e++) {
+            weights[e * heads + h] = row[graph.column(e)];
+          }
+        }
+      }
+    }
+
+    /** GATv2 scores of one block and head, written into the score block (rows × n). */
+    private void gatv2Scores(
+        ScoreFunction.Gatv2 gatv2,
+        int first,
+        int rows,
+        int h,
+        FloatBuffer scoreBuffer,
+        float[][] workerRows) {
+      float slope = gatv2.negativeSlope();
+      float[] attention = new float[keyDim];
+      for (int k = 0; k < keyDim; k++) {
+        attention[k] = gatv2.attention(h * keyDim + k);
+      }
+      if (pool == null || (long) rows * n * keyDim < PARALLEL_GATV2_MIN_WORK) {
+        gatv2Rows(first, 0, rows, h, slope, attention, scoreBuffer, workerRows[0]);
+        return;
+      }
+      int parts = workers;
+      int chunk = (rows + parts - 1) / parts;
+      List<Future<?>> pending = new ArrayList<>();
+      for (int p = 1; p < parts; p++) {
+        int from = p * chunk;
+        int to = Math.min(rows, from + chunk);
+        if (from < to) {
+          FloatBuffer view = scoreBuffer.duplicate();
+          float[] workerRow = workerRows[p];
+          pending.add(
+              pool.submit(() -> gatv2Rows(first, from, to, h, slope, attention, view, workerRow)));
+        }
+      }
+      gatv2Rows(first, 0, Math.min(rows, chunk), h, slope, attention, scoreBuffer, workerRows[0]);
+      for (Future<?> f : pending) {
+        try {
+          f.get();
+        } catch (InterruptedException e) {
+          Thread.currentThread().interrupt();
+          throw new IllegalStateException("interrupted while computing GATv2 scores", e);
+        } catch (ExecutionException e) {
+          throw new IllegalStateException("GATv2 score worker failed", e.getCause());
+        }
+      }
+    }
+
+    /** Keys as {@code [H][keyDim][n]}: element (h, k, j) at {@code (h·keyDim + k)·n + j}. */
+    private float[] transposeKeys() {
+      float[] t = new float[n * heads * keyDim];
+      for (int j = 0; j < n; j++) {
+        for (int h = 0; h < heads; h++) {
+          int from = (j * heads + h) * keyDim;
+          for (int k = 0; k < keyDim; k++) {
+            t[(h * keyDim + k) * n + j] = key[from + k];
+          }
+        }
+      }
+      return t;
+    }
+
+    /** Scores rows {@code from..to-1} of the block; disallowed pairs get -∞, empty rows 0. */
+    private void gatv2Rows(
+        int first,
+        int from,
+        int to,
+        int h,
+        float slope,
+        float[] attention,
+        FloatBuffer scoreBuffer,
+        float[] row) {
+      float[] q = new float[keyDim];
+      for (int r = from; r < to; r++) {
+        int i = first + r;
+        System.arraycopy(query, (i * heads + h) * keyDim, q, 0, keyDim);
+        if (graph == null) {
+          // Row form: for each k, one pass along all sources (contiguous, vectorisable by the JIT).
+          // Each row[j] still sums k = 0..keyDim-1 in order, as gatv2Score does.
+          Arrays.fill(row, 0f);
+          for (int k = 0; k < keyDim; k++) {
+            float qk = q[k];
+            float a = attention[k];
+            int at = (h * keyDim + k) * n;
+            for (int j = 0; j < n; j++) {
+              float x = qk + keyByHead[at + j];
+              row[j] += a * Math.max(x, slope * x);
+            }
+          }
+        } else {
+          int start = graph.rowStart(i);
+          int end = graph.rowEnd(i);
+          Arrays.fill(row, start == end ? 0f : Float.NEGATIVE_INFINITY);
+          for (int e = start; e < end; e++) {
+            int j = graph.column(e);
+            row[j] = gatv2Score(q, (j * heads + h) * keyDim, slope, attention);
+          }
+        }
+        scoreBuffer.put(r * n, row, 0, n);
+      }
+    }
+
+    /** aᵀ LeakyReLU(q + k_j); LeakyReLU(x) = max(x, slope·x) since 0 ≤ slope < 1. */
+    private float gatv2Score(float[] q, int keyAt, float slope, float[] attention) {
+      float sum = 0f;
+      for (int k = 0; k < keyDim; k++) {
+        float x = q[k] + key[keyAt + k];
+        sum += attention[k] * Math.max(x, slope * x);
+      }
+      return sum;
+    }
+  }
+}

@@ -1,0 +1,66 @@
+package dev.heed.attention.dense;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernelProvider;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.KernelOptions;
+import java.util.Objects;
+
+/**
+ * Provides the {@link ComputePath#DENSE} kernel: attention in row blocks of the n×n score matrix,
+ * with ND4J (BLAS gemm for the two matrix products, ND4J's native softmax).
+ *
+ * <p>Registered in {@code META-INF/services/dev.heed.attention.AttentionKernelProvider}, so {@link
+ * dev.heed.attention.AttentionKernels#forPath AttentionKernels.forPath(ComputePath.DENSE, options)}
+ * finds it; it may also be used directly:
+ *
+ * <pre>{@code
+ * AttentionKernel dense =
+ *     new DenseAttentionKernelProvider().create(new KernelOptions(1, 256L << 20));
+ * }</pre>
+ *
+ * <p>What the options mean on this path:
+ *
+ * <ul>
+ *   <li>{@link KernelOptions#denseMemoryBudgetBytes()} bounds the scratch memory one call allocates
+ *       (off-heap ND4J arrays plus Java scratch): the per-head repacked inputs plus one block of
+ *       target rows. The block height is derived from it; a call that cannot fit even a one-row
+ *       block throws {@link dev.heed.attention.MemoryBudgetExceededException}.
+ *   <li>{@link KernelOptions#threads()} is <b>not</b> applied to the matrix products and softmax:
+ *       those run on ND4J's and OpenBLAS's own thread pools, which are process-wide and set at
+ *       start-up by {@code OMP_NUM_THREADS} (default: the core count). The kernel never changes
+ *       that global setting. The GATv2 score loops, which run in Java, use up to {@code threads}
+ *       threads of their own per call.
+ * </ul>
+ *
+ * <p>Thread safety: stateless; safe from any thread. The kernels it creates are immutable and may
+ * be called from many threads at once.
+ */
+public final class DenseAttentionKernelProvider implements AttentionKernelProvider {
+
+  /** Creates the provider; {@link java.util.ServiceLoader} calls this. */
+  public DenseAttentionKernelProvider() {}
+
+  /**
+   * Returns {@link ComputePath#DENSE}.
+   *
+   * @return the dense path
+   */
+  @Override
+  public ComputePath path() {
+    return ComputePath.DENSE;
+  }
+
+  /**
+   * Creates a dense kernel with the given options. Cheap: no ND4J memory is allocated until a call.
+   *
+   * @param options threads (for the GATv2 score loops only) and the dense memory budget
+   * @return an immutable dense kernel
+   * @throws NullPointerException if {@code options} is null
+   */
+  @Override
+  public AttentionKernel create(KernelOptions options) {
+    Objects.requireNonNull(options, "options");
+    return new DenseAttentionKernel(options, DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+  }
+}

@@ -1,0 +1,113 @@
+package dev.heed.attention.dense;
+
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.MemoryBudgetExceededException;
+import dev.heed.attention.ScoreFunction;
+
+/**
+ * How one dense call lays out its scratch memory: the per-head repacked inputs, and the height of
+ * the block of target rows processed at a time. Immutable.
+ *
+ * <p>Scratch of one call, in floats (4 bytes each):
+ *
+ * <ul>
+ *   <li>repacked inputs, for all heads: {@code n·H·dv} for the values, plus {@code 2·n·H·w} for the
+ *       query and key terms when scores come from a matrix product ({@code w = keyDim} for scaled
+ *       dot-product, {@code w = 2} for additive scores, which are packed as {@code [q, 1]} and
+ *       {@code [1, k]}); GATv2 scores read the caller's arrays directly and pack nothing;
+ *   <li>per block row: {@code n} for the score row, {@code n} more for the mask row when the
+ *       pattern is a CSR mask and scores come from a matrix product, and {@code dv} for the output;
+ *   <li>Java scratch: one score row of {@code n} floats per worker thread, and for GATv2 over the
+ *       complete pattern the keys transposed per head ({@code n·H·keyDim}), so that the score loop
+ *       runs along contiguous rows.
+ * </ul>
+ *
+ * @param blockRows target rows per block, in {@code 1..n}
+ * @param fixedBytes bytes that do not depend on the block height (repacked inputs, Java scratch)
+ * @param bytesPerBlockRow bytes each row of the block adds
+ */
+record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
+
+  /**
+   * Default upper bound on one score block, in floats (4 MiB): large enough that each ND4J call
+   * handles a big batch of work (every call costs microseconds), small enough that the block stays
+   * near the caches. Tuned on the benchmark machine; see benchmarks/results/dense-kernel.md.
+   */
+  static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 20;
+
+  /**
+   * Returns the bytes the call will allocate with this block height.
+   *
+   * @return total scratch bytes
+   */
+  long bytesUsed() {
+    return fixedBytes + bytesPerBlockRow * blockRows;
+  }
+
+  /**
+   * Plans one call.
+   *
+   * @param n node count, at least 1
+   * @param score the score function
+   * @param shape heads and widths
+   * @param masked whether the pattern is a CSR mask (not the complete pattern)
+   * @param javaThreads threads that each hold one Java score row
+   * @param budgetBytes the dense memory budget
+   * @param targetBlockFloats upper bound on {@code blockRows · n}
+   * @return the plan
+   * @throws MemoryBudgetExceededException if even a one-row block does not fit the budget
+   */
+  static DenseBlockPlan of(
+      int n,
+      ScoreFunction score,
+      HeadShape shape,
+      boolean masked,
+      int javaThreads,
+      long budgetBytes,
+      long targetBlockFloats) {
+    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1;
+    long heads = shape.heads();
+    boolean gemmScores = !(score instanceof ScoreFunction.Gatv2);
+
+    long packedKeyWidth = score instanceof ScoreFunction.Additive ? 2 : shape.keyDim();
+    long packedFloats =
+        (long) n * heads * shape.valueDim() + (gemmScores ? 2L * n * heads * packedKeyWidth : 0);
+    boolean gatv2 = score instanceof ScoreFunction.Gatv2;
+    long javaScratchFloats =
+        (long) n * javaThreads + (gatv2 && !masked ? (long) n * heads * shape.keyDim() : 0);
+    long fixedBytes = 4 * (packedFloats + javaScratchFloats);
+    long perRowBytes = 4 * ((masked && gemmScores ? 2L : 1L) * n + shape.valueDim());
+    long minimum = fixedBytes + perRowBytes;
+    if (minimum > budgetBytes) {
+      throw new MemoryBudgetExceededException(
+          "dense attention over n = "
+              + n
+              + " nodes ("
+              + shape.heads()
+              + " heads, keyDim "
+              + shape.keyDim()
+              + ", valueDim "
+              + shape.valueDim()
+              + ", "
+              + score
+              + ") needs at least "
+              + minimum
+              + " bytes of scratch ("
+              + fixedBytes
+              + " for the per-head repacked inputs and Java scratch + "
+              + perRowBytes
+              + " for a one-row block), but the dense memory budget is "
+              + budgetBytes
+              + " bytes; use the sparse path (ComputePath.SPARSE, dependency"
+              + " dev.heed:attention-sparse) for sparse graphs, or raise"
+              + " KernelOptions.denseMemoryBudgetBytes to at least "
+              + minimum,
+          minimum,
+          budgetBytes);
+    }
+    long byBudget = (budgetBytes - fixedBytes) / perRowBytes;
+    long byTarget = Math.max(1, targetBlockFloats / n);
+    int rows = (int) Math.min(n, Math.min(byBudget, byTarget));
+    return new DenseBlockPlan(rows, fixedBytes, perRowBytes);
+  }
+}

@@ -1,0 +1,234 @@
+package dev.heed.bench.kernel;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.KernelOptions;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.dense.DenseAttentionKernelProvider;
+import dev.heed.graph.CompletePattern;
+import java.util.Random;
+import java.util.concurrent.TimeUnit;
+import org.nd4j.linalg.api.buffer.DataType;
+import org.nd4j.linalg.api.ndarray.INDArray;
+import org.nd4j.linalg.api.ops.impl.transforms.custom.DotProductAttention;
+import org.nd4j.linalg.factory.Nd4j;
+import org.openjdk.jmh.annotations.Benchmark;
+import org.openjdk.jmh.annotations.BenchmarkMode;
+import org.openjdk.jmh.annotations.Fork;
+import org.openjdk.jmh.annotations.Level;
+import org.openjdk.jmh.annotations.Measurement;
+import org.openjdk.jmh.annotations.Mode;
+import org.openjdk.jmh.annotations.OutputTimeUnit;
+import org.openjdk.jmh.annotations.Param;
+import org.openjdk.jmh.annotations.Scope;
+import org.openjdk.jmh.annotations.Setup;
+import org.openjdk.jmh.annotations.State;
+import org.openjdk.jmh.annotations.TearDown;
+import org.openjdk.jmh.annotations.Warmup;
+
+/**
+ * Full self-attention on the dense path, against the two matrix products it cannot avoid and
+ * against ND4J's own dot-product attention op on the same input.
+ *
+ * <ul>
+ *   <li>{@code denseKernel}: {@code attend} over the complete pattern on n nodes, H heads of width
+ *       d, Heed's node-major head-contiguous arrays in and out (repacking included), no weights.
+ *   <li>{@code twoGemmsAlone}: per head, {@code S = Q_h·K_hᵀ} ({@code n×n}) and {@code O = S·V_h},
+ *       each one {@code Nd4j.gemm} into a preallocated array, inputs already packed per head: the
+ *       floor that the issue's "within 1.5× of its two matrix products" is measured against
+ *       (2·2·n²·d flops per head). Does not depend on the score function.
+ *   <li>{@code nd4jDotProductAttention}: ND4J's {@code DotProductAttention} op (scaled), heads as
+ *       the batch: q, k, v {@code [H, d, n]} prepared in setup (so ND4J pays no layout conversion,
+ *       unlike {@code denseKernel}); it allocates its output, closed each time.
+ * </ul>
+ *
+ * <p>Run: {@code java -jar benchmarks/target/benchmarks.jar DenseAttentionBenchmark}. Inputs are
+ * seeded; results are returned to JMH. Forked JVMs cap ND4J's off-heap memory.
+ */
+@BenchmarkMode(Mode.AverageTime)
+@OutputTimeUnit(TimeUnit.MILLISECONDS)
+@Warmup(iterations = 3, time = 2)
+@Measurement(iterations = 5, time = 2)
+@Fork(
+    value = 2,
+    jvmArgsAppend = {
+      "-Xmx2g",
+      "-Dorg.bytedeco.javacpp.maxphysicalbytes=6g",
+      "-Dorg.bytedeco.javacpp.maxbytes=3g",
+      "-Dorg.nd4j.log.initialization=false"
+    })
+public class DenseAttentionBenchmark {
+
+  /** Seed for every input. */
+  static final long SEED = 20_240_401L;
+
+  /** The shapes every state sweeps. */
+  @State(Scope.Benchmark)
+  public static class Shape {
+    /** Nodes (sequence length). */
+    @Param({"1024", "4096"})
+    public int n;
+
+    /** Heads. */
+    @Param({"8"})
+    public int heads;
+
+    /** Width of each head (keyDim = valueDim, except additive scores: keyDim 1). */
+    @Param({"64"})
+    public int headDim;
+  }
+
+  /** Inputs for the dense kernel. */
+  @State(Scope.Benchmark)
+  public static class KernelInput {
+    /** Score function: scaled dot-product, GAT additive, GATv2. */
+    @Param({"dot", "additive", "gatv2"})
+    public String score;
+
+    AttentionKernel kernel;
+    CompletePattern pattern;
+    ScoreFunction scoreFunction;
+    HeadShape shape;
+    float[] query;
+    float[] key;
+    float[] value;
+    float[] out;
+
+    /**
+     * Builds seeded inputs.
+     *
+     * @param s the shape
+     */
+    @Setup(Level.Trial)
+    public void setUp(Shape s) {
+      Random random = new Random(SEED);
+      int keyDim = score.equals("additive") ? 1 : s.headDim;
+      shape = new HeadShape(s.heads, keyDim, s.headDim);
+      scoreFunction =
+          switch (score) {
+            case "dot" -> ScoreFunction.scaledDotProduct();
+            case "additive" -> ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+            case "gatv2" -> ScoreFunction.gatv2(0.2f, random(random, shape.keyWidth()));
+            default -> throw new IllegalArgumentException("unknown score " + score);
+          };
+      pattern = CompletePattern.of(s.n);
+      query = random(random, s.n * shape.keyWidth());
+      key = random(random, s.n * shape.keyWidth());
+      value = random(random, s.n * shape.valueWidth());
+      out = new float[s.n * shape.valueWidth()];
+      kernel =
+          new DenseAttentionKernelProvider()
+              .create(KernelOptions.defaults().withDenseMemoryBudgetBytes(512L << 20));
+    }
+  }
+
+  /** Per-head packed inputs and preallocated outputs for the gemm floor and ND4J's op. */
+  @State(Scope.Benchmark)
+  public static class PackedInput {
+    INDArray[] query;
+    INDArray[] key;
+    INDArray[] value;
+    INDArray scores;
+    INDArray out;
+    INDArray batchedQuery;
+    INDArray batchedKey;
+    INDArray batchedValue;
+    double scale;
+
+    /**
+     * Builds seeded inputs.
+     *
+     * @param s the shape
+     */
+    @Setup(Level.Trial)
+    public void setUp(Shape s) {
+      Random random = new Random(SEED);
+      query = new INDArray[s.heads];
+      key = new INDArray[s.heads];
+      value = new INDArray[s.heads];
+      for (int h = 0; h < s.heads; h++) {
+        query[h] = Nd4j.create(random(random, s.n * s.headDim), new long[] {s.n, s.headDim}, 'c');
+        key[h] = Nd4j.create(random(random, s.n * s.headDim), new long[] {s.n, s.headDim}, 'c');
+        value[h] = Nd4j.create(random(random, s.n * s.headDim), new long[] {s.n, s.headDim}, 'c');
+      }
+      scores = Nd4j.create(DataType.FLOAT, new long[] {s.n, s.n}, 'c');
+      out = Nd4j.create(DataType.FLOAT, new long[] {s.n, s.headDim}, 'c');
+      long[] batched = {s.heads, s.headDim, s.n};
+      batchedQuery = Nd4j.create(random(random, s.heads * s.headDim * s.n), batched, 'c');
+      batchedKey = Nd4j.create(random(random, s.heads * s.headDim * s.n), batched, 'c');
+      batchedValue = Nd4j.create(random(random, s.heads * s.headDim * s.n), batched, 'c');
+      scale = 1.0 / Math.sqrt(s.headDim);
+    }
+
+    /** Frees the off-heap arrays. */
+    @TearDown(Level.Trial)
+    public void tearDown() {
+      for (INDArray[] arrays : new INDArray[][] {query, key, value}) {
+        for (INDArray a : arrays) {
+          a.close();
+        }
+      }
+      scores.close();
+      out.close();
+      batchedQuery.close();
+      batchedKey.close();
+      batchedValue.close();
+    }
+  }
+
+  static float[] random(Random random, int length) {
+    float[] a = new float[length];
+    for (int i = 0; i < length; i++) {
+      a[i] = 2 * random.nextFloat() - 1;
+    }
+    return a;
+  }
+
+  /**
+   * The dense kernel, full self-attention.
+   *
+   * @param s the shape (sweeps n, heads, head dim)
+   * @param in the kernel's inputs
+   * @return the output array
+   */
+  @Benchmark
+  public float[] denseKernel(Shape s, KernelInput in) {
+    in.kernel.attend(
+        in.pattern, in.scoreFunction, in.shape, in.query, in.key, in.value, in.out, null);
+    return in.out;
+  }
+
+  /**
+   * The two matrix products alone, per head, into preallocated arrays.
+   *
+   * @param s the shape
+   * @param in packed inputs
+   * @return the last head's output
+   */
+  @Benchmark
+  public INDArray twoGemmsAlone(Shape s, PackedInput in) {
+    for (int h = 0; h < s.heads; h++) {
+      Nd4j.gemm(in.query[h], in.key[h], in.scores, false, true, in.scale, 0.0);
+      Nd4j.gemm(in.scores, in.value[h], in.out, false, false, 1.0, 0.0);
+    }
+    return in.out;
+  }
+
+  /**
+   * ND4J's scaled dot-product attention op over all heads as one batch.
+   *
+   * @param s the shape
+   * @param in packed inputs
+   * @return a checksum of the output (the output itself is closed)
+   */
+  @Benchmark
+  public double nd4jDotProductAttention(Shape s, PackedInput in) {
+    INDArray result =
+        Nd4j.exec(
+            new DotProductAttention(
+                in.batchedQuery, in.batchedKey, in.batchedValue, null, true, false))[0];
+    double probe = result.getDouble(0L) + result.getDouble(result.length() - 1);
+    result.close();
+    return probe;
+  }
+}
