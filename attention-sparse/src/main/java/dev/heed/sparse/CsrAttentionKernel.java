@@ -1,0 +1,154 @@
+package dev.heed.sparse;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CsrGraph;
+import dev.heed.sparse.internal.RowMath;
+import java.util.concurrent.atomic.AtomicInteger;
+
+/**
+ * The {@link ComputePath#SPARSE} kernel: one fused pass per target row over a {@link CsrGraph} or a
+ * {@link dev.heed.graph.CompletePattern} (all sources, nothing stored), computing scores, a
+ * numerically stable softmax and the weighted sum of values without forming the E×H score matrix
+ * (see {@link CsrRowPass}). Obtain it with {@code AttentionKernels.forPath(ComputePath.SPARSE,
+ * options)}.
+ *
+ * <p>Cost: O(E·H·(keyDim + valueDim)) time; O(threads · (128·H + H·valueDim)) floats of scratch per
+ * call. Each neighbour costs one random access to its key row and one to its value row, since a
+ * node's data for all heads is contiguous.
+ *
+ * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
+ * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one
+ * (so power-law degree distributions split evenly); the calling thread and {@code threads - 1}
+ * helpers from {@link CsrWorkerPool} claim chunks until none are left. Calls with less than {@value
+ * #DEFAULT_MIN_COST_PER_THREAD} cost units per thread use fewer threads (one for small graphs), so
+ * small calls never pay for a hand-off. Every row is computed by one thread with arithmetic that
+ * depends only on that row, so results are bit-identical for any thread count.
+ *
+ * <p>Thread safety: immutable; concurrent calls are safe (each has its own scratch and waits only
+ * for its own helpers).
+ */
+final class CsrAttentionKernel implements AttentionKernel {
+
+  /** Chunks per thread: enough for dynamic balancing, few enough to keep claiming cheap. */
+  static final int CHUNKS_PER_THREAD = 8;
+
+  /** Below this many cost units (entries + rows) per thread, fewer threads are used. */
+  static final long DEFAULT_MIN_COST_PER_THREAD = 1L << 14;
+
+  private final int threads;
+  private final RowMath math;
+  private final long minCostPerThread;
+
+  CsrAttentionKernel(int threads, RowMath math, long minCostPerThread) {
+    assert threads >= 1 && minCostPerThread >= 1;
+    this.threads = threads;
+    this.math = math;
+    this.minCostPerThread = minCostPerThread;
+  }
+
+  /** Creates the kernel on the implementation chosen for this JVM. */
+  static CsrAttentionKernel create(int threads) {
+    return new CsrAttentionKernel(threads, RowMaths.preferred(), DEFAULT_MIN_COST_PER_THREAD);
+  }
+
+  /** Returns the name of the inner-loop implementation, {@code "vector(...)"} or "scalar". */
+  String implementation() {
+    return math.describe();
+  }
+
+  @Override
+  public ComputePath path() {
+    return ComputePath.SPARSE;
+  }
+
+  @Override
+  public String describe() {
+    return "csr-" + math.describe() + ", " + threads + (threads == 1 ? " thread" : " threads");
+  }
+
+  @Override
+  public void attend(
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value,
+      float[] out,
+      float[] weights) {
+    AttentionKernels.checkCall(pattern, score, shape, query, key, value, out, weights);
+    int n = pattern.nodeCount();
+    if (n == 0) {
+      return;
+    }
+    CsrRowPass pass = new CsrRowPass(math, pattern, score, shape, query, key, value, out, weights);
+    long cost = pattern.entryCount() + n;
+    int useThreads = (int) Math.min(Math.min(threads, n), Math.max(1, cost / minCostPerThread));
+    if (useThreads == 1) {
+      pass.run(0, n, pass.newScratch());
+      return;
+    }
+    int[] bounds = partitionRows(pattern, Math.min(n, useThreads * CHUNKS_PER_THREAD));
+    int chunks = bounds.length - 1;
+    AtomicInteger next = new AtomicInteger();
+    CsrWorkerPool.runShared(
+        useThreads - 1,
+        () -> {
+          CsrRowPass.Scratch scratch = null;
+          for (int c = next.getAndIncrement(); c < chunks; c = next.getAndIncrement()) {
+            if (scratch == null) {
+              scratch = pass.newScratch();
+            }
+            pass.run(bounds[c], bounds[c + 1], scratch);
+          }
+        });
+  }
+
+  /**
+   * Splits rows {@code 0..n-1} into at most {@code chunks} consecutive ranges of about equal cost,
+   * where row {@code i} costs {@code degree(i) + 1}. Range {@code c} is {@code bounds[c] ..
+   * bounds[c+1]-1}; a row is never split, so one heavy row forms a range on its own. Empty ranges
+   * are dropped.
+   *
+   * @return strictly increasing bounds starting at 0 and ending at n
+   */
+  static int[] partitionRows(AttentionPattern pattern, int chunks) {
+    int n = pattern.nodeCount();
+    assert n >= 1 && chunks >= 1;
+    CsrGraph csr = pattern instanceof CsrGraph g ? g : null;
+    long total = costBefore(csr, n, n);
+    int[] bounds = new int[chunks + 1];
+    int used = 0;
+    for (int c = 1; c < chunks; c++) {
+      long target = total * c / chunks;
+      // smallest row r with costBefore(r) >= target
+      int lo = bounds[used];
+      int hi = n;
+      while (lo < hi) {
+        int mid = (lo + hi) >>> 1;
+        if (costBefore(csr, n, mid) < target) {
+          lo = mid + 1;
+        } else {
+          hi = mid;
+        }
+      }
+      if (lo > bounds[used] && lo < n) {
+        bounds[++used] = lo;
+      }
+    }
+    bounds[++used] = n;
+    return java.util.Arrays.copyOf(bounds, used + 1);
+  }
+
+  /** Cost of rows 0..row-1: their entries plus one per row. */
+  private static long costBefore(CsrGraph csr, int n, int row) {
+    long entries =
+        csr == null ? (long) row * n : row == n ? csr.edgeCount() : (long) csr.rowStart(row);
+    return entries + row;
+  }
+}

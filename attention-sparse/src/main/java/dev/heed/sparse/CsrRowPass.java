@@ -1,0 +1,261 @@
+package dev.heed.sparse;
+
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CompletePattern;
+import dev.heed.graph.CsrGraph;
+import dev.heed.sparse.internal.FastExp;
+import dev.heed.sparse.internal.RowMath;
+import java.util.Arrays;
+
+/**
+ * One validated call of the CSR kernel: the fused per-row pass (scores, softmax, weighted sum) over
+ * a range of target rows. Internal; the kernel has already checked every argument, so this class
+ * only asserts.
+ *
+ * <p>Per row, entries are taken in blocks of {@link #BLOCK}: the block's scores for every head go
+ * into a small head-major scratch, each head's running maximum and running sum are updated with the
+ * block maximum (online normalisation, Milakov &amp; Gimelshein 2018, applied per block), and the
+ * block's values are added into a per-thread accumulator row scaled by their unnormalised weights.
+ * No array of E×H scores is ever formed unless the caller asks for weights. The arithmetic of a row
+ * depends only on that row, so results do not depend on how rows are split between threads.
+ *
+ * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
+ * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
+ * softmax.
+ *
+ * <p>Thread safety: immutable after construction except for the caller's output arrays; each thread
+ * passes its own {@link Scratch} and writes disjoint rows.
+ */
+final class CsrRowPass {
+
+  /** Entries per softmax block: scratch is {@code BLOCK × heads} floats. */
+  static final int BLOCK = 128;
+
+  private static final int ADDITIVE = 0;
+  private static final int GATV2 = 1;
+  private static final int DOT = 2;
+
+  private final RowMath math;
+  private final CsrGraph csr; // null for the complete pattern
+  private final int n;
+  private final int kind;
+  private final float slope;
+  private final float dotScale;
+  private final float[] attention; // GATv2 only
+  private final int heads;
+  private final int keyDim;
+  private final int valueDim;
+  private final int keyWidth;
+  private final int valueWidth;
+  private final float[] query;
+  private final float[] key;
+  private final float[] value;
+  private final float[] out;
+  private final float[] weights;
+
+  CsrRowPass(
+      RowMath math,
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value,
+      float[] out,
+      float[] weights) {
+    this.math = math;
+    this.csr = pattern instanceof CsrGraph g ? g : null;
+    assert csr != null || pattern instanceof CompletePattern;
+    this.n = pattern.nodeCount();
+    if (score instanceof ScoreFunction.Additive a) {
+      kind = ADDITIVE;
+      slope = a.negativeSlope();
+      attention = null;
+      dotScale = 1f;
+    } else if (score instanceof ScoreFunction.Gatv2 g) {
+      kind = GATV2;
+      slope = g.negativeSlope();
+      attention = g.attention();
+      dotScale = 1f;
+    } else {
+      kind = DOT;
+      slope = 0f;
+      attention = null;
+      dotScale = ((ScoreFunction.ScaledDotProduct) score).scale(shape.keyDim());
+    }
+    this.heads = shape.heads();
+    this.keyDim = shape.keyDim();
+    this.valueDim = shape.valueDim();
+    this.keyWidth = shape.keyWidth();
+    this.valueWidth = shape.valueWidth();
+    this.query = query;
+    this.key = key;
+    this.value = value;
+    this.out = out;
+    this.weights = weights;
+  }
+
+  /** Per-thread work arrays, sized once per call. */
+  static final class Scratch {
+    final float[] scores;
+    final float[] acc;
+    final float[] max;
+    final float[] sum;
+    final float[] work;
+
+    Scratch(int heads, int valueWidth, int workLength) {
+      scores = new float[BLOCK * heads];
+      acc = new float[valueWidth];
+      max = new float[heads];
+      sum = new float[heads];
+      work = new float[workLength];
+    }
+  }
+
+  Scratch newScratch() {
+    return new Scratch(heads, valueWidth, math.workLength());
+  }
+
+  /** Computes rows {@code from..to-1}. */
+  void run(int from, int to, Scratch sc) {
+    for (int i = from; i < to; i++) {
+      row(i, sc);
+    }
+  }
+
+  private void row(int i, Scratch sc) {
+    int start = csr == null ? 0 : csr.rowStart(i);
+    int degree = csr == null ? n : csr.rowEnd(i) - start;
+    int outBase = i * valueWidth;
+    if (degree == 0) {
+      Arrays.fill(out, outBase, outBase + valueWidth, 0f);
+      return;
+    }
+    float[] s = sc.scores;
+    float[] acc = sc.acc;
+    float[] m = sc.max;
+    float[] l = sc.sum;
+    Arrays.fill(acc, 0f);
+    Arrays.fill(m, Float.NEGATIVE_INFINITY);
+    Arrays.fill(l, 0f);
+    long firstEntry = csr == null ? (long) i * n : start;
+    for (int b = 0; b < degree; b += BLOCK) {
+      int count = Math.min(BLOCK, degree - b);
+      scoreBlock(i, start + b, count, sc);
+      if (weights != null) {
+        for (int t = 0; t < count; t++) {
+          int w = (int) ((firstEntry + b + t) * heads);
+          for (int h = 0; h < heads; h++) {
+            weights[w + h] = s[h * BLOCK + t];
+          }
+        }
+      }
+      for (int h = 0; h < heads; h++) {
+        int sh = h * BLOCK;
+        float blockMax = math.max(s, sh, count);
+        float old = m[h];
+        if (blockMax > old) {
+          if (old != Float.NEGATIVE_INFINITY) {
+            float f = FastExp.expNonPositive(old - blockMax);
+            l[h] *= f;
+            math.scale(acc, h * valueDim, valueDim, f);
+          }
+          m[h] = blockMax;
+        }
+        l[h] += math.expShiftSum(s, sh, count, m[h], sc.work);
+      }
+      for (int t = 0; t < count; t++) {
+        int vb = column(start + b + t) * valueWidth;
+        for (int h = 0; h < heads; h++) {
+          math.axpy(s[h * BLOCK + t], value, vb + h * valueDim, acc, h * valueDim, valueDim);
+        }
+      }
+    }
+    for (int h = 0; h < heads; h++) {
+      float total = l[h];
+      assert total >= 1f : "the row maximum contributes exactly 1";
+      for (int k = h * valueDim, end = k + valueDim; k < end; k++) {
+        out[outBase + k] = acc[k] / total;
+      }
+    }
+    if (weights != null) {
+      for (int t = 0; t < degree; t++) {
+        int w = (int) ((firstEntry + t) * heads);
+        for (int h = 0; h < heads; h++) {
+          weights[w + h] = FastExp.expNonPositive(weights[w + h] - m[h]) / l[h];
+        }
+      }
+    }
+  }
+
+  private int column(int entry) {
+    return csr == null ? entry : csr.column(entry);
+  }
+
+  /** Scores of entries {@code first..first+count-1} of row i, head-major into the scratch. */
+  private void scoreBlock(int i, int first, int count, Scratch sc) {
+    float[] s = sc.scores;
+    int qb = i * keyWidth;
+    switch (kind) {
+      case ADDITIVE -> {
+        for (int t = 0; t < count; t++) {
+          int j = column(first + t);
+          int kb = j * keyWidth;
+          for (int h = 0; h < heads; h++) {
+            float z = query[qb + h] + key[kb + h];
+            float e = Math.max(z, z * slope);
+            s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
+          }
+        }
+      }
+      case GATV2 -> {
+        for (int t = 0; t < count; t++) {
+          int j = column(first + t);
+          int kb = j * keyWidth;
+          for (int h = 0; h < heads; h++) {
+            int o = h * keyDim;
+            float e = math.gatv2(attention, o, query, qb + o, key, kb + o, keyDim, slope, sc.work);
+            s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
+          }
+        }
+      }
+      default -> {
+        for (int t = 0; t < count; t++) {
+          int j = column(first + t);
+          int kb = j * keyWidth;
+          for (int h = 0; h < heads; h++) {
+            int o = h * keyDim;
+            float e = math.dot(query, qb + o, key, kb + o, keyDim, sc.work) * dotScale;
+            s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
+          }
+        }
+      }
+    }
+  }
+
+  /** The score in float64, clamped to the float range; the rare path after a float overflow. */
+  private float exactScore(int i, int j, int h) {
+    int qo = i * keyWidth + h * keyDim;
+    int ko = j * keyWidth + h * keyDim;
+    double e = 0;
+    for (int k = 0; k < keyDim; k++) {
+      double q = query[qo + k];
+      double kk = key[ko + k];
+      switch (kind) {
+        case ADDITIVE -> e = leakyRelu(q + kk);
+        case GATV2 -> e += attention[h * keyDim + k] * leakyRelu(q + kk);
+        default -> e += q * kk;
+      }
+    }
+    if (kind == DOT) {
+      e *= dotScale;
+    }
+    return (float) Math.max(-Float.MAX_VALUE, Math.min(Float.MAX_VALUE, e));
+  }
+
+  private double leakyRelu(double z) {
+    return z > 0 ? z : slope * z;
+  }
+}

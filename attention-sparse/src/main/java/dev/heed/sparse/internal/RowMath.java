@@ -1,0 +1,119 @@
+package dev.heed.sparse.internal;
+
+/**
+ * The inner loops of the CSR attention kernel: spans of floats in, numbers out. Internal to {@code
+ * attention-sparse}, not API.
+ *
+ * <p>Every method works on the span {@code [offset, offset + length)} of its arrays, and callers
+ * guarantee valid offsets and lengths (implementations only {@code assert}). Results must depend
+ * only on the span contents and length, never on which thread runs, whether the code is interpreted
+ * or compiled, or on alignment: the kernel's results are bit-identical for any thread count because
+ * of this. In particular, implementations use only IEEE-754 add, multiply, fused multiply-add,
+ * compare and exact bit manipulation, in a fixed order (no {@code reduceLanes}, whose order is
+ * unspecified, and no library {@code exp}, whose vector and scalar forms differ).
+ *
+ * <p>Thread safety: implementations are stateless and safe from any thread.
+ */
+public interface RowMath {
+
+  /**
+   * Returns a short name for logs, for example {@code "vector(256-bit)"} or {@code "scalar"}.
+   *
+   * @return the implementation name
+   */
+  String describe();
+
+  /**
+   * Returns the length of the {@code work} array that {@link #dot}, {@link #gatv2} and {@link
+   * #expShiftSum} need: at least the number of float lanes of the widest vector used.
+   *
+   * @return the work length, at least 1
+   */
+  int workLength();
+
+  /**
+   * Returns the dot product {@code Σ a[ao+k] · b[bo+k]} over {@code k < length}, in float32.
+   *
+   * @param a input, not modified
+   * @param ao offset in {@code a}
+   * @param b input, not modified
+   * @param bo offset in {@code b}
+   * @param length span length, at least 1
+   * @param work scratch of length {@link #workLength()}, overwritten
+   * @return the dot product; may be infinite or NaN if an intermediate overflows
+   */
+  float dot(float[] a, int ao, float[] b, int bo, int length, float[] work);
+
+  /**
+   * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
+   * length} (Brody et al. 2022), in float32.
+   *
+   * @param att input, not modified: the head's attention vector
+   * @param ao offset in {@code att}
+   * @param q input, not modified: the target's query terms
+   * @param qo offset in {@code q}
+   * @param key input, not modified: the source's key terms
+   * @param ko offset in {@code key}
+   * @param length span length (the key width), at least 1
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @param work scratch of length {@link #workLength()}, overwritten
+   * @return the score; may be infinite or NaN if an intermediate overflows
+   */
+  float gatv2(
+      float[] att,
+      int ao,
+      float[] q,
+      int qo,
+      float[] key,
+      int ko,
+      int length,
+      float negativeSlope,
+      float[] work);
+
+  /**
+   * Returns the largest element of the span.
+   *
+   * @param s input, not modified, finite values
+   * @param offset start of the span
+   * @param length span length, at least 1
+   * @return the maximum
+   */
+  float max(float[] s, int offset, int length);
+
+  /**
+   * Replaces each element {@code x} of the span by {@code exp(x - shift)} and returns their sum,
+   * added in a fixed order. Callers pass {@code shift >= every x}, so each result lies in {@code
+   * [0, 1]}; arguments below {@link FastExp#LOWEST_ARGUMENT} give 0. The exponential is {@link
+   * FastExp}'s polynomial, not the library one.
+   *
+   * @param s input and output: finite scores in, unnormalised weights out
+   * @param offset start of the span
+   * @param length span length, at least 1
+   * @param shift the value subtracted before exponentiating, finite
+   * @param work scratch of length {@link #workLength()}, overwritten
+   * @return the sum of the new span
+   */
+  float expShiftSum(float[] s, int offset, int length, float shift, float[] work);
+
+  /**
+   * Adds {@code alpha · x[xo+k]} to {@code y[yo+k]} for {@code k < length}.
+   *
+   * @param alpha the factor
+   * @param x input, not modified
+   * @param xo offset in {@code x}
+   * @param y input and output
+   * @param yo offset in {@code y}
+   * @param length span length, at least 1
+   */
+  void axpy(float alpha, float[] x, int xo, float[] y, int yo, int length);
+
+  /**
+   * Multiplies each element of the span by {@code factor}.
+   *
+   * @param y input and output
+   * @param offset start of the span
+   * @param length span length, at least 1
+   * @param factor the factor
+   */
+  void scale(float[] y, int offset, int length, float factor);
+}

@@ -1,0 +1,13 @@
+package dev.heed.sparse;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernelContractTest;
+
+/** The kernel contract on the scalar fallback, forced. Threads are used even for tiny calls. */
+class CsrScalarKernelContractTest extends AttentionKernelContractTest {
+
+  @Override
+  protected AttentionKernel kernel(int threads) {
+    return new CsrAttentionKernel(threads, RowMaths.scalar(), 1);
+  }
+}

@@ -1,0 +1,41 @@
+package dev.heed.sparse;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.KernelOptions;
+import org.junit.jupiter.api.Test;
+
+/** Which implementation runs, and how the kernel is found (JVector practice, STYLE.md). */
+class RowMathSelectionTest {
+
+  // The build runs the tests with -Dheed.test.expectVectorKernel=true and the Vector API module:
+  // if the kernel fell back to the scalar loops anyway, the fast path is broken and this fails.
+  @Test
+  void vectorImplementationRunsWhenTheBuildExpectsIt() {
+    String chosen = RowMaths.preferred().describe();
+    if (Boolean.getBoolean("heed.test.expectVectorKernel")) {
+      assertTrue(
+          chosen.startsWith("vector("),
+          "expected the Vector API implementation (the test JVM has "
+              + RowMaths.VECTOR_FLAG
+              + "), but "
+              + chosen
+              + " was chosen");
+    }
+  }
+
+  @Test
+  void serviceLoaderFindsTheSparseKernel() {
+    AttentionKernel kernel =
+        AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults().withThreads(3));
+    assertEquals(ComputePath.SPARSE, kernel.path());
+    assertEquals(CsrAttentionKernel.class, kernel.getClass());
+    assertEquals("csr-" + RowMaths.preferred().describe() + ", 3 threads", kernel.describe());
+    assertEquals(
+        "csr-scalar, 1 thread", new CsrAttentionKernel(1, RowMaths.scalar(), 1).describe());
+  }
+}

@@ -1,0 +1,153 @@
+package dev.heed.sparse;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.heed.sparse.internal.FastExp;
+import dev.heed.sparse.internal.RowMath;
+import java.util.List;
+import java.util.Random;
+import org.junit.jupiter.api.Test;
+
+/**
+ * The inner-loop primitives of both implementations against float64 sums over awkward lengths
+ * (Lucene practice: 1, 3, 4, 5, 7, 8, 13, 16, 17, ...; lengths cross every vector width and tail),
+ * and the polynomial exponential against {@link Math#exp}.
+ */
+class RowMathTest {
+
+  private static final int[] LENGTHS = {1, 2, 3, 4, 5, 7, 8, 9, 12, 13, 16, 17, 31, 32, 33, 64, 67};
+
+  private static List<RowMath> implementations() {
+    return List.of(RowMaths.preferred(), RowMaths.scalar());
+  }
+
+  // IEEE 754 float32 unit roundoff 2^-24; a length-d float32 sum is accurate to about d·u
+  // relative to the sum of magnitudes (common practice).
+  private static double sumTolerance(int length, double magnitude) {
+    return 4 * length * 6e-8 * magnitude + 1e-30;
+  }
+
+  @Test
+  void dotAndGatv2MatchFloat64() {
+    Random random = new Random(0x0A11L);
+    for (RowMath math : implementations()) {
+      float[] work = new float[math.workLength()];
+      for (int length : LENGTHS) {
+        int ao = random.nextInt(5);
+        int bo = random.nextInt(5);
+        float[] a = uniform(random, length + ao, -1f, 1f);
+        float[] b = uniform(random, length + bo, -1f, 1f);
+        float[] c = uniform(random, length + 3, -1f, 1f);
+        double dot = 0;
+        double magnitude = 0;
+        double gat = 0;
+        double gatMagnitude = 0;
+        for (int k = 0; k < length; k++) {
+          dot += (double) a[ao + k] * b[bo + k];
+          magnitude += Math.abs((double) a[ao + k] * b[bo + k]);
+          double z = (double) a[ao + k] + b[bo + k];
+          double term = c[3 + k] * (z > 0 ? z : 0.2 * z); // Brody et al. 2022, GATv2 score
+          gat += term;
+          gatMagnitude += Math.abs(term);
+        }
+        String where = math.describe() + ", length " + length;
+        assertEquals(
+            dot, math.dot(a, ao, b, bo, length, work), sumTolerance(length, magnitude), where);
+        assertEquals(
+            gat,
+            math.gatv2(c, 3, a, ao, b, bo, length, 0.2f, work),
+            sumTolerance(length, gatMagnitude),
+            where);
+      }
+    }
+  }
+
+  @Test
+  void maxExpAxpyAndScaleMatchFloat64() {
+    Random random = new Random(0x0A12L);
+    for (RowMath math : implementations()) {
+      float[] work = new float[math.workLength()];
+      for (int length : LENGTHS) {
+        String where = math.describe() + ", length " + length;
+        int off = random.nextInt(4);
+        float[] s = uniform(random, length + off, -30f, 5f);
+        float max = Float.NEGATIVE_INFINITY;
+        for (int k = 0; k < length; k++) {
+          max = Math.max(max, s[off + k]);
+        }
+        assertEquals(max, math.max(s, off, length), where);
+        float[] before = s.clone();
+        double sum = 0;
+        float got = math.expShiftSum(s, off, length, max, work);
+        for (int k = 0; k < length; k++) {
+          double e = Math.exp(before[off + k] - max); // the argument rounded to float, as used
+          sum += e;
+          assertEquals(e, s[off + k], 4e-7 * e, where + ", element " + k);
+        }
+        assertEquals(sum, got, sumTolerance(length, sum), where);
+        float[] x = uniform(random, length + 2, -1f, 1f);
+        float[] y = uniform(random, length + 1, -1f, 1f);
+        float[] y0 = y.clone();
+        math.axpy(0.37f, x, 2, y, 1, length);
+        assertEquals(y0[0], y[0], where + ": axpy wrote outside its span");
+        for (int k = 0; k < length; k++) {
+          assertEquals(y0[1 + k] + 0.37 * x[2 + k], y[1 + k], 3e-7, where);
+        }
+        math.scale(y, 1, length, -2.5f);
+        for (int k = 0; k < length; k++) {
+          assertEquals((y0[1 + k] + 0.37 * x[2 + k]) * -2.5, y[1 + k], 1e-6, where);
+        }
+      }
+    }
+  }
+
+  // The vector exponential is the scalar polynomial done lane by lane: same bits (RowMath's
+  // determinism requirement), so results cannot depend on where a span's tail falls.
+  @Test
+  void vectorAndScalarExponentialsAgreeBitForBit() {
+    Random random = new Random(0x0A13L);
+    RowMath vector = RowMaths.preferred();
+    float[] work = new float[vector.workLength()];
+    for (int length : LENGTHS) {
+      float[] s = uniform(random, length, -100f, 0f);
+      float[] t = s.clone();
+      vector.expShiftSum(s, 0, length, 0f, work);
+      for (int k = 0; k < length; k++) {
+        t[k] = FastExp.expNonPositive(t[k]);
+      }
+      for (int k = 0; k < length; k++) {
+        assertEquals(
+            Float.floatToRawIntBits(t[k]),
+            Float.floatToRawIntBits(s[k]),
+            "length " + length + ", element " + k);
+      }
+    }
+  }
+
+  @Test
+  void polynomialExponentialMatchesMathExp() {
+    assertEquals(1f, FastExp.expNonPositive(0f));
+    assertEquals(1f, FastExp.expNonPositive(-0f));
+    assertEquals(0f, FastExp.expNonPositive(Float.NEGATIVE_INFINITY));
+    assertEquals(0f, FastExp.expNonPositive(-87.5f));
+    assertEquals(0f, FastExp.expNonPositive(-Float.MAX_VALUE));
+    double worst = 0;
+    for (float x = -87f; x <= 0f; x += 0.000731f) {
+      double want = Math.exp(x);
+      double got = FastExp.expNonPositive(x);
+      if (want > 1e-37) { // away from float subnormals
+        worst = Math.max(worst, Math.abs(got - want) / want);
+      }
+    }
+    assertTrue(worst < 3e-7, "worst relative error " + worst + " (about 2 ulp expected)");
+  }
+
+  private static float[] uniform(Random random, int length, float lo, float hi) {
+    float[] a = new float[length];
+    for (int i = 0; i < length; i++) {
+      a[i] = lo + (hi - lo) * random.nextFloat();
+    }
+    return a;
+  }
+}
