@@ -1,0 +1,229 @@
+package dev.heed.train.layer;
+
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CompletePattern;
+import dev.heed.train.TrainingNetwork;
+import dev.heed.train.attention.AttentionScore;
+import dev.heed.train.attention.Float64AttentionForward;
+import dev.heed.train.support.GradientCheck;
+import dev.heed.train.support.TestGraphs;
+import java.util.Random;
+import java.util.SplittableRandom;
+import java.util.function.DoubleSupplier;
+import java.util.function.Supplier;
+import java.util.stream.Stream;
+import org.junit.jupiter.params.ParameterizedTest;
+import org.junit.jupiter.params.provider.Arguments;
+import org.junit.jupiter.params.provider.MethodSource;
+
+/**
+ * Every layer's backward pass (parameters and input) against central finite differences of its
+ * float64 forward pass, with dropout on (the same masks in every pass: the dropout random source is
+ * re-created from one seed for each pass). Loss L = Σ R ⊙ y for a random R.
+ */
+class LayerGradientTest {
+
+  private static final double TOLERANCE = 1e-4;
+
+  static Stream<Arguments> layers() {
+    return Stream.of(
+        Arguments.of(
+            "GAT concat ELU bias projected-residual dropout",
+            (Supplier<TrainingLayer>)
+                () ->
+                    GraphAttentionTrainingLayer.builder(5, 3, 2)
+                        .activation(Activation.ELU)
+                        .residual(true)
+                        .inputDropout(0.3)
+                        .attentionDropout(0.3)
+                        .build(),
+            false),
+        Arguments.of(
+            "GAT mean identity identity-residual",
+            (Supplier<TrainingLayer>)
+                () ->
+                    GraphAttentionTrainingLayer.builder(4, 3, 4)
+                        .headMerge(HeadMerge.MEAN)
+                        .activation(Activation.IDENTITY)
+                        .residual(true)
+                        .build(),
+            false),
+        Arguments.of(
+            "GATv2 concat ELU no-bias dropout",
+            (Supplier<TrainingLayer>)
+                () ->
+                    GraphAttentionTrainingLayer.builder(5, 2, 3)
+                        .score(AttentionScore.Kind.GATV2)
+                        .bias(false)
+                        .inputDropout(0.2)
+                        .attentionDropout(0.4)
+                        .build(),
+            false),
+        Arguments.of(
+            "GATv2 mean identity projected-residual",
+            (Supplier<TrainingLayer>)
+                () ->
+                    GraphAttentionTrainingLayer.builder(5, 2, 3)
+                        .score(AttentionScore.Kind.GATV2)
+                        .headMerge(HeadMerge.MEAN)
+                        .activation(Activation.IDENTITY)
+                        .residual(true)
+                        .build(),
+            false),
+        Arguments.of(
+            "GAT over the complete pattern",
+            (Supplier<TrainingLayer>) () -> GraphAttentionTrainingLayer.builder(3, 2, 2).build(),
+            true),
+        Arguments.of(
+            "self-attention ELU residual dropout (CSR)",
+            (Supplier<TrainingLayer>)
+                () ->
+                    SelfAttentionTrainingLayer.builder(6, 2, 3, 2, 6)
+                        .activation(Activation.ELU)
+                        .residual(true)
+                        .inputDropout(0.2)
+                        .attentionDropout(0.3)
+                        .build(),
+            false),
+        Arguments.of(
+            "self-attention identity projected-residual (complete)",
+            (Supplier<TrainingLayer>)
+                () ->
+                    SelfAttentionTrainingLayer.builder(5, 2, 2, 3, 4)
+                        .activation(Activation.IDENTITY)
+                        .residual(true)
+                        .build(),
+            true),
+        Arguments.of(
+            "dense ELU bias dropout",
+            (Supplier<TrainingLayer>)
+                () ->
+                    DenseTrainingLayer.builder(5, 4)
+                        .activation(Activation.ELU)
+                        .inputDropout(0.3)
+                        .build(),
+            false),
+        Arguments.of(
+            "dense identity no-bias",
+            (Supplier<TrainingLayer>)
+                () ->
+                    DenseTrainingLayer.builder(5, 4)
+                        .activation(Activation.IDENTITY)
+                        .bias(false)
+                        .build(),
+            false));
+  }
+
+  @ParameterizedTest(name = "{0}")
+  @MethodSource("layers")
+  void gradientsMatchFiniteDifferences(
+      String name, Supplier<TrainingLayer> factory, boolean complete) {
+    long seed = 4242 + name.hashCode();
+    Random random = new Random(seed);
+    int n = 8;
+    AttentionPattern pattern =
+        complete ? CompletePattern.of(n) : TestGraphs.random(n, 0.35, 5, random);
+    TrainingLayer layer = factory.get();
+    layer.initialize(new SplittableRandom(seed));
+    // non-zero biases, so that their effect is exercised
+    for (Parameter p : layer.parameters()) {
+      if (p.name().equals("bias")) {
+        double[] b = TestGraphs.uniform(p.size(), random);
+        System.arraycopy(b, 0, p.value(), 0, b.length);
+      }
+    }
+    double[] input = TestGraphs.uniform(n * layer.inputWidth(), random);
+    double[] r = TestGraphs.uniform(n * layer.outputWidth(), random);
+    Float64AttentionForward attention = new Float64AttentionForward();
+    long dropoutSeed = seed + 1;
+    DoubleSupplier loss =
+        () ->
+            GradientCheck.dot(
+                r,
+                layer.forward(
+                    input,
+                    PassContext.training(pattern, attention, new SplittableRandom(dropoutSeed))));
+
+    for (Parameter p : layer.parameters()) {
+      p.clearGradient();
+    }
+    layer.forward(
+        input, PassContext.training(pattern, attention, new SplittableRandom(dropoutSeed)));
+    double[] dInput = layer.backward(r);
+    String where = name + " seed " + seed;
+    check("input of " + where, dInput, GradientCheck.numeric(input, loss));
+    for (Parameter p : layer.parameters()) {
+      double[] analytic = p.gradient().clone();
+      check(p.name() + " of " + where, analytic, GradientCheck.numeric(p.value(), loss));
+    }
+  }
+
+  /**
+   * Masked softmax cross-entropy composed with a two-layer GAT: the whole network's gradient
+   * against finite differences (nodes outside the training set must not contribute).
+   */
+  @ParameterizedTest(name = "GAT network, score {0}")
+  @MethodSource("networkScores")
+  void networkWithLossMatchesFiniteDifferences(AttentionScore.Kind kind) {
+    long seed = 31 + kind.ordinal();
+    Random random = new Random(seed);
+    int n = 9;
+    AttentionPattern pattern = TestGraphs.random(n, 0.3, -1, random);
+    TrainingNetwork network =
+        TrainingNetwork.of(
+            GraphAttentionTrainingLayer.builder(4, 2, 3)
+                .score(kind)
+                .inputDropout(0.2)
+                .attentionDropout(0.2)
+                .build(),
+            GraphAttentionTrainingLayer.builder(6, 2, 3)
+                .score(kind)
+                .headMerge(HeadMerge.MEAN)
+                .activation(Activation.IDENTITY)
+                .attentionDropout(0.2)
+                .build());
+    network.initialize(new SplittableRandom(seed));
+    double[] features = TestGraphs.uniform(n * 4, random);
+    int[] labels = new int[n];
+    for (int i = 0; i < n; i++) {
+      labels[i] = random.nextInt(3);
+    }
+    int[] trainNodes = {0, 2, 3, 7};
+    Float64AttentionForward attention = new Float64AttentionForward();
+    DoubleSupplier loss =
+        () ->
+            MaskedSoftmaxCrossEntropy.evaluate(
+                    network.forward(
+                        features,
+                        PassContext.training(pattern, attention, new SplittableRandom(seed + 9))),
+                    3,
+                    labels,
+                    trainNodes,
+                    false)
+                .loss();
+    network.clearGradients();
+    double[] logits =
+        network.forward(
+            features, PassContext.training(pattern, attention, new SplittableRandom(seed + 9)));
+    network.backward(
+        MaskedSoftmaxCrossEntropy.evaluate(logits, 3, labels, trainNodes, true).gradient());
+    for (Parameter p : network.parameters()) {
+      double[] analytic = p.gradient().clone();
+      check(
+          p.name() + " (" + kind + ", seed " + seed + ")",
+          analytic,
+          GradientCheck.numeric(p.value(), loss));
+    }
+  }
+
+  static Stream<AttentionScore.Kind> networkScores() {
+    return Stream.of(AttentionScore.Kind.ADDITIVE, AttentionScore.Kind.GATV2);
+  }
+
+  private static void check(String what, double[] analytic, double[] numeric) {
+    double error = GradientCheck.relativeError(analytic, numeric);
+    assertTrue(error < TOLERANCE, what + ": relative error " + error);
+  }
+}
