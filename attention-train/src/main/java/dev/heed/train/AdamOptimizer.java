@@ -54,8 +54,8 @@ public final class AdamOptimizer {
     steps++;
     double b1 = settings.beta1();
     double b2 = settings.beta2();
-    double correction1 = 1 - Math.pow(b1, steps);
-    double correction2 = 1 - Math.pow(b2, steps);
+    double correction1 = 1 - StrictMath.pow(b1, steps);
+    double correction2 = 1 - StrictMath.pow(b2, steps);
     double lr = settings.learningRate();
     double eps = settings.epsilon();
     for (int p = 0; p < parameters.size(); p++) {

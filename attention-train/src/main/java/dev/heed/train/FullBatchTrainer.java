@@ -24,8 +24,10 @@ import org.slf4j.LoggerFactory;
  * back. Without validation nodes it runs {@code maxEpochs} and keeps the last parameters.
  *
  * <p>Reproducibility: initialization and dropout draw from {@link SplittableRandom}s split from
- * {@code settings.seed()}, and all training arithmetic is single-threaded float64 in a fixed order,
- * so the same seed, data, network shape and attention forward pass give bit-identical parameters.
+ * {@code settings.seed()}, all training arithmetic is single-threaded float64 in a fixed order, and
+ * exponentials and logarithms use {@link StrictMath}, so the same seed, data, network shape and
+ * attention forward pass give bit-identical parameters (the kernel's own arithmetic is the
+ * kernel's: a kernel whose result depends on its thread count must run with a fixed count).
  *
  * <pre>{@code
  * FullBatchTrainer trainer = FullBatchTrainer.withKernel(AttentionKernels.forPath(SPARSE, options));

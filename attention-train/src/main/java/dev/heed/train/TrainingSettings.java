@@ -47,6 +47,14 @@ public record TrainingSettings(
   /**
    * Validates the settings.
    *
+   * @param learningRate see the record description
+   * @param beta1 see the record description
+   * @param beta2 see the record description
+   * @param epsilon see the record description
+   * @param weightDecay see the record description
+   * @param maxEpochs see the record description
+   * @param patience see the record description
+   * @param seed see the record description
    * @throws IllegalArgumentException naming the setting and value out of range
    */
   public TrainingSettings {

@@ -10,12 +10,12 @@ public enum Activation {
   ELU {
     @Override
     public double apply(double x) {
-      return x > 0 ? x : Math.expm1(x);
+      return x > 0 ? x : StrictMath.expm1(x);
     }
 
     @Override
     public double derivative(double x) {
-      return x > 0 ? 1.0 : Math.exp(x);
+      return x > 0 ? 1.0 : StrictMath.exp(x);
     }
   },
   /** ReLU: max(x, 0); derivative 0 at 0 (common practice). */

@@ -87,11 +87,11 @@ public final class MaskedSoftmaxCrossEntropy {
       }
       double sum = 0;
       for (int c = 0; c < classes; c++) {
-        p[c] = Math.exp(logits[at + c] - max);
+        p[c] = StrictMath.exp(logits[at + c] - max);
         sum += p[c];
       }
       int label = labels[node];
-      total += -(logits[at + label] - max - Math.log(sum));
+      total += -(logits[at + label] - max - StrictMath.log(sum));
       if (best == label) {
         correct++;
       }

@@ -30,6 +30,9 @@ public record TrainedLayer(
   /**
    * Copies the collections into unmodifiable ones, keeping their order.
    *
+   * @param kind see the record description
+   * @param hyperParameters see the record description
+   * @param tensors see the record description
    * @throws NullPointerException if an argument is null
    */
   public TrainedLayer {

@@ -17,6 +17,9 @@ public record TrainedParameters(int inputWidth, int classCount, List<TrainedLaye
   /**
    * Copies the layer list into an unmodifiable one.
    *
+   * @param inputWidth see the record description
+   * @param classCount see the record description
+   * @param layers see the record description
    * @throws IllegalArgumentException if a width is below 1 or there are no layers
    */
   public TrainedParameters {

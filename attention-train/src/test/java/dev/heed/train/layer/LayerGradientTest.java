@@ -2,13 +2,17 @@ package dev.heed.train.layer;
 
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
+import dev.heed.attention.ReferenceAttentionKernel;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.train.TrainingNetwork;
 import dev.heed.train.attention.AttentionScore;
 import dev.heed.train.attention.Float64AttentionForward;
+import dev.heed.train.attention.KernelAttentionForward;
 import dev.heed.train.support.GradientCheck;
 import dev.heed.train.support.TestGraphs;
+import java.util.ArrayList;
+import java.util.List;
 import java.util.Random;
 import java.util.SplittableRandom;
 import java.util.function.DoubleSupplier;
@@ -216,6 +220,49 @@ class LayerGradientTest {
           analytic,
           GradientCheck.numeric(p.value(), loss));
     }
+  }
+
+  /**
+   * Training runs its forward pass through the float32 serving kernel: the gradients it gets must
+   * agree with those of the float64 equations to float32 accuracy (here attention-core's reference
+   * kernel stands in for the serving kernel).
+   */
+  @ParameterizedTest(name = "score {0}")
+  @MethodSource("networkScores")
+  void gradientsThroughTheFloat32KernelAgreeWithFloat64(AttentionScore.Kind kind) {
+    long seed = 57 + kind.ordinal();
+    Random random = new Random(seed);
+    int n = 10;
+    AttentionPattern pattern = TestGraphs.random(n, 0.3, 4, random);
+    GraphAttentionTrainingLayer layer =
+        GraphAttentionTrainingLayer.builder(5, 3, 4).score(kind).residual(true).build();
+    layer.initialize(new SplittableRandom(seed));
+    double[] input = TestGraphs.uniform(n * 5, random);
+    double[] r = TestGraphs.uniform(n * layer.outputWidth(), random);
+    double[][] gradients = new double[2][];
+    int at = 0;
+    for (dev.heed.train.attention.AttentionForward attention :
+        List.of(
+            new Float64AttentionForward(),
+            new KernelAttentionForward(new ReferenceAttentionKernel()))) {
+      for (Parameter p : layer.parameters()) {
+        p.clearGradient();
+      }
+      layer.forward(input, PassContext.evaluation(pattern, attention));
+      double[] dInput = layer.backward(r);
+      List<Double> all = new ArrayList<>();
+      for (double d : dInput) {
+        all.add(d);
+      }
+      for (Parameter p : layer.parameters()) {
+        for (double d : p.gradient()) {
+          all.add(d);
+        }
+      }
+      gradients[at++] = all.stream().mapToDouble(Double::doubleValue).toArray();
+    }
+    double error = GradientCheck.relativeError(gradients[1], gradients[0]);
+    assertTrue(error < 1e-5, kind + " seed " + seed + ": relative error " + error);
   }
 
   static Stream<AttentionScore.Kind> networkScores() {
