@@ -14,6 +14,7 @@ import dev.heed.train.layer.DenseTrainingLayer;
 import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
 import dev.heed.train.layer.Parameter;
+import dev.heed.train.layer.SelfAttentionTrainingLayer;
 import dev.heed.train.model.NamedTensor;
 import dev.heed.train.model.TrainedLayer;
 import dev.heed.train.model.TrainedParameters;
@@ -98,6 +99,48 @@ class TrainerContractTest {
     assertEquals(network.parameters().size(), index);
     assertArrayEquals(new int[] {3, 8}, first.tensor("weightTarget").shape());
     assertArrayEquals(new int[] {2, 4}, first.tensor("attention").shape());
+  }
+
+  /**
+   * Every trainable layer kind learns end to end: the training loss falls well below its start on a
+   * small separable problem (a descent property of Adam, Kingma &amp; Ba 2015).
+   */
+  @Test
+  void everyLayerKindLearns() {
+    TrainingData data = smallData(9);
+    List<TrainingNetwork> networks =
+        List.of(
+            smallGat(),
+            TrainingNetwork.of(
+                SelfAttentionTrainingLayer.builder(3, 2, 4, 4, 8)
+                    .activation(Activation.ELU)
+                    .residual(true)
+                    .build(),
+                DenseTrainingLayer.builder(8, 2).activation(Activation.IDENTITY).build()),
+            TrainingNetwork.of(
+                GraphAttentionTrainingLayer.builder(3, 2, 4).residual(true).build(),
+                GraphAttentionTrainingLayer.builder(8, 1, 2)
+                    .headMerge(HeadMerge.MEAN)
+                    .activation(Activation.IDENTITY)
+                    .residual(true)
+                    .build()));
+    for (TrainingNetwork network : networks) {
+      List<EpochProgress> seen = new ArrayList<>();
+      FullBatchTrainer.withKernel(new ReferenceAttentionKernel())
+          .train(
+              network,
+              data,
+              TrainingSettings.builder()
+                  .learningRate(0.02)
+                  .maxEpochs(150)
+                  .patience(1000)
+                  .seed(1)
+                  .build(),
+              seen::add);
+      double first = seen.get(0).loss();
+      double last = seen.get(seen.size() - 1).loss();
+      assertTrue(last < 0.5 * first, network.layers() + ": loss " + first + " -> " + last);
+    }
   }
 
   @Test
