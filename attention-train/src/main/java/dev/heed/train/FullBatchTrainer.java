@@ -144,7 +144,7 @@ public final class FullBatchTrainer {
                 + epoch
                 + "; lower the learning rate");
       }
-      network.backward(loss.gradient());
+      network.backward(loss.gradient(), false);
       adam.step();
 
       double[] evalLogits = network.forward(features, evaluation);

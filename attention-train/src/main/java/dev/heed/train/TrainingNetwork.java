@@ -145,12 +145,13 @@ public final class TrainingNetwork {
    * Back-propagates the logits' gradient through every layer, accumulating parameter gradients.
    *
    * @param logitGradient input, not modified: {@code n * classCount()}
-   * @return dLoss/dFeatures
+   * @param featureGradient whether to compute dLoss/dFeatures (training does not need it)
+   * @return dLoss/dFeatures, or null if not requested
    */
-  public double[] backward(double[] logitGradient) {
+  public double[] backward(double[] logitGradient, boolean featureGradient) {
     double[] g = logitGradient;
     for (int i = layers.size() - 1; i >= 0; i--) {
-      g = layers.get(i).backward(g);
+      g = layers.get(i).backward(g, i > 0 || featureGradient);
     }
     return g;
   }

@@ -164,7 +164,7 @@ public final class DenseTrainingLayer implements TrainingLayer {
   }
 
   @Override
-  public double[] backward(double[] outputGradient) {
+  public double[] backward(double[] outputGradient, boolean inputGradient) {
     if (preActivation == null) {
       throw new IllegalStateException("backward called before forward");
     }
@@ -183,9 +183,9 @@ public final class DenseTrainingLayer implements TrainingLayer {
       LayerMath.addColumnSums(dPre, nodes, outputWidth, bias.gradient());
     }
     LayerMath.addTransposedTimes(x, nodes, inputWidth, dPre, outputWidth, weight.gradient());
-    double[] dx = new double[nodes * inputWidth];
+    double[] dx = inputGradient ? new double[nodes * inputWidth] : null;
     LayerMath.addTimesTransposed(dPre, nodes, outputWidth, weight.value(), inputWidth, dx);
-    if (inputMask != null) {
+    if (inputMask != null && dx != null) {
       for (int i = 0; i < dx.length; i++) {
         dx[i] *= inputMask[i];
       }

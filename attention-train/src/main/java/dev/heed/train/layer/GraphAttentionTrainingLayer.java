@@ -405,7 +405,7 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
   }
 
   @Override
-  public double[] backward(double[] outputGradient) {
+  public double[] backward(double[] outputGradient, boolean inputGradient) {
     if (preActivation == null) {
       throw new IllegalStateException("backward called before forward");
     }
@@ -422,7 +422,7 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     for (int i = 0; i < dPre.length; i++) {
       dPre[i] = outputGradient[i] * activation.derivative(preActivation[i]);
     }
-    double[] dx = new double[n * inputWidth];
+    double[] dx = inputGradient ? new double[n * inputWidth] : null;
     if (bias != null) {
       LayerMath.addColumnSums(dPre, n, outputWidth, bias.gradient());
     }
@@ -432,8 +432,10 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
             x, n, inputWidth, dPre, outputWidth, residualWeight.gradient());
         LayerMath.addTimesTransposed(dPre, n, outputWidth, residualWeight.value(), inputWidth, dx);
       } else {
-        for (int i = 0; i < dx.length; i++) {
-          dx[i] += dPre[i];
+        if (dx != null) {
+          for (int i = 0; i < dx.length; i++) {
+            dx[i] += dPre[i];
+          }
         }
       }
     }
@@ -512,7 +514,7 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
       LayerMath.addTransposedTimes(x, n, inputWidth, dKey, hf, weightSource.gradient());
       LayerMath.addTimesTransposed(dKey, n, hf, weightSource.value(), inputWidth, dx);
     }
-    if (inputMask != null) {
+    if (inputMask != null && dx != null) {
       for (int i = 0; i < dx.length; i++) {
         dx[i] *= inputMask[i];
       }

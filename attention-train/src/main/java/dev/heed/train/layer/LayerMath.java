@@ -36,6 +36,9 @@ final class LayerMath {
    */
   static void addTimesTransposed(
       double[] dc, int rows, int cols, double[] b, int inner, double[] da) {
+    if (da == null) {
+      return; // input gradient not requested
+    }
     assert dc.length == rows * cols && b.length == inner * cols && da.length == rows * inner;
     for (int r = 0; r < rows; r++) {
       int dcAt = r * cols;

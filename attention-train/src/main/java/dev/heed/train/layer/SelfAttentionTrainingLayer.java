@@ -291,7 +291,7 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
   }
 
   @Override
-  public double[] backward(double[] outputGradient) {
+  public double[] backward(double[] outputGradient, boolean inputGradient) {
     if (preActivation == null) {
       throw new IllegalStateException("backward called before forward");
     }
@@ -309,7 +309,7 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
     for (int i = 0; i < dPre.length; i++) {
       dPre[i] = outputGradient[i] * activation.derivative(preActivation[i]);
     }
-    double[] dx = new double[n * inputWidth];
+    double[] dx = inputGradient ? new double[n * inputWidth] : null;
     if (bias != null) {
       LayerMath.addColumnSums(dPre, n, outputWidth, bias.gradient());
     }
@@ -319,8 +319,10 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
             x, n, inputWidth, dPre, outputWidth, residualWeight.gradient());
         LayerMath.addTimesTransposed(dPre, n, outputWidth, residualWeight.value(), inputWidth, dx);
       } else {
-        for (int i = 0; i < dx.length; i++) {
-          dx[i] += dPre[i];
+        if (dx != null) {
+          for (int i = 0; i < dx.length; i++) {
+            dx[i] += dPre[i];
+          }
         }
       }
     }
@@ -350,7 +352,7 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
     LayerMath.addTimesTransposed(dKey, n, hk, keyWeight.value(), inputWidth, dx);
     LayerMath.addTransposedTimes(x, n, inputWidth, dValue, hv, valueWeight.gradient());
     LayerMath.addTimesTransposed(dValue, n, hv, valueWeight.value(), inputWidth, dx);
-    if (inputMask != null) {
+    if (inputMask != null && dx != null) {
       for (int i = 0; i < dx.length; i++) {
         dx[i] *= inputMask[i];
       }

@@ -54,13 +54,26 @@ public interface TrainingLayer {
   double[] forward(double[] input, PassContext context);
 
   /**
-   * Back-propagates through the last forward pass.
+   * Back-propagates through the last forward pass, with the input gradient.
    *
    * @param outputGradient input, not modified: dLoss/dOutput, {@code n * outputWidth()}
    * @return a new array, dLoss/dInput, {@code n * inputWidth()}
    * @throws IllegalStateException if no forward pass preceded it
    */
-  double[] backward(double[] outputGradient);
+  default double[] backward(double[] outputGradient) {
+    return backward(outputGradient, true);
+  }
+
+  /**
+   * Back-propagates through the last forward pass. The first layer of a network skips the input
+   * gradient, which for wide features is as costly as the weight gradient.
+   *
+   * @param outputGradient input, not modified: dLoss/dOutput, {@code n * outputWidth()}
+   * @param inputGradient whether to compute dLoss/dInput
+   * @return a new array, dLoss/dInput, {@code n * inputWidth()}; null if not requested
+   * @throws IllegalStateException if no forward pass preceded it
+   */
+  double[] backward(double[] outputGradient, boolean inputGradient);
 
   /**
    * Returns the trainable parameters, in a fixed order.

@@ -1,5 +1,7 @@
 package dev.heed.train.layer;
 
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertNull;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.attention.ReferenceAttentionKernel;
@@ -211,14 +213,29 @@ class LayerGradientTest {
     double[] logits =
         network.forward(
             features, PassContext.training(pattern, attention, new SplittableRandom(seed + 9)));
-    network.backward(
-        MaskedSoftmaxCrossEntropy.evaluate(logits, 3, labels, trainNodes, true).gradient());
+    double[] logitGradient =
+        MaskedSoftmaxCrossEntropy.evaluate(logits, 3, labels, trainNodes, true).gradient();
+    double[] dFeatures = network.backward(logitGradient, true);
+    check(
+        "features (" + kind + ", seed " + seed + ")",
+        dFeatures,
+        GradientCheck.numeric(features, loss));
+    List<double[]> withFeatureGradient = new ArrayList<>();
     for (Parameter p : network.parameters()) {
       double[] analytic = p.gradient().clone();
+      withFeatureGradient.add(analytic);
       check(
           p.name() + " (" + kind + ", seed " + seed + ")",
           analytic,
           GradientCheck.numeric(p.value(), loss));
+    }
+    // the training path skips the feature gradient and must give the same parameter gradients
+    network.clearGradients();
+    network.forward(
+        features, PassContext.training(pattern, attention, new SplittableRandom(seed + 9)));
+    assertNull(network.backward(logitGradient, false));
+    for (int i = 0; i < withFeatureGradient.size(); i++) {
+      assertArrayEquals(withFeatureGradient.get(i), network.parameters().get(i).gradient(), 0.0);
     }
   }
 
