@@ -1,7 +1,8 @@
 package dev.heed.train;
 
 /**
- * Receives progress once per epoch, on the training thread. Must not throw.
+ * Receives progress once per epoch, on the training thread. An exception it throws ends the
+ * training run and reaches the caller of {@link FullBatchTrainer#train}.
  *
  * <p>Thread safety: called from one thread at a time.
  */
