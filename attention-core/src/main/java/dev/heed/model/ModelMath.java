@@ -1,0 +1,98 @@
+package dev.heed.model;
+
+/** Plain-Java dense helpers for the layers. Internal: arguments are checked by callers. */
+final class ModelMath {
+
+  private ModelMath() {}
+
+  /**
+   * {@code y = x · w (+ bias)}: x is n × in, w is in × out, y is n × out, all row-major.
+   * O(n·in·out). The loop order (i, k, j) streams rows of w, which the JIT vectorises.
+   */
+  static float[] project(float[] x, int n, int in, float[] w, int out, float[] bias) {
+    assert x.length == (long) n * in && w.length == (long) in * out;
+    float[] y = new float[n * out];
+    for (int i = 0; i < n; i++) {
+      int yRow = i * out;
+      if (bias != null) {
+        System.arraycopy(bias, 0, y, yRow, out);
+      }
+      int xRow = i * in;
+      for (int k = 0; k < in; k++) {
+        float xv = x[xRow + k];
+        if (xv == 0f) {
+          continue;
+        }
+        int wRow = k * out;
+        for (int j = 0; j < out; j++) {
+          y[yRow + j] += xv * w[wRow + j];
+        }
+      }
+    }
+    return y;
+  }
+
+  /** {@code a += b}, element-wise. */
+  static void addInPlace(float[] a, float[] b) {
+    assert a.length == b.length;
+    for (int i = 0; i < a.length; i++) {
+      a[i] += b[i];
+    }
+  }
+
+  /** Adds {@code bias} (length width) to every row of the n × width array {@code a}. */
+  static void addRowBias(float[] a, int width, float[] bias) {
+    for (int start = 0; start < a.length; start += width) {
+      for (int j = 0; j < width; j++) {
+        a[start + j] += bias[j];
+      }
+    }
+  }
+
+  /**
+   * Layer normalisation of each row of the n × width array (Ba, Kiros, Hinton 2016, eq. 4: mean and
+   * biased variance over the row's features, then gain and bias), returning a new array; statistics
+   * in float64.
+   */
+  static float[] layerNorm(float[] x, int width, float[] scale, float[] shift, double epsilon) {
+    float[] y = new float[x.length];
+    for (int start = 0; start < x.length; start += width) {
+      double mean = 0;
+      for (int j = 0; j < width; j++) {
+        mean += x[start + j];
+      }
+      mean /= width;
+      double var = 0;
+      for (int j = 0; j < width; j++) {
+        double d = x[start + j] - mean;
+        var += d * d;
+      }
+      var /= width;
+      double inv = 1.0 / Math.sqrt(var + epsilon);
+      for (int j = 0; j < width; j++) {
+        y[start + j] = (float) ((x[start + j] - mean) * inv * scale[j] + shift[j]);
+      }
+    }
+    return y;
+  }
+
+  /** Softmax of each row of the n × width array in place, row maximum subtracted first. */
+  static void softmaxRows(float[] x, int width) {
+    for (int start = 0; start < x.length; start += width) {
+      float max = Float.NEGATIVE_INFINITY;
+      for (int j = 0; j < width; j++) {
+        max = Math.max(max, x[start + j]);
+      }
+      double sum = 0;
+      for (int j = 0; j < width; j++) {
+        double e = Math.exp(x[start + j] - max);
+        x[start + j] = (float) e;
+        sum += e;
+      }
+      float inv = (float) (1.0 / sum);
+      for (int j = 0; j < width; j++) {
+        x[start + j] *= inv;
+      }
+    }
+  }
+}
