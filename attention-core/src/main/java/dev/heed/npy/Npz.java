@@ -1,11 +1,14 @@
 package dev.heed.npy;
 
 import java.io.BufferedInputStream;
+import java.io.ByteArrayInputStream;
 import java.io.ByteArrayOutputStream;
 import java.io.FilterInputStream;
 import java.io.IOException;
 import java.io.InputStream;
 import java.io.OutputStream;
+import java.nio.ByteBuffer;
+import java.nio.ByteOrder;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.time.LocalDateTime;
@@ -22,14 +25,16 @@ import java.util.zip.ZipOutputStream;
  * Reads and writes NumPy {@code .npz} archives (a zip file of {@code .npy} entries, as written by
  * {@code numpy.savez} and {@code numpy.savez_compressed}), treating every input as untrusted.
  *
- * <p>Reading streams through the archive's local entries once. Entries may be stored or deflated.
- * Each {@code .npy} entry is validated as {@link Npy} describes; other entries are returned as raw
- * bytes. Limits ({@link NpyLimits}) are enforced before allocation: an entry whose declared size,
- * or whose {@code .npy} header, exceeds what remains of the limits is rejected before its data is
- * read, and every inflated byte actually produced is counted, so an archive that inflates beyond
- * {@link NpyLimits#maxTotalBytes()} (a "zip bomb") stops as soon as it crosses the limit. Entry
- * CRCs are checked. Duplicate names, directory entries, absolute paths and names containing {@code
- * ..} are rejected.
+ * <p>Reading holds the raw archive in memory (at most {@link NpyLimits#maxTotalBytes()} bytes),
+ * walks its local entries once, then checks that the end-of-central-directory record is present and
+ * lists as many entries as were found (so a truncated file is rejected, not half read). Entries may
+ * be stored or deflated. Each {@code .npy} entry is validated as {@link Npy} describes; other
+ * entries are returned as raw bytes. Limits ({@link NpyLimits}) are enforced before allocation: an
+ * entry whose declared size, or whose {@code .npy} header, exceeds what remains of the limits is
+ * rejected before its data is read, and every inflated byte actually produced is counted, so an
+ * archive that inflates beyond {@link NpyLimits#maxTotalBytes()} (a "zip bomb") stops as soon as it
+ * crosses the limit. Entry CRCs are checked. Duplicate names, directory entries, absolute paths and
+ * names containing {@code ..} are rejected.
  *
  * <p>Writing is deterministic: entries in the given order, all <em>stored</em> (not compressed, as
  * {@code numpy.savez} does; deflate output may differ between zlib versions, stored bytes never
@@ -81,8 +86,7 @@ public final class Npz {
   }
 
   /**
-   * Reads an archive from a stream, which is read up to the end of the last local entry and not
-   * closed.
+   * Reads an archive from a stream, which is read to its end and not closed.
    *
    * @param in the stream
    * @param name a name for the archive, used in error messages
@@ -96,12 +100,20 @@ public final class Npz {
     Objects.requireNonNull(in, "in");
     Objects.requireNonNull(name, "name");
     Objects.requireNonNull(limits, "limits");
+    // The whole archive is held (bounded by the limit) so that its end can be checked: a file cut
+    // after its last entry would otherwise look complete to a streaming reader.
+    byte[] archive =
+        in.readNBytes((int) Math.min(limits.maxTotalBytes() + 1, NpyLimits.MAX_JAVA_ARRAY_BYTES));
+    if (archive.length > limits.maxTotalBytes()) {
+      throw new NpyFormatException(
+          name, "archive is larger than the limit of " + limits.maxTotalBytes() + " bytes");
+    }
     Map<String, NpyArray> arrays = new LinkedHashMap<>();
     Map<String, byte[]> others = new LinkedHashMap<>();
     long[] inflated = {0};
     int entries = 0;
     String current = name;
-    ZipInputStream zip = new ZipInputStream(new NonClosing(in));
+    ZipInputStream zip = new ZipInputStream(new ByteArrayInputStream(archive));
     try {
       ZipEntry entry;
       while ((entry = zip.getNextEntry()) != null) {
@@ -156,7 +168,42 @@ public final class Npz {
     if (entries == 0) {
       throw new NpyFormatException(name, "holds no entries (empty file, or not a zip archive)");
     }
+    int declaredEntries = centralDirectoryEntryCount(archive, name);
+    if (declaredEntries != ZIP64_COUNT && declaredEntries != entries) {
+      throw new NpyFormatException(
+          name,
+          "the central directory lists "
+              + declaredEntries
+              + " entries but "
+              + entries
+              + " were found; the archive is truncated or damaged");
+    }
     return new NpzContents(arrays, others);
+  }
+
+  private static final int EOCD_SIGNATURE = 0x06054b50;
+  private static final int EOCD_LENGTH = 22;
+  private static final int ZIP64_COUNT = 0xFFFF;
+
+  /**
+   * Finds the end-of-central-directory record (PKWARE APPNOTE.TXT §4.3.16) and returns its total
+   * entry count, or throws if there is none (a truncated or non-zip file).
+   */
+  private static int centralDirectoryEntryCount(byte[] archive, String name)
+      throws NpyFormatException {
+    ByteBuffer b = ByteBuffer.wrap(archive).order(ByteOrder.LITTLE_ENDIAN);
+    int lowest = Math.max(0, archive.length - EOCD_LENGTH - 0xFFFF);
+    for (int at = archive.length - EOCD_LENGTH; at >= lowest; at--) {
+      if (b.getInt(at) == EOCD_SIGNATURE
+          && at + EOCD_LENGTH + (b.getShort(at + 20) & 0xFFFF) == archive.length) {
+        return b.getShort(at + 10) & 0xFFFF;
+      }
+    }
+    throw new NpyFormatException(
+        name,
+        "no end-of-central-directory record: not a zip archive, or truncated ("
+            + archive.length
+            + " bytes)");
   }
 
   private static NpyArray readNpyEntry(
@@ -324,18 +371,6 @@ public final class Npz {
                 + limit
                 + " bytes (a zip bomb, or raise NpyLimits.maxTotalBytes)");
       }
-    }
-  }
-
-  /** Keeps the caller's stream open when the zip stream is done. */
-  private static final class NonClosing extends FilterInputStream {
-    NonClosing(InputStream in) {
-      super(in);
-    }
-
-    @Override
-    public void close() {
-      // the caller owns the stream
     }
   }
 }
