@@ -1,15 +1,58 @@
 package dev.heed.model;
 
-/** Plain-Java dense helpers for the layers. Internal: arguments are checked by callers. */
+import org.nd4j.linalg.api.buffer.DataType;
+import org.nd4j.linalg.api.ndarray.INDArray;
+import org.nd4j.linalg.factory.Nd4j;
+
+/** Dense helpers for the layers. Internal: arguments are checked by callers. */
 final class ModelMath {
+
+  /**
+   * Products with at least this many multiply-adds (n·in·out) and at least {@link #GEMM_MIN_ROWS}
+   * rows go to BLAS (ND4J gemm into a preallocated output); smaller ones stay in Java, where an
+   * ND4J call's fixed cost of 7-60 µs would dominate (measured, see ND4J-NOTES.md). The threshold
+   * is a round guess, not a calibration.
+   */
+  static final long GEMM_MIN_MULTIPLY_ADDS = 1L << 23;
+
+  /** Fewest rows sent to BLAS: below this, copying the weights costs more than it saves. */
+  static final int GEMM_MIN_ROWS = 64;
 
   private ModelMath() {}
 
   /**
    * {@code y = x · w (+ bias)}: x is n × in, w is in × out, y is n × out, all row-major.
-   * O(n·in·out). The loop order (i, k, j) streams rows of w, which the JIT vectorises.
+   * O(n·in·out). Large products use BLAS, small ones {@link #projectInJava}.
    */
   static float[] project(float[] x, int n, int in, float[] w, int out, float[] bias) {
+    if (n >= GEMM_MIN_ROWS && (long) n * in * out >= GEMM_MIN_MULTIPLY_ADDS) {
+      return projectWithGemm(x, n, in, w, out, bias);
+    }
+    return projectInJava(x, n, in, w, out, bias);
+  }
+
+  /**
+   * The product with ND4J's gemm: x and w are copied off-heap, multiplied into a preallocated
+   * c-order output, and the result copied back. Each call uses its own arrays.
+   */
+  static float[] projectWithGemm(float[] x, int n, int in, float[] w, int out, float[] bias) {
+    INDArray xa = Nd4j.create(x, new long[] {n, in}, 'c');
+    INDArray wa = Nd4j.create(w, new long[] {in, out}, 'c');
+    INDArray ya = Nd4j.create(DataType.FLOAT, new long[] {n, out}, 'c');
+    Nd4j.gemm(xa, wa, ya, false, false, 1.0, 0.0);
+    float[] y = ya.data().asFloat();
+    assert y.length == n * out;
+    if (bias != null) {
+      addRowBias(y, out, bias);
+    }
+    return y;
+  }
+
+  /**
+   * The product in plain Java. The loop order (i, k, j) streams rows of w, which the JIT
+   * vectorises, and zero inputs are skipped (sparse features cost less).
+   */
+  static float[] projectInJava(float[] x, int n, int in, float[] w, int out, float[] bias) {
     assert x.length == (long) n * in && w.length == (long) in * out;
     float[] y = new float[n * out];
     for (int i = 0; i < n; i++) {
