@@ -53,6 +53,17 @@ def _npy_bytes(array):
     return buffer.getvalue()
 
 
+def _json_default(value):
+    """Lets hyper-parameters be NumPy scalars (np.int64(8), np.float32(0.2), np.bool_(True))."""
+    if isinstance(value, np.bool_):
+        return bool(value)
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, np.floating):
+        return float(value)
+    raise TypeError("cannot write %r (%s) in model.json" % (value, type(value).__name__))
+
+
 def _add_entry(archive, name, payload):
     info = zipfile.ZipInfo(name, date_time=_ENTRY_TIME)
     info.compress_type = zipfile.ZIP_STORED
@@ -93,7 +104,7 @@ def write_model(path, input_features, class_labels, layers, feature_names=None):
         entry["tensors"] = roles
         described_layers.append(entry)
     description["layers"] = described_layers
-    text = json.dumps(description, indent=2) + "\n"
+    text = json.dumps(description, indent=2, default=_json_default, allow_nan=False) + "\n"
     with zipfile.ZipFile(path, "w") as archive:
         _add_entry(archive, DESCRIPTION_ENTRY, text.encode("utf-8"))
         for name, array in tensors:
