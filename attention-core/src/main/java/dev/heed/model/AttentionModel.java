@@ -162,6 +162,18 @@ public final class AttentionModel {
                 + "; features must be finite");
       }
     }
+    for (Layer layer : layers) {
+      if ((long) n * layer.widestRow() > Integer.MAX_VALUE - 8) {
+        throw new IllegalArgumentException(
+            "the graph has "
+                + n
+                + " nodes, too many for layer '"
+                + layer.name()
+                + "': n × "
+                + layer.widestRow()
+                + " values exceed one Java array; split the graph");
+      }
+    }
     ForwardPass pass = new ForwardPass(graph, path, kernels, keepAttention);
     float[] x = features;
     for (int index = 0; index < layers.size(); index++) {

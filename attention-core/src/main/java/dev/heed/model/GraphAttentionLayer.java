@@ -161,6 +161,11 @@ public final class GraphAttentionLayer extends Layer {
   }
 
   @Override
+  int widestRow() {
+    return Math.max(super.widestRow(), heads * headWidth);
+  }
+
+  @Override
   float[] forward(float[] input, ForwardPass pass) {
     int n = pass.nodeCount;
     int in = inputWidth();

@@ -71,6 +71,14 @@ public abstract sealed class Layer
   }
 
   /**
+   * Returns the widest per-node row this layer allocates (input, output and intermediate widths),
+   * so a caller can check that n rows fit in one Java array before running.
+   */
+  int widestRow() {
+    return Math.max(inputWidth, outputWidth);
+  }
+
+  /**
    * Runs the layer.
    *
    * @param input n × inputWidth, row-major, not modified

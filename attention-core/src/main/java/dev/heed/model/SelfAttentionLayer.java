@@ -164,6 +164,13 @@ public final class SelfAttentionLayer extends Layer {
   }
 
   @Override
+  int widestRow() {
+    return Math.max(
+        Math.max(super.widestRow(), feedForwardWidth),
+        Math.max(heads * keyWidth, heads * valueWidth));
+  }
+
+  @Override
   float[] forward(float[] x, ForwardPass pass) {
     int n = pass.nodeCount;
     int m = inputWidth();
