@@ -28,6 +28,10 @@ public record ClassifyOptions(
   /**
    * Validates the options.
    *
+   * @param path which attention kernel to use
+   * @param topLabels labels per prediction, at least 1
+   * @param explain whether to explain predictions
+   * @param explainNeighbours neighbours per explained layer, at least 1
    * @throws IllegalArgumentException if a count is below 1
    */
   public ClassifyOptions {

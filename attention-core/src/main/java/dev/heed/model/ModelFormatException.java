@@ -15,7 +15,10 @@ public final class ModelFormatException extends IOException {
 
   private static final long serialVersionUID = 1L;
 
+  /** The layer at fault, or null. */
   private final String layer;
+
+  /** The tensor at fault, or null. */
   private final String tensor;
 
   ModelFormatException(String message, String layer, String tensor, Throwable cause) {

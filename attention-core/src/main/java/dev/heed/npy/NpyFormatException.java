@@ -13,6 +13,7 @@ public final class NpyFormatException extends IOException {
 
   private static final long serialVersionUID = 1L;
 
+  /** The file or archive entry being read. */
   private final String entry;
 
   /**

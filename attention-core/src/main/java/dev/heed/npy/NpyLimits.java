@@ -32,6 +32,9 @@ public record NpyLimits(long maxArrayBytes, long maxTotalBytes, int maxEntries) 
   /**
    * Validates the limits.
    *
+   * @param maxArrayBytes largest data section of one array, in bytes
+   * @param maxTotalBytes most bytes one archive may hold and inflate to
+   * @param maxEntries most entries in one archive
    * @throws IllegalArgumentException if a limit is out of range
    */
   public NpyLimits {
