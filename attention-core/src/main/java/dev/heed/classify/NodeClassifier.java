@@ -8,6 +8,7 @@ import java.util.ArrayList;
 import java.util.Comparator;
 import java.util.List;
 import java.util.Objects;
+import java.util.PriorityQueue;
 
 /**
  * Classifies the nodes of a graph with an {@link AttentionModel}, optionally explaining each
@@ -193,10 +194,21 @@ public final class NodeClassifier {
     return layers;
   }
 
+  private static final Comparator<NeighbourWeight> BEST_FIRST =
+      Comparator.comparingDouble((NeighbourWeight w) -> -w.weight())
+          .thenComparingInt(NeighbourWeight::node);
+
+  /** The k best of {@code all} in order, with a bounded heap: O(m log k) for m candidates. */
   private static List<NeighbourWeight> top(List<NeighbourWeight> all, int k) {
-    all.sort(
-        Comparator.comparingDouble((NeighbourWeight w) -> -w.weight())
-            .thenComparingInt(NeighbourWeight::node));
-    return List.copyOf(all.subList(0, Math.min(k, all.size())));
+    PriorityQueue<NeighbourWeight> heap = new PriorityQueue<>(k + 1, BEST_FIRST.reversed());
+    for (NeighbourWeight w : all) {
+      heap.add(w);
+      if (heap.size() > k) {
+        heap.poll();
+      }
+    }
+    List<NeighbourWeight> best = new ArrayList<>(heap);
+    best.sort(BEST_FIRST);
+    return List.copyOf(best);
   }
 }

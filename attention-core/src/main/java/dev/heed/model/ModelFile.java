@@ -188,6 +188,30 @@ public final class ModelFile {
     return parse(name, root, contents.arrays());
   }
 
+  /**
+   * Builds a model from a description and tensors held in memory, with the same validation as
+   * reading a file: for Java code that produces weights itself (then {@link #write} saves them).
+   *
+   * @param description the {@value #DESCRIPTION_ENTRY} JSON text (see {@code docs/model-format.md})
+   * @param tensors input, not modified: the tensors by name
+   * @return the validated model
+   * @throws ModelFormatException if the description or a tensor is invalid (the message names the
+   *     layer and tensor)
+   */
+  public static AttentionModel fromParts(String description, Map<String, NpyArray> tensors)
+      throws ModelFormatException {
+    Objects.requireNonNull(description, "description");
+    Objects.requireNonNull(tensors, "tensors");
+    JsonNode root;
+    try {
+      root = JSON.readTree(description);
+    } catch (JsonProcessingException e) {
+      throw new ModelFormatException(
+          "description: not valid JSON: " + e.getOriginalMessage(), null, null, e);
+    }
+    return parse("description", root, Map.copyOf(tensors));
+  }
+
   private static String tensorOf(String entry) {
     int colon = entry.lastIndexOf(':');
     String e = colon >= 0 ? entry.substring(colon + 1) : entry;

@@ -225,4 +225,21 @@ class ModelFileTest {
     assertMentions(
         assertThrows(ModelFormatException.class, () -> TestModels.load(notJson)), "not valid JSON");
   }
+
+  @Test
+  void buildsFromPartsInMemoryWithTheSameValidation() throws IOException {
+    NpzContents contents = TestModels.fixtureContents();
+    String description =
+        new String(
+            contents.otherEntry(ModelFile.DESCRIPTION_ENTRY).orElseThrow(), StandardCharsets.UTF_8);
+    AttentionModel model = ModelFile.fromParts(description, contents.arrays());
+    assertArrayEquals(
+        ModelFile.toBytes(TestModels.load(TestModels.resource("mixed.heed"))),
+        ModelFile.toBytes(model));
+    Map<String, NpyArray> missing = new LinkedHashMap<>(contents.arrays());
+    missing.remove("out.weight");
+    ModelFormatException e =
+        assertThrows(ModelFormatException.class, () -> ModelFile.fromParts(description, missing));
+    assertMentions(e, "layer 4 'out'", "out.weight");
+  }
 }
