@@ -1,0 +1,202 @@
+package dev.heed.classify;
+
+import dev.heed.npy.Npy;
+import dev.heed.npy.NpyArray;
+import dev.heed.npy.NpyLimits;
+import java.io.IOException;
+import java.nio.file.Path;
+import java.util.Arrays;
+import java.util.Objects;
+import org.nd4j.linalg.api.ndarray.INDArray;
+
+/**
+ * An immutable n × f matrix of node features (row i = node i), float32, every value finite. Created
+ * from {@code float[][]}, an ND4J {@link INDArray}, row-major values, or a {@code .npy} file read
+ * with Heed's safe reader. All factories copy their input.
+ *
+ * <p>Memory: 4·n·f bytes. Thread safety: immutable.
+ */
+public final class NodeFeatures {
+
+  private final int nodeCount;
+  private final int featureCount;
+  private final float[] values;
+
+  private NodeFeatures(int nodeCount, int featureCount, float[] values) {
+    this.nodeCount = nodeCount;
+    this.featureCount = featureCount;
+    this.values = values;
+  }
+
+  /**
+   * Copies features from rows.
+   *
+   * @param rows input, not modified: one row per node, all of the same length (at least 1)
+   * @return the features
+   * @throws IllegalArgumentException if rows are ragged or empty, or a value is NaN or infinite
+   *     (the message names the node and feature)
+   */
+  public static NodeFeatures of(float[][] rows) {
+    Objects.requireNonNull(rows, "rows");
+    int f = rows.length == 0 ? 0 : Objects.requireNonNull(rows[0], "rows[0]").length;
+    if (f < 1) {
+      throw new IllegalArgumentException(
+          "need at least one node and one feature, got " + rows.length + " rows of length " + f);
+    }
+    float[] values = new float[Math.multiplyExact(rows.length, f)];
+    for (int i = 0; i < rows.length; i++) {
+      float[] row = rows[i];
+      if (row == null || row.length != f) {
+        throw new IllegalArgumentException(
+            "rows must all have the same length: row 0 has "
+                + f
+                + ", row "
+                + i
+                + (row == null ? " is null" : " has " + row.length));
+      }
+      System.arraycopy(row, 0, values, i * f, f);
+    }
+    checkFinite(values, f);
+    return new NodeFeatures(rows.length, f, values);
+  }
+
+  /**
+   * Copies features from row-major values.
+   *
+   * @param values input, not modified: node i's features at {@code i * featureCount}
+   * @param nodeCount n, at least 0
+   * @param featureCount f, at least 1
+   * @return the features
+   * @throws IllegalArgumentException if the length is not n·f or a value is NaN or infinite
+   */
+  public static NodeFeatures ofRowMajor(float[] values, int nodeCount, int featureCount) {
+    Objects.requireNonNull(values, "values");
+    if (nodeCount < 0 || featureCount < 1) {
+      throw new IllegalArgumentException(
+          "need nodeCount >= 0 and featureCount >= 1, got " + nodeCount + " and " + featureCount);
+    }
+    if (values.length != (long) nodeCount * featureCount) {
+      throw new IllegalArgumentException(
+          "values must have length nodeCount * featureCount = "
+              + nodeCount
+              + " * "
+              + featureCount
+              + ", got "
+              + values.length);
+    }
+    float[] copy = values.clone();
+    checkFinite(copy, featureCount);
+    return new NodeFeatures(nodeCount, featureCount, copy);
+  }
+
+  /**
+   * Copies features from a rank-2 ND4J array (any data type, any ordering or view), rows = nodes.
+   *
+   * @param array input, not modified: shape [n, f]
+   * @return the features, converted to float32
+   * @throws IllegalArgumentException if the array is not rank 2 or holds a NaN or infinity
+   */
+  public static NodeFeatures of(INDArray array) {
+    Objects.requireNonNull(array, "array");
+    if (array.rank() != 2) {
+      throw new IllegalArgumentException(
+          "features must be a rank-2 array [nodes, features], got shape "
+              + Arrays.toString(array.shape()));
+    }
+    long n = array.size(0);
+    long f = array.size(1);
+    if (n * f > Integer.MAX_VALUE - 8 || f < 1) {
+      throw new IllegalArgumentException(
+          "features of shape " + Arrays.toString(array.shape()) + " are not supported");
+    }
+    return of(array.toFloatMatrix());
+  }
+
+  /**
+   * Reads features from a {@code .npy} file (shape [n, f], float32 or float64, C order) with Heed's
+   * safe reader and the default limits; float64 values are rounded to float32.
+   *
+   * @param file the file
+   * @return the features
+   * @throws dev.heed.npy.NpyFormatException if the file is malformed, of another type or rank, or
+   *     over a limit
+   * @throws IOException if the file cannot be read
+   * @throws IllegalArgumentException if a value is NaN or infinite
+   */
+  public static NodeFeatures readNpy(Path file) throws IOException {
+    return readNpy(file, NpyLimits.defaults());
+  }
+
+  /**
+   * Reads features from a {@code .npy} file with the given limits; see {@link #readNpy(Path)}.
+   *
+   * @param file the file
+   * @param limits size limits
+   * @return the features
+   * @throws dev.heed.npy.NpyFormatException if the file is malformed or not accepted
+   * @throws IOException if the file cannot be read
+   */
+  public static NodeFeatures readNpy(Path file, NpyLimits limits) throws IOException {
+    NpyArray array = Npy.read(file, limits);
+    if (array.rank() != 2 || !array.dataType().isFloatingPoint() || array.dimension(1) < 1) {
+      throw new dev.heed.npy.NpyFormatException(
+          file.toString(),
+          "features must be a 2-D float32 or float64 array [nodes, features], got "
+              + array.dataType().descriptor()
+              + " of shape "
+              + Arrays.toString(array.shape()));
+    }
+    return ofRowMajor(array.toFloats(), array.dimension(0), array.dimension(1));
+  }
+
+  /**
+   * Returns the number of nodes (rows).
+   *
+   * @return n
+   */
+  public int nodeCount() {
+    return nodeCount;
+  }
+
+  /**
+   * Returns the number of features per node (columns).
+   *
+   * @return f
+   */
+  public int featureCount() {
+    return featureCount;
+  }
+
+  /**
+   * Returns one value.
+   *
+   * @param node in {@code 0..n-1}
+   * @param feature in {@code 0..f-1}
+   * @return the value
+   */
+  public float value(int node, int feature) {
+    Objects.checkIndex(node, nodeCount);
+    Objects.checkIndex(feature, featureCount);
+    return values[node * featureCount + feature];
+  }
+
+  /** The values without copying; callers in this package never modify them. */
+  float[] shared() {
+    return values;
+  }
+
+  private static void checkFinite(float[] values, int f) {
+    for (int i = 0; i < values.length; i++) {
+      if (!Float.isFinite(values[i])) {
+        throw new IllegalArgumentException(
+            "feature "
+                + i % f
+                + " of node "
+                + i / f
+                + " is "
+                + values[i]
+                + "; features must be finite");
+      }
+    }
+  }
+}

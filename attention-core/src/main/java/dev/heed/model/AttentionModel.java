@@ -1,0 +1,196 @@
+package dev.heed.model;
+
+import dev.heed.attention.KernelOptions;
+import dev.heed.graph.AttentionPattern;
+import java.util.List;
+import java.util.Objects;
+
+/**
+ * An immutable stack of layers with its input feature count and class labels, loaded from a model
+ * file ({@link ModelFile#read}). {@link #forward} maps an n × {@link #inputFeatureCount()} feature
+ * matrix over a graph to n × {@link #classLabels()}.size() class probabilities.
+ *
+ * <p>Thread safety: immutable. One model may serve any number of threads at once: a call keeps all
+ * its intermediate arrays to itself and only reads the weights; the kernels it uses are immutable
+ * and shared (each is created once per model and path, on first use).
+ *
+ * <p>Kernels come from {@link dev.heed.attention.AttentionKernels#forPath} with the model's {@link
+ * KernelOptions} ({@link KernelOptions#defaults()} unless {@link #withKernelOptions} says
+ * otherwise).
+ */
+public final class AttentionModel {
+
+  private final int inputFeatureCount;
+  private final List<String> featureNames;
+  private final List<String> classLabels;
+  private final List<Layer> layers;
+  private final KernelOptions kernelOptions;
+  private final KernelSource kernels;
+
+  AttentionModel(
+      int inputFeatureCount,
+      List<String> featureNames,
+      List<String> classLabels,
+      List<Layer> layers,
+      KernelOptions kernelOptions,
+      KernelSource kernels) {
+    this.inputFeatureCount = inputFeatureCount;
+    this.featureNames = List.copyOf(featureNames);
+    this.classLabels = List.copyOf(classLabels);
+    this.layers = List.copyOf(layers);
+    this.kernelOptions = kernelOptions;
+    this.kernels = kernels;
+  }
+
+  /**
+   * Returns the number of features each node must have.
+   *
+   * @return the input width
+   */
+  public int inputFeatureCount() {
+    return inputFeatureCount;
+  }
+
+  /**
+   * Returns the names of the input features, or an empty list if the file gave none.
+   *
+   * @return an unmodifiable list of {@link #inputFeatureCount()} names, or empty
+   */
+  public List<String> featureNames() {
+    return featureNames;
+  }
+
+  /**
+   * Returns the class labels; output (probability) c belongs to label c.
+   *
+   * @return an unmodifiable list, at least one label
+   */
+  public List<String> classLabels() {
+    return classLabels;
+  }
+
+  /**
+   * Returns the layers in the order they run; the last is a {@link SoftmaxLayer}.
+   *
+   * @return an unmodifiable list
+   */
+  public List<Layer> layers() {
+    return layers;
+  }
+
+  /**
+   * Returns the options the model's kernels are created with.
+   *
+   * @return the options
+   */
+  public KernelOptions kernelOptions() {
+    return kernelOptions;
+  }
+
+  /**
+   * Returns a model with the same layers whose kernels use other options (threads, dense memory
+   * budget). The weights are shared, not copied.
+   *
+   * @param options the kernel options
+   * @return a new model
+   */
+  public AttentionModel withKernelOptions(KernelOptions options) {
+    Objects.requireNonNull(options, "options");
+    return new AttentionModel(
+        inputFeatureCount,
+        featureNames,
+        classLabels,
+        layers,
+        options,
+        KernelSource.fromClassPath(options));
+  }
+
+  /** The same model with kernels from {@code source}; for tests. */
+  AttentionModel withKernelSource(KernelSource source) {
+    return new AttentionModel(
+        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, source);
+  }
+
+  /**
+   * Runs every layer over {@code graph}.
+   *
+   * @param graph the graph; its node count n is the number of feature rows. Graph-attention and
+   *     graph-masked self-attention layers attend along its entries (target i attends to the
+   *     sources of row i); full self-attention layers ignore its edges
+   * @param features input, not modified: n × {@link #inputFeatureCount()} values, row-major (node
+   *     i's features at {@code i * inputFeatureCount()}), all finite
+   * @param path which kernel to use (see {@link PathChoice})
+   * @param keepAttention whether to return each attention layer's weights (costs 4·E·heads bytes
+   *     per layer)
+   * @return the class probabilities and, if asked, the attention weights
+   * @throws IllegalArgumentException if the feature array's length is not n × inputFeatureCount or
+   *     a feature is NaN or infinite (the message names the node and feature)
+   * @throws IllegalStateException if the path's kernel is not on the class path
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the dense path would exceed its
+   *     budget
+   */
+  public ModelOutput forward(
+      AttentionPattern graph, float[] features, PathChoice path, boolean keepAttention) {
+    Objects.requireNonNull(graph, "graph");
+    Objects.requireNonNull(features, "features");
+    Objects.requireNonNull(path, "path");
+    int n = graph.nodeCount();
+    long expected = (long) n * inputFeatureCount;
+    if (features.length != expected) {
+      throw new IllegalArgumentException(
+          "features must hold nodeCount * inputFeatureCount = "
+              + n
+              + " * "
+              + inputFeatureCount
+              + " = "
+              + expected
+              + " values (row-major), got "
+              + features.length
+              + (features.length % Math.max(1, inputFeatureCount) == 0
+                  ? " (" + features.length / inputFeatureCount + " rows: does the graph match?)"
+                  : ""));
+    }
+    for (int i = 0; i < features.length; i++) {
+      if (!Float.isFinite(features[i])) {
+        throw new IllegalArgumentException(
+            "feature "
+                + i % inputFeatureCount
+                + " of node "
+                + i / inputFeatureCount
+                + " is "
+                + features[i]
+                + "; features must be finite");
+      }
+    }
+    for (Layer layer : layers) {
+      if ((long) n * layer.widestRow() > Integer.MAX_VALUE - 8) {
+        throw new IllegalArgumentException(
+            "the graph has "
+                + n
+                + " nodes, too many for layer '"
+                + layer.name()
+                + "': n × "
+                + layer.widestRow()
+                + " values exceed one Java array; split the graph");
+      }
+    }
+    ForwardPass pass = new ForwardPass(graph, path, kernels, keepAttention);
+    float[] x = features;
+    for (int index = 0; index < layers.size(); index++) {
+      pass.startLayer(index);
+      x = layers.get(index).forward(x, pass);
+    }
+    return new ModelOutput(n, classLabels.size(), x, pass.attention());
+  }
+
+  @Override
+  public String toString() {
+    return "AttentionModel["
+        + inputFeatureCount
+        + " features -> "
+        + layers
+        + " -> "
+        + classLabels
+        + "]";
+  }
+}

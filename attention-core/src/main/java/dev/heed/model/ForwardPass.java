@@ -1,0 +1,100 @@
+package dev.heed.model;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.AttentionPattern;
+import java.util.ArrayList;
+import java.util.List;
+import java.util.concurrent.atomic.AtomicBoolean;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
+
+/**
+ * The state of one model call: the graph, the kernel choice and the attention weights recorded so
+ * far. Created per call and confined to the calling thread.
+ */
+final class ForwardPass {
+
+  private static final Logger LOG = LoggerFactory.getLogger(ForwardPass.class);
+  private static final AtomicBoolean WARNED_FALLBACK = new AtomicBoolean();
+
+  final AttentionPattern graph;
+  final int nodeCount;
+  private final PathChoice choice;
+  private final KernelSource kernels;
+  private final boolean keepAttention;
+  private final List<LayerAttention> attention = new ArrayList<>();
+  private int layerIndex;
+
+  ForwardPass(
+      AttentionPattern graph, PathChoice choice, KernelSource kernels, boolean keepAttention) {
+    this.graph = graph;
+    this.nodeCount = graph.nodeCount();
+    this.choice = choice;
+    this.kernels = kernels;
+    this.keepAttention = keepAttention;
+  }
+
+  void startLayer(int index) {
+    this.layerIndex = index;
+  }
+
+  List<LayerAttention> attention() {
+    return List.copyOf(attention);
+  }
+
+  /**
+   * Runs the kernel for one attention call and records its weights if asked to. Returns a new n ×
+   * valueWidth output array.
+   */
+  float[] attend(
+      Layer layer,
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value) {
+    AttentionKernel kernel = kernelFor(pattern);
+    float[] out = new float[nodeCount * shape.valueWidth()];
+    float[] weights = null;
+    if (keepAttention) {
+      long size = pattern.entryCount() * shape.heads();
+      if (size > Integer.MAX_VALUE - 8) {
+        throw new IllegalArgumentException(
+            "cannot keep attention weights for layer '"
+                + layer.name()
+                + "': "
+                + pattern.entryCount()
+                + " entries × "
+                + shape.heads()
+                + " heads exceed one Java array; classify without explanations");
+      }
+      weights = new float[(int) size];
+    }
+    kernel.attend(pattern, score, shape, query, key, value, out, weights);
+    if (weights != null) {
+      attention.add(new LayerAttention(layerIndex, layer.name(), pattern, shape.heads(), weights));
+    }
+    return out;
+  }
+
+  private AttentionKernel kernelFor(AttentionPattern pattern) {
+    ComputePath path = choice.pathFor(pattern);
+    if (choice != PathChoice.AUTO) {
+      return kernels.kernel(path);
+    }
+    try {
+      return kernels.kernel(path);
+    } catch (IllegalStateException missing) {
+      ComputePath other = path == ComputePath.DENSE ? ComputePath.SPARSE : ComputePath.DENSE;
+      if (WARNED_FALLBACK.compareAndSet(false, true)) {
+        LOG.warn(
+            "AUTO chose the {} path but: {}; using the {} path", path, missing.getMessage(), other);
+      }
+      return kernels.kernel(other);
+    }
+  }
+}

@@ -1,0 +1,100 @@
+package dev.heed.model;
+
+import com.fasterxml.jackson.databind.node.ObjectNode;
+import java.util.Map;
+
+/**
+ * One layer of an {@link AttentionModel}: maps an n × {@link #inputWidth()} feature matrix to an n
+ * × {@link #outputWidth()} one, row i belonging to node i. Layers come from model files ({@link
+ * ModelFile}); see {@code docs/model-format.md} for each kind's equations and tensors.
+ *
+ * <p>The kinds: {@link GraphAttentionLayer} ({@code graph_attention}), {@link SelfAttentionLayer}
+ * ({@code self_attention}), {@link DenseLayer} ({@code dense}) and {@link SoftmaxLayer} ({@code
+ * softmax}, the classification head).
+ *
+ * <p>Thread safety: immutable; a layer may run for many calls at once, each with its own scratch.
+ */
+public abstract sealed class Layer
+    permits GraphAttentionLayer, SelfAttentionLayer, DenseLayer, SoftmaxLayer {
+
+  private final String name;
+  private final int inputWidth;
+  private final int outputWidth;
+
+  Layer(String name, int inputWidth, int outputWidth) {
+    this.name = name;
+    this.inputWidth = inputWidth;
+    this.outputWidth = outputWidth;
+  }
+
+  /**
+   * Returns the layer's name, unique within its model.
+   *
+   * @return the name
+   */
+  public final String name() {
+    return name;
+  }
+
+  /**
+   * Returns the kind as written in model files, for example {@code "graph_attention"}.
+   *
+   * @return the kind
+   */
+  public abstract String kind();
+
+  /**
+   * Returns the number of features per node this layer reads.
+   *
+   * @return the input width
+   */
+  public final int inputWidth() {
+    return inputWidth;
+  }
+
+  /**
+   * Returns the number of features per node this layer produces.
+   *
+   * @return the output width
+   */
+  public final int outputWidth() {
+    return outputWidth;
+  }
+
+  /**
+   * Returns the number of attention heads, or 0 for a layer that does not attend.
+   *
+   * @return the head count
+   */
+  public int attentionHeads() {
+    return 0;
+  }
+
+  /**
+   * Returns the widest per-node row this layer allocates (input, output and intermediate widths),
+   * so a caller can check that n rows fit in one Java array before running.
+   */
+  int widestRow() {
+    return Math.max(inputWidth, outputWidth);
+  }
+
+  /**
+   * Runs the layer.
+   *
+   * @param input n × inputWidth, row-major, not modified
+   * @param pass the call's graph, kernels and attention record
+   * @return a new n × outputWidth array
+   */
+  abstract float[] forward(float[] input, ForwardPass pass);
+
+  /** The layer's tensors by role, in the order the format lists them. */
+  abstract Map<String, Tensor> tensors();
+
+  /** Writes the hyper-parameters (everything but kind, name and tensors) into {@code json}. */
+  abstract void writeHyperParameters(ObjectNode json);
+
+  @Override
+  public String toString() {
+    return kind() + " '" + name + "' (" + inputWidth + " -> " + outputWidth + ")";
+  }
+}

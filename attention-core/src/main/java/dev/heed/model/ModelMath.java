@@ -1,0 +1,141 @@
+package dev.heed.model;
+
+import org.nd4j.linalg.api.buffer.DataType;
+import org.nd4j.linalg.api.ndarray.INDArray;
+import org.nd4j.linalg.factory.Nd4j;
+
+/** Dense helpers for the layers. Internal: arguments are checked by callers. */
+final class ModelMath {
+
+  /**
+   * Products with at least this many multiply-adds (n·in·out) and at least {@link #GEMM_MIN_ROWS}
+   * rows go to BLAS (ND4J gemm into a preallocated output); smaller ones stay in Java, where an
+   * ND4J call's fixed cost of 7-60 µs would dominate (measured, see ND4J-NOTES.md). The threshold
+   * is a round guess, not a calibration.
+   */
+  static final long GEMM_MIN_MULTIPLY_ADDS = 1L << 23;
+
+  /** Fewest rows sent to BLAS: below this, copying the weights costs more than it saves. */
+  static final int GEMM_MIN_ROWS = 64;
+
+  private ModelMath() {}
+
+  /**
+   * {@code y = x · w (+ bias)}: x is n × in, w is in × out, y is n × out, all row-major.
+   * O(n·in·out). Large products use BLAS, small ones {@link #projectInJava}.
+   */
+  static float[] project(float[] x, int n, int in, float[] w, int out, float[] bias) {
+    if (n >= GEMM_MIN_ROWS && (long) n * in * out >= GEMM_MIN_MULTIPLY_ADDS) {
+      return projectWithGemm(x, n, in, w, out, bias);
+    }
+    return projectInJava(x, n, in, w, out, bias);
+  }
+
+  /**
+   * The product with ND4J's gemm: x and w are copied off-heap, multiplied into a preallocated
+   * c-order output, and the result copied back. Each call uses its own arrays.
+   */
+  static float[] projectWithGemm(float[] x, int n, int in, float[] w, int out, float[] bias) {
+    INDArray xa = Nd4j.create(x, new long[] {n, in}, 'c');
+    INDArray wa = Nd4j.create(w, new long[] {in, out}, 'c');
+    INDArray ya = Nd4j.create(DataType.FLOAT, new long[] {n, out}, 'c');
+    Nd4j.gemm(xa, wa, ya, false, false, 1.0, 0.0);
+    float[] y = ya.data().asFloat();
+    assert y.length == n * out;
+    if (bias != null) {
+      addRowBias(y, out, bias);
+    }
+    return y;
+  }
+
+  /**
+   * The product in plain Java. The loop order (i, k, j) streams rows of w, which the JIT
+   * vectorises, and zero inputs are skipped (sparse features cost less).
+   */
+  static float[] projectInJava(float[] x, int n, int in, float[] w, int out, float[] bias) {
+    assert x.length == (long) n * in && w.length == (long) in * out;
+    float[] y = new float[n * out];
+    for (int i = 0; i < n; i++) {
+      int yRow = i * out;
+      if (bias != null) {
+        System.arraycopy(bias, 0, y, yRow, out);
+      }
+      int xRow = i * in;
+      for (int k = 0; k < in; k++) {
+        float xv = x[xRow + k];
+        if (xv == 0f) {
+          continue;
+        }
+        int wRow = k * out;
+        for (int j = 0; j < out; j++) {
+          y[yRow + j] += xv * w[wRow + j];
+        }
+      }
+    }
+    return y;
+  }
+
+  /** {@code a += b}, element-wise. */
+  static void addInPlace(float[] a, float[] b) {
+    assert a.length == b.length;
+    for (int i = 0; i < a.length; i++) {
+      a[i] += b[i];
+    }
+  }
+
+  /** Adds {@code bias} (length width) to every row of the n × width array {@code a}. */
+  static void addRowBias(float[] a, int width, float[] bias) {
+    for (int start = 0; start < a.length; start += width) {
+      for (int j = 0; j < width; j++) {
+        a[start + j] += bias[j];
+      }
+    }
+  }
+
+  /**
+   * Layer normalisation of each row of the n × width array (Ba, Kiros, Hinton 2016, eq. 4: mean and
+   * biased variance over the row's features, then gain and bias), returning a new array; statistics
+   * in float64.
+   */
+  static float[] layerNorm(float[] x, int width, float[] scale, float[] shift, double epsilon) {
+    float[] y = new float[x.length];
+    for (int start = 0; start < x.length; start += width) {
+      double mean = 0;
+      for (int j = 0; j < width; j++) {
+        mean += x[start + j];
+      }
+      mean /= width;
+      double var = 0;
+      for (int j = 0; j < width; j++) {
+        double d = x[start + j] - mean;
+        var += d * d;
+      }
+      var /= width;
+      double inv = 1.0 / Math.sqrt(var + epsilon);
+      for (int j = 0; j < width; j++) {
+        y[start + j] = (float) ((x[start + j] - mean) * inv * scale[j] + shift[j]);
+      }
+    }
+    return y;
+  }
+
+  /** Softmax of each row of the n × width array in place, row maximum subtracted first. */
+  static void softmaxRows(float[] x, int width) {
+    for (int start = 0; start < x.length; start += width) {
+      float max = Float.NEGATIVE_INFINITY;
+      for (int j = 0; j < width; j++) {
+        max = Math.max(max, x[start + j]);
+      }
+      double sum = 0;
+      for (int j = 0; j < width; j++) {
+        double e = Math.exp(x[start + j] - max);
+        x[start + j] = (float) e;
+        sum += e;
+      }
+      float inv = (float) (1.0 / sum);
+      for (int j = 0; j < width; j++) {
+        x[start + j] *= inv;
+      }
+    }
+  }
+}

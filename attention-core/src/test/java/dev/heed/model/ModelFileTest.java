@@ -1,0 +1,245 @@
+package dev.heed.model;
+
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertThrows;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import com.fasterxml.jackson.databind.ObjectMapper;
+import com.fasterxml.jackson.databind.node.ArrayNode;
+import com.fasterxml.jackson.databind.node.ObjectNode;
+import dev.heed.npy.Npy;
+import dev.heed.npy.NpyArray;
+import dev.heed.npy.NpyLimits;
+import dev.heed.npy.Npz;
+import dev.heed.npy.NpzContents;
+import java.io.ByteArrayInputStream;
+import java.io.ByteArrayOutputStream;
+import java.io.IOException;
+import java.nio.ByteBuffer;
+import java.nio.ByteOrder;
+import java.nio.charset.StandardCharsets;
+import java.util.Arrays;
+import java.util.LinkedHashMap;
+import java.util.Map;
+import java.util.function.Consumer;
+import java.util.zip.CRC32;
+import java.util.zip.ZipEntry;
+import java.util.zip.ZipOutputStream;
+import org.junit.jupiter.api.Test;
+
+/**
+ * The model file format as docs/model-format.md specifies it: round trips are bit-identical, and
+ * every kind of malformed file gives a {@link ModelFormatException} naming the layer and tensor
+ * (none crashes the JVM). Malformed files are built by editing the NumPy-exported fixture.
+ */
+class ModelFileTest {
+
+  private static final ObjectMapper JSON = new ObjectMapper();
+
+  @Test
+  void readWriteReadIsBitIdentical() throws IOException {
+    byte[] original = TestModels.resource("mixed.heed");
+    AttentionModel first = TestModels.load(original);
+    byte[] written = ModelFile.toBytes(first);
+    AttentionModel second = TestModels.load(written);
+    assertArrayEquals(written, ModelFile.toBytes(second), "rewriting must give identical bytes");
+    for (int l = 0; l < first.layers().size(); l++) {
+      assertEquals(first.layers().get(l).tensors(), second.layers().get(l).tensors());
+    }
+    // NumPy wrote float32 tensors; ours are the same arrays, bit for bit.
+    NpzContents a = TestModels.fixtureContents();
+    NpzContents b = Npz.read(new ByteArrayInputStream(written), "w", NpyLimits.defaults());
+    assertEquals(a.arrays(), b.arrays());
+    assertEquals(first.classLabels(), second.classLabels());
+    assertEquals(first.featureNames(), second.featureNames());
+  }
+
+  private static ObjectNode description() throws IOException {
+    byte[] d = TestModels.fixtureContents().otherEntry(ModelFile.DESCRIPTION_ENTRY).orElseThrow();
+    return (ObjectNode) JSON.readTree(d);
+  }
+
+  private static ObjectNode layer(ObjectNode description, int index) {
+    return (ObjectNode) description.get("layers").get(index);
+  }
+
+  /** Loads the fixture after editing its description and arrays; returns the failure. */
+  private static ModelFormatException broken(
+      Consumer<ObjectNode> editDescription, Consumer<Map<String, NpyArray>> editArrays)
+      throws IOException {
+    ObjectNode d = description();
+    editDescription.accept(d);
+    Map<String, NpyArray> arrays = new LinkedHashMap<>(TestModels.fixtureContents().arrays());
+    editArrays.accept(arrays);
+    byte[] bytes = TestModels.modelBytes(JSON.writeValueAsBytes(d), arrays);
+    return assertThrows(ModelFormatException.class, () -> TestModels.load(bytes));
+  }
+
+  private static void assertMentions(ModelFormatException e, String... fragments) {
+    for (String f : fragments) {
+      assertTrue(e.getMessage().contains(f), "expected '" + f + "' in: " + e.getMessage());
+    }
+  }
+
+  private static final Consumer<ObjectNode> SAME = d -> {};
+  private static final Consumer<Map<String, NpyArray>> SAME_ARRAYS = a -> {};
+
+  @Test
+  void wrongTypeShapeAndNonFiniteWeightsNameLayerAndTensor() throws IOException {
+    ModelFormatException type =
+        broken(SAME, a -> a.put("gat1.weight", NpyArray.ofInts(new int[5 * 12], 5, 12)));
+    assertMentions(type, "layer 0 'gat1'", "tensor 'gat1.weight' (role weight)", "type <i4");
+    assertEquals("gat1", type.layer().orElseThrow());
+    assertEquals("gat1.weight", type.tensor().orElseThrow());
+
+    ModelFormatException shape =
+        broken(SAME, a -> a.put("full.key_weight", NpyArray.ofFloats(new float[12 * 11], 12, 11)));
+    assertMentions(shape, "layer 2 'full'", "full.key_weight", "shape [12, 11], expected [12, 12]");
+
+    float[] values = TestModels.fixtureContents().arrays().get("out.bias").toFloats();
+    values[1] = Float.NaN;
+    ModelFormatException nan = broken(SAME, a -> a.put("out.bias", NpyArray.ofFloats(values, 3)));
+    assertMentions(nan, "layer 4 'out'", "out.bias", "NaN at flat index 1");
+
+    double[] big = new double[3];
+    big[2] = 1e300;
+    ModelFormatException overflow =
+        broken(SAME, a -> a.put("out.bias", NpyArray.ofDoubles(big, 3)));
+    assertMentions(overflow, "out.bias", "beyond the float32 range");
+  }
+
+  @Test
+  void structuralErrorsAreNamed() throws IOException {
+    assertMentions(
+        broken(d -> layer(d, 1).put("kind", "graph_convolution"), SAME_ARRAYS),
+        "layer 1 'gat2'",
+        "unknown layer kind");
+    assertMentions(
+        broken(d -> d.put("format_version", 2), SAME_ARRAYS), "format version 2 is newer");
+    assertMentions(broken(d -> d.put("format", "other"), SAME_ARRAYS), "not a Heed model");
+    assertMentions(
+        broken(d -> layer(d, 0).put("residul", "none"), SAME_ARRAYS),
+        "layer 0 'gat1'",
+        "unknown key 'residul'");
+    assertMentions(
+        broken(d -> layer(d, 3).put("heads", 3), SAME_ARRAYS),
+        "layer 3 'masked'",
+        "masked.query_weight",
+        "expected [12, 15]");
+    assertMentions(
+        broken(
+            d -> {
+              d.put("input_features", 6);
+              d.remove("feature_names");
+            },
+            SAME_ARRAYS),
+        "gat1.weight",
+        "shape [5, 12], expected [6, 12]");
+    assertMentions(
+        broken(SAME, a -> a.remove("gat2.attention")),
+        "layer 1 'gat2'",
+        "tensor 'gat2.attention'",
+        "no entry");
+    assertMentions(
+        broken(SAME, a -> a.put("stray", NpyArray.ofFloats(new float[1], 1))),
+        "tensor 'stray' is not used");
+    assertMentions(
+        broken(d -> ((ArrayNode) d.get("class_labels")).add("delta"), SAME_ARRAYS),
+        "3 outputs per node but there are 4 class labels");
+    assertMentions(
+        broken(d -> ((ArrayNode) d.get("layers")).remove(5), SAME_ARRAYS),
+        "must be a softmax layer");
+    assertMentions(
+        broken(d -> layer(d, 0).put("activation", "tanh"), SAME_ARRAYS),
+        "'activation' is \"tanh\"");
+    assertMentions(
+        broken(d -> layer(d, 1).put("name", "gat1"), SAME_ARRAYS), "duplicate layer name 'gat1'");
+  }
+
+  /** Writes a zip by hand so entries can carry any bytes (here: a big-endian .npy). */
+  private static byte[] zipOf(Map<String, byte[]> entries) throws IOException {
+    ByteArrayOutputStream buffer = new ByteArrayOutputStream();
+    try (ZipOutputStream zip = new ZipOutputStream(buffer)) {
+      for (Map.Entry<String, byte[]> e : entries.entrySet()) {
+        zip.putNextEntry(new ZipEntry(e.getKey()));
+        zip.write(e.getValue());
+        zip.closeEntry();
+      }
+    }
+    return buffer.toByteArray();
+  }
+
+  @Test
+  void bigEndianTensorIsRejectedWithoutCrashing() throws IOException {
+    Map<String, byte[]> entries = new LinkedHashMap<>();
+    entries.put(ModelFile.DESCRIPTION_ENTRY, JSON.writeValueAsBytes(description()));
+    for (Map.Entry<String, NpyArray> e : TestModels.fixtureContents().arrays().entrySet()) {
+      byte[] npy = Npy.toBytes(e.getValue());
+      if (e.getKey().equals("gat2.attention")) {
+        String text = new String(npy, StandardCharsets.ISO_8859_1).replace("'<f4'", "'>f4'");
+        npy = text.getBytes(StandardCharsets.ISO_8859_1);
+      }
+      entries.put(e.getKey() + ".npy", npy);
+    }
+    ModelFormatException e =
+        assertThrows(ModelFormatException.class, () -> TestModels.load(zipOf(entries)));
+    assertMentions(e, "gat2.attention.npy", "big-endian");
+    assertEquals("gat2.attention", e.tensor().orElseThrow());
+  }
+
+  @Test
+  void truncatedFilesNeverLoad() throws IOException {
+    byte[] good = TestModels.resource("mixed.heed");
+    for (int cut : new int[] {0, 3, 30, 100, 1000, good.length / 2, good.length - 30}) {
+      byte[] truncated = Arrays.copyOf(good, cut);
+      assertThrows(ModelFormatException.class, () -> TestModels.load(truncated), "cut " + cut);
+    }
+  }
+
+  @Test
+  void hugeDeclaredSizeIsRejectedBeforeReading() {
+    byte[] name = ModelFile.DESCRIPTION_ENTRY.getBytes(StandardCharsets.UTF_8);
+    byte[] data = "{}".getBytes(StandardCharsets.UTF_8);
+    CRC32 crc = new CRC32();
+    crc.update(data);
+    ByteBuffer b =
+        ByteBuffer.allocate(30 + name.length + data.length).order(ByteOrder.LITTLE_ENDIAN);
+    b.putInt(0x04034b50).putShort((short) 20).putShort((short) 0).putShort((short) 0);
+    b.putShort((short) 0).putShort((short) 0x21).putInt((int) crc.getValue());
+    b.putInt(0x7FFF_FFF0).putInt(0x7FFF_FFF0); // declares ~2 GiB
+    b.putShort((short) name.length).putShort((short) 0).put(name).put(data);
+    ModelFormatException e =
+        assertThrows(ModelFormatException.class, () -> TestModels.load(b.array()));
+    assertMentions(e, "model.json", "declares");
+  }
+
+  @Test
+  void missingOrInvalidDescription() throws IOException {
+    byte[] none = Npz.toBytes(Map.of(), TestModels.fixtureContents().arrays());
+    assertMentions(
+        assertThrows(ModelFormatException.class, () -> TestModels.load(none)),
+        "no 'model.json' entry");
+    byte[] notJson =
+        TestModels.modelBytes("{\"format\": ".getBytes(StandardCharsets.UTF_8), Map.of());
+    assertMentions(
+        assertThrows(ModelFormatException.class, () -> TestModels.load(notJson)), "not valid JSON");
+  }
+
+  @Test
+  void buildsFromPartsInMemoryWithTheSameValidation() throws IOException {
+    NpzContents contents = TestModels.fixtureContents();
+    String description =
+        new String(
+            contents.otherEntry(ModelFile.DESCRIPTION_ENTRY).orElseThrow(), StandardCharsets.UTF_8);
+    AttentionModel model = ModelFile.fromParts(description, contents.arrays());
+    assertArrayEquals(
+        ModelFile.toBytes(TestModels.load(TestModels.resource("mixed.heed"))),
+        ModelFile.toBytes(model));
+    Map<String, NpyArray> missing = new LinkedHashMap<>(contents.arrays());
+    missing.remove("out.weight");
+    ModelFormatException e =
+        assertThrows(ModelFormatException.class, () -> ModelFile.fromParts(description, missing));
+    assertMentions(e, "layer 4 'out'", "out.weight");
+  }
+}
