@@ -1,5 +1,7 @@
 package dev.heed.classify;
 
+import dev.heed.model.LayerRun;
+import dev.heed.model.ModelOutput;
 import java.util.List;
 import java.util.NoSuchElementException;
 
@@ -13,10 +15,13 @@ public final class Classification {
 
   private final List<String> classLabels;
   private final List<NodePrediction> predictions;
+  private final List<LayerRun> layerRuns;
 
-  Classification(List<String> classLabels, List<NodePrediction> predictions) {
+  Classification(
+      List<String> classLabels, List<NodePrediction> predictions, List<LayerRun> layerRuns) {
     this.classLabels = List.copyOf(classLabels);
     this.predictions = List.copyOf(predictions);
+    this.layerRuns = List.copyOf(layerRuns);
   }
 
   /**
@@ -35,6 +40,16 @@ public final class Classification {
    */
   public List<NodePrediction> predictions() {
     return predictions;
+  }
+
+  /**
+   * Returns how each model layer ran in this call: the attention path it took and its wall-clock
+   * time (see {@link ModelOutput#layerRuns()}).
+   *
+   * @return an unmodifiable list, one entry per model layer in order
+   */
+  public List<LayerRun> layerRuns() {
+    return layerRuns;
   }
 
   /**

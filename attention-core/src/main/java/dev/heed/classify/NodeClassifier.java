@@ -158,7 +158,7 @@ public final class NodeClassifier {
       List<LayerExplanation> explanation = options.explain() ? explain(out, node) : null;
       predictions.add(new NodePrediction(node, p, top, explanation));
     }
-    return new Classification(labels, predictions);
+    return new Classification(labels, predictions, out.layerRuns());
   }
 
   private static List<LabelScore> topLabels(float[] p, List<String> labels, int k) {

@@ -178,9 +178,11 @@ public final class AttentionModel {
     float[] x = features;
     for (int index = 0; index < layers.size(); index++) {
       pass.startLayer(index);
+      long start = System.nanoTime();
       x = layers.get(index).forward(x, pass);
+      pass.endLayer(layers.get(index), Math.max(0, System.nanoTime() - start));
     }
-    return new ModelOutput(n, classLabels.size(), x, pass.attention());
+    return new ModelOutput(n, classLabels.size(), x, pass.attention(), pass.layerRuns());
   }
 
   @Override

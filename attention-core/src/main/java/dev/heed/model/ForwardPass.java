@@ -26,7 +26,9 @@ final class ForwardPass {
   private final KernelSource kernels;
   private final boolean keepAttention;
   private final List<LayerAttention> attention = new ArrayList<>();
+  private final List<LayerRun> layerRuns = new ArrayList<>();
   private int layerIndex;
+  private ComputePath layerPath;
 
   ForwardPass(
       AttentionPattern graph, PathChoice choice, KernelSource kernels, boolean keepAttention) {
@@ -39,6 +41,16 @@ final class ForwardPass {
 
   void startLayer(int index) {
     this.layerIndex = index;
+    this.layerPath = null;
+  }
+
+  /** Records how the current layer ran; call after {@link Layer#forward}. */
+  void endLayer(Layer layer, long nanos) {
+    layerRuns.add(new LayerRun(layerIndex, layer.name(), layer.kind(), layerPath, nanos));
+  }
+
+  List<LayerRun> layerRuns() {
+    return List.copyOf(layerRuns);
   }
 
   List<LayerAttention> attention() {
@@ -58,6 +70,7 @@ final class ForwardPass {
       float[] key,
       float[] value) {
     AttentionKernel kernel = kernelFor(pattern);
+    layerPath = kernel.path();
     float[] out = new float[nodeCount * shape.valueWidth()];
     float[] weights = null;
     if (keepAttention) {

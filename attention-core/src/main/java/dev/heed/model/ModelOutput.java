@@ -15,12 +15,19 @@ public final class ModelOutput {
   private final int width;
   private final float[] values;
   private final List<LayerAttention> attention;
+  private final List<LayerRun> layerRuns;
 
-  ModelOutput(int nodeCount, int width, float[] values, List<LayerAttention> attention) {
+  ModelOutput(
+      int nodeCount,
+      int width,
+      float[] values,
+      List<LayerAttention> attention,
+      List<LayerRun> layerRuns) {
     this.nodeCount = nodeCount;
     this.width = width;
     this.values = values;
     this.attention = List.copyOf(attention);
+    this.layerRuns = List.copyOf(layerRuns);
   }
 
   /**
@@ -85,5 +92,15 @@ public final class ModelOutput {
    */
   public List<LayerAttention> attention() {
     return attention;
+  }
+
+  /**
+   * Returns how each layer ran in this call (attention path and wall-clock time), one entry per
+   * layer in model order.
+   *
+   * @return an unmodifiable list of {@code model.layers().size()} entries
+   */
+  public List<LayerRun> layerRuns() {
+    return layerRuns;
   }
 }

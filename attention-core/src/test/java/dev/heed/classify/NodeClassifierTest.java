@@ -52,6 +52,10 @@ class NodeClassifierTest {
         NodeClassifier.of(model, SPARSE.withTopLabels(2)).classify(graph, features);
     ModelOutput direct = model.forward(graph, features.shared(), PathChoice.SPARSE, false);
     assertEquals(graph.nodeCount(), result.predictions().size());
+    assertEquals(model.layers().size(), result.layerRuns().size());
+    assertEquals(
+        direct.layerRuns().stream().map(r -> r.layerName() + r.path()).toList(),
+        result.layerRuns().stream().map(r -> r.layerName() + r.path()).toList());
     for (NodePrediction p : result.predictions()) {
       float[] probs = p.probabilities();
       assertArrayEquals(direct.row(p.node()), probs, 0f);

@@ -5,13 +5,18 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
+import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
 import dev.heed.attention.ReferenceAttentionKernel;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
 import java.io.IOException;
 import java.util.ArrayList;
 import java.util.List;
+import java.util.Optional;
 import org.junit.jupiter.api.Test;
 
 /** The documented AUTO rule, its fallback, and explicit paths that fail when absent. */
@@ -55,5 +60,79 @@ class PathChoiceTest {
             IllegalStateException.class,
             () -> onlySparse.forward(graph, x, PathChoice.DENSE, false));
     assertTrue(e.getMessage().contains("DENSE"), e.getMessage());
+  }
+
+  /** A reference kernel that reports the path it was asked for. */
+  private static AttentionKernel reporting(ComputePath path, AttentionKernel reference) {
+    return new AttentionKernel() {
+      @Override
+      public ComputePath path() {
+        return path;
+      }
+
+      @Override
+      public String describe() {
+        return "reference reporting " + path;
+      }
+
+      @Override
+      public void attend(
+          AttentionPattern pattern,
+          ScoreFunction score,
+          HeadShape shape,
+          float[] query,
+          float[] key,
+          float[] value,
+          float[] out,
+          float[] weights) {
+        reference.attend(pattern, score, shape, query, key, value, out, weights);
+      }
+    };
+  }
+
+  @Test
+  void layerRunsReportEachLayersPathIncludingTheAutoFallback() throws IOException {
+    AttentionModel base = TestModels.load(TestModels.resource("mixed.heed"));
+    ReferenceAttentionKernel reference = new ReferenceAttentionKernel();
+    AttentionModel both = base.withKernelSource(path -> reporting(path, reference));
+    CsrGraph graph = TestModels.fixtureGraph();
+    float[] x = TestModels.npyResource("features.npy").toFloats();
+    List<LayerRun> runs = both.forward(graph, x, PathChoice.AUTO, false).layerRuns();
+    assertEquals(base.layers().size(), runs.size());
+    for (int i = 0; i < runs.size(); i++) {
+      Layer layer = base.layers().get(i);
+      LayerRun run = runs.get(i);
+      assertEquals(i, run.layerIndex());
+      assertEquals(layer.name(), run.layerName());
+      assertEquals(layer.kind(), run.kind());
+      assertTrue(run.nanos() >= 0, run.toString());
+      if (layer.attentionHeads() == 0) {
+        assertTrue(run.path().isEmpty(), run.toString());
+      } else {
+        boolean complete = layer instanceof SelfAttentionLayer s && s.attendsToAllNodes();
+        ComputePath expected =
+            PathChoice.AUTO.pathFor(complete ? CompletePattern.of(graph.nodeCount()) : graph);
+        assertEquals(Optional.of(expected), run.path(), run.toString());
+      }
+    }
+    assertTrue(
+        runs.stream().anyMatch(r -> r.path().equals(Optional.of(ComputePath.DENSE))),
+        "the fixture's full self-attention goes DENSE under AUTO");
+    for (LayerRun run : both.forward(graph, x, PathChoice.SPARSE, false).layerRuns()) {
+      assertTrue(run.path().isEmpty() || run.path().get() == ComputePath.SPARSE, run.toString());
+    }
+    AttentionModel onlySparse =
+        base.withKernelSource(
+            path -> {
+              if (path == ComputePath.DENSE) {
+                throw new IllegalStateException("no attention kernel for the DENSE path");
+              }
+              return reporting(path, reference);
+            });
+    for (LayerRun run : onlySparse.forward(graph, x, PathChoice.AUTO, false).layerRuns()) {
+      assertTrue(
+          run.path().isEmpty() || run.path().get() == ComputePath.SPARSE,
+          "AUTO's fallback is reported: " + run);
+    }
   }
 }

@@ -1,0 +1,87 @@
+package dev.heed.model;
+
+import dev.heed.attention.ComputePath;
+import java.util.Objects;
+import java.util.Optional;
+
+/**
+ * How one layer ran in one {@link AttentionModel#forward} call: which attention path it took (for
+ * {@link PathChoice#AUTO}, after any fallback) and how long it took on the wall clock. For reports
+ * and diagnostics, such as the command-line tool's per-layer summary; not a benchmark (use JMH for
+ * that).
+ *
+ * <p>Thread safety: immutable.
+ */
+public final class LayerRun {
+
+  private final int layerIndex;
+  private final String layerName;
+  private final String kind;
+  private final ComputePath path;
+  private final long nanos;
+
+  LayerRun(int layerIndex, String layerName, String kind, ComputePath path, long nanos) {
+    this.layerIndex = layerIndex;
+    this.layerName = Objects.requireNonNull(layerName, "layerName");
+    this.kind = Objects.requireNonNull(kind, "kind");
+    this.path = path;
+    this.nanos = nanos;
+  }
+
+  /**
+   * Returns the layer's position in the model, from 0.
+   *
+   * @return the index
+   */
+  public int layerIndex() {
+    return layerIndex;
+  }
+
+  /**
+   * Returns the layer's name.
+   *
+   * @return the name
+   */
+  public String layerName() {
+    return layerName;
+  }
+
+  /**
+   * Returns the layer's kind as written in model files, for example {@code "graph_attention"}.
+   *
+   * @return the kind
+   */
+  public String kind() {
+    return kind;
+  }
+
+  /**
+   * Returns the path the layer's attention ran on.
+   *
+   * @return the path, or empty for a layer that does not attend (dense, softmax)
+   */
+  public Optional<ComputePath> path() {
+    return Optional.ofNullable(path);
+  }
+
+  /**
+   * Returns the layer's wall-clock time in this call, measured with {@link System#nanoTime()}
+   * around the whole layer (projections, attention, activation).
+   *
+   * @return nanoseconds, at least 0
+   */
+  public long nanos() {
+    return nanos;
+  }
+
+  @Override
+  public String toString() {
+    return layerName
+        + " ("
+        + kind
+        + (path == null ? "" : ", " + path)
+        + ", "
+        + String.format(java.util.Locale.ROOT, "%.3f s", nanos / 1e9)
+        + ")";
+  }
+}
