@@ -1,0 +1,335 @@
+package dev.heed.demo;
+
+import java.io.BufferedWriter;
+import java.io.IOException;
+import java.io.InputStream;
+import java.io.OutputStream;
+import java.io.OutputStreamWriter;
+import java.io.Writer;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.AtomicMoveNotSupportedException;
+import java.nio.file.Files;
+import java.nio.file.NoSuchFileException;
+import java.nio.file.Path;
+import java.nio.file.StandardCopyOption;
+import java.security.DigestOutputStream;
+import java.security.MessageDigest;
+import java.security.NoSuchAlgorithmException;
+import java.util.ArrayList;
+import java.util.HexFormat;
+import java.util.LinkedHashMap;
+import java.util.List;
+import java.util.Map;
+import java.util.Objects;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
+
+/**
+ * The demo's payments network as plain files in a cache directory, made on first use and checked on
+ * every later use, so the command-line demo reads them through the same code path as any user's
+ * files. All data is synthetic.
+ *
+ * <p>The files, UTF-8 CSV with a header line and {@code '\n'} line ends:
+ *
+ * <ul>
+ *   <li>{@value #TRANSFERS} ({@code source,target}): one line per transfer, account ids such as
+ *       {@code acct-000042}; money moves from source to target; repeats allowed;
+ *   <li>{@value #FEATURES} ({@code account,} then {@link PaymentsNetworkGenerator#FEATURE_NAMES}):
+ *       one line per account, the standardised features as float32 values written so that they read
+ *       back exactly;
+ *   <li>{@value #ROLES} ({@code account,role,split}): each account's role (one of {@link
+ *       PaymentsNetwork#ROLES}) and its split ({@code train}, {@code validation}, {@code test});
+ *   <li>{@value #MANIFEST}: the version, the generator's settings and the size and SHA-256 of each
+ *       file above, written last.
+ * </ul>
+ *
+ * <p>{@link #prepare(Path)} reuses the directory when the manifest matches the files; otherwise
+ * (missing, truncated, edited, from another version) it generates the network again and rewrites
+ * every file. Files are written under temporary names and moved into place, the manifest last, so
+ * an interrupted run leaves no manifest that vouches for half-written files.
+ *
+ * <p>Cost: checking reads and hashes about 20 MB; generating the bundled network takes a few
+ * seconds (O(n + T log n), see {@link PaymentsNetworkGenerator#generate()}).
+ *
+ * <p>Thread safety: immutable. Two processes preparing the same directory at once both write the
+ * same bytes; each file is replaced atomically where the file system allows it.
+ */
+public final class DemoFiles {
+
+  /** Version of the file set; also the default directory's name. */
+  public static final String VERSION = "demo-v1";
+
+  /** The transfers file name. */
+  public static final String TRANSFERS = "transfers.csv";
+
+  /** The features file name. */
+  public static final String FEATURES = "features.csv";
+
+  /** The roles-and-splits file name. */
+  public static final String ROLES = "roles.csv";
+
+  /** The manifest file name. */
+  public static final String MANIFEST = "manifest.txt";
+
+  private static final Logger LOG = LoggerFactory.getLogger(DemoFiles.class);
+  private static final String MANIFEST_FIRST_LINE = "heed demo files " + VERSION;
+
+  private final Path directory;
+  private final boolean generated;
+
+  private DemoFiles(Path directory, boolean generated) {
+    this.directory = directory;
+    this.generated = generated;
+  }
+
+  /**
+   * Returns the default directory: {@code ~/.cache/heed/demo-v1} (from the {@code user.home} system
+   * property).
+   *
+   * @return the path (not created)
+   */
+  public static Path defaultDirectory() {
+    return Path.of(System.getProperty("user.home"), ".cache", "heed", VERSION);
+  }
+
+  /**
+   * Makes sure {@code directory} holds the bundled demo's files ({@link
+   * PaymentsNetworkGenerator#bundledDemo()}), generating them if they are missing or do not match
+   * their manifest.
+   *
+   * @param directory the directory; created with its parents if needed
+   * @return the files
+   * @throws IOException if the directory or a file cannot be read or written
+   */
+  public static DemoFiles prepare(Path directory) throws IOException {
+    return prepare(
+        directory,
+        PaymentsNetworkGenerator.bundledDemo(),
+        "seed="
+            + PaymentsNetworkGenerator.DEFAULT_SEED
+            + " accounts="
+            + PaymentsNetworkGenerator.DEFAULT_ACCOUNTS
+            + " transfers="
+            + PaymentsNetworkGenerator.DEFAULT_TRANSFERS);
+  }
+
+  /** As {@link #prepare(Path)} with another generator (tests); {@code settings} names it. */
+  static DemoFiles prepare(Path directory, PaymentsNetworkGenerator generator, String settings)
+      throws IOException {
+    Objects.requireNonNull(directory, "directory");
+    Files.createDirectories(directory);
+    String header = MANIFEST_FIRST_LINE + "\ngenerator " + settings + "\n";
+    if (matchesManifest(directory, header)) {
+      return new DemoFiles(directory, false);
+    }
+    LOG.info("generating the demo files in {}", directory);
+    write(directory, generator.generate(), header);
+    return new DemoFiles(directory, true);
+  }
+
+  /**
+   * Returns the directory.
+   *
+   * @return the directory holding the files
+   */
+  public Path directory() {
+    return directory;
+  }
+
+  /**
+   * Returns the transfers file.
+   *
+   * @return {@code directory/transfers.csv}
+   */
+  public Path transfers() {
+    return directory.resolve(TRANSFERS);
+  }
+
+  /**
+   * Returns the features file.
+   *
+   * @return {@code directory/features.csv}
+   */
+  public Path features() {
+    return directory.resolve(FEATURES);
+  }
+
+  /**
+   * Returns the roles-and-splits file.
+   *
+   * @return {@code directory/roles.csv}
+   */
+  public Path roles() {
+    return directory.resolve(ROLES);
+  }
+
+  /**
+   * Returns whether {@link #prepare} generated the files in this call (rather than reusing them).
+   *
+   * @return true if they were (re)generated
+   */
+  public boolean generated() {
+    return generated;
+  }
+
+  private static boolean matchesManifest(Path directory, String header) throws IOException {
+    String manifest;
+    try {
+      manifest = Files.readString(directory.resolve(MANIFEST), StandardCharsets.UTF_8);
+    } catch (NoSuchFileException e) {
+      return false;
+    } catch (java.nio.charset.MalformedInputException e) {
+      LOG.warn("{} is not valid UTF-8; regenerating the demo files", directory.resolve(MANIFEST));
+      return false;
+    }
+    if (!manifest.startsWith(header)) {
+      LOG.warn(
+          "{} is from another version or other settings; regenerating the demo files",
+          directory.resolve(MANIFEST));
+      return false;
+    }
+    String[] lines = manifest.substring(header.length()).split("\n");
+    if (lines.length != 3) {
+      return false;
+    }
+    for (String line : lines) {
+      String[] f = line.split(" ");
+      if (f.length != 4 || !f[0].equals("sha256") || !f[3].matches("[0-9]{1,18}")) {
+        return false;
+      }
+      Path file = directory.resolve(f[1]);
+      if (!Files.isRegularFile(file) || Files.size(file) != Long.parseLong(f[3])) {
+        LOG.warn("{} is missing or has the wrong size; regenerating the demo files", file);
+        return false;
+      }
+      if (!sha256(file).equals(f[2])) {
+        LOG.warn("{} does not match its checksum; regenerating the demo files", file);
+        return false;
+      }
+    }
+    return true;
+  }
+
+  private static void write(Path directory, PaymentsNetwork network, String header)
+      throws IOException {
+    Map<String, String> digests = new LinkedHashMap<>();
+    Map<String, Long> sizes = new LinkedHashMap<>();
+    List<Path> temporary = new ArrayList<>();
+    try {
+      for (String name : List.of(TRANSFERS, FEATURES, ROLES)) {
+        Path tmp = Files.createTempFile(directory, "." + name + "-", ".tmp");
+        temporary.add(tmp);
+        MessageDigest digest = newDigest();
+        try (OutputStream raw = Files.newOutputStream(tmp);
+            DigestOutputStream hashed = new DigestOutputStream(raw, digest);
+            Writer out =
+                new BufferedWriter(
+                    new OutputStreamWriter(hashed, StandardCharsets.UTF_8), 1 << 16)) {
+          switch (name) {
+            case TRANSFERS -> writeTransfers(network, out);
+            case FEATURES -> writeFeatures(network, out);
+            default -> writeRoles(network, out);
+          }
+        }
+        digests.put(name, HexFormat.of().formatHex(digest.digest()));
+        sizes.put(name, Files.size(tmp));
+      }
+      for (int i = 0; i < temporary.size(); i++) {
+        move(temporary.get(i), directory.resolve(List.of(TRANSFERS, FEATURES, ROLES).get(i)));
+      }
+      StringBuilder manifest = new StringBuilder(header);
+      for (Map.Entry<String, String> e : digests.entrySet()) {
+        manifest
+            .append("sha256 ")
+            .append(e.getKey())
+            .append(' ')
+            .append(e.getValue())
+            .append(' ')
+            .append(sizes.get(e.getKey()))
+            .append('\n');
+      }
+      Path tmp = Files.createTempFile(directory, "." + MANIFEST + "-", ".tmp");
+      temporary.add(tmp);
+      Files.writeString(tmp, manifest, StandardCharsets.UTF_8);
+      move(tmp, directory.resolve(MANIFEST));
+    } finally {
+      for (Path tmp : temporary) {
+        Files.deleteIfExists(tmp);
+      }
+    }
+  }
+
+  private static void move(Path from, Path to) throws IOException {
+    try {
+      Files.move(from, to, StandardCopyOption.ATOMIC_MOVE, StandardCopyOption.REPLACE_EXISTING);
+    } catch (AtomicMoveNotSupportedException e) {
+      Files.move(from, to, StandardCopyOption.REPLACE_EXISTING);
+    }
+  }
+
+  private static void writeTransfers(PaymentsNetwork network, Writer out) throws IOException {
+    int[] sources = network.transferSources();
+    int[] targets = network.transferTargets();
+    out.write("source,target\n");
+    for (int e = 0; e < sources.length; e++) {
+      out.write(network.accountId(sources[e]));
+      out.write(',');
+      out.write(network.accountId(targets[e]));
+      out.write('\n');
+    }
+  }
+
+  private static void writeFeatures(PaymentsNetwork network, Writer out) throws IOException {
+    List<String> names = network.featureNames();
+    float[] x = network.features();
+    int f = names.size();
+    out.write("account," + String.join(",", names) + "\n");
+    for (int a = 0; a < network.accountCount(); a++) {
+      out.write(network.accountId(a));
+      for (int c = 0; c < f; c++) {
+        out.write(',');
+        // Float.toString gives a decimal that parses back to exactly this float32.
+        out.write(Float.toString(x[a * f + c]));
+      }
+      out.write('\n');
+    }
+  }
+
+  private static void writeRoles(PaymentsNetwork network, Writer out) throws IOException {
+    int[] roles = network.roles();
+    PaymentsNetwork.Split[] splits = network.splits();
+    out.write("account,role,split\n");
+    for (int a = 0; a < network.accountCount(); a++) {
+      out.write(network.accountId(a));
+      out.write(',');
+      out.write(PaymentsNetwork.ROLES.get(roles[a]));
+      out.write(',');
+      out.write(splits[a].name().toLowerCase(java.util.Locale.ROOT));
+      out.write('\n');
+    }
+  }
+
+  private static String sha256(Path file) throws IOException {
+    MessageDigest digest = newDigest();
+    byte[] buffer = new byte[1 << 16];
+    try (InputStream in = Files.newInputStream(file)) {
+      for (int r = in.read(buffer); r >= 0; r = in.read(buffer)) {
+        digest.update(buffer, 0, r);
+      }
+    }
+    return HexFormat.of().formatHex(digest.digest());
+  }
+
+  private static MessageDigest newDigest() {
+    try {
+      return MessageDigest.getInstance("SHA-256");
+    } catch (NoSuchAlgorithmException e) {
+      throw new IllegalStateException("SHA-256 is required of every Java platform", e);
+    }
+  }
+
+  @Override
+  public String toString() {
+    return "DemoFiles[" + directory + (generated ? ", generated" : ", reused") + "]";
+  }
+}

@@ -1,0 +1,142 @@
+package dev.heed.demo;
+
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import java.io.IOException;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.util.List;
+import java.util.Locale;
+import org.junit.jupiter.api.Test;
+import org.junit.jupiter.api.io.TempDir;
+
+/** The demo's cache files: contents that read back to the network, reuse, and regeneration. */
+class DemoFilesTest {
+
+  private static final long SEED = 11L;
+  private static final int ACCOUNTS = 1_000;
+  private static final int TRANSFERS = 4_000;
+
+  @TempDir Path dir;
+
+  private static DemoFiles prepare(Path directory) throws IOException {
+    return DemoFiles.prepare(
+        directory, PaymentsNetworkGenerator.of(ACCOUNTS, TRANSFERS, SEED), "test seed " + SEED);
+  }
+
+  @Test
+  void filesHoldTheNetworkExactly() throws IOException {
+    DemoFiles files = prepare(dir);
+    assertTrue(files.generated());
+    PaymentsNetwork network = PaymentsNetworkGenerator.of(ACCOUNTS, TRANSFERS, SEED).generate();
+
+    List<String> transfers = Files.readAllLines(files.transfers(), StandardCharsets.UTF_8);
+    assertEquals("source,target", transfers.get(0));
+    assertEquals(TRANSFERS + 1, transfers.size());
+    int[] sources = network.transferSources();
+    int[] targets = network.transferTargets();
+    for (int e = 0; e < TRANSFERS; e++) {
+      assertEquals(
+          network.accountId(sources[e]) + "," + network.accountId(targets[e]),
+          transfers.get(e + 1),
+          "transfer " + e);
+    }
+
+    List<String> features = Files.readAllLines(files.features(), StandardCharsets.UTF_8);
+    assertEquals(
+        "account," + String.join(",", PaymentsNetworkGenerator.FEATURE_NAMES), features.get(0));
+    assertEquals(ACCOUNTS + 1, features.size());
+    int f = PaymentsNetworkGenerator.FEATURE_NAMES.size();
+    float[] expected = network.features();
+    float[] read = new float[expected.length];
+    for (int a = 0; a < ACCOUNTS; a++) {
+      String[] fields = features.get(a + 1).split(",");
+      assertEquals(network.accountId(a), fields[0]);
+      assertEquals(f + 1, fields.length, "line " + (a + 2));
+      for (int c = 0; c < f; c++) {
+        read[a * f + c] = Float.parseFloat(fields[c + 1]);
+      }
+    }
+    assertArrayEquals(expected, read, 0f, "features read back bit for bit");
+
+    List<String> roles = Files.readAllLines(files.roles(), StandardCharsets.UTF_8);
+    assertEquals("account,role,split", roles.get(0));
+    int[] role = network.roles();
+    PaymentsNetwork.Split[] split = network.splits();
+    for (int a = 0; a < ACCOUNTS; a++) {
+      assertEquals(
+          network.accountId(a)
+              + ","
+              + PaymentsNetwork.ROLES.get(role[a])
+              + ","
+              + split[a].name().toLowerCase(Locale.ROOT),
+          roles.get(a + 1));
+    }
+  }
+
+  @Test
+  void sameSettingsGiveTheSameBytesAndAreReused() throws IOException {
+    DemoFiles first = prepare(dir.resolve("a"));
+    DemoFiles other = prepare(dir.resolve("b"));
+    for (String name : List.of(DemoFiles.TRANSFERS, DemoFiles.FEATURES, DemoFiles.ROLES)) {
+      assertArrayEquals(
+          Files.readAllBytes(first.directory().resolve(name)),
+          Files.readAllBytes(other.directory().resolve(name)),
+          name);
+    }
+    var modified = Files.getLastModifiedTime(first.transfers());
+    DemoFiles again = prepare(dir.resolve("a"));
+    assertFalse(again.generated(), "intact files are reused");
+    assertEquals(modified, Files.getLastModifiedTime(again.transfers()));
+  }
+
+  @Test
+  void damagedOrMissingFilesAreRegenerated() throws IOException {
+    DemoFiles files = prepare(dir);
+    byte[] transfers = Files.readAllBytes(files.transfers());
+    byte[] features = Files.readAllBytes(files.features());
+
+    // Truncated.
+    Files.write(files.transfers(), java.util.Arrays.copyOf(transfers, transfers.length / 2));
+    DemoFiles again = prepare(dir);
+    assertTrue(again.generated());
+    assertArrayEquals(transfers, Files.readAllBytes(files.transfers()));
+
+    // Same size, one byte changed.
+    byte[] edited = features.clone();
+    edited[edited.length / 2] = (byte) (edited[edited.length / 2] == '1' ? '2' : '1');
+    Files.write(files.features(), edited);
+    assertTrue(prepare(dir).generated());
+    assertArrayEquals(features, Files.readAllBytes(files.features()));
+
+    // Missing file, then missing manifest, then a manifest from other settings.
+    Files.delete(files.roles());
+    assertTrue(prepare(dir).generated());
+    Files.delete(dir.resolve(DemoFiles.MANIFEST));
+    assertTrue(prepare(dir).generated());
+    assertTrue(
+        DemoFiles.prepare(dir, PaymentsNetworkGenerator.of(ACCOUNTS, TRANSFERS, SEED), "other")
+            .generated());
+    assertFalse(
+        DemoFiles.prepare(dir, PaymentsNetworkGenerator.of(ACCOUNTS, TRANSFERS, SEED), "other")
+            .generated());
+
+    try (var listing = Files.list(dir)) {
+      assertEquals(
+          List.of(DemoFiles.FEATURES, DemoFiles.MANIFEST, DemoFiles.ROLES, DemoFiles.TRANSFERS),
+          listing.map(p -> p.getFileName().toString()).sorted().toList(),
+          "no temporary files left behind");
+    }
+  }
+
+  @Test
+  void defaultDirectoryIsUnderTheUsersCache() {
+    assertEquals(
+        Path.of(System.getProperty("user.home"), ".cache", "heed", DemoFiles.VERSION),
+        DemoFiles.defaultDirectory());
+  }
+}
