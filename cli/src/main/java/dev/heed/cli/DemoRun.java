@@ -59,6 +59,16 @@ final class DemoRun {
       Path csvOut,
       long start)
       throws IOException {
+    AttentionModel model;
+    String modelName;
+    if (modelFile != null) {
+      ClassifyRun.requireFile(modelFile, "--model");
+      model = ModelFile.read(modelFile);
+      modelName = modelFile.getFileName().toString();
+    } else {
+      model = bundledModel();
+      modelName = "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1);
+    }
     Path dir = directory != null ? directory : DemoFiles.defaultDirectory();
     long prepareStart = System.nanoTime();
     DemoFiles files;
@@ -70,16 +80,6 @@ final class DemoRun {
           HeedCli.EXIT_USER_ERROR);
     }
     double prepareSeconds = (System.nanoTime() - prepareStart) / 1e9;
-    AttentionModel model;
-    String modelName;
-    if (modelFile != null) {
-      ClassifyRun.requireFile(modelFile, "--model");
-      model = ModelFile.read(modelFile);
-      modelName = modelFile.getFileName().toString();
-    } else {
-      model = bundledModel();
-      modelName = "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1);
-    }
     ClassifyRun run =
         ClassifyRun.load(
             model,

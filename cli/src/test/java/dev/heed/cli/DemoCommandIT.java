@@ -1,0 +1,116 @@
+package dev.heed.cli;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+import static org.junit.jupiter.api.Assumptions.assumeTrue;
+
+import dev.heed.demo.DemoFiles;
+import dev.heed.demo.PaymentsNetwork;
+import dev.heed.demo.PaymentsNetworkGenerator;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.util.HashMap;
+import java.util.List;
+import java.util.Locale;
+import java.util.Map;
+import java.util.regex.Matcher;
+import java.util.regex.Pattern;
+import java.util.zip.ZipFile;
+import org.junit.jupiter.api.Test;
+import org.junit.jupiter.api.io.TempDir;
+
+/**
+ * {@code heed classify --demo} through the real jar. The demo files are generated once for the
+ * class. The plumbing (file generation, the classify path, accuracy and recall arithmetic, the
+ * explained predictions, the caution) is checked with a demo-shaped model of random weights; the
+ * bundled model's own run is checked when the jar has it.
+ */
+class DemoCommandIT {
+
+  private static final Pattern ACCURACY = Pattern.compile("accuracy +([0-9.]+)");
+
+  @TempDir static Path shared;
+
+  @Test
+  void demoReportsHeldOutAccuracyRecallAndExplainedPredictions() throws Exception {
+    Path model =
+        CliFixtures.demoShapedModel(
+            shared.resolve("random-demo-shaped.heed"),
+            PaymentsNetworkGenerator.FEATURE_NAMES,
+            PaymentsNetwork.ROLES,
+            7L);
+    Path predictions = shared.resolve("predictions.csv");
+    CliProcess.Result r =
+        CliProcess.run(
+            shared,
+            "classify",
+            "--demo",
+            "--demo-dir",
+            shared.resolve("demo").toString(),
+            "--model",
+            model.toString(),
+            "--threads",
+            "2",
+            "--out",
+            predictions.toString());
+    assertEquals(0, r.exitCode(), r.toString());
+    String out = r.stdout();
+    assertTrue(
+        Files.isRegularFile(shared.resolve("demo").resolve(DemoFiles.MANIFEST)), r.toString());
+    assertTrue(out.contains("synthetic data"), out);
+    assertTrue(out.contains("500,000 transfers"), out);
+    assertTrue(out.contains("Caution: these are model scores"), out);
+    for (String role : PaymentsNetwork.ROLES) {
+      assertTrue(out.contains("recall") && out.contains(role + " "), role + ":\n" + out);
+    }
+    assertEquals(
+        3,
+        out.lines().filter(l -> l.matches("  acct-[0-9]{6} +mule-ring [0-9.]+ .*")).count(),
+        out);
+    assertTrue(out.lines().anyMatch(l -> l.matches(" {6}acct-[0-9]{6} +weight [0-9.]+ .*")), out);
+    assertTrue(r.stderr().contains("transfers.csv"), r.toString());
+
+    // The printed accuracy, recomputed from the written predictions and roles.csv.
+    Map<String, String[]> roles = new HashMap<>();
+    for (String line :
+        Files.readAllLines(shared.resolve("demo").resolve(DemoFiles.ROLES), StandardCharsets.UTF_8)
+            .subList(1, 50_001)) {
+      String[] f = line.split(",");
+      roles.put(f[0], f);
+    }
+    List<String[]> rows =
+        CliFixtures.csvRows(Files.readString(predictions, StandardCharsets.UTF_8));
+    int test = 0;
+    int right = 0;
+    for (String[] row : rows.subList(1, rows.size())) {
+      String[] truth = roles.get(row[0]);
+      if (truth[2].equals("test")) {
+        test++;
+        right += truth[1].equals(row[1]) ? 1 : 0;
+      }
+    }
+    Matcher m = ACCURACY.matcher(out);
+    assertTrue(m.find(), out);
+    assertEquals(String.format(Locale.ROOT, "%.3f", (double) right / test), m.group(1), out);
+    assertTrue(out.contains(String.format(Locale.ROOT, "%,d", test)), out);
+  }
+
+  @Test
+  void bundledDemoModelRuns() throws Exception {
+    try (ZipFile jar = new ZipFile(System.getProperty("heed.cli.jar"))) {
+      assumeTrue(
+          jar.getEntry(DemoRun.MODEL_RESOURCE.substring(1)) != null,
+          "awaits the bundled demo model " + DemoRun.MODEL_RESOURCE);
+    }
+    CliProcess.Result r =
+        CliProcess.run(
+            shared, "classify", "--demo", "--demo-dir", shared.resolve("demo").toString());
+    assertEquals(0, r.exitCode(), r.toString());
+    Matcher m = ACCURACY.matcher(r.stdout());
+    assertTrue(m.find(), r.toString());
+    double accuracy = Double.parseDouble(m.group(1));
+    assertTrue(accuracy > 0.5 && accuracy <= 1, r.toString());
+    assertTrue(r.stdout().contains("Caution"), r.toString());
+  }
+}
