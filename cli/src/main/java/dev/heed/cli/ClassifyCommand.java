@@ -27,6 +27,8 @@ import picocli.CommandLine.Spec;
  */
 @Command(
     name = "classify",
+    mixinStandardHelpOptions = true,
+    versionProvider = HeedCli.Version.class,
     sortOptions = false,
     description = {
       "Classify the nodes of a graph with a model: predictions as CSV (stdout or --out), a"

@@ -30,6 +30,8 @@ import picocli.CommandLine.Spec;
  */
 @Command(
     name = "inspect",
+    mixinStandardHelpOptions = true,
+    versionProvider = HeedCli.Version.class,
     description =
         "Describe a model file: format version, features, labels, layers, tensor shapes and"
             + " parameter counts. The file is fully validated first.")

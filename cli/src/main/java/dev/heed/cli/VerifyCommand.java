@@ -27,6 +27,8 @@ import picocli.CommandLine.Spec;
  */
 @Command(
     name = "verify",
+    mixinStandardHelpOptions = true,
+    versionProvider = HeedCli.Version.class,
     description =
         "Check every kernel against a float64 reference on fresh random inputs; non-zero exit if any"
             + " error exceeds the tolerance.")

@@ -20,7 +20,12 @@ class HeedCliIT {
     assertTrue(r.stdout().startsWith("heed "), r.toString());
     r = CliProcess.run(dir, "--help");
     assertEquals(0, r.exitCode(), r.toString());
-    assertTrue(r.stdout().contains("verify"), r.toString());
+    for (String verb : new String[] {"classify", "inspect", "verify"}) {
+      assertTrue(r.stdout().contains(verb), verb + ":\n" + r);
+      CliProcess.Result help = CliProcess.run(dir, verb, "--help");
+      assertEquals(0, help.exitCode(), help.toString());
+      assertTrue(help.stdout().startsWith("Usage: heed " + verb), help.toString());
+    }
   }
 
   @Test
