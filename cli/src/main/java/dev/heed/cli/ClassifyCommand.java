@@ -100,7 +100,8 @@ final class ClassifyCommand implements Callable<Integer> {
       names = "--demo",
       description =
           "Run the bundled demo: invented payments network, demo model (or --model), accuracy on"
-              + " the held-out accounts, three explained predictions.")
+              + " the held-out accounts, three explained predictions (--explain K neighbours"
+              + " each, default 5; --out FILE also writes every prediction).")
   boolean demo;
 
   @Option(

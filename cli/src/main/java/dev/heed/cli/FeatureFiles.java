@@ -188,8 +188,8 @@ final class FeatureFiles {
     }
     if (unknown > 0) {
       err.printf(
-          "heed: note: %s: passed over %d ids that are not in the graph (first: '%s' on line"
-              + " %d)%n",
+          "heed: note: %s: passed over %d ids that are not in the graph, such as nodes with no"
+              + " edges (first: '%s' on line %d)%n",
           file, unknown, firstUnknown, firstUnknownLine);
     }
     return NodeFeatures.ofRowMajor(values, n, f);
