@@ -139,8 +139,7 @@ final class ClassifyCommand implements Callable<Integer> {
     ClassifyRun.requireFile(model, "--model");
     AttentionModel m = ModelFile.read(model);
     ClassifyRun run =
-        ClassifyRun.load(
-            m, model.getFileName().toString(), graph, features, graphOptions, threads, err);
+        ClassifyRun.load(m, model.getFileName().toString(), graph, features, graphOptions, threads);
     int[] chosen = nodes == null ? null : run.indicesOf(nodes);
     long classifyStart = System.nanoTime();
     Classification result = run.classify(chosen, pathChoice, explain);

@@ -33,7 +33,10 @@ final class ClassifyRun {
   private final Path graphFile;
   private final Path featuresFile;
   private final GraphFileOptions graphOptions;
-  private final EdgeListResult<String> graph;
+  private final CsrGraph graph;
+  private final NodeIndex<String> nodes;
+  private final long edgeLines;
+  private final int edgeless;
   private final NodeFeatures features;
   private final double graphSeconds;
   private final double featureSeconds;
@@ -44,8 +47,8 @@ final class ClassifyRun {
       Path graphFile,
       Path featuresFile,
       GraphFileOptions graphOptions,
-      EdgeListResult<String> graph,
-      NodeFeatures features,
+      EdgeListResult<String> read,
+      FeatureFiles.Read features,
       double graphSeconds,
       double featureSeconds) {
     this.model = model;
@@ -53,8 +56,16 @@ final class ClassifyRun {
     this.graphFile = graphFile;
     this.featuresFile = featuresFile;
     this.graphOptions = graphOptions;
-    this.graph = graph;
-    this.features = features;
+    List<String> extra = features.edgeless();
+    this.graph =
+        EdgelessNodes.extend(
+            read.graph(),
+            extra.size(),
+            graphOptions.selfLoopPolicy() == dev.heed.graph.SelfLoopPolicy.ADD);
+    this.nodes = EdgelessNodes.extend(read.nodes(), extra);
+    this.edgeLines = read.edgeLines();
+    this.edgeless = extra.size();
+    this.features = features.features();
     this.graphSeconds = graphSeconds;
     this.featureSeconds = featureSeconds;
   }
@@ -66,8 +77,7 @@ final class ClassifyRun {
       Path graphFile,
       Path featuresFile,
       GraphFileOptions graphOptions,
-      Integer threads,
-      PrintWriter err)
+      Integer threads)
       throws IOException {
     requireFile(graphFile, "--graph");
     requireFile(featuresFile, "--features");
@@ -83,8 +93,8 @@ final class ClassifyRun {
       throw new CliException(graphFile + ": no edges in the file", HeedCli.EXIT_USER_ERROR);
     }
     long read = System.nanoTime();
-    NodeFeatures features =
-        FeatureFiles.read(featuresFile, graphOptions.delimiterSetting(), graph.nodes(), model, err);
+    FeatureFiles.Read features =
+        FeatureFiles.read(featuresFile, graphOptions.delimiterSetting(), graph.nodes(), model);
     long done = System.nanoTime();
     return new ClassifyRun(
         model,
@@ -110,16 +120,16 @@ final class ClassifyRun {
   }
 
   NodeIndex<String> nodes() {
-    return graph.nodes();
+    return nodes;
   }
 
   CsrGraph graph() {
-    return graph.graph();
+    return graph;
   }
 
   /** The number of edge lines read from the graph file. */
   long edgeLines() {
-    return graph.edgeLines();
+    return edgeLines;
   }
 
   AttentionModel model() {
@@ -132,7 +142,7 @@ final class ClassifyRun {
     List<String> unknown = new ArrayList<>();
     int unknownCount = 0;
     for (int i = 0; i < ids.size(); i++) {
-      indices[i] = graph.nodes().indexOf(ids.get(i));
+      indices[i] = nodes.indexOf(ids.get(i));
       if (indices[i] < 0 && unknownCount++ < 5) {
         unknown.add("'" + ids.get(i) + "'");
       }
@@ -161,8 +171,8 @@ final class ClassifyRun {
     }
     NodeClassifier classifier = NodeClassifier.of(model, options);
     return nodeIndices == null
-        ? classifier.classify(graph.graph(), features)
-        : classifier.classify(graph.graph(), features, nodeIndices);
+        ? classifier.classify(graph, features)
+        : classifier.classify(graph, features, nodeIndices);
   }
 
   /**
@@ -178,7 +188,7 @@ final class ClassifyRun {
     out.write(line.append('\n').toString());
     for (NodePrediction p : result.predictions()) {
       line.setLength(0);
-      line.append(TextFields.csv(graph.nodes().idOf(p.node())))
+      line.append(TextFields.csv(nodes.idOf(p.node())))
           .append(',')
           .append(TextFields.csv(p.label()))
           .append(',')
@@ -188,7 +198,7 @@ final class ClassifyRun {
         for (int k = 0; k < explainK; k++) {
           if (k < top.size()) {
             line.append(',')
-                .append(TextFields.csv(graph.nodes().idOf(top.get(k).node())))
+                .append(TextFields.csv(nodes.idOf(top.get(k).node())))
                 .append(',')
                 .append(String.format(Locale.ROOT, "%.6f", top.get(k).weight()));
           } else {
@@ -210,15 +220,24 @@ final class ClassifyRun {
   /** Prints the summary: sizes, per-layer path and time, totals. */
   void printSummary(
       Classification result, double classifySeconds, double totalSeconds, PrintWriter err) {
-    CsrGraph g = graph.graph();
     err.printf(
         Locale.ROOT,
         "heed classify: %,d nodes, %,d edges (attention entries; %,d lines of %s, %s)%n",
-        g.nodeCount(),
-        g.entryCount(),
-        graph.edgeLines(),
+        graph.nodeCount(),
+        graph.entryCount(),
+        edgeLines,
         graphFile.getFileName(),
         graphOptions.describePolicies());
+    if (edgeless > 0) {
+      err.printf(
+          Locale.ROOT,
+          "  %,d of the nodes appear only in %s (no edges): they attend to %s%n",
+          edgeless,
+          featuresFile.getFileName(),
+          graphOptions.selfLoopPolicy() == dev.heed.graph.SelfLoopPolicy.ADD
+              ? "themselves only"
+              : "nothing");
+    }
     err.printf(
         Locale.ROOT,
         "  features: %d per node from %s; model %s, %d threads%n",

@@ -87,8 +87,7 @@ final class DemoRun {
             files.transfers(),
             files.features(),
             GraphFileOptions.defaults(),
-            threads,
-            err);
+            threads);
     long classifyStart = System.nanoTime();
     Classification all = run.classify(null, path, 0);
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;

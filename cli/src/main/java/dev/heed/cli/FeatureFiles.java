@@ -5,13 +5,14 @@ import dev.heed.graph.NodeIndex;
 import dev.heed.model.AttentionModel;
 import java.io.BufferedReader;
 import java.io.IOException;
-import java.io.PrintWriter;
 import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
+import java.util.LinkedHashMap;
 import java.util.List;
 import java.util.Locale;
+import java.util.Map;
 
 /**
  * Reads node features for {@code heed classify}, lined up with the graph's nodes.
@@ -26,7 +27,8 @@ import java.util.Locale;
  *       lines and lines starting with # are passed over; there is no quoting.
  * </ul>
  *
- * Every graph node needs a row; ids that are not in the graph are reported and passed over.
+ * Every graph node needs a row. With a text file, an id that is not in the graph is a node without
+ * edges: it is added after the graph's nodes (see {@link ClassifyRun}).
  */
 final class FeatureFiles {
 
@@ -34,12 +36,13 @@ final class FeatureFiles {
 
   private FeatureFiles() {}
 
-  static NodeFeatures read(
-      Path file,
-      char delimiterSetting,
-      NodeIndex<String> nodes,
-      AttentionModel model,
-      PrintWriter err)
+  /**
+   * Features for the graph's n nodes (rows 0..n-1) followed by one row per id of the features file
+   * that is not in the graph (a node without edges), in file order; {@code edgeless} lists those.
+   */
+  record Read(NodeFeatures features, List<String> edgeless) {}
+
+  static Read read(Path file, char delimiterSetting, NodeIndex<String> nodes, AttentionModel model)
       throws IOException {
     int f = model.inputFeatureCount();
     if (file.getFileName().toString().toLowerCase(Locale.ROOT).endsWith(".npy")) {
@@ -66,23 +69,21 @@ final class FeatureFiles {
                 + " of first appearance in the edge list), or use a CSV file with an id column",
             HeedCli.EXIT_USER_ERROR);
       }
-      return features;
+      return new Read(features, List.of());
     }
-    return readText(file, TextFields.delimiterOf(file, delimiterSetting), nodes, model, err);
+    return readText(file, TextFields.delimiterOf(file, delimiterSetting), nodes, model);
   }
 
-  private static NodeFeatures readText(
-      Path file, char delimiter, NodeIndex<String> nodes, AttentionModel model, PrintWriter err)
-      throws IOException {
+  private static Read readText(
+      Path file, char delimiter, NodeIndex<String> nodes, AttentionModel model) throws IOException {
     int n = nodes.size();
     int f = model.inputFeatureCount();
     float[] values = new float[Math.multiplyExact(n, f)];
     long[] lineOf = new long[n];
     long line = 0;
     boolean first = true;
-    long unknown = 0;
-    String firstUnknown = null;
-    long firstUnknownLine = 0;
+    Map<String, Long> edgelessLines = new LinkedHashMap<>();
+    List<float[]> edgelessRows = new ArrayList<>();
     try (BufferedReader in = Files.newBufferedReader(file, StandardCharsets.UTF_8)) {
       for (String text = in.readLine(); text != null; text = in.readLine()) {
         line++;
@@ -116,15 +117,14 @@ final class FeatureFiles {
               HeedCli.EXIT_USER_ERROR);
         }
         String id = fields.get(0);
-        int node = id.isEmpty() ? -1 : nodes.indexOf(id);
-        if (node < 0) {
-          if (unknown++ == 0) {
-            firstUnknown = id;
-            firstUnknownLine = line;
-          }
-          continue;
+        if (id.isEmpty()) {
+          throw new CliException(
+              file + ", line " + line + ": the node id (field 1) is empty",
+              HeedCli.EXIT_USER_ERROR);
         }
-        if (lineOf[node] != 0) {
+        int node = nodes.indexOf(id);
+        long earlier = node >= 0 ? lineOf[node] : edgelessLines.getOrDefault(id, 0L);
+        if (earlier != 0) {
           throw new CliException(
               file
                   + ", line "
@@ -132,34 +132,17 @@ final class FeatureFiles {
                   + ": node '"
                   + id
                   + "' already has features on line "
-                  + lineOf[node],
+                  + earlier,
               HeedCli.EXIT_USER_ERROR);
         }
-        lineOf[node] = line;
-        for (int c = 0; c < f; c++) {
-          String v = fields.get(c + 1);
-          float x;
-          try {
-            x = Float.parseFloat(v);
-          } catch (NumberFormatException e) {
-            x = Float.NaN;
-          }
-          if (!Float.isFinite(x)) {
-            throw new CliException(
-                file
-                    + ", line "
-                    + line
-                    + ": feature "
-                    + (c + 1)
-                    + " of node '"
-                    + id
-                    + "' is '"
-                    + v
-                    + "', not a finite number",
-                HeedCli.EXIT_USER_ERROR);
-          }
-          values[node * f + c] = x;
+        float[] row = parseRow(file, line, id, fields, f);
+        if (node < 0) {
+          edgelessLines.put(id, line);
+          edgelessRows.add(row);
+          continue;
         }
+        System.arraycopy(row, 0, values, node * f, f);
+        lineOf[node] = line;
       }
     } catch (java.nio.charset.MalformedInputException e) {
       throw new CliException(
@@ -186,13 +169,44 @@ final class FeatureFiles {
               + "; every node in the graph needs a line",
           HeedCli.EXIT_USER_ERROR);
     }
-    if (unknown > 0) {
-      err.printf(
-          "heed: note: %s: passed over %d ids that are not in the graph, such as nodes with no"
-              + " edges (first: '%s' on line %d)%n",
-          file, unknown, firstUnknown, firstUnknownLine);
+    int k = edgelessRows.size();
+    float[] all = values;
+    if (k > 0) {
+      all = java.util.Arrays.copyOf(values, Math.multiplyExact(n + k, f));
+      for (int i = 0; i < k; i++) {
+        System.arraycopy(edgelessRows.get(i), 0, all, (n + i) * f, f);
+      }
     }
-    return NodeFeatures.ofRowMajor(values, n, f);
+    return new Read(NodeFeatures.ofRowMajor(all, n + k, f), List.copyOf(edgelessLines.keySet()));
+  }
+
+  private static float[] parseRow(Path file, long line, String id, List<String> fields, int f) {
+    float[] row = new float[f];
+    for (int c = 0; c < f; c++) {
+      String v = fields.get(c + 1);
+      float x;
+      try {
+        x = Float.parseFloat(v);
+      } catch (NumberFormatException e) {
+        x = Float.NaN;
+      }
+      if (!Float.isFinite(x)) {
+        throw new CliException(
+            file
+                + ", line "
+                + line
+                + ": feature "
+                + (c + 1)
+                + " of node '"
+                + id
+                + "' is '"
+                + v
+                + "', not a finite number",
+            HeedCli.EXIT_USER_ERROR);
+      }
+      row[c] = x;
+    }
+    return row;
   }
 
   /** A header has a field after the id that is not a number. */

@@ -222,6 +222,36 @@ class ClassifyCommandIT {
   }
 
   @Test
+  void nodesOnlyInTheFeaturesFileAreClassifiedFromTheirOwnFeatures() throws Exception {
+    CliFixtures.Data data = data();
+    Path model = CliFixtures.mixedModel(dir);
+    Path graph = data.writeEdges(dir.resolve("g.csv"), ",", true);
+    Path features = data.writeFeaturesCsv(dir.resolve("x.csv"), CliFixtures.MIXED_FEATURES);
+    Files.writeString(
+        features, "loner,0.5,-0.25,0.125,1,-1\n", java.nio.file.StandardOpenOption.APPEND);
+    CliProcess.Result r =
+        CliProcess.run(
+            dir,
+            "classify",
+            "--model",
+            model.toString(),
+            "--graph",
+            graph.toString(),
+            "--features",
+            features.toString(),
+            "--explain",
+            "2");
+    assertEquals(0, r.exitCode(), r.toString());
+    List<String[]> rows = CliFixtures.csvRows(r.stdout());
+    assertEquals(42, rows.size(), r.toString());
+    String[] loner = rows.get(41);
+    // With self-loops added, a node without edges attends to itself alone, with weight 1.
+    assertEquals(List.of("loner", "1.000000", "", ""), List.of(loner).subList(3, 7), r.toString());
+    assertTrue(r.stderr().contains("41 nodes"), r.toString());
+    assertTrue(r.stderr().contains("1 of the nodes appear only in x.csv"), r.toString());
+  }
+
+  @Test
   void errorsAreOneLineWithTheRightExitCode() throws Exception {
     CliFixtures.Data data = data();
     Path model = CliFixtures.mixedModel(dir);
