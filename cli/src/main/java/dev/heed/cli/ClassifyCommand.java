@@ -141,6 +141,7 @@ final class ClassifyCommand implements Callable<Integer> {
     ClassifyRun run =
         ClassifyRun.load(m, model.getFileName().toString(), graph, features, graphOptions, threads);
     int[] chosen = nodes == null ? null : run.indicesOf(nodes);
+    warnIfDenseIsCostly(pathChoice, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();
     Classification result = run.classify(chosen, pathChoice, explain);
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;
@@ -166,6 +167,18 @@ final class ClassifyCommand implements Callable<Integer> {
         new BufferedWriter(
             new OutputStreamWriter(Files.newOutputStream(file), StandardCharsets.UTF_8), 1 << 16)) {
       run.writeCsv(result, explain, w);
+    }
+  }
+
+  /** An explicit dense path over a large graph works in n² per head; say so before it starts. */
+  static void warnIfDenseIsCostly(PathChoice choice, int nodeCount, PrintWriter err) {
+    if (choice == PathChoice.DENSE && nodeCount > PathChoice.AUTO_DENSE_MAX_NODES) {
+      err.printf(
+          Locale.ROOT,
+          "heed: note: --path dense on %,d nodes: the dense path's work grows with n² per head"
+              + " whatever the edges, so this may take long; --path auto picks per layer%n",
+          nodeCount);
+      err.flush();
     }
   }
 

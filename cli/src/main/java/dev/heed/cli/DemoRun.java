@@ -88,6 +88,7 @@ final class DemoRun {
             files.features(),
             GraphFileOptions.defaults(),
             threads);
+    ClassifyCommand.warnIfDenseIsCostly(path, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();
     Classification all = run.classify(null, path, 0);
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;
