@@ -55,11 +55,13 @@ import java.util.Objects;
  * <p><b>Memory and cost.</b> The file is read twice: the first pass collects the ids and counts the
  * entries of every row, the second places each edge straight into the final column array (a
  * counting sort by target), so no per-edge array other than the graph's own columns is ever held;
- * rows are then sorted in place and duplicates merged in place (plus a trimmed copy of the columns
- * when some were merged). Peak memory is the finished graph plus the id map plus a read buffer, and
- * at most one more column array while trimming. Time: O(file size + n + E). The file must not
- * change while it is read; a change between the passes is detected (by size, modification time and
- * a checksum of the edges) and fails the build.
+ * rows are then sorted in place and duplicates merged in place. When at most 1/8 of the entries
+ * were merged away, the graph keeps that unused tail rather than copying, and the peak heap is
+ * about the finished graph plus the id map plus a 64 KiB read buffer; when more were merged (say a
+ * file that lists every edge twice), the columns are copied once to size and the peak briefly holds
+ * both copies. Time: O(file size + n + E). The file must not change while it is read; a change
+ * between the passes is detected (by size, modification time and a checksum of the edges) and fails
+ * the build.
  *
  * <p>Defaults: {@link #DEFAULT_DELIMITER}, {@link #DEFAULT_COMMENT_PREFIX}, no header, strict (not
  * lenient), {@link #DEFAULT_SELF_LOOPS}, {@link #DEFAULT_DIRECTION}, {@link #DEFAULT_DUPLICATES}.
