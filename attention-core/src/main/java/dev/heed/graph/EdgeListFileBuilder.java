@@ -13,6 +13,8 @@ import java.nio.file.attribute.FileTime;
 import java.util.ArrayList;
 import java.util.List;
 import java.util.Objects;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
 
 /**
  * Builds a {@link CsrGraph} from an edge-list file: one edge {@code source<delimiter>target} per
@@ -86,6 +88,8 @@ public final class EdgeListFileBuilder<V> {
 
   /** Default duplicate policy: {@link DuplicatePolicy#MERGE}. */
   public static final DuplicatePolicy DEFAULT_DUPLICATES = DuplicatePolicy.MERGE;
+
+  private static final Logger LOG = LoggerFactory.getLogger(EdgeListFileBuilder.class);
 
   private static final int BUFFER_BYTES = 1 << 16;
   private static final int EXCERPT_CHARS = 60;
@@ -290,6 +294,21 @@ public final class EdgeListFileBuilder<V> {
         source.skippedCount == 0
             ? SkippedLines.NONE
             : new SkippedLines(source.skippedCount, source.skippedFirst);
+    if (skipped.count() > 0) {
+      SkippedLines.Line first = skipped.first().get(0);
+      LOG.warn(
+          "lenient read of {} skipped {} malformed lines; the first, line {}: {}",
+          file,
+          skipped.count(),
+          first.lineNumber(),
+          first.reason());
+    }
+    LOG.debug(
+        "read {}: {} edge lines, {} nodes, {} entries",
+        file,
+        source.edgeLines,
+        graph.nodeCount(),
+        graph.edgeCount());
     return new EdgeListResult<>(graph, (NodeIndex<V>) nodes, source.edgeLines, skipped);
   }
 
