@@ -660,11 +660,16 @@ public final class EdgeListFileBuilder<V> {
                   + (idKind == IdKind.INDEX ? "" : "; use stringIds for text ids");
           return 0;
         }
-        if (value < (Long.MIN_VALUE + d) / 10) {
+        if (value < Long.MIN_VALUE / 10) {
           problem = "the " + role + " id does not fit in a 64-bit integer";
           return 0;
         }
-        value = value * 10 - d;
+        value *= 10;
+        if (value < Long.MIN_VALUE + d) {
+          problem = "the " + role + " id does not fit in a 64-bit integer";
+          return 0;
+        }
+        value -= d;
       }
       if (!negative) {
         if (value == Long.MIN_VALUE) {
