@@ -12,15 +12,18 @@ import java.io.IOException;
 import java.nio.file.Path;
 import java.text.DecimalFormat;
 import java.util.List;
+import java.util.Locale;
 import javax.imageio.ImageIO;
 import org.jfree.chart.ChartFactory;
 import org.jfree.chart.JFreeChart;
 import org.jfree.chart.axis.LogAxis;
+import org.jfree.chart.axis.NumberTickUnit;
 import org.jfree.chart.plot.ValueMarker;
 import org.jfree.chart.plot.XYPlot;
 import org.jfree.chart.renderer.xy.XYLineAndShapeRenderer;
 import org.jfree.chart.title.TextTitle;
 import org.jfree.chart.ui.RectangleAnchor;
+import org.jfree.chart.ui.RectangleInsets;
 import org.jfree.chart.ui.TextAnchor;
 import org.jfree.data.xy.XYSeries;
 import org.jfree.data.xy.XYSeriesCollection;
@@ -78,6 +81,41 @@ public final class CrossoverChart {
     }
   }
 
+  /**
+   * A log axis over {@code [lo, hi]} with a margin of a factor 1.4 each side, one labelled tick per
+   * decade; widened to the enclosing powers of ten when no power of ten falls inside.
+   */
+  private static LogAxis decadeAxis(String label, double lo, double hi, String format) {
+    LogAxis axis = new LogAxis(label);
+    axis.setBase(10);
+    axis.setSmallestValue(1e-9);
+    axis.setNumberFormatOverride(new DecimalFormat(format));
+    axis.setTickUnit(new NumberTickUnit(1.0), false, true);
+    double from = lo / 1.4;
+    double to = hi * 1.4;
+    if (Math.floor(Math.log10(to)) < Math.ceil(Math.log10(from))) {
+      from = Math.pow(10, Math.floor(Math.log10(lo)));
+      to = Math.pow(10, Math.ceil(Math.log10(hi)));
+      if (to <= from) {
+        to = from * 10;
+      }
+    }
+    axis.setRange(from, to);
+    return axis;
+  }
+
+  /** The {min, max} of the x or y values in {@code data}; {1, 100} when it is empty. */
+  private static double[] range(XYSeriesCollection data, boolean x) {
+    double lo = Double.POSITIVE_INFINITY;
+    double hi = Double.NEGATIVE_INFINITY;
+    for (int s = 0; s < data.getSeriesCount(); s++) {
+      XYSeries series = data.getSeries(s);
+      lo = Math.min(lo, x ? series.getMinX() : series.getMinY());
+      hi = Math.max(hi, x ? series.getMaxX() : series.getMaxY());
+    }
+    return lo > 0 && hi >= lo ? new double[] {lo, hi} : new double[] {1, 100};
+  }
+
   private static JFreeChart chart(CrossoverReport report, SweepScore score) {
     SweepConfig config = report.config();
     XYSeriesCollection data = new XYSeriesCollection();
@@ -87,8 +125,7 @@ public final class CrossoverChart {
       int n = config.nodeCounts().get(ni);
       Color colour = PALETTE[ni % PALETTE.length];
       for (ComputePath path : ComputePath.values()) {
-        XYSeries line =
-            new XYSeries(path.name().toLowerCase(java.util.Locale.ROOT) + " n=" + n, true, true);
+        XYSeries line = new XYSeries(path.name().toLowerCase(Locale.ROOT) + " n=" + n, true, true);
         for (SweepPoint p : report.points()) {
           if (p.score() == score && p.n() == n && p.path() == path && p.measured()) {
             line.add(p.actualDensity() * 100, p.timing().medianMillis());
@@ -122,7 +159,7 @@ public final class CrossoverChart {
     chart.addSubtitle(
         new TextTitle(
             String.format(
-                java.util.Locale.ROOT,
+                Locale.ROOT,
                 "%d heads x %d value dims, %d threads; median of repeated calls, in-process"
                     + " (JMH benchmarks are the authority). Solid: dense, dashed: sparse;"
                     + " vertical lines: crossover.",
@@ -135,16 +172,10 @@ public final class CrossoverChart {
     plot.setDomainGridlinePaint(Color.LIGHT_GRAY);
     plot.setRangeGridlinePaint(Color.LIGHT_GRAY);
     plot.setRenderer(renderer);
-    LogAxis x = new LogAxis("density (%, log scale)");
-    x.setBase(10);
-    x.setSmallestValue(1e-4);
-    x.setNumberFormatOverride(new DecimalFormat("0.###"));
-    plot.setDomainAxis(x);
-    LogAxis y = new LogAxis("time per call (ms, log scale)");
-    y.setBase(10);
-    y.setSmallestValue(1e-6);
-    y.setNumberFormatOverride(new DecimalFormat("0.####"));
-    plot.setRangeAxis(y);
+    double[] xs = range(data, true);
+    double[] ys = range(data, false);
+    plot.setDomainAxis(decadeAxis("density (%, log scale)", xs[0], xs[1], "0.###"));
+    plot.setRangeAxis(decadeAxis("time per call (ms, log scale)", ys[0], ys[1], "0.####"));
     for (Crossover c : report.crossovers()) {
       if (c.score() != score || c.kind() != Crossover.Kind.FOUND) {
         continue;
@@ -167,7 +198,7 @@ public final class CrossoverChart {
       marker.setLabelFont(new Font(Font.SANS_SERIF, Font.BOLD, 11));
       marker.setLabelAnchor(RectangleAnchor.TOP_RIGHT);
       marker.setLabelTextAnchor(TextAnchor.TOP_LEFT);
-      marker.setLabelOffset(new org.jfree.chart.ui.RectangleInsets(5 + 14 * ni, 3, 3, 3));
+      marker.setLabelOffset(new RectangleInsets(5 + 14 * ni, 3, 3, 3));
       plot.addDomainMarker(marker);
     }
     return chart;
