@@ -20,6 +20,7 @@ record CommandLine(SweepConfig config, Path out, boolean help) {
           "  --scores LIST           additive,dot-product (default both)",
           "  --max-call-seconds X    skip points whose call is estimated to take longer",
           "  --dense-budget-mib M    dense kernel scratch budget (default 512)",
+          "  --max-sweep-seconds X   skip the points left after X seconds (quick: 140; 0: none)",
           "  --no-relaunch           do not re-launch the JVM to add jdk.incubator.vector",
           "  --help                  this text");
 
@@ -59,6 +60,8 @@ record CommandLine(SweepConfig config, Path out, boolean help) {
         }
         case "--max-call-seconds" ->
             config = config.withMaxCallSeconds(parseDouble(value(args, ++i, a), a));
+        case "--max-sweep-seconds" ->
+            config = config.withMaxSweepSeconds(parseDouble(value(args, ++i, a), a));
         case "--dense-budget-mib" ->
             config = config.withDenseMemoryBudgetBytes(longValue(args, ++i, a) << 20);
         default -> throw new IllegalArgumentException("unknown argument '" + a + "' (see --help)");

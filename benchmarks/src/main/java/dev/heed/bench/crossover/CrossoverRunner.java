@@ -79,9 +79,9 @@ public final class CrossoverRunner {
         return;
       }
     }
-    if (System.getProperty("java.awt.headless") == null) {
-      System.setProperty("java.awt.headless", "true");
-    }
+    setIfUnset("java.awt.headless", "true");
+    setIfUnset("org.nd4j.log.initialization", "false");
+    setIfUnset("org.slf4j.simpleLogger.defaultLogLevel", "warn");
     CommandLine cli;
     try {
       cli = CommandLine.parse(args);
@@ -113,6 +113,12 @@ public final class CrossoverRunner {
     } catch (IOException e) {
       System.err.println("crossover: could not write the output: " + e.getMessage());
       System.exit(1);
+    }
+  }
+
+  private static void setIfUnset(String property, String value) {
+    if (System.getProperty(property) == null) {
+      System.setProperty(property, value);
     }
   }
 
@@ -341,10 +347,14 @@ public final class CrossoverRunner {
           long edges = RandomPatterns.entryCount(n, density);
           AttentionPattern pattern = null;
           String patternProblem = "";
-          try {
-            pattern = buildPattern(n, density, edges);
-          } catch (IllegalArgumentException | OutOfMemoryError e) {
-            patternProblem = "graph not built: " + e.getMessage();
+          if (overTime(sweepStart)) {
+            patternProblem = timeLimitText();
+          } else {
+            try {
+              pattern = buildPattern(n, density, edges);
+            } catch (IllegalArgumentException | OutOfMemoryError e) {
+              patternProblem = "graph not built: " + e.getMessage();
+            }
           }
           for (SweepScore score : config.scores()) {
             HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
@@ -377,6 +387,26 @@ public final class CrossoverRunner {
           }
         }
       }
+    }
+
+    private double limitFor(ComputePath path, int n) {
+      return path == ComputePath.DENSE
+          ? limits.gemm().gflops()
+          : limits.gatherRowsPerSecond(n) / 1e6;
+    }
+
+    private static String unitFor(ComputePath path) {
+      return path == ComputePath.DENSE ? "GFLOP/s" : "Mrows/s";
+    }
+
+    private boolean overTime(long sweepStart) {
+      return config.maxSweepSeconds() > 0
+          && (System.nanoTime() - sweepStart) * 1e-9 > config.maxSweepSeconds();
+    }
+
+    private String timeLimitText() {
+      return String.format(
+          Locale.ROOT, "the sweep's time limit of %.0f s was reached", config.maxSweepSeconds());
     }
 
     private void report(SweepPoint p, long sweepStart) {
@@ -436,9 +466,8 @@ public final class CrossoverRunner {
         Inputs in,
         String patternProblem) {
       AttentionKernel kernel = kernels.get(path);
-      String unit = path == ComputePath.DENSE ? "GFLOP/s" : "Mrows/s";
-      double limit =
-          path == ComputePath.DENSE ? limits.gemm().gflops() : limits.gatherRowsPerSecond(n) / 1e6;
+      String unit = unitFor(path);
+      double limit = limitFor(path, n);
       if (kernel == null) {
         return skipped(
             score,

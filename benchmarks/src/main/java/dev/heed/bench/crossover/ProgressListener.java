@@ -60,9 +60,7 @@ public interface ProgressListener {
       public void pointDone(
           int index, int total, SweepPoint point, Duration elapsed, Duration remaining) {
         String result =
-            point.measured()
-                ? Formats.millis(point.timing().medianMillis()) + " ms"
-                : "skipped (" + point.note() + ")";
+            point.measured() ? Formats.millis(point.timing().medianMillis()) + " ms" : point.note();
         int width = String.valueOf(total).length();
         stream.println(
             String.format(

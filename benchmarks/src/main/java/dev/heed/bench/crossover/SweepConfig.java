@@ -27,6 +27,8 @@ import java.util.List;
  * @param maxCallSeconds a point whose single call is estimated to take longer is skipped (and said
  *     so), positive
  * @param denseMemoryBudgetBytes the dense kernel's scratch budget, at least 1 MiB
+ * @param maxSweepSeconds once the sweep has run this long, the remaining points are skipped (and
+ *     said so); 0 for no limit
  * @param quick whether this is the quick mode (shorter limit measurements, too)
  */
 public record SweepConfig(
@@ -41,7 +43,11 @@ public record SweepConfig(
     TimingPolicy timing,
     double maxCallSeconds,
     long denseMemoryBudgetBytes,
+    double maxSweepSeconds,
     boolean quick) {
+
+  /** The quick sweep's overall limit in seconds, {@value}: it must end within 3 minutes. */
+  public static final double QUICK_SWEEP_SECONDS = 140;
 
   /** The default seed. */
   public static final long DEFAULT_SEED = 20_260_601L;
@@ -92,13 +98,17 @@ public record SweepConfig(
     if (!(maxCallSeconds > 0)) {
       throw new IllegalArgumentException("maxCallSeconds must be positive, got " + maxCallSeconds);
     }
+    if (!(maxSweepSeconds >= 0)) {
+      throw new IllegalArgumentException(
+          "maxSweepSeconds must be 0 (no limit) or positive, got " + maxSweepSeconds);
+    }
     new KernelOptions(threads, denseMemoryBudgetBytes); // validates the budget
   }
 
   /**
    * The full sweep: n ∈ {256, 1024, 4096, 16384}, density ∈ {0.1, 0.3, 1, 3, 10, 30, 100} %, both
    * scores, 4 heads × 16 key dims × 16 value dims, all processors, {@link TimingPolicy#full()},
-   * calls estimated over 5 s skipped.
+   * calls estimated over 5 s skipped, no overall time limit.
    *
    * @return the configuration
    */
@@ -115,13 +125,14 @@ public record SweepConfig(
         TimingPolicy.full(),
         5.0,
         KernelOptions.DEFAULT_DENSE_MEMORY_BUDGET_BYTES,
+        0,
         false);
   }
 
   /**
    * The quick sweep, under 3 minutes on 2 cores: n ∈ {512, 2048}, density ∈ {0.3, 1, 3, 10, 30,
    * 100} %, both scores, the same shape, {@link TimingPolicy#quick()}, calls estimated over 0.5 s
-   * skipped.
+   * skipped, and points still left after {@value #QUICK_SWEEP_SECONDS} s skipped.
    *
    * @return the configuration
    */
@@ -138,6 +149,7 @@ public record SweepConfig(
         TimingPolicy.quick(),
         0.5,
         KernelOptions.DEFAULT_DENSE_MEMORY_BUDGET_BYTES,
+        QUICK_SWEEP_SECONDS,
         true);
   }
 
@@ -178,6 +190,7 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -200,6 +213,7 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -222,6 +236,7 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -246,6 +261,7 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -268,6 +284,7 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -290,6 +307,7 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -312,6 +330,7 @@ public record SweepConfig(
         newTiming,
         maxCallSeconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -334,6 +353,7 @@ public record SweepConfig(
         timing,
         seconds,
         denseMemoryBudgetBytes,
+        maxSweepSeconds,
         quick);
   }
 
@@ -356,6 +376,30 @@ public record SweepConfig(
         timing,
         maxCallSeconds,
         bytes,
+        maxSweepSeconds,
+        quick);
+  }
+
+  /**
+   * Returns a copy with another overall time limit.
+   *
+   * @param seconds 0 for none, otherwise positive
+   * @return the copy
+   */
+  public SweepConfig withMaxSweepSeconds(double seconds) {
+    return new SweepConfig(
+        nodeCounts,
+        densities,
+        scores,
+        heads,
+        keyDim,
+        valueDim,
+        threads,
+        seed,
+        timing,
+        maxCallSeconds,
+        denseMemoryBudgetBytes,
+        seconds,
         quick);
   }
 }

@@ -130,6 +130,18 @@ class CrossoverRunnerTest {
   }
 
   @Test
+  void pointsLeftAfterTheTimeLimitAreSkippedAndNamed() {
+    SweepConfig config = tinyConfig().withMaxSweepSeconds(1e-9);
+    CrossoverReport report =
+        CrossoverRunner.run(
+            config, referenceKernels(), MachineLimits.assumed(50, 1e8), ProgressListener.none());
+    assertEquals(config.pointCount(), report.points().size());
+    for (SweepPoint p : report.points()) {
+      assertTrue(!p.measured() && p.note().contains("time limit"), p.toString());
+    }
+  }
+
+  @Test
   void progressCountsEveryPoint() {
     SweepConfig config =
         tinyConfig().withNodeCounts(List.of(8)).withScores(List.of(SweepScore.ADDITIVE));
