@@ -143,7 +143,7 @@ public final class GatherProbe {
     long indexLength = (long) tableRows * ROWS_PER_TARGET;
     if (tableLength > Integer.MAX_VALUE - 8 || indexLength > Integer.MAX_VALUE - 8) {
       throw new IllegalArgumentException(
-          "table of " + tableRows + " rows × " + width + " floats does not fit one Java array");
+          "table of " + tableRows + " rows x " + width + " floats does not fit one Java array");
     }
     float[] table = new float[(int) tableLength];
     for (int i = 0; i < table.length; i++) {
