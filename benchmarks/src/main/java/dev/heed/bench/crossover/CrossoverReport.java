@@ -61,6 +61,7 @@ public final class CrossoverReport {
   private final List<Crossover> crossovers;
   private final List<GrowthCheck> growth;
   private final double largestPathDifference;
+  private final double peakLoadAverage;
   private final Duration elapsed;
 
   /**
@@ -72,6 +73,8 @@ public final class CrossoverReport {
    * @param points every point, in sweep order; copied
    * @param largestPathDifference the largest norm-wise relative difference between the two paths'
    *     outputs over the points where both ran, or NaN if none
+   * @param peakLoadAverage the highest one-minute system load average seen during the sweep, or NaN
+   *     if the platform does not report it
    * @param elapsed how long the sweep took
    */
   public CrossoverReport(
@@ -80,12 +83,14 @@ public final class CrossoverReport {
       Map<ComputePath, String> kernels,
       List<SweepPoint> points,
       double largestPathDifference,
+      double peakLoadAverage,
       Duration elapsed) {
     this.config = Objects.requireNonNull(config, "config");
     this.limits = Objects.requireNonNull(limits, "limits");
     this.kernels = Collections.unmodifiableMap(new EnumMap<>(kernels));
     this.points = List.copyOf(points);
     this.largestPathDifference = largestPathDifference;
+    this.peakLoadAverage = peakLoadAverage;
     this.elapsed = Objects.requireNonNull(elapsed, "elapsed");
     List<Crossover> found = new ArrayList<>();
     List<GrowthCheck> checks = new ArrayList<>();
@@ -161,6 +166,25 @@ public final class CrossoverReport {
    */
   public double largestPathDifference() {
     return largestPathDifference;
+  }
+
+  /**
+   * Returns the highest one-minute system load average seen during the sweep, or NaN.
+   *
+   * @return the load average
+   */
+  public double peakLoadAverage() {
+    return peakLoadAverage;
+  }
+
+  /**
+   * Returns whether the machine was busier than the sweep itself could make it: a peak load average
+   * above the sweep's threads plus one.
+   *
+   * @return true if other work probably disturbed the timings
+   */
+  public boolean machineWasBusy() {
+    return peakLoadAverage > config.threads() + 1;
   }
 
   /**
@@ -252,7 +276,22 @@ public final class CrossoverReport {
         b.append(note).append('\n');
       }
     }
-    b.append('\n').append("Sweep took ").append(Formats.duration(elapsed)).append(".\n");
+    b.append('\n').append("Sweep took ").append(Formats.duration(elapsed)).append(".");
+    if (!Double.isNaN(peakLoadAverage)) {
+      b.append(
+          String.format(
+              Locale.ROOT,
+              " Peak system load average %.1f (%d processors, %d kernel threads).",
+              peakLoadAverage,
+              Runtime.getRuntime().availableProcessors(),
+              config.threads()));
+    }
+    b.append('\n');
+    if (machineWasBusy()) {
+      b.append(
+          "WARNING: other work was running on this machine during the sweep; the timings and the"
+              + " crossovers are unreliable. Run it again on an idle machine.\n");
+    }
     b.append(AUTHORITY).append('\n');
     return b.toString();
   }

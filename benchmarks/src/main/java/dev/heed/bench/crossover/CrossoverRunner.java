@@ -195,6 +195,7 @@ public final class CrossoverRunner {
         described,
         sweep.points,
         sweep.largestDifference,
+        sweep.peakLoad,
         Duration.ofNanos(System.nanoTime() - start));
   }
 
@@ -322,6 +323,7 @@ public final class CrossoverRunner {
     private final double[] estimates;
     private final List<SweepPoint> points = new ArrayList<>();
     private double largestDifference = Double.NaN;
+    private double peakLoad = Double.NaN;
     private int index;
 
     Sweep(
@@ -410,6 +412,10 @@ public final class CrossoverRunner {
     }
 
     private void report(SweepPoint p, long sweepStart) {
+      double load = ManagementFactory.getOperatingSystemMXBean().getSystemLoadAverage();
+      if (load >= 0) {
+        peakLoad = Double.isNaN(peakLoad) ? load : Math.max(peakLoad, load);
+      }
       double elapsed = (System.nanoTime() - sweepStart) * 1e-9;
       double estimatedDone = 0;
       for (int i = 0; i < index; i++) {

@@ -131,7 +131,7 @@ public record SweepConfig(
 
   /**
    * The quick sweep, under 3 minutes on 2 cores: n ∈ {512, 2048}, density ∈ {0.3, 1, 3, 10, 30,
-   * 100} %, both scores, the same shape, {@link TimingPolicy#quick()}, calls estimated over 0.5 s
+   * 100} %, both scores, the same shape, {@link TimingPolicy#quick()}, calls estimated over 1 s
    * skipped, and points still left after {@value #QUICK_SWEEP_SECONDS} s skipped.
    *
    * @return the configuration
@@ -147,7 +147,7 @@ public record SweepConfig(
         Runtime.getRuntime().availableProcessors(),
         DEFAULT_SEED,
         TimingPolicy.quick(),
-        0.5,
+        1.0,
         KernelOptions.DEFAULT_DENSE_MEMORY_BUDGET_BYTES,
         QUICK_SWEEP_SECONDS,
         true);
