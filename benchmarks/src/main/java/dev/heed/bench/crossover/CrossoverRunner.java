@@ -116,6 +116,15 @@ public final class CrossoverRunner {
     }
   }
 
+  private static String sweepName(SweepConfig config) {
+    SweepConfig standard = config.quick() ? SweepConfig.quickSweep() : SweepConfig.fullSweep();
+    boolean sameGrid =
+        standard.nodeCounts().equals(config.nodeCounts())
+            && standard.densities().equals(config.densities())
+            && standard.scores().equals(config.scores());
+    return sameGrid ? (config.quick() ? "quick" : "full") : "custom";
+  }
+
   private static void setIfUnset(String property, String value) {
     if (System.getProperty(property) == null) {
       System.setProperty(property, value);
@@ -179,7 +188,7 @@ public final class CrossoverRunner {
             "%s sweep: %d points (%d n x %d densities x %d scores x 2 paths); expected duration"
                 + " about %s (rough: assumes the kernels reach %.0f %% of the measured limits;"
                 + " calls estimated over %.1f s are skipped)",
-            config.quick() ? "quick" : "full",
+            sweepName(config),
             config.pointCount(),
             config.nodeCounts().size(),
             config.densities().size(),
@@ -364,7 +373,18 @@ public final class CrossoverRunner {
             float[] denseOut = null;
             for (ComputePath path : ComputePath.values()) {
               Outcome o =
-                  runPoint(score, shape, n, density, edges, path, pattern, in, patternProblem);
+                  overTime(sweepStart)
+                      ? skipped(
+                          score,
+                          n,
+                          density,
+                          edges,
+                          path,
+                          limitFor(path, n),
+                          unitFor(path),
+                          timeLimitText())
+                      : runPoint(
+                          score, shape, n, density, edges, path, pattern, in, patternProblem);
               SweepPoint p = o.point;
               if (path == ComputePath.DENSE) {
                 denseOut = o.out;
