@@ -11,6 +11,7 @@ import dev.heed.graph.AttentionPattern;
 import java.io.IOException;
 import java.io.PrintStream;
 import java.lang.management.ManagementFactory;
+import java.lang.module.ModuleFinder;
 import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
@@ -71,6 +72,7 @@ public final class CrossoverRunner {
    */
   public static void main(String[] args) {
     if (!GatherProbe.vectorApiAvailable()
+        && ModuleFinder.ofSystem().find("jdk.incubator.vector").isPresent()
         && !List.of(args).contains("--no-relaunch")
         && System.getProperty(RELAUNCHED) == null) {
       Integer code = relaunchWithVectorApi(args);

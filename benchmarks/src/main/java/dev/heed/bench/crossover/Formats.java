@@ -1,5 +1,7 @@
 package dev.heed.bench.crossover;
 
+import java.math.BigDecimal;
+import java.math.MathContext;
 import java.time.Duration;
 import java.util.Locale;
 
@@ -44,9 +46,15 @@ final class Formats {
     return String.format(Locale.ROOT, "%d:%02d", s / 60, s % 60);
   }
 
-  /** A plain number for the CSV: empty for NaN, otherwise up to 6 significant digits. */
+  /**
+   * A plain number for the CSV: empty for NaN or an infinity, otherwise rounded to 6 significant
+   * digits without trailing zeros or an exponent (0.003, 12.3456).
+   */
   static String csvNumber(double v) {
-    return Double.isNaN(v) ? "" : String.format(Locale.ROOT, "%.6g", v);
+    if (!Double.isFinite(v)) {
+      return "";
+    }
+    return new BigDecimal(v).round(new MathContext(6)).stripTrailingZeros().toPlainString();
   }
 
   /** Quotes a CSV field (RFC 4180: enclose in quotes, double inner quotes). */

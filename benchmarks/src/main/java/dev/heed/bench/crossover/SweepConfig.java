@@ -7,7 +7,7 @@ import java.util.List;
  * What the crossover sweep runs: the grid (node counts × densities × scores, both paths at each),
  * the head shape, threads, seed, timing policy and the caps that keep it within reach.
  *
- * <p>Use {@link #full()} or {@link #quick()} and adjust with the {@code with…} methods:
+ * <p>Use {@link #fullSweep()} or {@link #quickSweep()} and adjust with the {@code with…} methods:
  *
  * <pre>{@code
  * SweepConfig config = SweepConfig.quickSweep().withNodeCounts(List.of(256, 512)).withThreads(2);
