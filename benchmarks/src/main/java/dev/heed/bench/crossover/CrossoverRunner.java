@@ -333,6 +333,10 @@ public final class CrossoverRunner {
     private final long start;
     private final double[] estimates;
     private final List<SweepPoint> points = new ArrayList<>();
+
+    /** First calls that were too slow to time: {path, score, n, edges, nanos}. */
+    private final List<double[]> slowCalls = new ArrayList<>();
+
     private double largestDifference = Double.NaN;
     private double peakLoad = Double.NaN;
     private int index;
@@ -541,7 +545,23 @@ public final class CrossoverRunner {
                 () ->
                     kernel.attend(
                         pattern, function, shape, in.query, in.key, in.value, target, null),
-                config.timing());
+                config.timing(),
+                2 * config.maxCallSeconds());
+      } catch (PointTimer.TooSlowException e) {
+        slowCalls.add(new double[] {path.ordinal(), score.ordinal(), n, edges, e.firstCallNanos()});
+        return skipped(
+            score,
+            n,
+            density,
+            edges,
+            path,
+            limit,
+            unit,
+            String.format(
+                Locale.ROOT,
+                "the first call took %.1f s, over twice the %.1f s cap (--max-call-seconds)",
+                e.firstCallNanos() * 1e-9,
+                config.maxCallSeconds()));
       } catch (MemoryBudgetExceededException e) {
         return skipped(
             score,
@@ -589,10 +609,21 @@ public final class CrossoverRunner {
           basisWork = w;
         }
       }
-      if (basis == null) {
+      double basisNanos = basis == null ? Double.NaN : basis.timing().medianNanos();
+      for (double[] slow : slowCalls) {
+        if (slow[0] != path.ordinal() || slow[1] != score.ordinal()) {
+          continue;
+        }
+        double w = scaleWork(path, (int) slow[2], (long) slow[3]);
+        if (w <= scaleWork(path, n, edges) && (Double.isNaN(basisNanos) || w >= basisWork)) {
+          basisNanos = slow[4];
+          basisWork = w;
+        }
+      }
+      if (Double.isNaN(basisNanos)) {
         return modelCallSeconds(path, shape, n, edges, limits);
       }
-      return basis.timing().medianNanos() * 1e-9 * scaleWork(path, n, edges) / basisWork;
+      return basisNanos * 1e-9 * scaleWork(path, n, edges) / basisWork;
     }
 
     private static double scaleWork(ComputePath path, int n, long edges) {

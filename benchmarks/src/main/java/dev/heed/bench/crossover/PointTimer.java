@@ -26,11 +26,29 @@ public final class PointTimer {
    * @throws RuntimeException whatever {@code call} throws, unchanged
    */
   public static TimingResult time(Runnable call, TimingPolicy policy) {
+    return time(call, policy, Double.POSITIVE_INFINITY);
+  }
+
+  /**
+   * Times {@code call}, giving up after the first call if that one call took longer than {@code
+   * abortAboveSeconds}.
+   *
+   * @param call the work to time; see {@link #time(Runnable, TimingPolicy)}
+   * @param policy warm-up and repetition rules
+   * @param abortAboveSeconds the longest first call worth continuing after
+   * @return the timings
+   * @throws TooSlowException if the first call took longer than {@code abortAboveSeconds}
+   * @throws RuntimeException whatever {@code call} throws, unchanged
+   */
+  public static TimingResult time(Runnable call, TimingPolicy policy, double abortAboveSeconds) {
     List<Long> warm = new ArrayList<>();
     long warmTotal = 0;
     boolean stable = false;
     while (true) {
       long t = timeOnce(call);
+      if (warm.isEmpty() && t * 1e-9 > abortAboveSeconds) {
+        throw new TooSlowException(t);
+      }
       warm.add(t);
       warmTotal += t;
       if (warm.size() >= policy.minWarmupCalls()
@@ -101,5 +119,26 @@ public final class PointTimer {
     int lo = (int) Math.floor(pos);
     int hi = Math.min(lo + 1, sorted.length - 1);
     return sorted[lo] + (pos - lo) * (sorted[hi] - sorted[lo]);
+  }
+
+  /** Thrown when the first call alone took longer than the caller's limit. */
+  public static final class TooSlowException extends RuntimeException {
+    private static final long serialVersionUID = 1L;
+
+    private final long firstCallNanos;
+
+    TooSlowException(long firstCallNanos) {
+      super("first call took " + firstCallNanos / 1e9 + " s");
+      this.firstCallNanos = firstCallNanos;
+    }
+
+    /**
+     * Returns how long the first call took.
+     *
+     * @return nanoseconds
+     */
+    public long firstCallNanos() {
+      return firstCallNanos;
+    }
   }
 }
