@@ -442,6 +442,9 @@ public final class CrossoverRunner {
       if (load >= 0) {
         peakLoad = Double.isNaN(peakLoad) ? load : Math.max(peakLoad, load);
       }
+      if (!p.measured()) {
+        estimates[index - 1] = 0; // a skipped point costs next to nothing; keep the rate honest
+      }
       double elapsed = (System.nanoTime() - sweepStart) * 1e-9;
       double estimatedDone = 0;
       for (int i = 0; i < index; i++) {
@@ -453,12 +456,17 @@ public final class CrossoverRunner {
       }
       double factor = estimatedDone > 0 ? elapsed / estimatedDone : 1.0;
       factor = Math.max(0.1, Math.min(10, factor));
+      double left = estimatedLeft * factor;
+      if (config.maxSweepSeconds() > 0) {
+        // points still left at the time limit are skipped at once
+        left = Math.min(left, Math.max(0, config.maxSweepSeconds() - elapsed) + 1);
+      }
       progress.pointDone(
           index,
           estimates.length,
           p,
           Duration.ofNanos(System.nanoTime() - start),
-          Duration.ofMillis(Math.round(estimatedLeft * factor * 1000)));
+          Duration.ofMillis(Math.round(left * 1000)));
     }
 
     private AttentionPattern buildPattern(int n, double density, long edges) {
