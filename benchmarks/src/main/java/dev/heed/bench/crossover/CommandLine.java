@@ -47,7 +47,12 @@ record CommandLine(SweepConfig config, Path out, boolean help) {
         case "--densities" -> {
           List<Double> ds = new ArrayList<>();
           for (String s : value(args, ++i, a).split(",")) {
-            ds.add(parseDouble(s.trim().replace("%", ""), a) / 100.0);
+            double percent = parseDouble(s.trim().replace("%", ""), a);
+            if (!(percent > 0 && percent <= 100)) {
+              throw new IllegalArgumentException(
+                  "--densities takes percentages in (0, 100], got " + s.trim());
+            }
+            ds.add(percent / 100.0);
           }
           config = config.withDensities(ds);
         }

@@ -71,19 +71,6 @@ public final class CrossoverRunner {
    * @param args the arguments
    */
   public static void main(String[] args) {
-    if (!GatherProbe.vectorApiAvailable()
-        && ModuleFinder.ofSystem().find("jdk.incubator.vector").isPresent()
-        && !List.of(args).contains("--no-relaunch")
-        && System.getProperty(RELAUNCHED) == null) {
-      Integer code = relaunchWithVectorApi(args);
-      if (code != null) {
-        System.exit(code);
-        return;
-      }
-    }
-    setIfUnset("java.awt.headless", "true");
-    setIfUnset("org.nd4j.log.initialization", "false");
-    setIfUnset("org.slf4j.simpleLogger.defaultLogLevel", "warn");
     CommandLine cli;
     try {
       cli = CommandLine.parse(args);
@@ -97,6 +84,19 @@ public final class CrossoverRunner {
       System.out.println(CommandLine.USAGE);
       return;
     }
+    if (!GatherProbe.vectorApiAvailable()
+        && ModuleFinder.ofSystem().find("jdk.incubator.vector").isPresent()
+        && !List.of(args).contains("--no-relaunch")
+        && System.getProperty(RELAUNCHED) == null) {
+      Integer code = relaunchWithVectorApi(args);
+      if (code != null) {
+        System.exit(code);
+        return;
+      }
+    }
+    setIfUnset("java.awt.headless", "true");
+    setIfUnset("org.nd4j.log.initialization", "false");
+    setIfUnset("org.slf4j.simpleLogger.defaultLogLevel", "warn");
     ProgressListener progress = ProgressListener.printingTo(System.err);
     progress.message(CrossoverReport.AUTHORITY);
     if (!GatherProbe.vectorApiAvailable()) {

@@ -54,7 +54,7 @@ class CommandLineTest {
         assertThrows(
             IllegalArgumentException.class,
             () -> CommandLine.parse(new String[] {"--densities", "200"}));
-    assertTrue(e.getMessage().contains("(0, 1]"), e.getMessage());
+    assertTrue(e.getMessage().contains("(0, 100]"), e.getMessage());
     assertThrows(IllegalArgumentException.class, () -> CommandLine.parse(new String[] {"--n"}));
   }
 }
