@@ -51,7 +51,21 @@ public final class Crossovers {
       }
     }
     rows.sort(Comparator.comparingDouble(r -> r[0]));
-    return fromRatios(score, n, rows);
+    Crossover c = fromRatios(score, n, rows);
+    if (c.kind() == Crossover.Kind.NOT_MEASURABLE) {
+      int dense = 0;
+      int sparse = 0;
+      for (double[] pair : byDensity.values()) {
+        dense += pair[0] > 0 ? 1 : 0;
+        sparse += pair[1] > 0 ? 1 : 0;
+      }
+      String remark =
+          dense == 0 && sparse == 0
+              ? "both paths skipped, see the notes"
+              : (dense == 0 ? "dense" : "sparse") + " path skipped at every density, see the notes";
+      return new Crossover(score, n, c.kind(), c.density(), remark);
+    }
+    return c;
   }
 
   /**
