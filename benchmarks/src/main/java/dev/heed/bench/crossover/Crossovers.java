@@ -59,10 +59,15 @@ public final class Crossovers {
         dense += pair[0] > 0 ? 1 : 0;
         sparse += pair[1] > 0 ? 1 : 0;
       }
-      String remark =
-          dense == 0 && sparse == 0
-              ? "both paths skipped, see the notes"
-              : (dense == 0 ? "dense" : "sparse") + " path skipped at every density, see the notes";
+      String remark;
+      if (dense == 0 && sparse == 0) {
+        remark = "both paths skipped, see the notes";
+      } else if (dense == 0 || sparse == 0) {
+        remark =
+            (dense == 0 ? "dense" : "sparse") + " path skipped at every density, see the notes";
+      } else {
+        remark = "the paths were timed at different densities, see the notes";
+      }
       return new Crossover(score, n, c.kind(), c.density(), remark);
     }
     return c;
