@@ -126,6 +126,7 @@ class CrossoverRunnerTest {
     assertTrue(text.contains("over the dense memory budget"), text);
     assertTrue(text.contains("no SPARSE kernel"), text);
     assertTrue(text.contains("not measurable"), text);
+    assertTrue(text.contains("sparse path skipped at every density"), text);
     assertNotNull(ImageIO.read(dir.resolve("crossover.png").toFile()));
   }
 
