@@ -324,8 +324,26 @@ final class DenseAttentionKernel implements AttentionKernel {
           Arrays.fill(out, at, at + valueDim, 0f);
         } else {
           outBuffer.get(r * valueDim, out, at, valueDim);
+          for (int c = at; c < at + valueDim; c++) {
+            if (!Float.isFinite(out[c])) {
+              throw overflow(i, h);
+            }
+          }
         }
       }
+    }
+
+    private IllegalArgumentException overflow(int target, int h) {
+      return new IllegalArgumentException(
+          "attention scores overflowed float32 for target node "
+              + target
+              + ", head "
+              + h
+              + " ("
+              + score
+              + "): the query/key terms are too large in magnitude for float32 scores; scale the"
+              + " inputs down (softmax is shift-invariant, but q·k or q + k must stay finite)."
+              + " The output array holds partial results");
     }
 
     private void copyWeights(int first, int rows, int h, FloatBuffer scoreBuffer, float[] row) {
