@@ -21,6 +21,7 @@ import org.nd4j.linalg.api.memory.MemoryWorkspace;
 import org.nd4j.linalg.api.ndarray.INDArray;
 import org.nd4j.linalg.api.ops.impl.scalar.LeakyReLU;
 import org.nd4j.linalg.api.ops.impl.transforms.custom.SoftMax;
+import org.nd4j.linalg.api.ops.impl.transforms.strict.Exp;
 import org.nd4j.linalg.factory.Nd4j;
 import org.nd4j.linalg.indexing.NDArrayIndex;
 import org.slf4j.Logger;
@@ -59,15 +60,35 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   private static final Logger LOG = LoggerFactory.getLogger(DenseAttentionKernel.class);
 
+  /**
+   * When no score of a head can exceed this magnitude, softmax skips the row maximum: {@code
+   * exp(e)} is taken directly (ND4J's Exp over the whole block) and normalised afterwards by the
+   * row sum that the second product yields. Softmax is shift-invariant (common practice), and with
+   * |e| ≤ 60 every exp is a normal float32 between e⁻⁶⁰ ≈ 8.8e-27 and e⁶⁰ ≈ 1.1e26, so a row of up
+   * to 2³¹ terms sums without overflow and its largest term never underflows. Otherwise the kernel
+   * uses ND4J's native softmax, which subtracts the row maximum.
+   */
+  static final double UNSHIFTED_EXP_LIMIT = 60.0;
+
   /** Below this many score terms per block (rows·n·keyDim), GATv2 scores stay on one thread. */
   private static final long PARALLEL_GATV2_MIN_WORK = 1L << 18;
 
   private final KernelOptions options;
   private final long targetBlockFloats;
+  private final double unshiftedExpLimit;
 
-  DenseAttentionKernel(KernelOptions options, long targetBlockFloats) {
+  /**
+   * Creates the kernel.
+   *
+   * @param options threads and budget
+   * @param targetBlockFloats upper bound on one score block (rows · n)
+   * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum ({@link
+   *     #UNSHIFTED_EXP_LIMIT}; tests pass a negative value to force the shifted softmax)
+   */
+  DenseAttentionKernel(KernelOptions options, long targetBlockFloats, double unshiftedExpLimit) {
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
+    this.unshiftedExpLimit = unshiftedExpLimit;
   }
 
   @Override
@@ -126,7 +147,19 @@ final class DenseAttentionKernel implements AttentionKernel {
     // Allocate outside any workspace the caller has open, so close() below really frees.
     MemoryWorkspace outside = Nd4j.getWorkspaceManager().scopeOutOfWorkspaces();
     try {
-      new Call(pattern, score, shape, query, key, value, out, weights, plan, pool, javaThreads)
+      new Call(
+              pattern,
+              score,
+              shape,
+              query,
+              key,
+              value,
+              out,
+              weights,
+              plan,
+              pool,
+              javaThreads,
+              unshiftedExpLimit)
           .run();
     } finally {
       outside.close();
@@ -158,6 +191,7 @@ final class DenseAttentionKernel implements AttentionKernel {
     private final DenseBlockPlan plan;
     private final ExecutorService pool;
     private final int workers;
+    private final double unshiftedExpLimit;
     private final List<INDArray> owned = new ArrayList<>();
     private float[] keyByHead;
 
@@ -172,7 +206,8 @@ final class DenseAttentionKernel implements AttentionKernel {
         float[] weights,
         DenseBlockPlan plan,
         ExecutorService pool,
-        int workers) {
+        int workers,
+        double unshiftedExpLimit) {
       this.graph = pattern instanceof CsrGraph g ? g : null;
       this.score = score;
       this.n = pattern.nodeCount();
@@ -187,6 +222,7 @@ final class DenseAttentionKernel implements AttentionKernel {
       this.plan = plan;
       this.pool = pool;
       this.workers = workers;
+      this.unshiftedExpLimit = unshiftedExpLimit;
     }
 
     void run() {
@@ -226,20 +262,24 @@ final class DenseAttentionKernel implements AttentionKernel {
           }
         }
       }
+      // Values packed as [v_j, 1]: the product P·[V, 1] also yields each row's sum of P.
       INDArray[] packedValue = new INDArray[heads];
+      boolean[] unshifted = new boolean[heads];
       for (int h = 0; h < heads; h++) {
-        packedValue[h] = allocate(n, valueDim);
-        pack(value, valueDim, h, packedValue[h]);
+        packedValue[h] = allocate(n, valueDim + 1);
+        packValuesWithOnes(h, packedValue[h]);
+        unshifted[h] = scoreBound(h) <= unshiftedExpLimit;
       }
       int blockRows = plan.blockRows();
       INDArray scoreBlock = allocate(blockRows, n);
       FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
       INDArray biasBlock = graph != null && !gatv2 ? allocate(blockRows, n) : null;
       FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
-      INDArray outBlock = allocate(blockRows, valueDim);
+      INDArray outBlock = allocate(blockRows, valueDim + 1);
       FloatBuffer outBuffer = outBlock.data().asNioFloat();
       float[][] workerRows = new float[workers][n];
       float[] row = workerRows[0];
+      float[] sums = new float[blockRows];
       keyByHead = gatv2 && graph == null ? transposeKeys() : null;
       float scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
 
@@ -266,11 +306,15 @@ final class DenseAttentionKernel implements AttentionKernel {
               s.addi(bias);
             }
           }
-          Nd4j.exec(new SoftMax(s, s, 1));
+          if (unshifted[h]) {
+            Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
+          } else {
+            Nd4j.exec(new SoftMax(s, s, 1));
+          }
           Nd4j.gemm(s, packedValue[h], o, false, false, 1.0, 0.0);
-          copyOut(first, rows, h, outBuffer);
+          copyOut(first, rows, h, outBuffer, sums);
           if (weights != null) {
-            copyWeights(first, rows, h, scoreBuffer, row);
+            copyWeights(first, rows, h, scoreBuffer, row, sums);
           }
         }
       }
@@ -286,6 +330,58 @@ final class DenseAttentionKernel implements AttentionKernel {
       for (int j = 0; j < n; j++) {
         buffer.put(j * width, source, (j * heads + h) * width, width);
       }
+    }
+
+    /** Copies head {@code h} of the values into {@code [n, valueDim + 1]}, last column 1. */
+    private void packValuesWithOnes(int h, INDArray target) {
+      FloatBuffer buffer = target.data().asNioFloat();
+      int width = valueDim + 1;
+      for (int j = 0; j < n; j++) {
+        buffer.put(j * width, value, (j * heads + h) * valueDim, valueDim);
+        buffer.put(j * width + valueDim, 1f);
+      }
+    }
+
+    /**
+     * Returns an upper bound on |e_ij| over all pairs for head {@code h}, from per-node norms in
+     * O(n·keyDim): Cauchy–Schwarz for dot products, the triangle inequality otherwise (LeakyReLU
+     * with slope in [0, 1) never increases a magnitude).
+     */
+    private double scoreBound(int h) {
+      if (score instanceof ScoreFunction.ScaledDotProduct dot) {
+        return dot.scale(keyDim) * maxNorm(query, h) * maxNorm(key, h);
+      }
+      if (score instanceof ScoreFunction.Gatv2 g) {
+        double bound = 0;
+        for (int k = 0; k < keyDim; k++) {
+          bound +=
+              Math.abs((double) g.attention(h * keyDim + k))
+                  * (maxAbs(query, h, k) + maxAbs(key, h, k));
+        }
+        return bound;
+      }
+      return maxAbs(query, h, 0) + maxAbs(key, h, 0);
+    }
+
+    private double maxNorm(float[] terms, int h) {
+      double max = 0;
+      for (int j = 0; j < n; j++) {
+        int at = (j * heads + h) * keyDim;
+        double sq = 0;
+        for (int k = 0; k < keyDim; k++) {
+          sq += (double) terms[at + k] * terms[at + k];
+        }
+        max = Math.max(max, sq);
+      }
+      return Math.sqrt(max);
+    }
+
+    private double maxAbs(float[] terms, int h, int k) {
+      double max = 0;
+      for (int j = 0; j < n; j++) {
+        max = Math.max(max, Math.abs(terms[(j * heads + h) * keyDim + k]));
+      }
+      return max;
     }
 
     /** Packs one-wide terms as rows {@code [t, 1]}, or {@code [1, t]} when {@code second}. */
@@ -316,19 +412,31 @@ final class DenseAttentionKernel implements AttentionKernel {
       return graph != null && graph.rowStart(i) == graph.rowEnd(i);
     }
 
-    private void copyOut(int first, int rows, int h, FloatBuffer outBuffer) {
+    /**
+     * Writes {@code o[r, 0..dv-1] / o[r, dv]} (the weighted sum over the row's sum of weights) to
+     * the caller's output, and keeps each row's sum for the weights.
+     */
+    private void copyOut(int first, int rows, int h, FloatBuffer outBuffer, float[] sums) {
+      int width = valueDim + 1;
       for (int r = 0; r < rows; r++) {
         int i = first + r;
         int at = (i * heads + h) * valueDim;
         if (isolated(i)) {
           Arrays.fill(out, at, at + valueDim, 0f);
-        } else {
-          outBuffer.get(r * valueDim, out, at, valueDim);
-          for (int c = at; c < at + valueDim; c++) {
-            if (!Float.isFinite(out[c])) {
-              throw overflow(i, h);
-            }
+          continue;
+        }
+        float sum = outBuffer.get(r * width + valueDim);
+        sums[r] = sum;
+        if (!(sum > 0f && sum < Float.POSITIVE_INFINITY)) {
+          throw overflow(i, h);
+        }
+        outBuffer.get(r * width, out, at, valueDim);
+        for (int c = at; c < at + valueDim; c++) {
+          float v = out[c] / sum;
+          if (!Float.isFinite(v)) {
+            throw overflow(i, h);
           }
+          out[c] = v;
         }
       }
     }
@@ -346,18 +454,23 @@ final class DenseAttentionKernel implements AttentionKernel {
               + " The output array holds partial results");
     }
 
-    private void copyWeights(int first, int rows, int h, FloatBuffer scoreBuffer, float[] row) {
+    private void copyWeights(
+        int first, int rows, int h, FloatBuffer scoreBuffer, float[] row, float[] sums) {
       for (int r = 0; r < rows; r++) {
         int i = first + r;
+        if (isolated(i)) {
+          continue;
+        }
         scoreBuffer.get(r * n, row, 0, n);
+        float sum = sums[r];
         if (graph == null) {
           int base = i * n;
           for (int j = 0; j < n; j++) {
-            weights[(base + j) * heads + h] = row[j];
+            weights[(base + j) * heads + h] = row[j] / sum;
           }
         } else {
           for (int e = graph.rowStart(i); e < graph.rowEnd(i); e++) {
-            weights[e * heads + h] = row[graph.column(e)];
+            weights[e * heads + h] = row[graph.column(e)] / sum;
           }
         }
       }

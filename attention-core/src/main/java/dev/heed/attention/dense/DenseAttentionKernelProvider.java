@@ -61,6 +61,9 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
   @Override
   public AttentionKernel create(KernelOptions options) {
     Objects.requireNonNull(options, "options");
-    return new DenseAttentionKernel(options, DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+    return new DenseAttentionKernel(
+        options,
+        DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+        DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
   }
 }

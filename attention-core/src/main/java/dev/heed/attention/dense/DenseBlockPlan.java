@@ -11,12 +11,14 @@ import dev.heed.attention.ScoreFunction;
  * <p>Scratch of one call, in floats (4 bytes each):
  *
  * <ul>
- *   <li>repacked inputs, for all heads: {@code n·H·dv} for the values, plus {@code 2·n·H·w} for the
+ *   <li>repacked inputs, for all heads: {@code n·H·(dv + 1)} for the values with a column of ones
+ *       (so the second product also yields each row's sum of weights), plus {@code 2·n·H·w} for the
  *       query and key terms when scores come from a matrix product ({@code w = keyDim} for scaled
  *       dot-product, {@code w = 2} for additive scores, which are packed as {@code [q, 1]} and
  *       {@code [1, k]}); GATv2 scores read the caller's arrays directly and pack nothing;
  *   <li>per block row: {@code n} for the score row, {@code n} more for the mask row when the
- *       pattern is a CSR mask and scores come from a matrix product, and {@code dv} for the output;
+ *       pattern is a CSR mask and scores come from a matrix product, {@code dv + 1} for the output
+ *       and 1 for the row sum;
  *   <li>Java scratch: one score row of {@code n} floats per worker thread, and for GATv2 over the
  *       complete pattern the keys transposed per head ({@code n·H·keyDim}), so that the score loop
  *       runs along contiguous rows.
@@ -71,12 +73,13 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
 
     long packedKeyWidth = score instanceof ScoreFunction.Additive ? 2 : shape.keyDim();
     long packedFloats =
-        (long) n * heads * shape.valueDim() + (gemmScores ? 2L * n * heads * packedKeyWidth : 0);
+        (long) n * heads * (shape.valueDim() + 1)
+            + (gemmScores ? 2L * n * heads * packedKeyWidth : 0);
     boolean gatv2 = score instanceof ScoreFunction.Gatv2;
     long javaScratchFloats =
         (long) n * javaThreads + (gatv2 && !masked ? (long) n * heads * shape.keyDim() : 0);
     long fixedBytes = 4 * (packedFloats + javaScratchFloats);
-    long perRowBytes = 4 * ((masked && gemmScores ? 2L : 1L) * n + shape.valueDim());
+    long perRowBytes = 4 * ((masked && gemmScores ? 2L : 1L) * n + shape.valueDim() + 2);
     long minimum = fixedBytes + perRowBytes;
     if (minimum > budgetBytes) {
       throw new MemoryBudgetExceededException(

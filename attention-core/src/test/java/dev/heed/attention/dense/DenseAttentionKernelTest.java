@@ -134,13 +134,28 @@ class DenseAttentionKernelTest {
     checkAgainstReference(kernel(ONE_THREAD), pattern, kind, heads, dim, seed);
   }
 
+  @ParameterizedTest(name = "n={0} heads={1} dim={2} {3} masked={4}")
+  @MethodSource("sizes")
+  void shiftedSoftmaxRouteMatchesFloat64Reference(
+      int n, int heads, int dim, Kind kind, boolean masked, long seed) {
+    // The same cases with the row maximum always subtracted (ND4J's native softmax), the route
+    // taken when scores could exceed UNSHIFTED_EXP_LIMIT. Reference: ReferenceAttention (float64
+    // evaluation of Vaswani et al. 2017 eq. 1, Veličković et al. 2018 eq. 1-3, Brody et al. 2022).
+    AttentionPattern pattern =
+        masked ? randomMask(new Random(seed ^ 0x5eed), n, 0.3) : CompletePattern.of(n);
+    AttentionKernel shifted =
+        new DenseAttentionKernel(ONE_THREAD, DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS, -1.0);
+    checkAgainstReference(shifted, pattern, kind, heads, dim, seed + 500);
+  }
+
   @ParameterizedTest(name = "{0}")
   @MethodSource("kinds")
   void blockBoundariesDoNotMatter(Kind kind) {
     // 61 rows in blocks of 7 (8 full blocks and a tail of 5) must equal the reference
     // (ReferenceAttention, float64 evaluation of the equations).
     int n = 61;
-    AttentionKernel small = new DenseAttentionKernel(ONE_THREAD, 7L * n);
+    AttentionKernel small =
+        new DenseAttentionKernel(ONE_THREAD, 7L * n, DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
     checkAgainstReference(small, CompletePattern.of(n), kind, 3, 5, 77);
     checkAgainstReference(small, randomMask(new Random(78), n, 0.2), kind, 3, 5, 79);
   }
@@ -205,8 +220,9 @@ class DenseAttentionKernelTest {
                     v,
                     out,
                     null));
-    // Packed Q, K, V: 3 · n · 64 floats; a one-row block: n + 64 floats; plus a Java row of n.
-    long expected = 4L * (3L * n * 64 + n) + 4L * (n + 64);
+    // Packed Q, K: 2 · n · 64 floats, V with a ones column: n · 65; a Java row of n; a one-row
+    // block: a score row of n, an output row of 65 and its row sum.
+    long expected = 4L * (2L * n * 64 + n * 65L + n) + 4L * (n + 65 + 1);
     assertEquals(expected, e.bytesNeeded());
     assertEquals(budget, e.budgetBytes());
     String m = e.getMessage();
