@@ -13,12 +13,12 @@ import dev.heed.attention.ScoreFunction;
  * <ul>
  *   <li>repacked inputs, for all heads: {@code n·H·(dv + 1)} for the values with a column of ones
  *       (so the second product also yields each row's sum of weights), plus {@code 2·n·H·w} for the
- *       query and key terms when scores come from a matrix product ({@code w = keyDim} for scaled
- *       dot-product, {@code w = 2} for additive scores, which are packed as {@code [q, 1]} and
- *       {@code [1, k]}); GATv2 scores read the caller's arrays directly and pack nothing;
+ *       query and key terms when scores are formed in ND4J ({@code w = keyDim} for scaled
+ *       dot-product, {@code w = 1} for additive scores, packed as a column and a row); GATv2 scores
+ *       read the caller's arrays directly and pack nothing;
  *   <li>per block row: {@code n} for the score row, {@code n} more for the mask row when the
- *       pattern is a CSR mask and scores come from a matrix product, {@code dv + 1} for the output
- *       and 1 for the row sum;
+ *       pattern is a CSR mask and scores are formed in ND4J, {@code dv + 1} for the output and 1
+ *       for the row sum;
  *   <li>Java scratch: one score row of {@code n} floats per worker thread, and for GATv2 over the
  *       complete pattern the keys transposed per head ({@code n·H·keyDim}), so that the score loop
  *       runs along contiguous rows.
@@ -69,17 +69,17 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
       long targetBlockFloats) {
     assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1;
     long heads = shape.heads();
-    boolean gemmScores = !(score instanceof ScoreFunction.Gatv2);
+    boolean nd4jScores = !(score instanceof ScoreFunction.Gatv2);
 
-    long packedKeyWidth = score instanceof ScoreFunction.Additive ? 2 : shape.keyDim();
+    long packedKeyWidth = shape.keyDim();
     long packedFloats =
         (long) n * heads * (shape.valueDim() + 1)
-            + (gemmScores ? 2L * n * heads * packedKeyWidth : 0);
+            + (nd4jScores ? 2L * n * heads * packedKeyWidth : 0);
     boolean gatv2 = score instanceof ScoreFunction.Gatv2;
     long javaScratchFloats =
         (long) n * javaThreads + (gatv2 && !masked ? (long) n * heads * shape.keyDim() : 0);
     long fixedBytes = 4 * (packedFloats + javaScratchFloats);
-    long perRowBytes = 4 * ((masked && gemmScores ? 2L : 1L) * n + shape.valueDim() + 2);
+    long perRowBytes = 4 * ((masked && nd4jScores ? 2L : 1L) * n + shape.valueDim() + 2);
     long minimum = fixedBytes + perRowBytes;
     if (minimum > budgetBytes) {
       throw new MemoryBudgetExceededException(
