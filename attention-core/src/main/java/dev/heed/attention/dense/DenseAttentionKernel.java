@@ -40,13 +40,19 @@ import org.slf4j.LoggerFactory;
  *       {@code [q, 1]} by {@code [1, k]}ᵀ), then LeakyReLU in place. No n×n×d work.
  *   <li>GATv2 (Brody et al. 2022): {@code S_ij = aᵀ LeakyReLU(q_i + k_j)} is inherently n×n×d and
  *       has no matrix-product form, so it is computed in Java loops (on up to {@code
- *       options.threads()} threads), one score row at a time, only for allowed pairs.
+ *       options.threads()} threads), one score row at a time: over the complete pattern along
+ *       contiguous rows of the keys transposed per head, over a CSR mask only for allowed pairs.
+ *       Cost O(n²·H·keyDim) (complete) or O(E·H·keyDim) (mask) in Java, plus the ND4J steps.
  *   <li>A CSR pattern is a 0/1 mask: a bias block holding 0 for allowed and -∞ for other pairs is
  *       added after the score (and after LeakyReLU, so a slope of 0 never meets -∞), and softmax
  *       gives those pairs exactly 0. Rows with no allowed source get a zero output row.
- *   <li>Softmax: ND4J's native softmax along each row of the whole block (it subtracts the row
- *       maximum, common practice); then {@code out_blk = P·V_h}, one gemm into a preallocated
- *       array.
+ *   <li>Softmax, one ND4J call over the whole block: when a bound from the input norms shows that
+ *       no score of the head exceeds {@link #UNSHIFTED_EXP_LIMIT} in magnitude, just {@code exp}
+ *       (no row maximum, no normalising pass); otherwise ND4J's native softmax, which subtracts the
+ *       row maximum (common practice). Then {@code [out_blk, rowSum] = P·[V_h, 1]}, one gemm into a
+ *       preallocated array, and the rows are divided by their sums while being copied out.
+ *   <li>Scores or sums that overflow float32 (inputs of huge magnitude) raise an {@link
+ *       IllegalArgumentException} rather than returning NaN.
  * </ul>
  *
  * <p>Memory: see {@link DenseBlockPlan}. All ND4J arrays are allocated outside any workspace the
