@@ -82,6 +82,7 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   private final KernelOptions options;
   private final long targetBlockFloats;
+  private final long minTargetRows;
   private final double unshiftedExpLimit;
 
   /**
@@ -89,12 +90,15 @@ final class DenseAttentionKernel implements AttentionKernel {
    *
    * @param options threads and budget
    * @param targetBlockFloats upper bound on one score block (rows · n)
+   * @param minTargetRows least block height the target allows (the budget may still force less)
    * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum ({@link
    *     #UNSHIFTED_EXP_LIMIT}; tests pass a negative value to force the shifted softmax)
    */
-  DenseAttentionKernel(KernelOptions options, long targetBlockFloats, double unshiftedExpLimit) {
+  DenseAttentionKernel(
+      KernelOptions options, long targetBlockFloats, long minTargetRows, double unshiftedExpLimit) {
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
+    this.minTargetRows = minTargetRows;
     this.unshiftedExpLimit = unshiftedExpLimit;
   }
 
@@ -137,7 +141,8 @@ final class DenseAttentionKernel implements AttentionKernel {
             pattern instanceof CsrGraph,
             javaThreads,
             options.denseMemoryBudgetBytes(),
-            targetBlockFloats);
+            targetBlockFloats,
+            minTargetRows);
     if (LOG.isTraceEnabled()) {
       LOG.trace(
           "dense call n={} {} {}: block rows {}, scratch {} bytes",

@@ -64,6 +64,7 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
     return new DenseAttentionKernel(
         options,
         DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+        DenseBlockPlan.MIN_TARGET_ROWS,
         DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
   }
 }

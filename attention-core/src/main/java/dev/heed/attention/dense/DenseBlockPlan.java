@@ -38,6 +38,12 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
   static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 20;
 
   /**
+   * Block height the target never goes below on large n (a matrix product with very few rows runs
+   * far below BLAS speed); only the memory budget can make blocks shorter.
+   */
+  static final long MIN_TARGET_ROWS = 64;
+
+  /**
    * Returns the bytes the call will allocate with this block height.
    *
    * @return total scratch bytes
@@ -55,7 +61,9 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
    * @param masked whether the pattern is a CSR mask (not the complete pattern)
    * @param javaThreads threads that each hold one Java score row
    * @param budgetBytes the dense memory budget
-   * @param targetBlockFloats upper bound on {@code blockRows · n}
+   * @param targetBlockFloats upper bound on {@code blockRows · n}, unless that leaves fewer than
+   *     {@code minTargetRows} rows
+   * @param minTargetRows the least block height the target allows ({@link #MIN_TARGET_ROWS})
    * @return the plan
    * @throws MemoryBudgetExceededException if even a one-row block does not fit the budget
    */
@@ -66,8 +74,9 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
       boolean masked,
       int javaThreads,
       long budgetBytes,
-      long targetBlockFloats) {
-    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1;
+      long targetBlockFloats,
+      long minTargetRows) {
+    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1 && minTargetRows >= 1;
     long heads = shape.heads();
     boolean nd4jScores = !(score instanceof ScoreFunction.Gatv2);
 
@@ -109,7 +118,7 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
           budgetBytes);
     }
     long byBudget = (budgetBytes - fixedBytes) / perRowBytes;
-    long byTarget = Math.max(1, targetBlockFloats / n);
+    long byTarget = Math.max(minTargetRows, targetBlockFloats / n);
     int rows = (int) Math.min(n, Math.min(byBudget, byTarget));
     return new DenseBlockPlan(rows, fixedBytes, perRowBytes);
   }

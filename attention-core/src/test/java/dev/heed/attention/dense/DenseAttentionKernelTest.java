@@ -144,7 +144,11 @@ class DenseAttentionKernelTest {
     AttentionPattern pattern =
         masked ? randomMask(new Random(seed ^ 0x5eed), n, 0.3) : CompletePattern.of(n);
     AttentionKernel shifted =
-        new DenseAttentionKernel(ONE_THREAD, DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS, -1.0);
+        new DenseAttentionKernel(
+            ONE_THREAD,
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            DenseBlockPlan.MIN_TARGET_ROWS,
+            -1.0);
     checkAgainstReference(shifted, pattern, kind, heads, dim, seed + 500);
   }
 
@@ -155,7 +159,7 @@ class DenseAttentionKernelTest {
     // (ReferenceAttention, float64 evaluation of the equations).
     int n = 61;
     AttentionKernel small =
-        new DenseAttentionKernel(ONE_THREAD, 7L * n, DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
+        new DenseAttentionKernel(ONE_THREAD, 7L * n, 1, DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
     checkAgainstReference(small, CompletePattern.of(n), kind, 3, 5, 77);
     checkAgainstReference(small, randomMask(new Random(78), n, 0.2), kind, 3, 5, 79);
   }
@@ -177,7 +181,8 @@ class DenseAttentionKernelTest {
             false,
             1,
             Long.MAX_VALUE,
-            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            DenseBlockPlan.MIN_TARGET_ROWS);
     long budget = unconstrained.fixedBytes() + 13 * unconstrained.bytesPerBlockRow() + 3;
     DenseBlockPlan plan =
         DenseBlockPlan.of(
@@ -187,7 +192,8 @@ class DenseAttentionKernelTest {
             false,
             1,
             budget,
-            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            DenseBlockPlan.MIN_TARGET_ROWS);
     assertEquals(13, plan.blockRows());
     assertTrue(plan.bytesUsed() <= budget);
     assertTrue(budget >= 1L << 20, "budget below the 1 MiB minimum: " + budget);
