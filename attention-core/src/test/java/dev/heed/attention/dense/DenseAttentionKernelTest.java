@@ -434,6 +434,31 @@ class DenseAttentionKernelTest {
   }
 
   @Test
+  void repeatedCallsDoNotGrowOffHeapMemory() {
+    // Each call allocates about 4 MB of ND4J scratch (n = 1024: a 1024 × 1024 score block) and
+    // closes it; without close() the scratch would stay until a garbage collection
+    // (ND4J-NOTES.md), and 60 calls would add about 250 MB of resident memory.
+    int n = 1024;
+    HeadShape shape = new HeadShape(1, 8, 8);
+    Random random = new Random(61);
+    float[] q = randomArray(random, n * 8, 1f);
+    float[] k = randomArray(random, n * 8, 1f);
+    float[] v = randomArray(random, n * 8, 1f);
+    float[] out = new float[n * 8];
+    AttentionKernel kernel = kernel(ONE_THREAD);
+    CompletePattern pattern = CompletePattern.of(n);
+    for (int call = 0; call < 5; call++) {
+      kernel.attend(pattern, ScoreFunction.scaledDotProduct(), shape, q, k, v, out, null);
+    }
+    long before = org.bytedeco.javacpp.Pointer.physicalBytes();
+    for (int call = 0; call < 60; call++) {
+      kernel.attend(pattern, ScoreFunction.scaledDotProduct(), shape, q, k, v, out, null);
+    }
+    long grown = org.bytedeco.javacpp.Pointer.physicalBytes() - before;
+    assertTrue(grown < 100L << 20, "resident memory grew by " + (grown >> 20) + " MiB");
+  }
+
+  @Test
   void foundThroughServiceLoaderAsTheDensePath() {
     AttentionKernel kernel = AttentionKernels.forPath(ComputePath.DENSE, ONE_THREAD);
     assertEquals(ComputePath.DENSE, kernel.path());
