@@ -109,7 +109,7 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   @Override
   public String describe() {
-    return "dense-nd4j(row blocks, BLAS gemm, native softmax), budget "
+    return "dense-nd4j(row blocks, BLAS gemm, ND4J exp or softmax), budget "
         + options.denseMemoryBudgetBytes()
         + " bytes, GATv2 score threads "
         + options.threads()
