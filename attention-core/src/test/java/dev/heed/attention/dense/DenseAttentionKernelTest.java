@@ -458,6 +458,100 @@ class DenseAttentionKernelTest {
     assertTrue(grown < 100L << 20, "resident memory grew by " + (grown >> 20) + " MiB");
   }
 
+  /** The complete graph on n nodes as an explicit CSR graph (every row 0..n-1). */
+  static CsrGraph completeCsr(int n) {
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * n];
+    for (int i = 0; i < n; i++) {
+      offsets[i + 1] = (i + 1) * n;
+      for (int j = 0; j < n; j++) {
+        columns[i * n + j] = j;
+      }
+    }
+    return CsrGraph.of(offsets, columns);
+  }
+
+  static double relativeError(float[] expected, float[] actual) {
+    double maxDiff = 0;
+    double maxRef = 0;
+    for (int i = 0; i < expected.length; i++) {
+      maxDiff = Math.max(maxDiff, Math.abs(expected[i] - actual[i]));
+      maxRef = Math.max(maxRef, Math.abs(expected[i]));
+    }
+    return maxDiff / maxRef;
+  }
+
+  @Test
+  void completeCsrMaskEqualsTheCompletePattern() {
+    // Self-attention is graph attention over the complete graph (REFERENCES.md, common
+    // practice): the masked route over an all-ones CSR graph must give the unmasked result, and
+    // its CSR entry order is the complete pattern's row-major order, so the weights match too.
+    int n = 37;
+    for (Kind kind : Kind.values()) {
+      Random random = new Random(71);
+      HeadShape shape = shapeOf(kind, 3, 9);
+      ScoreFunction score = scoreOf(kind, shape, random);
+      float[] q = randomArray(random, n * shape.keyWidth(), 1f);
+      float[] k = randomArray(random, n * shape.keyWidth(), 1f);
+      float[] v = randomArray(random, n * shape.valueWidth(), 1f);
+      float[] outComplete = new float[n * shape.valueWidth()];
+      float[] outCsr = new float[n * shape.valueWidth()];
+      float[] wComplete = new float[n * n * 3];
+      float[] wCsr = new float[n * n * 3];
+      AttentionKernel kernel = kernel(ONE_THREAD);
+      kernel.attend(CompletePattern.of(n), score, shape, q, k, v, outComplete, wComplete);
+      kernel.attend(completeCsr(n), score, shape, q, k, v, outCsr, wCsr);
+      assertTrue(relativeError(outComplete, outCsr) < 1e-6, kind + " output");
+      assertTrue(relativeError(wComplete, wCsr) < 1e-6, kind + " weights");
+    }
+  }
+
+  @Test
+  void renumberingNodesRenumbersOutputs() {
+    // Attention is permutation-equivariant (REFERENCES.md, common practice): node p(i) of the
+    // permuted input gets node i's output.
+    int n = 45;
+    Random random = new Random(81);
+    int[] perm = new int[n];
+    for (int i = 0; i < n; i++) {
+      perm[i] = i;
+    }
+    for (int i = n - 1; i > 0; i--) {
+      int j = random.nextInt(i + 1);
+      int t = perm[i];
+      perm[i] = perm[j];
+      perm[j] = t;
+    }
+    for (Kind kind : Kind.values()) {
+      HeadShape shape = shapeOf(kind, 2, 6);
+      ScoreFunction score = scoreOf(kind, shape, random);
+      int kw = shape.keyWidth();
+      int vw = shape.valueWidth();
+      float[] q = randomArray(random, n * kw, 1f);
+      float[] k = randomArray(random, n * kw, 1f);
+      float[] v = randomArray(random, n * vw, 1f);
+      float[] pq = new float[n * kw];
+      float[] pk = new float[n * kw];
+      float[] pv = new float[n * vw];
+      for (int i = 0; i < n; i++) {
+        System.arraycopy(q, i * kw, pq, perm[i] * kw, kw);
+        System.arraycopy(k, i * kw, pk, perm[i] * kw, kw);
+        System.arraycopy(v, i * vw, pv, perm[i] * vw, vw);
+      }
+      float[] out = new float[n * vw];
+      float[] permutedOut = new float[n * vw];
+      AttentionKernel kernel = kernel(ONE_THREAD);
+      kernel.attend(CompletePattern.of(n), score, shape, q, k, v, out, null);
+      kernel.attend(CompletePattern.of(n), score, shape, pq, pk, pv, permutedOut, null);
+      float[] back = new float[n * vw];
+      for (int i = 0; i < n; i++) {
+        System.arraycopy(permutedOut, perm[i] * vw, back, i * vw, vw);
+      }
+      double error = relativeError(out, back);
+      assertTrue(error < 1e-5, kind + " error " + error);
+    }
+  }
+
   @Test
   void foundThroughServiceLoaderAsTheDensePath() {
     AttentionKernel kernel = AttentionKernels.forPath(ComputePath.DENSE, ONE_THREAD);
