@@ -72,8 +72,9 @@ final class DenseAttentionKernel implements AttentionKernel {
    * exp(e)} is taken directly (ND4J's Exp over the whole block) and normalised afterwards by the
    * row sum that the second product yields. Softmax is shift-invariant (common practice), and with
    * |e| ≤ 60 every exp is a normal float32 between e⁻⁶⁰ ≈ 8.8e-27 and e⁶⁰ ≈ 1.1e26, so a row of up
-   * to 2³¹ terms sums without overflow and its largest term never underflows. Otherwise the kernel
-   * uses ND4J's native softmax, which subtracts the row maximum.
+   * to 2³¹ terms sums without overflow and its largest term never underflows. The limit is lowered
+   * further for values of very large or very small magnitude (see {@code safeUnshiftedLimit}).
+   * Otherwise the kernel uses ND4J's native softmax, which subtracts the row maximum.
    */
   static final double UNSHIFTED_EXP_LIMIT = 60.0;
 
@@ -280,7 +281,7 @@ final class DenseAttentionKernel implements AttentionKernel {
       for (int h = 0; h < heads; h++) {
         packedValue[h] = allocate(n, valueDim + 1);
         packValuesWithOnes(h, packedValue[h]);
-        unshifted[h] = scoreBound(h) <= unshiftedExpLimit;
+        unshifted[h] = scoreBound(h) <= Math.min(unshiftedExpLimit, safeUnshiftedLimit(h));
       }
       int blockRows = plan.blockRows();
       INDArray scoreBlock = allocate(blockRows, n);
@@ -376,6 +377,30 @@ final class DenseAttentionKernel implements AttentionKernel {
         return bound;
       }
       return maxAbs(query, h, 0) + maxAbs(key, h, 0);
+    }
+
+    /**
+     * Returns the largest score bound for which exp without the row maximum is safe for head {@code
+     * h}, given its values. With scores in [-B, B] each weight lies in [e^-B, e^B]: the row sums
+     * (up to n·e^B) and weighted value sums (up to n·e^B·max|v|) must stay well below the float32
+     * maximum (e^88.7), and the products of e^-B with the largest values must stay a factor 2^24
+     * (e^16.6) above the smallest normal float (e^-87.3), so nothing underflows.
+     */
+    private double safeUnshiftedLimit(int h) {
+      double maxValue = 0;
+      for (int j = 0; j < n; j++) {
+        int at = (j * heads + h) * valueDim;
+        for (int c = 0; c < valueDim; c++) {
+          maxValue = Math.max(maxValue, Math.abs(value[at + c]));
+        }
+      }
+      if (maxValue == 0) {
+        return Double.NEGATIVE_INFINITY; // all-zero values: take the shifted route, output 0
+      }
+      double logValue = Math.log(maxValue);
+      double overflow = 84.0 - Math.log(n) - Math.max(0, logValue);
+      double underflow = 70.0 + Math.min(0, logValue);
+      return Math.min(overflow, underflow);
     }
 
     private double maxNorm(float[] terms, int h) {

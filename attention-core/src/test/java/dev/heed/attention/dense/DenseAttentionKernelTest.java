@@ -552,6 +552,33 @@ class DenseAttentionKernelTest {
     }
   }
 
+  @ParameterizedTest(name = "value scale {0}")
+  @org.junit.jupiter.params.provider.ValueSource(doubles = {1e-25, 1e16})
+  void extremeValueMagnitudesStayAccurate(double valueScale) {
+    // |scores| between 49 and 59.3 (q, k in [7, 7.7], one dimension, scale 1) pass the plain
+    // score limit of 60; but values of magnitude 1e-25 times weights near e^-59 underflow, and
+    // values of 1e16 times weights near e^59 overflow the sums. The result must still match the
+    // float64 reference (ReferenceAttention, Vaswani et al. 2017, eq. 1) at the usual tolerance.
+    int n = 100;
+    HeadShape shape = new HeadShape(1, 1, 4);
+    Random random = new Random(91);
+    float[] q = new float[n];
+    float[] k = new float[n];
+    for (int i = 0; i < n; i++) {
+      q[i] = (i % 2 == 0 ? 1 : -1) * (7f + 0.7f * random.nextFloat());
+      k[i] = 7f + 0.7f * random.nextFloat();
+    }
+    float[] v = randomArray(random, n * 4, (float) valueScale);
+    float[] out = new float[n * 4];
+    kernel(ONE_THREAD)
+        .attend(CompletePattern.of(n), ScoreFunction.scaledDotProduct(), shape, q, k, v, out, null);
+    ReferenceAttention.Result expected =
+        ReferenceAttention.attend(
+            CompletePattern.of(n), ScoreFunction.scaledDotProduct(), shape, q, k, v);
+    double error = ReferenceAttention.relativeError(expected.out(), out);
+    assertTrue(error < TOLERANCE, "value scale " + valueScale + ": relative error " + error);
+  }
+
   @Test
   void foundThroughServiceLoaderAsTheDensePath() {
     AttentionKernel kernel = AttentionKernels.forPath(ComputePath.DENSE, ONE_THREAD);
