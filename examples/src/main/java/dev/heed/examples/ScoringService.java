@@ -375,6 +375,8 @@ public final class ScoringService implements AutoCloseable {
   }
 
   private static String decode(String raw) throws RequestProblem {
+    // The JDK's server already refuses request lines that are not valid URIs (with its own 400);
+    // this is a second line of defence.
     try {
       return URLDecoder.decode(raw, StandardCharsets.UTF_8);
     } catch (IllegalArgumentException e) {
