@@ -44,11 +44,11 @@ import org.jgrapht.graph.DefaultEdge;
  *       explanation.
  * </ol>
  *
- * <p>Run from the repository root, after {@code mvn -B -DskipTests package}:
+ * <p>Run from the repository root (the script compiles what it needs, then runs the example with
+ * {@code --add-modules jdk.incubator.vector}):
  *
  * <pre>
- * mvn -B -q -pl examples exec:exec -Dexample=dev.heed.examples.ClassifyJGraphTGraph \
- *     -Dexample.args="path/to/model.heed 20"
+ * examples/run ClassifyJGraphTGraph path/to/model.heed 20
  * </pre>
  *
  * Arguments: the model (a file, or {@code classpath:/dev/heed/demo/payments-demo.heed}, the

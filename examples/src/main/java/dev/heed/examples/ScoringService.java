@@ -89,11 +89,11 @@ import org.slf4j.LoggerFactory;
  * }
  * }</pre>
  *
- * <p>Run from the repository root, after {@code mvn -B -DskipTests package}:
+ * <p>Run from the repository root (the script compiles what it needs, then runs the service with
+ * {@code --add-modules jdk.incubator.vector}):
  *
  * <pre>
- * mvn -B -q -pl examples exec:exec -Dexample=dev.heed.examples.ScoringService \
- *     -Dexample.args="path/to/model.heed 8080"
+ * examples/run ScoringService path/to/model.heed 8080
  * curl 'http://127.0.0.1:8080/score?node=acct-000123&amp;explain=3'
  * </pre>
  *
