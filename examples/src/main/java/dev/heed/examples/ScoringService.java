@@ -20,6 +20,7 @@ import java.io.IOException;
 import java.io.OutputStream;
 import java.net.InetAddress;
 import java.net.InetSocketAddress;
+import java.net.URI;
 import java.net.URLDecoder;
 import java.nio.charset.StandardCharsets;
 import java.util.HashMap;
@@ -226,8 +227,8 @@ public final class ScoringService implements AutoCloseable {
    * @param pathAndQuery starts with {@code /}, for example {@code /score?node=acct-000001}
    * @return {@code http://127.0.0.1:port} followed by it
    */
-  public java.net.URI uri(String pathAndQuery) {
-    return java.net.URI.create(
+  public URI uri(String pathAndQuery) {
+    return URI.create(
         "http://"
             + server.getAddress().getAddress().getHostAddress()
             + ":"
