@@ -104,8 +104,10 @@ final class CsrRowPass {
     final float[] max;
     final float[] sum;
     final float[] work;
+    final int[] rowBase;
 
     Scratch(int heads, int valueWidth, int workLength) {
+      rowBase = new int[BLOCK];
       scores = new float[BLOCK * heads];
       acc = new float[valueWidth];
       max = new float[heads];
@@ -166,11 +168,13 @@ final class CsrRowPass {
         }
         l[h] += math.expShiftSum(s, sh, count, m[h], sc.work);
       }
+      int[] rowBase = sc.rowBase;
       for (int t = 0; t < count; t++) {
-        int vb = column(start + b + t) * valueWidth;
-        for (int h = 0; h < heads; h++) {
-          math.axpy(s[h * BLOCK + t], value, vb + h * valueDim, acc, h * valueDim, valueDim);
-        }
+        rowBase[t] = column(start + b + t) * valueWidth;
+      }
+      for (int h = 0; h < heads; h++) {
+        math.weightedRowSum(
+            s, h * BLOCK, rowBase, count, h * valueDim, value, acc, h * valueDim, valueDim);
       }
     }
     for (int h = 0; h < heads; h++) {

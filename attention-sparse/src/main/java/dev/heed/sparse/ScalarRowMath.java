@@ -75,9 +75,22 @@ final class ScalarRowMath implements RowMath {
   }
 
   @Override
-  public void axpy(float alpha, float[] x, int xo, float[] y, int yo, int length) {
-    for (int k = 0; k < length; k++) {
-      y[yo + k] += alpha * x[xo + k];
+  public void weightedRowSum(
+      float[] w,
+      int wOffset,
+      int[] rowBase,
+      int count,
+      int headOffset,
+      float[] value,
+      float[] acc,
+      int accOffset,
+      int length) {
+    for (int x = 0; x < length; x++) {
+      float a = acc[accOffset + x];
+      for (int t = 0; t < count; t++) {
+        a += w[wOffset + t] * value[rowBase[t] + headOffset + x];
+      }
+      acc[accOffset + x] = a;
     }
   }
 

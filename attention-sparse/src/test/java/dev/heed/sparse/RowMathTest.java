@@ -64,7 +64,7 @@ class RowMathTest {
   }
 
   @Test
-  void maxExpAxpyAndScaleMatchFloat64() {
+  void maxExpWeightedSumAndScaleMatchFloat64() {
     Random random = new Random(0x0A12L);
     for (RowMath math : implementations()) {
       float[] work = new float[math.workLength()];
@@ -86,17 +86,27 @@ class RowMathTest {
           assertEquals(e, s[off + k], 4e-7 * e, where + ", element " + k);
         }
         assertEquals(sum, got, sumTolerance(length, sum), where);
-        float[] x = uniform(random, length + 2, -1f, 1f);
+        // three value rows of width length + 3, this head's span at offset 2 of each row
+        int count = 3;
+        int width = length + 3;
+        float[] value = uniform(random, count * width, -1f, 1f);
+        int[] rowBase = {2 * width, 0, width};
+        float[] w = uniform(random, count + 1, 0f, 1f);
         float[] y = uniform(random, length + 1, -1f, 1f);
         float[] y0 = y.clone();
-        math.axpy(0.37f, x, 2, y, 1, length);
-        assertEquals(y0[0], y[0], where + ": axpy wrote outside its span");
+        math.weightedRowSum(w, 1, rowBase, count, 2, value, y, 1, length);
+        assertEquals(y0[0], y[0], where + ": weightedRowSum wrote outside its span");
+        double[] expected = new double[length];
         for (int k = 0; k < length; k++) {
-          assertEquals(y0[1 + k] + 0.37 * x[2 + k], y[1 + k], 3e-7, where);
+          expected[k] = y0[1 + k];
+          for (int t = 0; t < count; t++) {
+            expected[k] += (double) w[1 + t] * value[rowBase[t] + 2 + k];
+          }
+          assertEquals(expected[k], y[1 + k], 1e-6, where);
         }
         math.scale(y, 1, length, -2.5f);
         for (int k = 0; k < length; k++) {
-          assertEquals((y0[1 + k] + 0.37 * x[2 + k]) * -2.5, y[1 + k], 1e-6, where);
+          assertEquals(expected[k] * -2.5, y[1 + k], 3e-6, where);
         }
       }
     }

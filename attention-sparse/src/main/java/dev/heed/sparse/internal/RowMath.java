@@ -96,16 +96,31 @@ public interface RowMath {
   float expShiftSum(float[] s, int offset, int length, float shift, float[] work);
 
   /**
-   * Adds {@code alpha · x[xo+k]} to {@code y[yo+k]} for {@code k < length}.
+   * For one head of one block of entries, adds the weighted value rows into the accumulator: {@code
+   * acc[accOffset + x] += Σ_t w[wOffset + t] · value[rowBase[t] + headOffset + x]} for {@code x <
+   * length}, the sum over {@code t < count} taken in order of t for every x. Keeping the loop over
+   * entries inside lets an implementation hold the accumulator in registers.
    *
-   * @param alpha the factor
-   * @param x input, not modified
-   * @param xo offset in {@code x}
-   * @param y input and output
-   * @param yo offset in {@code y}
-   * @param length span length, at least 1
+   * @param w input, not modified: the entries' unnormalised weights for this head
+   * @param wOffset offset of entry 0's weight in {@code w}
+   * @param rowBase input, not modified: the start of each entry's value row in {@code value}
+   * @param count number of entries, at least 1
+   * @param headOffset offset of this head's values within a value row
+   * @param value input, not modified: the value rows
+   * @param acc input and output: the accumulator
+   * @param accOffset offset of this head's span in {@code acc}
+   * @param length the head's value width, at least 1
    */
-  void axpy(float alpha, float[] x, int xo, float[] y, int yo, int length);
+  void weightedRowSum(
+      float[] w,
+      int wOffset,
+      int[] rowBase,
+      int count,
+      int headOffset,
+      float[] value,
+      float[] acc,
+      int accOffset,
+      int length);
 
   /**
    * Multiplies each element of the span by {@code factor}.
