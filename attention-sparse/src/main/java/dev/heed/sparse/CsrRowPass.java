@@ -107,9 +107,9 @@ final class CsrRowPass {
     final int[] rowBase;
     final float[] keys;
 
-    Scratch(int heads, int valueWidth, int workLength) {
+    Scratch(int heads, int keyWidth, int valueWidth, int workLength) {
       rowBase = new int[BLOCK];
-      keys = new float[BLOCK * heads];
+      keys = new float[BLOCK * keyWidth];
       scores = new float[BLOCK * heads];
       acc = new float[valueWidth];
       max = new float[heads];
@@ -119,7 +119,7 @@ final class CsrRowPass {
   }
 
   Scratch newScratch() {
-    return new Scratch(heads, valueWidth, math.workLength());
+    return new Scratch(heads, keyWidth, valueWidth, math.workLength());
   }
 
   /** Computes rows {@code from..to-1}. */
@@ -206,17 +206,7 @@ final class CsrRowPass {
     int qb = i * keyWidth;
     switch (kind) {
       case ADDITIVE -> {
-        // First only gather the block's key rows (H floats each) into scratch: a loop of loads
-        // alone keeps many cache misses in flight (measured: the scoring loop with the loads
-        // inside was the hottest spot); then score from the scratch.
-        float[] gathered = sc.keys;
-        for (int t = 0; t < count; t++) {
-          int kb = column(first + t) * keyWidth;
-          int gb = t * heads;
-          for (int h = 0; h < heads; h++) {
-            gathered[gb + h] = key[kb + h];
-          }
-        }
+        float[] gathered = gatherKeys(first, count, sc);
         for (int t = 0; t < count; t++) {
           int gb = t * heads;
           for (int h = 0; h < heads; h++) {
@@ -227,28 +217,44 @@ final class CsrRowPass {
         }
       }
       case GATV2 -> {
+        float[] gathered = gatherKeys(first, count, sc);
         for (int t = 0; t < count; t++) {
           int j = column(first + t);
-          int kb = j * keyWidth;
+          int kb = t * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
-            float e = math.gatv2(attention, o, query, qb + o, key, kb + o, keyDim, slope, sc.work);
+            float e =
+                math.gatv2(attention, o, query, qb + o, gathered, kb + o, keyDim, slope, sc.work);
             s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
           }
         }
       }
       default -> {
+        float[] gathered = gatherKeys(first, count, sc);
         for (int t = 0; t < count; t++) {
           int j = column(first + t);
-          int kb = j * keyWidth;
+          int kb = t * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
-            float e = math.dot(query, qb + o, key, kb + o, keyDim, sc.work) * dotScale;
+            float e = math.dot(query, qb + o, gathered, kb + o, keyDim, sc.work) * dotScale;
             s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
           }
         }
       }
     }
+  }
+
+  /**
+   * Copies the key rows of the block's entries into scratch, row t at {@code t * keyWidth}. A loop
+   * of loads alone keeps many cache misses in flight; the scoring loops then read the scratch
+   * (measured: with the random key loads inside the scoring loop, they were its hottest spot).
+   */
+  private float[] gatherKeys(int first, int count, Scratch sc) {
+    float[] gathered = sc.keys;
+    for (int t = 0; t < count; t++) {
+      System.arraycopy(key, column(first + t) * keyWidth, gathered, t * keyWidth, keyWidth);
+    }
+    return gathered;
   }
 
   /** The score in float64, clamped to the float range; the rare path after a float overflow. */
