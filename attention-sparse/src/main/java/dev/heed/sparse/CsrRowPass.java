@@ -103,23 +103,21 @@ final class CsrRowPass {
     final float[] acc;
     final float[] max;
     final float[] sum;
-    final float[] work;
     final int[] rowBase;
     final float[] keys;
 
-    Scratch(int heads, int keyWidth, int valueWidth, int workLength) {
+    Scratch(int heads, int keyWidth, int valueWidth) {
       rowBase = new int[BLOCK];
       keys = new float[BLOCK * keyWidth];
       scores = new float[BLOCK * heads];
       acc = new float[valueWidth];
       max = new float[heads];
       sum = new float[heads];
-      work = new float[workLength];
     }
   }
 
   Scratch newScratch() {
-    return new Scratch(heads, keyWidth, valueWidth, math.workLength());
+    return new Scratch(heads, keyWidth, valueWidth);
   }
 
   /** Computes rows {@code from..to-1}. */
@@ -168,7 +166,7 @@ final class CsrRowPass {
           }
           m[h] = blockMax;
         }
-        l[h] += math.expShiftSum(s, sh, count, m[h], sc.work);
+        l[h] += math.expShiftSum(s, sh, count, m[h]);
       }
       int[] rowBase = sc.rowBase;
       for (int t = 0; t < count; t++) {
@@ -223,8 +221,7 @@ final class CsrRowPass {
           int kb = t * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
-            float e =
-                math.gatv2(attention, o, query, qb + o, gathered, kb + o, keyDim, slope, sc.work);
+            float e = math.gatv2(attention, o, query, qb + o, gathered, kb + o, keyDim, slope);
             s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
           }
         }
@@ -236,7 +233,7 @@ final class CsrRowPass {
           int kb = t * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
-            float e = math.dot(query, qb + o, gathered, kb + o, keyDim, sc.work) * dotScale;
+            float e = math.dot(query, qb + o, gathered, kb + o, keyDim) * dotScale;
             s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
           }
         }

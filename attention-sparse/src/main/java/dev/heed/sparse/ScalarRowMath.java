@@ -22,12 +22,7 @@ final class ScalarRowMath implements RowMath {
   }
 
   @Override
-  public int workLength() {
-    return 1;
-  }
-
-  @Override
-  public float dot(float[] a, int ao, float[] b, int bo, int length, float[] work) {
+  public float dot(float[] a, int ao, float[] b, int bo, int length) {
     float s = 0f;
     for (int k = 0; k < length; k++) {
       s += a[ao + k] * b[bo + k];
@@ -44,8 +39,7 @@ final class ScalarRowMath implements RowMath {
       float[] key,
       int ko,
       int length,
-      float negativeSlope,
-      float[] work) {
+      float negativeSlope) {
     float s = 0f;
     for (int k = 0; k < length; k++) {
       float z = q[qo + k] + key[ko + k];
@@ -64,7 +58,7 @@ final class ScalarRowMath implements RowMath {
   }
 
   @Override
-  public float expShiftSum(float[] s, int offset, int length, float shift, float[] work) {
+  public float expShiftSum(float[] s, int offset, int length, float shift) {
     float sum = 0f;
     for (int k = offset, end = offset + length; k < end; k++) {
       float p = FastExp.expNonPositive(s[k] - shift);

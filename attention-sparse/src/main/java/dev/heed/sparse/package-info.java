@@ -1,7 +1,7 @@
 /**
  * The sparse (CSR) attention path: a fused, multi-threaded kernel that computes attention row by
  * row over a {@link dev.heed.graph.CsrGraph} or a {@link dev.heed.graph.CompletePattern}, in
- * O(E·H·d) time and a few kilobytes of scratch per thread.
+ * O(E·H·d) time and at most a few hundred kilobytes of scratch per thread.
  *
  * <p>Use it through {@code AttentionKernels.forPath(ComputePath.SPARSE, options)}; this package
  * registers {@link dev.heed.sparse.CsrAttentionKernelProvider} for that. Start the JVM with {@code

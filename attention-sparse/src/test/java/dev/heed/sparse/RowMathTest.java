@@ -32,7 +32,6 @@ class RowMathTest {
   void dotAndGatv2MatchFloat64() {
     Random random = new Random(0x0A11L);
     for (RowMath math : implementations()) {
-      float[] work = new float[math.workLength()];
       for (int length : LENGTHS) {
         int ao = random.nextInt(5);
         int bo = random.nextInt(5);
@@ -52,11 +51,10 @@ class RowMathTest {
           gatMagnitude += Math.abs(term);
         }
         String where = math.describe() + ", length " + length;
-        assertEquals(
-            dot, math.dot(a, ao, b, bo, length, work), sumTolerance(length, magnitude), where);
+        assertEquals(dot, math.dot(a, ao, b, bo, length), sumTolerance(length, magnitude), where);
         assertEquals(
             gat,
-            math.gatv2(c, 3, a, ao, b, bo, length, 0.2f, work),
+            math.gatv2(c, 3, a, ao, b, bo, length, 0.2f),
             sumTolerance(length, gatMagnitude),
             where);
       }
@@ -67,7 +65,6 @@ class RowMathTest {
   void maxExpWeightedSumAndScaleMatchFloat64() {
     Random random = new Random(0x0A12L);
     for (RowMath math : implementations()) {
-      float[] work = new float[math.workLength()];
       for (int length : LENGTHS) {
         String where = math.describe() + ", length " + length;
         int off = random.nextInt(4);
@@ -79,7 +76,7 @@ class RowMathTest {
         assertEquals(max, math.max(s, off, length), where);
         float[] before = s.clone();
         double sum = 0;
-        float got = math.expShiftSum(s, off, length, max, work);
+        float got = math.expShiftSum(s, off, length, max);
         for (int k = 0; k < length; k++) {
           double e = Math.exp(before[off + k] - max); // the argument rounded to float, as used
           sum += e;
@@ -118,11 +115,10 @@ class RowMathTest {
   void vectorAndScalarExponentialsAgreeBitForBit() {
     Random random = new Random(0x0A13L);
     RowMath vector = RowMaths.preferred();
-    float[] work = new float[vector.workLength()];
     for (int length : LENGTHS) {
       float[] s = uniform(random, length, -100f, 0f);
       float[] t = s.clone();
-      vector.expShiftSum(s, 0, length, 0f, work);
+      vector.expShiftSum(s, 0, length, 0f);
       for (int k = 0; k < length; k++) {
         t[k] = FastExp.expNonPositive(t[k]);
       }

@@ -9,7 +9,7 @@ package dev.heed.sparse.internal;
  * only on the span contents and length, never on which thread runs, whether the code is interpreted
  * or compiled, or on alignment: the kernel's results are bit-identical for any thread count because
  * of this. In particular, implementations use only IEEE-754 add, multiply, fused multiply-add,
- * compare and exact bit manipulation, in a fixed order (no {@code reduceLanes}, whose order is
+ * compare and exact bit manipulation, in a fixed order (no {@code reduceLanes(ADD)}, whose order is
  * unspecified, and no library {@code exp}, whose vector and scalar forms differ).
  *
  * <p>Thread safety: implementations are stateless and safe from any thread.
@@ -24,14 +24,6 @@ public interface RowMath {
   String describe();
 
   /**
-   * Returns the length of the {@code work} array that {@link #dot}, {@link #gatv2} and {@link
-   * #expShiftSum} need: at least the number of float lanes of the widest vector used.
-   *
-   * @return the work length, at least 1
-   */
-  int workLength();
-
-  /**
    * Returns the dot product {@code Σ a[ao+k] · b[bo+k]} over {@code k < length}, in float32.
    *
    * @param a input, not modified
@@ -39,10 +31,9 @@ public interface RowMath {
    * @param b input, not modified
    * @param bo offset in {@code b}
    * @param length span length, at least 1
-   * @param work scratch of length {@link #workLength()}, overwritten
    * @return the dot product; may be infinite or NaN if an intermediate overflows
    */
-  float dot(float[] a, int ao, float[] b, int bo, int length, float[] work);
+  float dot(float[] a, int ao, float[] b, int bo, int length);
 
   /**
    * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
@@ -56,19 +47,10 @@ public interface RowMath {
    * @param ko offset in {@code key}
    * @param length span length (the key width), at least 1
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
-   * @param work scratch of length {@link #workLength()}, overwritten
    * @return the score; may be infinite or NaN if an intermediate overflows
    */
   float gatv2(
-      float[] att,
-      int ao,
-      float[] q,
-      int qo,
-      float[] key,
-      int ko,
-      int length,
-      float negativeSlope,
-      float[] work);
+      float[] att, int ao, float[] q, int qo, float[] key, int ko, int length, float negativeSlope);
 
   /**
    * Returns the largest element of the span.
@@ -90,10 +72,9 @@ public interface RowMath {
    * @param offset start of the span
    * @param length span length, at least 1
    * @param shift the value subtracted before exponentiating, finite
-   * @param work scratch of length {@link #workLength()}, overwritten
    * @return the sum of the new span
    */
-  float expShiftSum(float[] s, int offset, int length, float shift, float[] work);
+  float expShiftSum(float[] s, int offset, int length, float shift);
 
   /**
    * For one head of one block of entries, adds the weighted value rows into the accumulator: {@code

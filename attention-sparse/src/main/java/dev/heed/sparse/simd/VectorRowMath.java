@@ -72,12 +72,7 @@ public final class VectorRowMath implements RowMath {
   }
 
   @Override
-  public int workLength() {
-    return WIDE_LANES;
-  }
-
-  @Override
-  public float dot(float[] a, int ao, float[] b, int bo, int length, float[] work) {
+  public float dot(float[] a, int ao, float[] b, int bo, int length) {
     float s = 0f;
     int k = 0;
     if (length >= WIDE_LANES) {
@@ -109,8 +104,7 @@ public final class VectorRowMath implements RowMath {
       float[] key,
       int ko,
       int length,
-      float negativeSlope,
-      float[] work) {
+      float negativeSlope) {
     float s = 0f;
     int k = 0;
     if (length >= WIDE_LANES) {
@@ -154,7 +148,7 @@ public final class VectorRowMath implements RowMath {
   }
 
   @Override
-  public float expShiftSum(float[] s, int offset, int length, float shift, float[] work) {
+  public float expShiftSum(float[] s, int offset, int length, float shift) {
     float sum = 0f;
     int k = 0;
     if (length >= WIDE_LANES) {
