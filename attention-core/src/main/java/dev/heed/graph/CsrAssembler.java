@@ -11,13 +11,21 @@ import java.util.Arrays;
  * {@code i} then starts at {@code offsets[i]}); (4) each row is sorted on its own, by insertion for
  * short rows (at most {@link #INSERTION_SORT_LIMIT} entries, so bounded work per entry) and by LSD
  * radix sort on 8-bit digits for longer ones; (5) one sweep merges or rejects duplicates and
- * compacts in place. The only arrays of size E are the columns (plus one final trimmed copy when
- * duplicates were merged); the only arrays of size n are the offsets.
+ * compacts in place. The only arrays of size E are the columns (plus one trimmed copy when more
+ * than 1/{@value #MAX_TAIL_DIVISOR} of them were merged away; a smaller unused tail is kept
+ * instead); the only arrays of size n are the offsets.
  */
 final class CsrAssembler {
 
   /** Rows up to this length are sorted by insertion; longer rows by radix sort. */
   static final int INSERTION_SORT_LIMIT = 48;
+
+  /**
+   * Merging may leave unused entries at the end of the column array. Up to 1/8 of the array they
+   * stay there (no copy, so the build's peak stays at the finished size); beyond that the columns
+   * are copied once to their exact size.
+   */
+  static final int MAX_TAIL_DIVISOR = 8;
 
   /** The largest number of entries a graph can hold (Java array limit, common practice). */
   static final int MAX_ENTRIES = Integer.MAX_VALUE - 8;
@@ -102,7 +110,7 @@ final class CsrAssembler {
       }
     }
     offsets[n] = write;
-    if (write < columns.length) {
+    if (columns.length - write > columns.length / MAX_TAIL_DIVISOR) {
       columns = Arrays.copyOf(columns, write);
     }
     return CsrGraph.adopt(offsets, columns);

@@ -11,19 +11,22 @@ import java.util.Objects;
  *
  * <p>Invariants, checked on construction: {@code rowOffsets.length == n + 1}, {@code rowOffsets[0]
  * == 0}, offsets non-decreasing and ending at E, every column in {@code 0..n-1}, columns strictly
- * increasing within each row (sorted, no duplicates). Storage is exactly the two int arrays, {@code
- * 4·(n+1) + 4·E} bytes beyond object headers.
+ * increasing within each row (sorted, no duplicates). Storage is the two int arrays, {@code 4·(n+1)
+ * + 4·E} bytes beyond object headers; a graph made by this package's builders may keep a short
+ * unused tail after its E columns (see {@link #storageBytes()}), which no method exposes.
  *
  * <p>Thread safety: immutable; safe to share between threads.
  */
 public final class CsrGraph implements AttentionPattern {
 
   private final int[] rowOffsets;
-  private final int[] columns;
+  private final int[] columns; // entries 0..edgeCount-1 are the graph; any tail is unused
+  private final int edgeCount;
 
   private CsrGraph(int[] rowOffsets, int[] columns) {
     this.rowOffsets = rowOffsets;
     this.columns = columns;
+    this.edgeCount = rowOffsets[rowOffsets.length - 1];
   }
 
   /**
@@ -43,20 +46,21 @@ public final class CsrGraph implements AttentionPattern {
     Objects.requireNonNull(columns, "columns");
     int[] offsets = rowOffsets.clone();
     int[] cols = columns.clone();
-    validate(offsets, cols);
+    validate(offsets, cols, false);
     return new CsrGraph(offsets, cols);
   }
 
   /**
    * Wraps arrays that the caller has just built and will never touch again, after validating them.
-   * For builders in this package only: no copy is made.
+   * For builders in this package only: no copy is made. {@code columns} may be longer than E
+   * ({@code rowOffsets[n]}); the tail is never read or exposed.
    */
   static CsrGraph adopt(int[] rowOffsets, int[] columns) {
-    validate(rowOffsets, columns);
+    validate(rowOffsets, columns, true);
     return new CsrGraph(rowOffsets, columns);
   }
 
-  private static void validate(int[] offsets, int[] cols) {
+  private static void validate(int[] offsets, int[] cols, boolean allowTail) {
     if (offsets.length == 0) {
       throw new IllegalArgumentException(
           "rowOffsets must have length n + 1 >= 1, got length 0; for an empty graph pass {0}");
@@ -65,7 +69,7 @@ public final class CsrGraph implements AttentionPattern {
     if (offsets[0] != 0) {
       throw new IllegalArgumentException("rowOffsets[0] must be 0, got " + offsets[0]);
     }
-    if (offsets[n] != cols.length) {
+    if (allowTail ? offsets[n] < 0 || offsets[n] > cols.length : offsets[n] != cols.length) {
       throw new IllegalArgumentException(
           "rowOffsets[n] must equal the number of columns (E = "
               + cols.length
@@ -128,7 +132,7 @@ public final class CsrGraph implements AttentionPattern {
 
   @Override
   public long entryCount() {
-    return columns.length;
+    return edgeCount;
   }
 
   /**
@@ -137,7 +141,7 @@ public final class CsrGraph implements AttentionPattern {
    * @return the edge count
    */
   public int edgeCount() {
-    return columns.length;
+    return edgeCount;
   }
 
   /**
@@ -212,11 +216,12 @@ public final class CsrGraph implements AttentionPattern {
    * @return a new array of length E
    */
   public int[] columns() {
-    return columns.clone();
+    return Arrays.copyOf(columns, edgeCount);
   }
 
   /**
-   * Returns the bytes held by the two arrays: {@code 4·(n+1) + 4·E} of payload plus two 16-byte
+   * Returns the bytes held by the two arrays: {@code 4·(n+1) + 4·E} of payload, plus any unused
+   * column tail a builder left (at most E/8 entries, see {@link CsrGraphBuilder}), plus two 16-byte
    * array headers (common practice for a 64-bit JVM with compressed class pointers). For memory
    * accounting.
    *
@@ -230,16 +235,20 @@ public final class CsrGraph implements AttentionPattern {
   public boolean equals(Object o) {
     return o instanceof CsrGraph other
         && Arrays.equals(rowOffsets, other.rowOffsets)
-        && Arrays.equals(columns, other.columns);
+        && Arrays.equals(columns, 0, edgeCount, other.columns, 0, other.edgeCount);
   }
 
   @Override
   public int hashCode() {
-    return 31 * Arrays.hashCode(rowOffsets) + Arrays.hashCode(columns);
+    int h = 1;
+    for (int e = 0; e < edgeCount; e++) {
+      h = 31 * h + columns[e];
+    }
+    return 31 * Arrays.hashCode(rowOffsets) + h;
   }
 
   @Override
   public String toString() {
-    return "CsrGraph[n=" + nodeCount() + ", E=" + columns.length + "]";
+    return "CsrGraph[n=" + nodeCount() + ", E=" + edgeCount + "]";
   }
 }

@@ -20,8 +20,9 @@ import java.util.Objects;
  * <p>Defaults: {@link #DEFAULT_SELF_LOOPS}, {@link #DEFAULT_DIRECTION}, {@link
  * #DEFAULT_DUPLICATES}. Cost of {@link #build()}: O(n + E) time (counting sort by target, then
  * per-row insertion or radix sort; no comparison sort of all edges); memory: the finished graph
- * plus, briefly, a trimmed copy of its columns when duplicates were merged. The arrays are read,
- * never modified or retained.
+ * (which keeps an unused tail of merged duplicates when they were at most 1/8 of its entries) plus,
+ * briefly, a trimmed copy of its columns when more duplicates than that were merged. The arrays are
+ * read, never modified or retained.
  *
  * <p>Thread safety: not thread safe; use one builder per thread. The built graph is immutable.
  */

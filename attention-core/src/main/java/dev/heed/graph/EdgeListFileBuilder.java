@@ -13,6 +13,8 @@ import java.nio.file.attribute.FileTime;
 import java.util.ArrayList;
 import java.util.List;
 import java.util.Objects;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
 
 /**
  * Builds a {@link CsrGraph} from an edge-list file: one edge {@code source<delimiter>target} per
@@ -55,11 +57,13 @@ import java.util.Objects;
  * <p><b>Memory and cost.</b> The file is read twice: the first pass collects the ids and counts the
  * entries of every row, the second places each edge straight into the final column array (a
  * counting sort by target), so no per-edge array other than the graph's own columns is ever held;
- * rows are then sorted in place and duplicates merged in place (plus a trimmed copy of the columns
- * when some were merged). Peak memory is the finished graph plus the id map plus a read buffer, and
- * at most one more column array while trimming. Time: O(file size + n + E). The file must not
- * change while it is read; a change between the passes is detected (by size, modification time and
- * a checksum of the edges) and fails the build.
+ * rows are then sorted in place and duplicates merged in place. When at most 1/8 of the entries
+ * were merged away, the graph keeps that unused tail rather than copying, and the peak heap is
+ * about the finished graph plus the id map plus a 64 KiB read buffer; when more were merged (say a
+ * file that lists every edge twice), the columns are copied once to size and the peak briefly holds
+ * both copies. Time: O(file size + n + E). The file must not change while it is read; a change
+ * between the passes is detected (by size, modification time and a checksum of the edges) and fails
+ * the build.
  *
  * <p>Defaults: {@link #DEFAULT_DELIMITER}, {@link #DEFAULT_COMMENT_PREFIX}, no header, strict (not
  * lenient), {@link #DEFAULT_SELF_LOOPS}, {@link #DEFAULT_DIRECTION}, {@link #DEFAULT_DUPLICATES}.
@@ -84,6 +88,8 @@ public final class EdgeListFileBuilder<V> {
 
   /** Default duplicate policy: {@link DuplicatePolicy#MERGE}. */
   public static final DuplicatePolicy DEFAULT_DUPLICATES = DuplicatePolicy.MERGE;
+
+  private static final Logger LOG = LoggerFactory.getLogger(EdgeListFileBuilder.class);
 
   private static final int BUFFER_BYTES = 1 << 16;
   private static final int EXCERPT_CHARS = 60;
@@ -288,6 +294,21 @@ public final class EdgeListFileBuilder<V> {
         source.skippedCount == 0
             ? SkippedLines.NONE
             : new SkippedLines(source.skippedCount, source.skippedFirst);
+    if (skipped.count() > 0) {
+      SkippedLines.Line first = skipped.first().get(0);
+      LOG.warn(
+          "lenient read of {} skipped {} malformed lines; the first, line {}: {}",
+          file,
+          skipped.count(),
+          first.lineNumber(),
+          first.reason());
+    }
+    LOG.debug(
+        "read {}: {} edge lines, {} nodes, {} entries",
+        file,
+        source.edgeLines,
+        graph.nodeCount(),
+        graph.edgeCount());
     return new EdgeListResult<>(graph, (NodeIndex<V>) nodes, source.edgeLines, skipped);
   }
 
@@ -639,11 +660,16 @@ public final class EdgeListFileBuilder<V> {
                   + (idKind == IdKind.INDEX ? "" : "; use stringIds for text ids");
           return 0;
         }
-        if (value < (Long.MIN_VALUE + d) / 10) {
+        if (value < Long.MIN_VALUE / 10) {
           problem = "the " + role + " id does not fit in a 64-bit integer";
           return 0;
         }
-        value = value * 10 - d;
+        value *= 10;
+        if (value < Long.MIN_VALUE + d) {
+          problem = "the " + role + " id does not fit in a 64-bit integer";
+          return 0;
+        }
+        value -= d;
       }
       if (!negative) {
         if (value == Long.MIN_VALUE) {

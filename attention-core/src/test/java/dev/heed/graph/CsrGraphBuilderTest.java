@@ -217,4 +217,47 @@ class CsrGraphBuilderTest {
             IllegalArgumentException.class, () -> CsrGraph.of(new int[] {0, 1}, new int[] {4}));
     assertTrue(ex.getMessage().contains("columns[0] = 4"), ex.getMessage());
   }
+
+  /** A graph that keeps an unused column tail behaves exactly like an exactly sized one. */
+  @Test
+  void unusedColumnTailIsInvisible() {
+    // 20 edges, 2 of them repeats: the merged tail (2 + overlap) stays under 1/8 of 23 entries
+    int n = 5;
+    int[] s = new int[20];
+    int[] t = new int[20];
+    int k = 0;
+    for (int a = 0; a < n && k < 18; a++) {
+      for (int b = 0; b < n && k < 18; b++) {
+        if (a != b) {
+          s[k] = a;
+          t[k++] = b;
+        }
+      }
+    }
+    s[18] = s[0];
+    t[18] = t[0];
+    s[19] = s[1];
+    t[19] = t[1];
+    CsrGraph built = CsrGraphBuilder.fromEdges(s, t, n).build();
+    CsrGraph exact = CsrGraph.of(built.rowOffsets(), built.columns());
+    assertEquals(18 + n, built.edgeCount());
+    assertEquals(built.edgeCount(), built.columns().length);
+    assertTrue(built.storageBytes() > exact.storageBytes(), "the tail is kept, not copied");
+    assertEquals(exact, built);
+    assertEquals(built, exact);
+    assertEquals(exact.hashCode(), built.hashCode());
+    assertEquals(exact.toString(), built.toString());
+    assertEquals(NaiveCsr.build(s, t, n, SelfLoopPolicy.ADD, DirectionPolicy.KEEP), built);
+  }
+
+  /** Every edge given twice: half the entries merge away, so the columns are copied to size. */
+  @Test
+  void largeMergedTailIsCopiedAway() {
+    int[] s = {0, 1, 2, 0, 1, 2};
+    int[] t = {1, 2, 0, 1, 2, 0};
+    CsrGraph built = CsrGraphBuilder.fromEdges(s, t, 3).selfLoops(SelfLoopPolicy.AS_GIVEN).build();
+    CsrGraph exact = CsrGraph.of(built.rowOffsets(), built.columns());
+    assertEquals(3, built.edgeCount());
+    assertEquals(exact.storageBytes(), built.storageBytes());
+  }
 }

@@ -271,4 +271,21 @@ class EdgeListFileBuilderTest {
       }
     }
   }
+
+  @Test
+  void commentPrefixCanBeChangedOrDisabled() throws IOException {
+    Path file = write("g.csv", "% note\n#a,b\n");
+    EdgeListResult<String> read = EdgeListFileBuilder.stringIds(file).commentPrefix("%").build();
+    assertEquals(0, read.nodes().requireIndexOf("#a")); // '#' is an ordinary character now
+    EdgeListFormatException ex =
+        assertThrows(
+            EdgeListFormatException.class,
+            () -> EdgeListFileBuilder.stringIds(file).commentPrefix(null).build());
+    assertEquals(1, ex.lineNumber()); // "% note" is data now, with one field
+    IllegalArgumentException clash =
+        assertThrows(
+            IllegalArgumentException.class,
+            () -> EdgeListFileBuilder.stringIds(file).commentPrefix(",").build());
+    assertTrue(clash.getMessage().contains("starts with the delimiter"), clash.getMessage());
+  }
 }

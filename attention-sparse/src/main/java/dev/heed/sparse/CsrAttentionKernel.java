@@ -17,9 +17,10 @@ import java.util.concurrent.atomic.AtomicInteger;
  * (see {@link CsrRowPass}). Obtain it with {@code AttentionKernels.forPath(ComputePath.SPARSE,
  * options)}.
  *
- * <p>Cost: O(E·H·(keyDim + valueDim)) time; O(threads · (128·H + H·valueDim)) floats of scratch per
- * call. Each neighbour costs one random access to its key row and one to its value row, since a
- * node's data for all heads is contiguous.
+ * <p>Cost: O(E·H·(keyDim + valueDim)) time; per thread and call, {@code 128·H·(1 + keyDim) +
+ * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
+ * neighbour costs one random access to its key row and one to its value row, since a node's data
+ * for all heads is contiguous.
  *
  * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
  * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one

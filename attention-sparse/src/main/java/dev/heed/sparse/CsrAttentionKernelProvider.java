@@ -36,8 +36,8 @@ public final class CsrAttentionKernelProvider implements AttentionKernelProvider
 
   /**
    * Creates a CSR kernel using up to {@code options.threads()} threads per call (the calling thread
-   * counts as one). The dense memory budget does not apply: the kernel's scratch is a few kilobytes
-   * per thread.
+   * counts as one). The dense memory budget does not apply: the kernel's scratch is at most a few
+   * hundred kilobytes per thread.
    *
    * @param options the caller's options
    * @return a new, immutable kernel

@@ -53,8 +53,8 @@ final class RowMaths {
     }
     if (ModuleLayer.boot().findModule(VECTOR_MODULE).isEmpty()) {
       LOG.warn(
-          "The Java Vector API is not enabled, so CSR attention runs its scalar loops, several"
-              + " times slower. Start the JVM with {} to use the vector implementation.",
+          "The Java Vector API is not enabled, so CSR attention runs its slower scalar loops."
+              + " Start the JVM with {} to use the vector implementation.",
           VECTOR_FLAG);
       return ScalarRowMath.INSTANCE;
     }

@@ -1,13 +1,15 @@
 /**
  * The sparse (CSR) attention path: a fused, multi-threaded kernel that computes attention row by
  * row over a {@link dev.heed.graph.CsrGraph} or a {@link dev.heed.graph.CompletePattern}, in
- * O(E·H·d) time and a few kilobytes of scratch per thread.
+ * O(E·H·d) time and at most a few hundred kilobytes of scratch per thread.
  *
  * <p>Use it through {@code AttentionKernels.forPath(ComputePath.SPARSE, options)}; this package
  * registers {@link dev.heed.sparse.CsrAttentionKernelProvider} for that. Start the JVM with {@code
- * --add-modules jdk.incubator.vector} to run the Vector API inner loops (several times faster than
- * the plain Java ones, which are used otherwise, with one logged WARN). Setting the system property
- * {@code heed.sparse.vector=false} keeps the plain loops even when the Vector API is available.
+ * --add-modules jdk.incubator.vector} to run the Vector API inner loops (measured up to about 1.8×
+ * faster than the plain Java ones, which are used otherwise, with one logged WARN). For graphs of
+ * hundreds of MiB, {@code -XX:+UseTransparentHugePages} also helps (random gathers miss the TLB).
+ * Setting the system property {@code heed.sparse.vector=false} keeps the plain loops even when the
+ * Vector API is available.
  *
  * <p>Threads: each call uses the calling thread plus up to {@code threads - 1} daemon helper
  * threads from one JVM-wide pool ({@code heed-csr-worker-N}) that is created on first need and

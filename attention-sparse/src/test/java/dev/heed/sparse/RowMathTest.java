@@ -32,7 +32,6 @@ class RowMathTest {
   void dotAndGatv2MatchFloat64() {
     Random random = new Random(0x0A11L);
     for (RowMath math : implementations()) {
-      float[] work = new float[math.workLength()];
       for (int length : LENGTHS) {
         int ao = random.nextInt(5);
         int bo = random.nextInt(5);
@@ -52,11 +51,10 @@ class RowMathTest {
           gatMagnitude += Math.abs(term);
         }
         String where = math.describe() + ", length " + length;
-        assertEquals(
-            dot, math.dot(a, ao, b, bo, length, work), sumTolerance(length, magnitude), where);
+        assertEquals(dot, math.dot(a, ao, b, bo, length), sumTolerance(length, magnitude), where);
         assertEquals(
             gat,
-            math.gatv2(c, 3, a, ao, b, bo, length, 0.2f, work),
+            math.gatv2(c, 3, a, ao, b, bo, length, 0.2f),
             sumTolerance(length, gatMagnitude),
             where);
       }
@@ -64,10 +62,9 @@ class RowMathTest {
   }
 
   @Test
-  void maxExpAxpyAndScaleMatchFloat64() {
+  void maxExpWeightedSumAndScaleMatchFloat64() {
     Random random = new Random(0x0A12L);
     for (RowMath math : implementations()) {
-      float[] work = new float[math.workLength()];
       for (int length : LENGTHS) {
         String where = math.describe() + ", length " + length;
         int off = random.nextInt(4);
@@ -79,24 +76,34 @@ class RowMathTest {
         assertEquals(max, math.max(s, off, length), where);
         float[] before = s.clone();
         double sum = 0;
-        float got = math.expShiftSum(s, off, length, max, work);
+        float got = math.expShiftSum(s, off, length, max);
         for (int k = 0; k < length; k++) {
           double e = Math.exp(before[off + k] - max); // the argument rounded to float, as used
           sum += e;
           assertEquals(e, s[off + k], 4e-7 * e, where + ", element " + k);
         }
         assertEquals(sum, got, sumTolerance(length, sum), where);
-        float[] x = uniform(random, length + 2, -1f, 1f);
+        // three value rows of width length + 3, this head's span at offset 2 of each row
+        int count = 3;
+        int width = length + 3;
+        float[] value = uniform(random, count * width, -1f, 1f);
+        int[] rowBase = {2 * width, 0, width};
+        float[] w = uniform(random, count + 1, 0f, 1f);
         float[] y = uniform(random, length + 1, -1f, 1f);
         float[] y0 = y.clone();
-        math.axpy(0.37f, x, 2, y, 1, length);
-        assertEquals(y0[0], y[0], where + ": axpy wrote outside its span");
+        math.weightedRowSum(w, 1, rowBase, count, 2, value, y, 1, length);
+        assertEquals(y0[0], y[0], where + ": weightedRowSum wrote outside its span");
+        double[] expected = new double[length];
         for (int k = 0; k < length; k++) {
-          assertEquals(y0[1 + k] + 0.37 * x[2 + k], y[1 + k], 3e-7, where);
+          expected[k] = y0[1 + k];
+          for (int t = 0; t < count; t++) {
+            expected[k] += (double) w[1 + t] * value[rowBase[t] + 2 + k];
+          }
+          assertEquals(expected[k], y[1 + k], 1e-6, where);
         }
         math.scale(y, 1, length, -2.5f);
         for (int k = 0; k < length; k++) {
-          assertEquals((y0[1 + k] + 0.37 * x[2 + k]) * -2.5, y[1 + k], 1e-6, where);
+          assertEquals(expected[k] * -2.5, y[1 + k], 3e-6, where);
         }
       }
     }
@@ -108,11 +115,10 @@ class RowMathTest {
   void vectorAndScalarExponentialsAgreeBitForBit() {
     Random random = new Random(0x0A13L);
     RowMath vector = RowMaths.preferred();
-    float[] work = new float[vector.workLength()];
     for (int length : LENGTHS) {
       float[] s = uniform(random, length, -100f, 0f);
       float[] t = s.clone();
-      vector.expShiftSum(s, 0, length, 0f, work);
+      vector.expShiftSum(s, 0, length, 0f);
       for (int k = 0; k < length; k++) {
         t[k] = FastExp.expNonPositive(t[k]);
       }

@@ -21,6 +21,7 @@ import org.nd4j.linalg.api.memory.MemoryWorkspace;
 import org.nd4j.linalg.api.ndarray.INDArray;
 import org.nd4j.linalg.api.ops.impl.scalar.LeakyReLU;
 import org.nd4j.linalg.api.ops.impl.transforms.custom.SoftMax;
+import org.nd4j.linalg.api.ops.impl.transforms.strict.Exp;
 import org.nd4j.linalg.factory.Nd4j;
 import org.nd4j.linalg.indexing.NDArrayIndex;
 import org.slf4j.Logger;
@@ -34,17 +35,24 @@ import org.slf4j.LoggerFactory;
  *   <li>Scaled dot-product (Vaswani et al. 2017, eq. 1): {@code S = (1/√d)·Q_blk·K_hᵀ}, one BLAS
  *       gemm with the scale as its alpha.
  *   <li>Additive (GAT, Veličković et al. 2018, eq. 1 split into per-target and per-source terms):
- *       {@code S_ij = q_i + k_j} as one rank-2 gemm of {@code [q_i, 1]} by {@code [1, k_j]}ᵀ
- *       (exact: one rounding, like a float add), then LeakyReLU in place. No n×n×d work.
+ *       {@code S_ij = q_i + k_j} by broadcasting the row {@code k} and the column {@code q_blk}
+ *       over the block (ND4J broadcast adds; measured about twice as fast here as a rank-2 gemm of
+ *       {@code [q, 1]} by {@code [1, k]}ᵀ), then LeakyReLU in place. No n×n×d work.
  *   <li>GATv2 (Brody et al. 2022): {@code S_ij = aᵀ LeakyReLU(q_i + k_j)} is inherently n×n×d and
  *       has no matrix-product form, so it is computed in Java loops (on up to {@code
- *       options.threads()} threads), one score row at a time, only for allowed pairs.
+ *       options.threads()} threads), one score row at a time: over the complete pattern along
+ *       contiguous rows of the keys transposed per head, over a CSR mask only for allowed pairs.
+ *       Cost O(n²·H·keyDim) (complete) or O(E·H·keyDim) (mask) in Java, plus the ND4J steps.
  *   <li>A CSR pattern is a 0/1 mask: a bias block holding 0 for allowed and -∞ for other pairs is
  *       added after the score (and after LeakyReLU, so a slope of 0 never meets -∞), and softmax
  *       gives those pairs exactly 0. Rows with no allowed source get a zero output row.
- *   <li>Softmax: ND4J's native softmax along each row of the whole block (it subtracts the row
- *       maximum, common practice); then {@code out_blk = P·V_h}, one gemm into a preallocated
- *       array.
+ *   <li>Softmax, one ND4J call over the whole block: when a bound from the input norms shows that
+ *       no score of the head exceeds {@link #UNSHIFTED_EXP_LIMIT} in magnitude, just {@code exp}
+ *       (no row maximum, no normalising pass); otherwise ND4J's native softmax, which subtracts the
+ *       row maximum (common practice). Then {@code [out_blk, rowSum] = P·[V_h, 1]}, one gemm into a
+ *       preallocated array, and the rows are divided by their sums while being copied out.
+ *   <li>Scores or sums that overflow float32 (inputs of huge magnitude) raise an {@link
+ *       IllegalArgumentException} rather than returning NaN.
  * </ul>
  *
  * <p>Memory: see {@link DenseBlockPlan}. All ND4J arrays are allocated outside any workspace the
@@ -59,15 +67,40 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   private static final Logger LOG = LoggerFactory.getLogger(DenseAttentionKernel.class);
 
+  /**
+   * When no score of a head can exceed this magnitude, softmax skips the row maximum: {@code
+   * exp(e)} is taken directly (ND4J's Exp over the whole block) and normalised afterwards by the
+   * row sum that the second product yields. Softmax is shift-invariant (common practice), and with
+   * |e| ≤ 60 every exp is a normal float32 between e⁻⁶⁰ ≈ 8.8e-27 and e⁶⁰ ≈ 1.1e26, so a row of up
+   * to 2³¹ terms sums without overflow and its largest term never underflows. The limit is lowered
+   * further for values of very large or very small magnitude (see {@code safeUnshiftedLimit}).
+   * Otherwise the kernel uses ND4J's native softmax, which subtracts the row maximum.
+   */
+  static final double UNSHIFTED_EXP_LIMIT = 60.0;
+
   /** Below this many score terms per block (rows·n·keyDim), GATv2 scores stay on one thread. */
   private static final long PARALLEL_GATV2_MIN_WORK = 1L << 18;
 
   private final KernelOptions options;
   private final long targetBlockFloats;
+  private final long minTargetRows;
+  private final double unshiftedExpLimit;
 
-  DenseAttentionKernel(KernelOptions options, long targetBlockFloats) {
+  /**
+   * Creates the kernel.
+   *
+   * @param options threads and budget
+   * @param targetBlockFloats upper bound on one score block (rows · n)
+   * @param minTargetRows least block height the target allows (the budget may still force less)
+   * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum ({@link
+   *     #UNSHIFTED_EXP_LIMIT}; tests pass a negative value to force the shifted softmax)
+   */
+  DenseAttentionKernel(
+      KernelOptions options, long targetBlockFloats, long minTargetRows, double unshiftedExpLimit) {
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
+    this.minTargetRows = minTargetRows;
+    this.unshiftedExpLimit = unshiftedExpLimit;
   }
 
   @Override
@@ -77,7 +110,7 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   @Override
   public String describe() {
-    return "dense-nd4j(row blocks, BLAS gemm, native softmax), budget "
+    return "dense-nd4j(row blocks, BLAS gemm, ND4J exp or softmax), budget "
         + options.denseMemoryBudgetBytes()
         + " bytes, GATv2 score threads "
         + options.threads()
@@ -109,7 +142,8 @@ final class DenseAttentionKernel implements AttentionKernel {
             pattern instanceof CsrGraph,
             javaThreads,
             options.denseMemoryBudgetBytes(),
-            targetBlockFloats);
+            targetBlockFloats,
+            minTargetRows);
     if (LOG.isTraceEnabled()) {
       LOG.trace(
           "dense call n={} {} {}: block rows {}, scratch {} bytes",
@@ -126,7 +160,19 @@ final class DenseAttentionKernel implements AttentionKernel {
     // Allocate outside any workspace the caller has open, so close() below really frees.
     MemoryWorkspace outside = Nd4j.getWorkspaceManager().scopeOutOfWorkspaces();
     try {
-      new Call(pattern, score, shape, query, key, value, out, weights, plan, pool, javaThreads)
+      new Call(
+              pattern,
+              score,
+              shape,
+              query,
+              key,
+              value,
+              out,
+              weights,
+              plan,
+              pool,
+              javaThreads,
+              unshiftedExpLimit)
           .run();
     } finally {
       outside.close();
@@ -158,6 +204,7 @@ final class DenseAttentionKernel implements AttentionKernel {
     private final DenseBlockPlan plan;
     private final ExecutorService pool;
     private final int workers;
+    private final double unshiftedExpLimit;
     private final List<INDArray> owned = new ArrayList<>();
     private float[] keyByHead;
 
@@ -172,7 +219,8 @@ final class DenseAttentionKernel implements AttentionKernel {
         float[] weights,
         DenseBlockPlan plan,
         ExecutorService pool,
-        int workers) {
+        int workers,
+        double unshiftedExpLimit) {
       this.graph = pattern instanceof CsrGraph g ? g : null;
       this.score = score;
       this.n = pattern.nodeCount();
@@ -187,6 +235,7 @@ final class DenseAttentionKernel implements AttentionKernel {
       this.plan = plan;
       this.pool = pool;
       this.workers = workers;
+      this.unshiftedExpLimit = unshiftedExpLimit;
     }
 
     void run() {
@@ -215,31 +264,35 @@ final class DenseAttentionKernel implements AttentionKernel {
         packedQuery = new INDArray[heads];
         packedKey = new INDArray[heads];
         for (int h = 0; h < heads; h++) {
-          packedQuery[h] = allocate(n, additive ? 2 : keyDim);
-          packedKey[h] = allocate(n, additive ? 2 : keyDim);
+          packedQuery[h] = allocate(n, keyDim);
+          packedKey[h] = additive ? allocate(1, n) : allocate(n, keyDim);
           if (additive) {
-            packPair(query, h, packedQuery[h], false);
-            packPair(key, h, packedKey[h], true);
+            pack(query, 1, h, packedQuery[h]); // a column [n, 1]
+            pack(key, 1, h, packedKey[h]); // a row [1, n], the same floats
           } else {
             pack(query, keyDim, h, packedQuery[h]);
             pack(key, keyDim, h, packedKey[h]);
           }
         }
       }
+      // Values packed as [v_j, 1]: the product P·[V, 1] also yields each row's sum of P.
       INDArray[] packedValue = new INDArray[heads];
+      boolean[] unshifted = new boolean[heads];
       for (int h = 0; h < heads; h++) {
-        packedValue[h] = allocate(n, valueDim);
-        pack(value, valueDim, h, packedValue[h]);
+        packedValue[h] = allocate(n, valueDim + 1);
+        packValuesWithOnes(h, packedValue[h]);
+        unshifted[h] = scoreBound(h) <= Math.min(unshiftedExpLimit, safeUnshiftedLimit(h));
       }
       int blockRows = plan.blockRows();
       INDArray scoreBlock = allocate(blockRows, n);
       FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
       INDArray biasBlock = graph != null && !gatv2 ? allocate(blockRows, n) : null;
       FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
-      INDArray outBlock = allocate(blockRows, valueDim);
+      INDArray outBlock = allocate(blockRows, valueDim + 1);
       FloatBuffer outBuffer = outBlock.data().asNioFloat();
       float[][] workerRows = new float[workers][n];
       float[] row = workerRows[0];
+      float[] sums = new float[blockRows];
       keyByHead = gatv2 && graph == null ? transposeKeys() : null;
       float scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
 
@@ -258,19 +311,26 @@ final class DenseAttentionKernel implements AttentionKernel {
           } else {
             INDArray q =
                 packedQuery[h].get(NDArrayIndex.interval(first, first + rows), NDArrayIndex.all());
-            Nd4j.gemm(q, packedKey[h], s, false, true, scale, 0.0);
             if (additive) {
+              // q_i + k_j: 0 + k_j is exact, so one rounding, as in the float64 equation.
+              s.assign(0f).addiRowVector(packedKey[h]).addiColumnVector(q);
               Nd4j.exec(new LeakyReLU(s, s, ((ScoreFunction.Additive) score).negativeSlope()));
+            } else {
+              Nd4j.gemm(q, packedKey[h], s, false, true, scale, 0.0);
             }
             if (bias != null) {
               s.addi(bias);
             }
           }
-          Nd4j.exec(new SoftMax(s, s, 1));
+          if (unshifted[h]) {
+            Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
+          } else {
+            Nd4j.exec(new SoftMax(s, s, 1));
+          }
           Nd4j.gemm(s, packedValue[h], o, false, false, 1.0, 0.0);
-          copyOut(first, rows, h, outBuffer);
+          copyOut(first, rows, h, outBuffer, sums);
           if (weights != null) {
-            copyWeights(first, rows, h, scoreBuffer, row);
+            copyWeights(first, rows, h, scoreBuffer, row, sums);
           }
         }
       }
@@ -288,14 +348,80 @@ final class DenseAttentionKernel implements AttentionKernel {
       }
     }
 
-    /** Packs one-wide terms as rows {@code [t, 1]}, or {@code [1, t]} when {@code second}. */
-    private void packPair(float[] source, int h, INDArray target, boolean second) {
+    /** Copies head {@code h} of the values into {@code [n, valueDim + 1]}, last column 1. */
+    private void packValuesWithOnes(int h, INDArray target) {
       FloatBuffer buffer = target.data().asNioFloat();
+      int width = valueDim + 1;
       for (int j = 0; j < n; j++) {
-        float t = source[j * heads + h];
-        buffer.put(2 * j, second ? 1f : t);
-        buffer.put(2 * j + 1, second ? t : 1f);
+        buffer.put(j * width, value, (j * heads + h) * valueDim, valueDim);
+        buffer.put(j * width + valueDim, 1f);
       }
+    }
+
+    /**
+     * Returns an upper bound on |e_ij| over all pairs for head {@code h}, from per-node norms in
+     * O(n·keyDim): Cauchy–Schwarz for dot products, the triangle inequality otherwise (LeakyReLU
+     * with slope in [0, 1) never increases a magnitude).
+     */
+    private double scoreBound(int h) {
+      if (score instanceof ScoreFunction.ScaledDotProduct dot) {
+        return dot.scale(keyDim) * maxNorm(query, h) * maxNorm(key, h);
+      }
+      if (score instanceof ScoreFunction.Gatv2 g) {
+        double bound = 0;
+        for (int k = 0; k < keyDim; k++) {
+          bound +=
+              Math.abs((double) g.attention(h * keyDim + k))
+                  * (maxAbs(query, h, k) + maxAbs(key, h, k));
+        }
+        return bound;
+      }
+      return maxAbs(query, h, 0) + maxAbs(key, h, 0);
+    }
+
+    /**
+     * Returns the largest score bound for which exp without the row maximum is safe for head {@code
+     * h}, given its values. With scores in [-B, B] each weight lies in [e^-B, e^B]: the row sums
+     * (up to n·e^B) and weighted value sums (up to n·e^B·max|v|) must stay well below the float32
+     * maximum (e^88.7), and the products of e^-B with the largest values must stay a factor 2^24
+     * (e^16.6) above the smallest normal float (e^-87.3), so nothing underflows.
+     */
+    private double safeUnshiftedLimit(int h) {
+      double maxValue = 0;
+      for (int j = 0; j < n; j++) {
+        int at = (j * heads + h) * valueDim;
+        for (int c = 0; c < valueDim; c++) {
+          maxValue = Math.max(maxValue, Math.abs(value[at + c]));
+        }
+      }
+      if (maxValue == 0) {
+        return Double.NEGATIVE_INFINITY; // all-zero values: take the shifted route, output 0
+      }
+      double logValue = Math.log(maxValue);
+      double overflow = 84.0 - Math.log(n) - Math.max(0, logValue);
+      double underflow = 70.0 + Math.min(0, logValue);
+      return Math.min(overflow, underflow);
+    }
+
+    private double maxNorm(float[] terms, int h) {
+      double max = 0;
+      for (int j = 0; j < n; j++) {
+        int at = (j * heads + h) * keyDim;
+        double sq = 0;
+        for (int k = 0; k < keyDim; k++) {
+          sq += (double) terms[at + k] * terms[at + k];
+        }
+        max = Math.max(max, sq);
+      }
+      return Math.sqrt(max);
+    }
+
+    private double maxAbs(float[] terms, int h, int k) {
+      double max = 0;
+      for (int j = 0; j < n; j++) {
+        max = Math.max(max, Math.abs(terms[(j * heads + h) * keyDim + k]));
+      }
+      return max;
     }
 
     /** Mask bias for rows first..first+rows-1: 0 where allowed, -∞ elsewhere; 0 for empty rows. */
@@ -316,30 +442,65 @@ final class DenseAttentionKernel implements AttentionKernel {
       return graph != null && graph.rowStart(i) == graph.rowEnd(i);
     }
 
-    private void copyOut(int first, int rows, int h, FloatBuffer outBuffer) {
+    /**
+     * Writes {@code o[r, 0..dv-1] / o[r, dv]} (the weighted sum over the row's sum of weights) to
+     * the caller's output, and keeps each row's sum for the weights.
+     */
+    private void copyOut(int first, int rows, int h, FloatBuffer outBuffer, float[] sums) {
+      int width = valueDim + 1;
       for (int r = 0; r < rows; r++) {
         int i = first + r;
         int at = (i * heads + h) * valueDim;
         if (isolated(i)) {
           Arrays.fill(out, at, at + valueDim, 0f);
-        } else {
-          outBuffer.get(r * valueDim, out, at, valueDim);
+          continue;
+        }
+        float sum = outBuffer.get(r * width + valueDim);
+        sums[r] = sum;
+        if (!(sum > 0f && sum < Float.POSITIVE_INFINITY)) {
+          throw overflow(i, h);
+        }
+        outBuffer.get(r * width, out, at, valueDim);
+        for (int c = at; c < at + valueDim; c++) {
+          float v = out[c] / sum;
+          if (!Float.isFinite(v)) {
+            throw overflow(i, h);
+          }
+          out[c] = v;
         }
       }
     }
 
-    private void copyWeights(int first, int rows, int h, FloatBuffer scoreBuffer, float[] row) {
+    private IllegalArgumentException overflow(int target, int h) {
+      return new IllegalArgumentException(
+          "attention scores overflowed float32 for target node "
+              + target
+              + ", head "
+              + h
+              + " ("
+              + score
+              + "): the query/key terms are too large in magnitude for float32 scores; scale the"
+              + " inputs down (softmax is shift-invariant, but q·k or q + k must stay finite)."
+              + " The output array holds partial results");
+    }
+
+    private void copyWeights(
+        int first, int rows, int h, FloatBuffer scoreBuffer, float[] row, float[] sums) {
       for (int r = 0; r < rows; r++) {
         int i = first + r;
+        if (isolated(i)) {
+          continue;
+        }
         scoreBuffer.get(r * n, row, 0, n);
+        float sum = sums[r];
         if (graph == null) {
           int base = i * n;
           for (int j = 0; j < n; j++) {
-            weights[(base + j) * heads + h] = row[j];
+            weights[(base + j) * heads + h] = row[j] / sum;
           }
         } else {
           for (int e = graph.rowStart(i); e < graph.rowEnd(i); e++) {
-            weights[e * heads + h] = row[graph.column(e)];
+            weights[e * heads + h] = row[graph.column(e)] / sum;
           }
         }
       }
@@ -353,13 +514,18 @@ final class DenseAttentionKernel implements AttentionKernel {
         int h,
         FloatBuffer scoreBuffer,
         float[][] workerRows) {
+      // a·LeakyReLU(x) = c·x + c'·|x| with c = a(1 + slope)/2, c' = a(1 - slope)/2: branch-free,
+      // which the JIT vectorises (measured here about 1.6x faster than a·max(x, slope·x)).
       float slope = gatv2.negativeSlope();
-      float[] attention = new float[keyDim];
+      float[] linear = new float[keyDim];
+      float[] absolute = new float[keyDim];
       for (int k = 0; k < keyDim; k++) {
-        attention[k] = gatv2.attention(h * keyDim + k);
+        float a = gatv2.attention(h * keyDim + k);
+        linear[k] = a * 0.5f * (1f + slope);
+        absolute[k] = a * 0.5f * (1f - slope);
       }
       if (pool == null || (long) rows * n * keyDim < PARALLEL_GATV2_MIN_WORK) {
-        gatv2Rows(first, 0, rows, h, slope, attention, scoreBuffer, workerRows[0]);
+        gatv2Rows(first, 0, rows, h, linear, absolute, scoreBuffer, workerRows[0]);
         return;
       }
       int parts = workers;
@@ -372,10 +538,10 @@ final class DenseAttentionKernel implements AttentionKernel {
           FloatBuffer view = scoreBuffer.duplicate();
           float[] workerRow = workerRows[p];
           pending.add(
-              pool.submit(() -> gatv2Rows(first, from, to, h, slope, attention, view, workerRow)));
+              pool.submit(() -> gatv2Rows(first, from, to, h, linear, absolute, view, workerRow)));
         }
       }
-      gatv2Rows(first, 0, Math.min(rows, chunk), h, slope, attention, scoreBuffer, workerRows[0]);
+      gatv2Rows(first, 0, Math.min(rows, chunk), h, linear, absolute, scoreBuffer, workerRows[0]);
       for (Future<?> f : pending) {
         try {
           f.get();
@@ -408,8 +574,8 @@ final class DenseAttentionKernel implements AttentionKernel {
         int from,
         int to,
         int h,
-        float slope,
-        float[] attention,
+        float[] linear,
+        float[] absolute,
         FloatBuffer scoreBuffer,
         float[] row) {
       float[] q = new float[keyDim];
@@ -422,11 +588,12 @@ final class DenseAttentionKernel implements AttentionKernel {
           Arrays.fill(row, 0f);
           for (int k = 0; k < keyDim; k++) {
             float qk = q[k];
-            float a = attention[k];
+            float c = linear[k];
+            float cAbs = absolute[k];
             int at = (h * keyDim + k) * n;
             for (int j = 0; j < n; j++) {
               float x = qk + keyByHead[at + j];
-              row[j] += a * Math.max(x, slope * x);
+              row[j] += c * x + cAbs * Math.abs(x);
             }
           }
         } else {
@@ -435,19 +602,19 @@ final class DenseAttentionKernel implements AttentionKernel {
           Arrays.fill(row, start == end ? 0f : Float.NEGATIVE_INFINITY);
           for (int e = start; e < end; e++) {
             int j = graph.column(e);
-            row[j] = gatv2Score(q, (j * heads + h) * keyDim, slope, attention);
+            row[j] = gatv2Score(q, (j * heads + h) * keyDim, linear, absolute);
           }
         }
         scoreBuffer.put(r * n, row, 0, n);
       }
     }
 
-    /** aᵀ LeakyReLU(q + k_j); LeakyReLU(x) = max(x, slope·x) since 0 ≤ slope < 1. */
-    private float gatv2Score(float[] q, int keyAt, float slope, float[] attention) {
+    /** aᵀ LeakyReLU(q + k_j), term by term as in the row form above. */
+    private float gatv2Score(float[] q, int keyAt, float[] linear, float[] absolute) {
       float sum = 0f;
       for (int k = 0; k < keyDim; k++) {
         float x = q[k] + key[keyAt + k];
-        sum += attention[k] * Math.max(x, slope * x);
+        sum += linear[k] * x + absolute[k] * Math.abs(x);
       }
       return sum;
     }

@@ -61,6 +61,10 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
   @Override
   public AttentionKernel create(KernelOptions options) {
     Objects.requireNonNull(options, "options");
-    return new DenseAttentionKernel(options, DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+    return new DenseAttentionKernel(
+        options,
+        DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+        DenseBlockPlan.MIN_TARGET_ROWS,
+        DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
   }
 }

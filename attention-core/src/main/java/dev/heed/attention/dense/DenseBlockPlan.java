@@ -11,12 +11,14 @@ import dev.heed.attention.ScoreFunction;
  * <p>Scratch of one call, in floats (4 bytes each):
  *
  * <ul>
- *   <li>repacked inputs, for all heads: {@code n·H·dv} for the values, plus {@code 2·n·H·w} for the
- *       query and key terms when scores come from a matrix product ({@code w = keyDim} for scaled
- *       dot-product, {@code w = 2} for additive scores, which are packed as {@code [q, 1]} and
- *       {@code [1, k]}); GATv2 scores read the caller's arrays directly and pack nothing;
+ *   <li>repacked inputs, for all heads: {@code n·H·(dv + 1)} for the values with a column of ones
+ *       (so the second product also yields each row's sum of weights), plus {@code 2·n·H·w} for the
+ *       query and key terms when scores are formed in ND4J ({@code w = keyDim} for scaled
+ *       dot-product, {@code w = 1} for additive scores, packed as a column and a row); GATv2 scores
+ *       read the caller's arrays directly and pack nothing;
  *   <li>per block row: {@code n} for the score row, {@code n} more for the mask row when the
- *       pattern is a CSR mask and scores come from a matrix product, and {@code dv} for the output;
+ *       pattern is a CSR mask and scores are formed in ND4J, {@code dv + 1} for the output and 1
+ *       for the row sum;
  *   <li>Java scratch: one score row of {@code n} floats per worker thread, and for GATv2 over the
  *       complete pattern the keys transposed per head ({@code n·H·keyDim}), so that the score loop
  *       runs along contiguous rows.
@@ -36,6 +38,12 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
   static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 20;
 
   /**
+   * Block height the target never goes below on large n (a matrix product with very few rows runs
+   * far below BLAS speed); only the memory budget can make blocks shorter.
+   */
+  static final long MIN_TARGET_ROWS = 64;
+
+  /**
    * Returns the bytes the call will allocate with this block height.
    *
    * @return total scratch bytes
@@ -53,7 +61,9 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
    * @param masked whether the pattern is a CSR mask (not the complete pattern)
    * @param javaThreads threads that each hold one Java score row
    * @param budgetBytes the dense memory budget
-   * @param targetBlockFloats upper bound on {@code blockRows · n}
+   * @param targetBlockFloats upper bound on {@code blockRows · n}, unless that leaves fewer than
+   *     {@code minTargetRows} rows
+   * @param minTargetRows the least block height the target allows ({@link #MIN_TARGET_ROWS})
    * @return the plan
    * @throws MemoryBudgetExceededException if even a one-row block does not fit the budget
    */
@@ -64,19 +74,21 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
       boolean masked,
       int javaThreads,
       long budgetBytes,
-      long targetBlockFloats) {
-    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1;
+      long targetBlockFloats,
+      long minTargetRows) {
+    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1 && minTargetRows >= 1;
     long heads = shape.heads();
-    boolean gemmScores = !(score instanceof ScoreFunction.Gatv2);
+    boolean nd4jScores = !(score instanceof ScoreFunction.Gatv2);
 
-    long packedKeyWidth = score instanceof ScoreFunction.Additive ? 2 : shape.keyDim();
+    long packedKeyWidth = shape.keyDim();
     long packedFloats =
-        (long) n * heads * shape.valueDim() + (gemmScores ? 2L * n * heads * packedKeyWidth : 0);
+        (long) n * heads * (shape.valueDim() + 1)
+            + (nd4jScores ? 2L * n * heads * packedKeyWidth : 0);
     boolean gatv2 = score instanceof ScoreFunction.Gatv2;
     long javaScratchFloats =
         (long) n * javaThreads + (gatv2 && !masked ? (long) n * heads * shape.keyDim() : 0);
     long fixedBytes = 4 * (packedFloats + javaScratchFloats);
-    long perRowBytes = 4 * ((masked && gemmScores ? 2L : 1L) * n + shape.valueDim());
+    long perRowBytes = 4 * ((masked && nd4jScores ? 2L : 1L) * n + shape.valueDim() + 2);
     long minimum = fixedBytes + perRowBytes;
     if (minimum > budgetBytes) {
       throw new MemoryBudgetExceededException(
@@ -106,7 +118,7 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
           budgetBytes);
     }
     long byBudget = (budgetBytes - fixedBytes) / perRowBytes;
-    long byTarget = Math.max(1, targetBlockFloats / n);
+    long byTarget = Math.max(minTargetRows, targetBlockFloats / n);
     int rows = (int) Math.min(n, Math.min(byBudget, byTarget));
     return new DenseBlockPlan(rows, fixedBytes, perRowBytes);
   }

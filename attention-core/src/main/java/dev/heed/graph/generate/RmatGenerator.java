@@ -230,18 +230,12 @@ public final class RmatGenerator {
         } else {
           r = bits & 0xFFFF_FFFFL;
         }
-        row <<= 1;
-        col <<= 1;
-        if (r >= ta) {
-          if (r < tab) {
-            col |= 1;
-          } else if (r < tabc) {
-            row |= 1;
-          } else {
-            row |= 1;
-            col |= 1;
-          }
-        }
+        // Branch-free quadrant: A (0,0) below ta, B (0,1) below tab, C (1,0) below tabc, else D.
+        int geA = (int) ((ta - 1 - r) >>> 63);
+        int geAB = (int) ((tab - 1 - r) >>> 63);
+        int geABC = (int) ((tabc - 1 - r) >>> 63);
+        row = (row << 1) | geAB;
+        col = (col << 1) | (geA ^ geAB ^ geABC);
       }
       if (scrambler != null) {
         row = scrambler.apply(row);

@@ -17,6 +17,7 @@ import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
 import java.util.ArrayList;
+import java.util.Arrays;
 import java.util.List;
 import java.util.Random;
 import java.util.concurrent.ExecutorService;
@@ -133,13 +134,32 @@ class DenseAttentionKernelTest {
     checkAgainstReference(kernel(ONE_THREAD), pattern, kind, heads, dim, seed);
   }
 
+  @ParameterizedTest(name = "n={0} heads={1} dim={2} {3} masked={4}")
+  @MethodSource("sizes")
+  void shiftedSoftmaxRouteMatchesFloat64Reference(
+      int n, int heads, int dim, Kind kind, boolean masked, long seed) {
+    // The same cases with the row maximum always subtracted (ND4J's native softmax), the route
+    // taken when scores could exceed UNSHIFTED_EXP_LIMIT. Reference: ReferenceAttention (float64
+    // evaluation of Vaswani et al. 2017 eq. 1, Veličković et al. 2018 eq. 1-3, Brody et al. 2022).
+    AttentionPattern pattern =
+        masked ? randomMask(new Random(seed ^ 0x5eed), n, 0.3) : CompletePattern.of(n);
+    AttentionKernel shifted =
+        new DenseAttentionKernel(
+            ONE_THREAD,
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            DenseBlockPlan.MIN_TARGET_ROWS,
+            -1.0);
+    checkAgainstReference(shifted, pattern, kind, heads, dim, seed + 500);
+  }
+
   @ParameterizedTest(name = "{0}")
   @MethodSource("kinds")
   void blockBoundariesDoNotMatter(Kind kind) {
     // 61 rows in blocks of 7 (8 full blocks and a tail of 5) must equal the reference
     // (ReferenceAttention, float64 evaluation of the equations).
     int n = 61;
-    AttentionKernel small = new DenseAttentionKernel(ONE_THREAD, 7L * n);
+    AttentionKernel small =
+        new DenseAttentionKernel(ONE_THREAD, 7L * n, 1, DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
     checkAgainstReference(small, CompletePattern.of(n), kind, 3, 5, 77);
     checkAgainstReference(small, randomMask(new Random(78), n, 0.2), kind, 3, 5, 79);
   }
@@ -161,7 +181,8 @@ class DenseAttentionKernelTest {
             false,
             1,
             Long.MAX_VALUE,
-            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            DenseBlockPlan.MIN_TARGET_ROWS);
     long budget = unconstrained.fixedBytes() + 13 * unconstrained.bytesPerBlockRow() + 3;
     DenseBlockPlan plan =
         DenseBlockPlan.of(
@@ -171,7 +192,8 @@ class DenseAttentionKernelTest {
             false,
             1,
             budget,
-            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS);
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            DenseBlockPlan.MIN_TARGET_ROWS);
     assertEquals(13, plan.blockRows());
     assertTrue(plan.bytesUsed() <= budget);
     assertTrue(budget >= 1L << 20, "budget below the 1 MiB minimum: " + budget);
@@ -204,8 +226,9 @@ class DenseAttentionKernelTest {
                     v,
                     out,
                     null));
-    // Packed Q, K, V: 3 · n · 64 floats; a one-row block: n + 64 floats; plus a Java row of n.
-    long expected = 4L * (3L * n * 64 + n) + 4L * (n + 64);
+    // Packed Q, K: 2 · n · 64 floats, V with a ones column: n · 65; a Java row of n; a one-row
+    // block: a score row of n, an output row of 65 and its row sum.
+    long expected = 4L * (2L * n * 64 + n * 65L + n) + 4L * (n + 65 + 1);
     assertEquals(expected, e.bytesNeeded());
     assertEquals(budget, e.budgetBytes());
     String m = e.getMessage();
@@ -386,6 +409,174 @@ class DenseAttentionKernelTest {
       // bound is looser than TOLERANCE, but the result must be finite and close.
       assertTrue(error < 1e-3, kind + " error " + error);
     }
+  }
+
+  @Test
+  void scoresThatOverflowFloat32AreReportedNotReturnedAsNaN() {
+    // Finite inputs whose scores overflow float32 (q·k ≈ 1e40): a clear exception, not NaN output.
+    for (Kind kind : Kind.values()) {
+      int n = 5;
+      HeadShape shape = shapeOf(kind, 1, 4);
+      ScoreFunction score = scoreOf(kind, shape, new Random(51));
+      float[] big = new float[n * shape.keyWidth()];
+      Arrays.fill(big, 3e38f);
+      float[] v = randomArray(new Random(52), n * shape.valueWidth(), 1f);
+      float[] out = new float[n * shape.valueWidth()];
+      IllegalArgumentException e =
+          assertThrows(
+              IllegalArgumentException.class,
+              () ->
+                  kernel(ONE_THREAD)
+                      .attend(CompletePattern.of(n), score, shape, big, big, v, out, null),
+              kind.toString());
+      assertTrue(e.getMessage().contains("overflowed float32"), e.getMessage());
+    }
+  }
+
+  @Test
+  void repeatedCallsDoNotGrowOffHeapMemory() {
+    // Each call allocates about 4 MB of ND4J scratch (n = 1024: a 1024 × 1024 score block) and
+    // closes it; without close() the scratch would stay until a garbage collection
+    // (ND4J-NOTES.md), and 60 calls would add about 250 MB of resident memory.
+    int n = 1024;
+    HeadShape shape = new HeadShape(1, 8, 8);
+    Random random = new Random(61);
+    float[] q = randomArray(random, n * 8, 1f);
+    float[] k = randomArray(random, n * 8, 1f);
+    float[] v = randomArray(random, n * 8, 1f);
+    float[] out = new float[n * 8];
+    AttentionKernel kernel = kernel(ONE_THREAD);
+    CompletePattern pattern = CompletePattern.of(n);
+    for (int call = 0; call < 5; call++) {
+      kernel.attend(pattern, ScoreFunction.scaledDotProduct(), shape, q, k, v, out, null);
+    }
+    long before = org.bytedeco.javacpp.Pointer.physicalBytes();
+    for (int call = 0; call < 60; call++) {
+      kernel.attend(pattern, ScoreFunction.scaledDotProduct(), shape, q, k, v, out, null);
+    }
+    long grown = org.bytedeco.javacpp.Pointer.physicalBytes() - before;
+    assertTrue(grown < 100L << 20, "resident memory grew by " + (grown >> 20) + " MiB");
+  }
+
+  /** The complete graph on n nodes as an explicit CSR graph (every row 0..n-1). */
+  static CsrGraph completeCsr(int n) {
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * n];
+    for (int i = 0; i < n; i++) {
+      offsets[i + 1] = (i + 1) * n;
+      for (int j = 0; j < n; j++) {
+        columns[i * n + j] = j;
+      }
+    }
+    return CsrGraph.of(offsets, columns);
+  }
+
+  static double relativeError(float[] expected, float[] actual) {
+    double maxDiff = 0;
+    double maxRef = 0;
+    for (int i = 0; i < expected.length; i++) {
+      maxDiff = Math.max(maxDiff, Math.abs(expected[i] - actual[i]));
+      maxRef = Math.max(maxRef, Math.abs(expected[i]));
+    }
+    return maxDiff / maxRef;
+  }
+
+  @Test
+  void completeCsrMaskEqualsTheCompletePattern() {
+    // Self-attention is graph attention over the complete graph (REFERENCES.md, common
+    // practice): the masked route over an all-ones CSR graph must give the unmasked result, and
+    // its CSR entry order is the complete pattern's row-major order, so the weights match too.
+    int n = 37;
+    for (Kind kind : Kind.values()) {
+      Random random = new Random(71);
+      HeadShape shape = shapeOf(kind, 3, 9);
+      ScoreFunction score = scoreOf(kind, shape, random);
+      float[] q = randomArray(random, n * shape.keyWidth(), 1f);
+      float[] k = randomArray(random, n * shape.keyWidth(), 1f);
+      float[] v = randomArray(random, n * shape.valueWidth(), 1f);
+      float[] outComplete = new float[n * shape.valueWidth()];
+      float[] outCsr = new float[n * shape.valueWidth()];
+      float[] wComplete = new float[n * n * 3];
+      float[] wCsr = new float[n * n * 3];
+      AttentionKernel kernel = kernel(ONE_THREAD);
+      kernel.attend(CompletePattern.of(n), score, shape, q, k, v, outComplete, wComplete);
+      kernel.attend(completeCsr(n), score, shape, q, k, v, outCsr, wCsr);
+      assertTrue(relativeError(outComplete, outCsr) < 1e-6, kind + " output");
+      assertTrue(relativeError(wComplete, wCsr) < 1e-6, kind + " weights");
+    }
+  }
+
+  @Test
+  void renumberingNodesRenumbersOutputs() {
+    // Attention is permutation-equivariant (REFERENCES.md, common practice): node p(i) of the
+    // permuted input gets node i's output.
+    int n = 45;
+    Random random = new Random(81);
+    int[] perm = new int[n];
+    for (int i = 0; i < n; i++) {
+      perm[i] = i;
+    }
+    for (int i = n - 1; i > 0; i--) {
+      int j = random.nextInt(i + 1);
+      int t = perm[i];
+      perm[i] = perm[j];
+      perm[j] = t;
+    }
+    for (Kind kind : Kind.values()) {
+      HeadShape shape = shapeOf(kind, 2, 6);
+      ScoreFunction score = scoreOf(kind, shape, random);
+      int kw = shape.keyWidth();
+      int vw = shape.valueWidth();
+      float[] q = randomArray(random, n * kw, 1f);
+      float[] k = randomArray(random, n * kw, 1f);
+      float[] v = randomArray(random, n * vw, 1f);
+      float[] pq = new float[n * kw];
+      float[] pk = new float[n * kw];
+      float[] pv = new float[n * vw];
+      for (int i = 0; i < n; i++) {
+        System.arraycopy(q, i * kw, pq, perm[i] * kw, kw);
+        System.arraycopy(k, i * kw, pk, perm[i] * kw, kw);
+        System.arraycopy(v, i * vw, pv, perm[i] * vw, vw);
+      }
+      float[] out = new float[n * vw];
+      float[] permutedOut = new float[n * vw];
+      AttentionKernel kernel = kernel(ONE_THREAD);
+      kernel.attend(CompletePattern.of(n), score, shape, q, k, v, out, null);
+      kernel.attend(CompletePattern.of(n), score, shape, pq, pk, pv, permutedOut, null);
+      float[] back = new float[n * vw];
+      for (int i = 0; i < n; i++) {
+        System.arraycopy(permutedOut, perm[i] * vw, back, i * vw, vw);
+      }
+      double error = relativeError(out, back);
+      assertTrue(error < 1e-5, kind + " error " + error);
+    }
+  }
+
+  @ParameterizedTest(name = "value scale {0}")
+  @org.junit.jupiter.params.provider.ValueSource(doubles = {1e-25, 1e16})
+  void extremeValueMagnitudesStayAccurate(double valueScale) {
+    // |scores| between 49 and 59.3 (q, k in [7, 7.7], one dimension, scale 1) pass the plain
+    // score limit of 60; but values of magnitude 1e-25 times weights near e^-59 underflow, and
+    // values of 1e16 times weights near e^59 overflow the sums. The result must still match the
+    // float64 reference (ReferenceAttention, Vaswani et al. 2017, eq. 1) at the usual tolerance.
+    int n = 100;
+    HeadShape shape = new HeadShape(1, 1, 4);
+    Random random = new Random(91);
+    float[] q = new float[n];
+    float[] k = new float[n];
+    for (int i = 0; i < n; i++) {
+      q[i] = (i % 2 == 0 ? 1 : -1) * (7f + 0.7f * random.nextFloat());
+      k[i] = 7f + 0.7f * random.nextFloat();
+    }
+    float[] v = randomArray(random, n * 4, (float) valueScale);
+    float[] out = new float[n * 4];
+    kernel(ONE_THREAD)
+        .attend(CompletePattern.of(n), ScoreFunction.scaledDotProduct(), shape, q, k, v, out, null);
+    ReferenceAttention.Result expected =
+        ReferenceAttention.attend(
+            CompletePattern.of(n), ScoreFunction.scaledDotProduct(), shape, q, k, v);
+    double error = ReferenceAttention.relativeError(expected.out(), out);
+    assertTrue(error < TOLERANCE, "value scale " + valueScale + ": relative error " + error);
   }
 
   @Test

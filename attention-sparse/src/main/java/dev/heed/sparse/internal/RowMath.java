@@ -9,7 +9,7 @@ package dev.heed.sparse.internal;
  * only on the span contents and length, never on which thread runs, whether the code is interpreted
  * or compiled, or on alignment: the kernel's results are bit-identical for any thread count because
  * of this. In particular, implementations use only IEEE-754 add, multiply, fused multiply-add,
- * compare and exact bit manipulation, in a fixed order (no {@code reduceLanes}, whose order is
+ * compare and exact bit manipulation, in a fixed order (no {@code reduceLanes(ADD)}, whose order is
  * unspecified, and no library {@code exp}, whose vector and scalar forms differ).
  *
  * <p>Thread safety: implementations are stateless and safe from any thread.
@@ -24,14 +24,6 @@ public interface RowMath {
   String describe();
 
   /**
-   * Returns the length of the {@code work} array that {@link #dot}, {@link #gatv2} and {@link
-   * #expShiftSum} need: at least the number of float lanes of the widest vector used.
-   *
-   * @return the work length, at least 1
-   */
-  int workLength();
-
-  /**
    * Returns the dot product {@code Σ a[ao+k] · b[bo+k]} over {@code k < length}, in float32.
    *
    * @param a input, not modified
@@ -39,10 +31,9 @@ public interface RowMath {
    * @param b input, not modified
    * @param bo offset in {@code b}
    * @param length span length, at least 1
-   * @param work scratch of length {@link #workLength()}, overwritten
    * @return the dot product; may be infinite or NaN if an intermediate overflows
    */
-  float dot(float[] a, int ao, float[] b, int bo, int length, float[] work);
+  float dot(float[] a, int ao, float[] b, int bo, int length);
 
   /**
    * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
@@ -56,19 +47,10 @@ public interface RowMath {
    * @param ko offset in {@code key}
    * @param length span length (the key width), at least 1
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
-   * @param work scratch of length {@link #workLength()}, overwritten
    * @return the score; may be infinite or NaN if an intermediate overflows
    */
   float gatv2(
-      float[] att,
-      int ao,
-      float[] q,
-      int qo,
-      float[] key,
-      int ko,
-      int length,
-      float negativeSlope,
-      float[] work);
+      float[] att, int ao, float[] q, int qo, float[] key, int ko, int length, float negativeSlope);
 
   /**
    * Returns the largest element of the span.
@@ -90,22 +72,36 @@ public interface RowMath {
    * @param offset start of the span
    * @param length span length, at least 1
    * @param shift the value subtracted before exponentiating, finite
-   * @param work scratch of length {@link #workLength()}, overwritten
    * @return the sum of the new span
    */
-  float expShiftSum(float[] s, int offset, int length, float shift, float[] work);
+  float expShiftSum(float[] s, int offset, int length, float shift);
 
   /**
-   * Adds {@code alpha · x[xo+k]} to {@code y[yo+k]} for {@code k < length}.
+   * For one head of one block of entries, adds the weighted value rows into the accumulator: {@code
+   * acc[accOffset + x] += Σ_t w[wOffset + t] · value[rowBase[t] + headOffset + x]} for {@code x <
+   * length}, the sum over {@code t < count} taken in order of t for every x. Keeping the loop over
+   * entries inside lets an implementation hold the accumulator in registers.
    *
-   * @param alpha the factor
-   * @param x input, not modified
-   * @param xo offset in {@code x}
-   * @param y input and output
-   * @param yo offset in {@code y}
-   * @param length span length, at least 1
+   * @param w input, not modified: the entries' unnormalised weights for this head
+   * @param wOffset offset of entry 0's weight in {@code w}
+   * @param rowBase input, not modified: the start of each entry's value row in {@code value}
+   * @param count number of entries, at least 1
+   * @param headOffset offset of this head's values within a value row
+   * @param value input, not modified: the value rows
+   * @param acc input and output: the accumulator
+   * @param accOffset offset of this head's span in {@code acc}
+   * @param length the head's value width, at least 1
    */
-  void axpy(float alpha, float[] x, int xo, float[] y, int yo, int length);
+  void weightedRowSum(
+      float[] w,
+      int wOffset,
+      int[] rowBase,
+      int count,
+      int headOffset,
+      float[] value,
+      float[] acc,
+      int accOffset,
+      int length);
 
   /**
    * Multiplies each element of the span by {@code factor}.

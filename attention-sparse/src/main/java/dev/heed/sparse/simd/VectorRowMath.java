@@ -5,15 +5,16 @@ import dev.heed.sparse.internal.RowMath;
 import jdk.incubator.vector.FloatVector;
 import jdk.incubator.vector.IntVector;
 import jdk.incubator.vector.VectorOperators;
+import jdk.incubator.vector.VectorShuffle;
 import jdk.incubator.vector.VectorSpecies;
 
 /**
- * {@link RowMath} on the Vector API with {@link FloatVector#SPECIES_PREFERRED}. Spans shorter than
- * the preferred width (for example 8-float heads on a 512-bit machine) step down to 256- and
- * 128-bit vectors, then finish in scalar code. Internal to {@code attention-sparse}, not API.
+ * {@link RowMath} on the Vector API: 256-bit vectors where {@link FloatVector#SPECIES_PREFERRED} is
+ * at least that wide (AVX2, AVX-512), else the preferred 128-bit ones; span tails shorter than a
+ * vector finish in scalar code. Internal to {@code attention-sparse}, not API.
  *
- * <p>Results depend only on the span contents and length: horizontal sums go through the {@code
- * work} array and are added in lane order (never {@code reduceLanes(ADD)}, whose order is
+ * <p>Results depend only on the span contents and length: horizontal sums are a fixed pairwise tree
+ * of lane permutations and exact lane-wise adds (never {@code reduceLanes(ADD)}, whose order is
  * unspecified), and the exponential is {@link FastExp}'s polynomial done lane by lane with the same
  * operations as the scalar form, so scalar tails and vector lanes agree bit for bit.
  *
@@ -21,14 +22,26 @@ import jdk.incubator.vector.VectorSpecies;
  */
 public final class VectorRowMath implements RowMath {
 
-  private static final VectorSpecies<Float> WIDE = FloatVector.SPECIES_PREFERRED;
-  private static final VectorSpecies<Float> HALF = FloatVector.SPECIES_256;
-  private static final VectorSpecies<Float> QUARTER = FloatVector.SPECIES_128;
+  /**
+   * The species used everywhere: 256 bits (8 floats, one 8-dim head) where the preferred shape is
+   * at least that wide, else the preferred one. Not 512 bits even where the hardware has them:
+   * measured on JDK 17 here, a method mixing 512- and 256-bit vectors (needed for 8-float heads)
+   * left its 256-bit stores on the slow, non-intrinsic path, and Zen 4 runs 512-bit arithmetic as
+   * two 256-bit halves anyway (from memory). One species also keeps each method small enough for C2
+   * to compile whole.
+   */
+  private static final VectorSpecies<Float> WIDE =
+      FloatVector.SPECIES_PREFERRED.vectorBitSize() >= 256
+          ? FloatVector.SPECIES_256
+          : FloatVector.SPECIES_PREFERRED;
+
   private static final int WIDE_LANES = WIDE.length();
-  private static final int HALF_LANES = 8;
-  private static final int QUARTER_LANES = 4;
-  private static final boolean USE_HALF = WIDE_LANES > HALF_LANES;
-  private static final boolean USE_QUARTER = WIDE_LANES > QUARTER_LANES;
+
+  // Lane permutations i -> i xor 4, 2, 1 for the pairwise horizontal sum (8 or 4 lanes).
+  private static final VectorShuffle<Float> XOR4 =
+      VectorShuffle.fromOp(WIDE, i -> WIDE_LANES >= 8 ? i ^ 4 : i);
+  private static final VectorShuffle<Float> XOR2 = VectorShuffle.fromOp(WIDE, i -> i ^ 2);
+  private static final VectorShuffle<Float> XOR1 = VectorShuffle.fromOp(WIDE, i -> i ^ 1);
 
   private VectorRowMath() {}
 
@@ -40,10 +53,10 @@ public final class VectorRowMath implements RowMath {
    *     useful SIMD), with the width in the message
    */
   public static RowMath create() {
-    if (WIDE.vectorBitSize() < 128) {
+    if (FloatVector.SPECIES_PREFERRED.vectorBitSize() < 128) {
       throw new UnsupportedOperationException(
           "the preferred float vector is only "
-              + WIDE.vectorBitSize()
+              + FloatVector.SPECIES_PREFERRED.vectorBitSize()
               + " bits wide; the scalar loops are as fast");
     }
     return new VectorRowMath();
@@ -51,25 +64,15 @@ public final class VectorRowMath implements RowMath {
 
   @Override
   public String describe() {
-    return "vector(" + WIDE.vectorBitSize() + "-bit, " + WIDE_LANES + " float lanes)";
+    return "vector("
+        + WIDE.vectorBitSize()
+        + "-bit of preferred "
+        + FloatVector.SPECIES_PREFERRED.vectorBitSize()
+        + "-bit)";
   }
 
   @Override
-  public int workLength() {
-    return WIDE_LANES;
-  }
-
-  private static float sumLanes(FloatVector v, int lanes, float[] work) {
-    v.intoArray(work, 0);
-    float s = work[0];
-    for (int i = 1; i < lanes; i++) {
-      s += work[i];
-    }
-    return s;
-  }
-
-  @Override
-  public float dot(float[] a, int ao, float[] b, int bo, int length, float[] work) {
+  public float dot(float[] a, int ao, float[] b, int bo, int length) {
     float s = 0f;
     int k = 0;
     if (length >= WIDE_LANES) {
@@ -78,19 +81,13 @@ public final class VectorRowMath implements RowMath {
         acc =
             FloatVector.fromArray(WIDE, a, ao + k).fma(FloatVector.fromArray(WIDE, b, bo + k), acc);
       }
-      s = sumLanes(acc, WIDE_LANES, work);
-    }
-    if (USE_HALF && k <= length - HALF_LANES) {
-      FloatVector p =
-          FloatVector.fromArray(HALF, a, ao + k).mul(FloatVector.fromArray(HALF, b, bo + k));
-      s += sumLanes(p, HALF_LANES, work);
-      k += HALF_LANES;
-    }
-    if (USE_QUARTER && k <= length - QUARTER_LANES) {
-      FloatVector p =
-          FloatVector.fromArray(QUARTER, a, ao + k).mul(FloatVector.fromArray(QUARTER, b, bo + k));
-      s += sumLanes(p, QUARTER_LANES, work);
-      k += QUARTER_LANES;
+      // pairwise tree of exact lane-wise adds: the same bits interpreted or compiled
+      if (WIDE_LANES >= 8) {
+        acc = acc.add(acc.rearrange(XOR4));
+      }
+      acc = acc.add(acc.rearrange(XOR2));
+      acc = acc.add(acc.rearrange(XOR1));
+      s = acc.lane(0);
     }
     for (; k < length; k++) {
       s = Math.fma(a[ao + k], b[bo + k], s);
@@ -107,8 +104,7 @@ public final class VectorRowMath implements RowMath {
       float[] key,
       int ko,
       int length,
-      float negativeSlope,
-      float[] work) {
+      float negativeSlope) {
     float s = 0f;
     int k = 0;
     if (length >= WIDE_LANES) {
@@ -118,22 +114,13 @@ public final class VectorRowMath implements RowMath {
             FloatVector.fromArray(WIDE, q, qo + k).add(FloatVector.fromArray(WIDE, key, ko + k));
         acc = FloatVector.fromArray(WIDE, att, ao + k).fma(z.max(z.mul(negativeSlope)), acc);
       }
-      s = sumLanes(acc, WIDE_LANES, work);
-    }
-    if (USE_HALF && k <= length - HALF_LANES) {
-      FloatVector z =
-          FloatVector.fromArray(HALF, q, qo + k).add(FloatVector.fromArray(HALF, key, ko + k));
-      FloatVector p = FloatVector.fromArray(HALF, att, ao + k).mul(z.max(z.mul(negativeSlope)));
-      s += sumLanes(p, HALF_LANES, work);
-      k += HALF_LANES;
-    }
-    if (USE_QUARTER && k <= length - QUARTER_LANES) {
-      FloatVector z =
-          FloatVector.fromArray(QUARTER, q, qo + k)
-              .add(FloatVector.fromArray(QUARTER, key, ko + k));
-      FloatVector p = FloatVector.fromArray(QUARTER, att, ao + k).mul(z.max(z.mul(negativeSlope)));
-      s += sumLanes(p, QUARTER_LANES, work);
-      k += QUARTER_LANES;
+      // pairwise tree of exact lane-wise adds: the same bits interpreted or compiled
+      if (WIDE_LANES >= 8) {
+        acc = acc.add(acc.rearrange(XOR4));
+      }
+      acc = acc.add(acc.rearrange(XOR2));
+      acc = acc.add(acc.rearrange(XOR1));
+      s = acc.lane(0);
     }
     for (; k < length; k++) {
       float z = q[qo + k] + key[ko + k];
@@ -161,17 +148,50 @@ public final class VectorRowMath implements RowMath {
   }
 
   @Override
-  public float expShiftSum(float[] s, int offset, int length, float shift, float[] work) {
+  public float expShiftSum(float[] s, int offset, int length, float shift) {
     float sum = 0f;
     int k = 0;
     if (length >= WIDE_LANES) {
       FloatVector acc = FloatVector.zero(WIDE);
+      FloatVector minusLn2Hi = FloatVector.broadcast(WIDE, -FastExp.LN2_HI);
+      FloatVector minusLn2Lo = FloatVector.broadcast(WIDE, -FastExp.LN2_LO);
+      FloatVector c0 = FloatVector.broadcast(WIDE, FastExp.P0);
+      FloatVector c1 = FloatVector.broadcast(WIDE, FastExp.P1);
+      FloatVector c2 = FloatVector.broadcast(WIDE, FastExp.P2);
+      FloatVector c3 = FloatVector.broadcast(WIDE, FastExp.P3);
+      FloatVector c4 = FloatVector.broadcast(WIDE, FastExp.P4);
+      FloatVector c5 = FloatVector.broadcast(WIDE, FastExp.P5);
       for (; k <= length - WIDE_LANES; k += WIDE_LANES) {
-        FloatVector p = exp(FloatVector.fromArray(WIDE, s, offset + k).sub(shift));
+        // FastExp.expNonPositive lane by lane, same operations in the same order; written inline
+        // because a vector passed to a helper that C2 does not inline is boxed (measured: slow)
+        FloatVector x = FloatVector.fromArray(WIDE, s, offset + k).sub(shift);
+        FloatVector xc = x.max(FastExp.LOWEST_ARGUMENT);
+        FloatVector shifted = xc.mul(FastExp.LOG2E).add(FastExp.ROUNDING_MAGIC);
+        FloatVector n = shifted.sub(FastExp.ROUNDING_MAGIC);
+        FloatVector r = n.fma(minusLn2Hi, xc);
+        r = n.fma(minusLn2Lo, r);
+        FloatVector p = c0.fma(r, c1);
+        p = p.fma(r, c2);
+        p = p.fma(r, c3);
+        p = p.fma(r, c4);
+        p = p.fma(r, c5);
+        p = p.fma(r.mul(r), r).add(1f);
+        FloatVector scale =
+            ((IntVector) shifted.reinterpretAsInts())
+                .add(FastExp.EXPONENT_BIAS_FROM_MAGIC)
+                .lanewise(VectorOperators.LSHL, 23)
+                .reinterpretAsFloats();
+        p = p.mul(scale).blend(0f, x.lt(FastExp.LOWEST_ARGUMENT));
         p.intoArray(s, offset + k);
         acc = acc.add(p);
       }
-      sum = sumLanes(acc, WIDE_LANES, work);
+      // pairwise tree of exact lane-wise adds: the same bits interpreted or compiled
+      if (WIDE_LANES >= 8) {
+        acc = acc.add(acc.rearrange(XOR4));
+      }
+      acc = acc.add(acc.rearrange(XOR2));
+      acc = acc.add(acc.rearrange(XOR1));
+      sum = acc.lane(0);
     }
     for (; k < length; k++) {
       float p = FastExp.expNonPositive(s[offset + k] - shift);
@@ -181,53 +201,33 @@ public final class VectorRowMath implements RowMath {
     return sum;
   }
 
-  /** {@link FastExp#expNonPositive} lane by lane, with the same operations in the same order. */
-  private static FloatVector exp(FloatVector x) {
-    FloatVector xc = x.max(FastExp.LOWEST_ARGUMENT);
-    FloatVector shifted = xc.mul(FastExp.LOG2E).add(FastExp.ROUNDING_MAGIC);
-    FloatVector n = shifted.sub(FastExp.ROUNDING_MAGIC);
-    FloatVector r = n.fma(FloatVector.broadcast(WIDE, -FastExp.LN2_HI), xc);
-    r = n.fma(FloatVector.broadcast(WIDE, -FastExp.LN2_LO), r);
-    FloatVector p =
-        FloatVector.broadcast(WIDE, FastExp.P0).fma(r, FloatVector.broadcast(WIDE, FastExp.P1));
-    p = p.fma(r, FloatVector.broadcast(WIDE, FastExp.P2));
-    p = p.fma(r, FloatVector.broadcast(WIDE, FastExp.P3));
-    p = p.fma(r, FloatVector.broadcast(WIDE, FastExp.P4));
-    p = p.fma(r, FloatVector.broadcast(WIDE, FastExp.P5));
-    p = p.fma(r.mul(r), r).add(1f);
-    IntVector bits = (IntVector) shifted.reinterpretAsInts();
-    FloatVector scale =
-        bits.add(FastExp.EXPONENT_BIAS_FROM_MAGIC)
-            .lanewise(VectorOperators.LSHL, 23)
-            .reinterpretAsFloats();
-    return p.mul(scale).blend(0f, x.lt(FastExp.LOWEST_ARGUMENT));
-  }
-
   @Override
-  public void axpy(float alpha, float[] x, int xo, float[] y, int yo, int length) {
-    int k = 0;
-    if (length >= WIDE_LANES) {
-      FloatVector a = FloatVector.broadcast(WIDE, alpha);
-      for (; k <= length - WIDE_LANES; k += WIDE_LANES) {
-        FloatVector.fromArray(WIDE, x, xo + k)
-            .fma(a, FloatVector.fromArray(WIDE, y, yo + k))
-            .intoArray(y, yo + k);
+  public void weightedRowSum(
+      float[] w,
+      int wOffset,
+      int[] rowBase,
+      int count,
+      int headOffset,
+      float[] value,
+      float[] acc,
+      int accOffset,
+      int length) {
+    int x = 0;
+    for (; x <= length - WIDE_LANES; x += WIDE_LANES) {
+      FloatVector a = FloatVector.fromArray(WIDE, acc, accOffset + x);
+      for (int t = 0; t < count; t++) {
+        a =
+            FloatVector.fromArray(WIDE, value, rowBase[t] + headOffset + x)
+                .fma(FloatVector.broadcast(WIDE, w[wOffset + t]), a);
       }
+      a.intoArray(acc, accOffset + x);
     }
-    if (USE_HALF && k <= length - HALF_LANES) {
-      FloatVector.fromArray(HALF, x, xo + k)
-          .fma(FloatVector.broadcast(HALF, alpha), FloatVector.fromArray(HALF, y, yo + k))
-          .intoArray(y, yo + k);
-      k += HALF_LANES;
-    }
-    if (USE_QUARTER && k <= length - QUARTER_LANES) {
-      FloatVector.fromArray(QUARTER, x, xo + k)
-          .fma(FloatVector.broadcast(QUARTER, alpha), FloatVector.fromArray(QUARTER, y, yo + k))
-          .intoArray(y, yo + k);
-      k += QUARTER_LANES;
-    }
-    for (; k < length; k++) {
-      y[yo + k] = Math.fma(alpha, x[xo + k], y[yo + k]);
+    for (; x < length; x++) {
+      float a = acc[accOffset + x];
+      for (int t = 0; t < count; t++) {
+        a = Math.fma(w[wOffset + t], value[rowBase[t] + headOffset + x], a);
+      }
+      acc[accOffset + x] = a;
     }
   }
 

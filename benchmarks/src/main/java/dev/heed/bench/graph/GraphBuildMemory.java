@@ -22,13 +22,14 @@ import java.util.concurrent.TimeUnit;
  * CsrGraph#storageBytes()} plus {@link LongNodeIndex#storageBytes()}) and checked by GC-and-sample:
  * used heap after {@code System.gc()} with the result held, minus used heap after {@code
  * System.gc()} before the build. (2) The peak is bounded from above by the smallest {@code -Xmx}
- * under which a fresh JVM completes the build (bisection over child JVMs, G1, 4 MiB steps): a build
- * that fits in that heap never had more live data than it. The bound includes the JVM's own
- * baseline heap (class metadata is off-heap; the baseline is printed), so it overstates the
- * builder's own peak slightly.
+ * under which a fresh JVM completes the build (bisection over child JVMs, G1, to within 4 MiB,
+ * starting from the finished size): a build that fits in that heap never had more live data than
+ * it. The bound includes the JVM's own baseline heap (class metadata is off-heap; the baseline is
+ * printed), so it overstates the builder's own peak slightly.
  *
  * <p>Run: {@code java -cp benchmarks/target/benchmarks.jar dev.heed.bench.graph.GraphBuildMemory
- * [edge-file]} (the file is generated into a temporary directory when not given).
+ * [edge-file]} (the file is generated into a temporary directory when not given; {@code write
+ * <file>} writes it only).
  */
 public final class GraphBuildMemory {
 
@@ -39,12 +40,18 @@ public final class GraphBuildMemory {
   /**
    * Entry point.
    *
-   * @param args none, {@code [file]}, or {@code child <file> <mode>} (internal)
+   * @param args none, {@code <file>} (measure on an existing file), {@code write <file>} (only
+   *     write the benchmark file), or {@code child <file> <mode>} (internal)
    * @throws Exception on failure
    */
   public static void main(String[] args) throws Exception {
     if (args.length == 3 && args[0].equals("child")) {
       child(Path.of(args[1]), args[2]);
+      return;
+    }
+    if (args.length == 2 && args[0].equals("write")) {
+      int[][] edges = EdgeFiles.rmatEdges();
+      EdgeFiles.writeTsv(Path.of(args[1]), edges[0], edges[1]);
       return;
     }
     Path file;
@@ -68,8 +75,13 @@ public final class GraphBuildMemory {
         }
         report.forEach(line -> say("%s: %s", mode, line));
         long finished = Long.parseLong(value(report, "finishedBytes"));
-        long lo = 8;
-        long hi = 4096;
+        // The build cannot fit in less than its result; start the search there.
+        long lo = Math.max(8, finished / MIB);
+        long hi = 2 * lo + 16;
+        while (runChild(file, mode, hi) == null && hi < 4096) {
+          lo = hi;
+          hi *= 2;
+        }
         while (hi - lo > 4) {
           long mid = (lo + hi) / 2;
           if (runChild(file, mode, mid) != null) {
@@ -132,11 +144,13 @@ public final class GraphBuildMemory {
     MemoryMXBean memory = ManagementFactory.getMemoryMXBean();
     long before = usedAfterGc(memory);
     long start = System.nanoTime();
+    long cpuStart = ManagementFactory.getThreadMXBean().getCurrentThreadCpuTime();
     EdgeListResult<Long> result =
         mode.equals("index")
             ? EdgeListFileBuilder.indexIds(file).delimiter('\t').header(true).build()
             : EdgeListFileBuilder.integerIds(file).delimiter('\t').header(true).build();
     long nanos = System.nanoTime() - start;
+    long cpuNanos = ManagementFactory.getThreadMXBean().getCurrentThreadCpuTime() - cpuStart;
     long after = usedAfterGc(memory);
     CsrGraph graph = result.graph();
     long graphBytes = graph.storageBytes();
@@ -150,6 +164,7 @@ public final class GraphBuildMemory {
     out.add("baselineHeapBytes=" + before);
     out.add("retainedBytesByGcSample=" + (after - before));
     out.add(String.format(Locale.ROOT, "buildSeconds=%.2f", nanos / 1e9));
+    out.add(String.format(Locale.ROOT, "buildThreadCpuSeconds=%.2f", cpuNanos / 1e9));
     out.add("ok");
     // A benchmark program's own report on its standard output (not library code).
     out.forEach(System.out::println);

@@ -1,0 +1,697 @@
+package dev.heed.bench.crossover;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.MemoryBudgetExceededException;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.bench.roofline.GatherProbe;
+import dev.heed.bench.roofline.MachineLimits;
+import dev.heed.graph.AttentionPattern;
+import java.io.IOException;
+import java.io.PrintStream;
+import java.lang.management.ManagementFactory;
+import java.lang.module.ModuleFinder;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.time.Duration;
+import java.util.ArrayList;
+import java.util.EnumMap;
+import java.util.List;
+import java.util.Locale;
+import java.util.Map;
+import java.util.SplittableRandom;
+
+/**
+ * Sweeps node counts and densities on both attention paths and reports, for each node count and
+ * score, the density below which the sparse path is faster than the dense one, on this machine.
+ *
+ * <p>Command line (the Vector API module is added by re-launching the JVM when it is missing;
+ * {@code --no-relaunch} prevents that):
+ *
+ * <pre>
+ * java -cp benchmarks/target/benchmarks.jar dev.heed.bench.crossover.CrossoverRunner [--quick] [--out DIR]
+ *     [--threads N] [--seed S] [--n 256,1024] [--densities 0.1,1,10,100] [--scores additive,dot-product]
+ *     [--max-call-seconds X] [--dense-budget-mib M] [--no-relaunch]
+ * </pre>
+ *
+ * <p>It prints the table to stdout, progress to stderr, and writes {@code crossover.csv}, {@code
+ * crossover.png} and {@code crossover.txt} to the output folder (default {@value #DEFAULT_OUT}).
+ *
+ * <p>As a library: {@link #run} runs a sweep with injected kernels, limits and progress display and
+ * returns a {@link CrossoverReport}; {@link #writeOutputs} writes the files.
+ *
+ * <p>Timing: per point, warm-up calls until three in a row agree (or a cap is reached), then the
+ * median of repeated calls with min/max and quartiles; seeded graphs and inputs; every output is
+ * read back. Points that cannot fit (more entries than an int CSR holds, a graph larger than the
+ * free heap, a dense call over its memory budget, a call estimated to take longer than the per-call
+ * cap) are skipped and named in the output. The JMH benchmarks are the authority for precise
+ * figures.
+ *
+ * <p>Thread safety: stateless; {@link #run} may be called from any one thread at a time per sweep.
+ */
+public final class CrossoverRunner {
+
+  /** The default output folder: {@value}. */
+  public static final String DEFAULT_OUT = "heed-crossover";
+
+  /** Fraction of the measured limits assumed for duration estimates before anything is timed. */
+  static final double ASSUMED_EFFICIENCY = 0.2;
+
+  private static final String RELAUNCHED = "heed.bench.relaunched";
+
+  private static volatile double sink;
+
+  private CrossoverRunner() {}
+
+  /**
+   * Runs the sweep from the command line; see the class description for the arguments.
+   *
+   * @param args the arguments
+   */
+  public static void main(String[] args) {
+    CommandLine cli;
+    try {
+      cli = CommandLine.parse(args);
+    } catch (IllegalArgumentException e) {
+      System.err.println("crossover: " + e.getMessage());
+      System.err.println(CommandLine.USAGE);
+      System.exit(2);
+      return;
+    }
+    if (cli.help()) {
+      System.out.println(CommandLine.USAGE);
+      return;
+    }
+    if (!GatherProbe.vectorApiAvailable()
+        && ModuleFinder.ofSystem().find("jdk.incubator.vector").isPresent()
+        && !List.of(args).contains("--no-relaunch")
+        && System.getProperty(RELAUNCHED) == null) {
+      Integer code = relaunchWithVectorApi(args);
+      if (code != null) {
+        System.exit(code);
+        return;
+      }
+    }
+    setIfUnset("java.awt.headless", "true");
+    setIfUnset("org.nd4j.log.initialization", "false");
+    setIfUnset("org.slf4j.simpleLogger.defaultLogLevel", "warn");
+    ProgressListener progress = ProgressListener.printingTo(System.err);
+    progress.message(CrossoverReport.AUTHORITY);
+    if (!GatherProbe.vectorApiAvailable()) {
+      progress.message(
+          "note: jdk.incubator.vector is not readable; the sparse kernel and the gather limit may"
+              + " run scalar code. Run java with --add-modules jdk.incubator.vector.");
+    }
+    try {
+      CrossoverReport report = run(cli.config(), KernelFactory.registered(), null, progress);
+      PrintStream out = new PrintStream(System.out, true, StandardCharsets.UTF_8);
+      out.print(report.formatText());
+      List<Path> files = writeOutputs(report, cli.out());
+      for (Path f : files) {
+        out.println("wrote " + f);
+      }
+    } catch (IOException e) {
+      System.err.println("crossover: could not write the output: " + e.getMessage());
+      System.exit(1);
+    }
+  }
+
+  private static String sweepName(SweepConfig config) {
+    SweepConfig standard = config.quick() ? SweepConfig.quickSweep() : SweepConfig.fullSweep();
+    boolean sameGrid =
+        standard.nodeCounts().equals(config.nodeCounts())
+            && standard.densities().equals(config.densities())
+            && standard.scores().equals(config.scores());
+    return sameGrid ? (config.quick() ? "quick" : "full") : "custom";
+  }
+
+  private static void setIfUnset(String property, String value) {
+    if (System.getProperty(property) == null) {
+      System.setProperty(property, value);
+    }
+  }
+
+  /**
+   * Measures the machine limits this sweep needs: GEMM, and the gather rate for a value table of
+   * each node count.
+   *
+   * @param config the sweep
+   * @param progress receives one line per measurement
+   * @return the limits
+   */
+  public static MachineLimits measureLimits(SweepConfig config, ProgressListener progress) {
+    int[] rows = config.nodeCounts().stream().mapToInt(Integer::intValue).toArray();
+    return MachineLimits.measure(
+        rows,
+        config.heads() * config.valueDim(),
+        config.threads(),
+        config.quick(),
+        progress::message);
+  }
+
+  /**
+   * Runs the sweep.
+   *
+   * @param config what to sweep
+   * @param kernels supplies each path's kernel; a path whose kernel cannot be created is skipped
+   *     and the report says why
+   * @param limits the machine limits for roofline fractions, or null to measure them first
+   * @param progress receives progress: limits, the expected duration, then every point
+   * @return the report
+   */
+  public static CrossoverReport run(
+      SweepConfig config, KernelFactory kernels, MachineLimits limits, ProgressListener progress) {
+    long start = System.nanoTime();
+    Map<ComputePath, AttentionKernel> available = new EnumMap<>(ComputePath.class);
+    Map<ComputePath, String> described = new EnumMap<>(ComputePath.class);
+    for (ComputePath path : ComputePath.values()) {
+      try {
+        AttentionKernel k = kernels.create(path, config.kernelOptions());
+        available.put(path, k);
+        described.put(path, k.describe());
+      } catch (RuntimeException | LinkageError e) {
+        described.put(path, "unavailable: " + e.getMessage());
+      }
+      progress.message("kernel " + path + ": " + described.get(path));
+    }
+    if (limits == null) {
+      progress.message(
+          "measuring machine limits (GEMM and gather; about "
+              + (config.quick() ? "5" : "30")
+              + " s)...");
+      limits = measureLimits(config, progress);
+    }
+    Duration expected = estimateDuration(config, limits);
+    progress.message(
+        String.format(
+            Locale.ROOT,
+            "%s sweep: %d points (%d n x %d densities x %d scores x 2 paths); expected duration"
+                + " about %s (rough: assumes the kernels reach %.0f %% of the measured limits;"
+                + " calls estimated over %.1f s are skipped)",
+            sweepName(config),
+            config.pointCount(),
+            config.nodeCounts().size(),
+            config.densities().size(),
+            config.scores().size(),
+            Formats.duration(expected),
+            ASSUMED_EFFICIENCY * 100,
+            config.maxCallSeconds()));
+    Sweep sweep = new Sweep(config, available, described, limits, progress, start);
+    sweep.runAll();
+    return new CrossoverReport(
+        config,
+        limits,
+        described,
+        sweep.points,
+        sweep.largestDifference,
+        sweep.peakLoad,
+        Duration.ofNanos(System.nanoTime() - start));
+  }
+
+  /**
+   * Estimates how long a sweep will take from the machine limits, assuming the kernels reach
+   * {@value #ASSUMED_EFFICIENCY} of them. Rough: real kernels may be several times faster or
+   * slower.
+   *
+   * @param config the sweep
+   * @param limits the machine limits
+   * @return the estimate
+   */
+  public static Duration estimateDuration(SweepConfig config, MachineLimits limits) {
+    double seconds = 0;
+    for (double s : pointEstimates(config, limits)) {
+      seconds += s;
+    }
+    return Duration.ofMillis(Math.round(seconds * 1000));
+  }
+
+  /**
+   * Writes {@code crossover.csv}, {@code crossover.png} and {@code crossover.txt} (the printed
+   * report) into {@code dir}, creating it if needed.
+   *
+   * @param report the sweep result
+   * @param dir the output folder
+   * @return the files written
+   * @throws IOException if a file cannot be written
+   */
+  public static List<Path> writeOutputs(CrossoverReport report, Path dir) throws IOException {
+    Files.createDirectories(dir);
+    Path csv = dir.resolve("crossover.csv");
+    Path png = dir.resolve("crossover.png");
+    Path txt = dir.resolve("crossover.txt");
+    report.writeCsv(csv);
+    CrossoverChart.writePng(report, png);
+    Files.writeString(txt, report.formatText(), StandardCharsets.UTF_8);
+    return List.of(csv, png, txt);
+  }
+
+  // ---------------------------------------------------------------------------------------------
+
+  /** Estimated seconds of every point, in sweep order. */
+  static double[] pointEstimates(SweepConfig config, MachineLimits limits) {
+    double[] est = new double[config.pointCount()];
+    int i = 0;
+    for (int n : config.nodeCounts()) {
+      for (double d : config.densities()) {
+        long edges = RandomPatterns.entryCount(n, d);
+        for (SweepScore score : config.scores()) {
+          HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
+          for (ComputePath path : ComputePath.values()) {
+            double call = modelCallSeconds(path, shape, n, edges, limits);
+            est[i++] = call > config.maxCallSeconds() ? 0.0 : pointSeconds(call, config.timing());
+          }
+        }
+      }
+    }
+    return est;
+  }
+
+  /** The work of one call: dense flops 2·n²·H·(dk+dv); sparse gathered value rows E. */
+  static double work(ComputePath path, HeadShape shape, int n, long edges) {
+    if (path == ComputePath.DENSE) {
+      return 2.0 * n * (double) n * shape.heads() * (shape.keyDim() + shape.valueDim());
+    }
+    return edges;
+  }
+
+  private static double modelCallSeconds(
+      ComputePath path, HeadShape shape, int n, long edges, MachineLimits limits) {
+    double w = work(path, shape, n, edges);
+    if (path == ComputePath.DENSE) {
+      return w / (limits.gemmFlopsPerSecond() * ASSUMED_EFFICIENCY) + 1e-4;
+    }
+    // the sparse path also reads a key row per entry for dot-product scores
+    double rows = w * (shape.keyDim() + shape.valueDim()) / (double) shape.valueDim();
+    return rows / (limits.gatherRowsPerSecond(n) * ASSUMED_EFFICIENCY) + 1e-5;
+  }
+
+  private static double pointSeconds(double call, TimingPolicy policy) {
+    int warmCalls = Math.min(policy.maxWarmupCalls(), Math.max(policy.minWarmupCalls(), 3) + 1);
+    double warm = Math.min(warmCalls * call, policy.maxWarmupSeconds() + call);
+    double timed =
+        Math.min(
+            policy.repetitions() * call,
+            Math.max(policy.maxTimedSeconds(), policy.minRepetitions() * call));
+    return warm + timed;
+  }
+
+  private static Integer relaunchWithVectorApi(String[] args) {
+    List<String> command = new ArrayList<>();
+    command.add(Path.of(System.getProperty("java.home"), "bin", "java").toString());
+    command.add("--add-modules");
+    command.add("jdk.incubator.vector");
+    command.add("-D" + RELAUNCHED + "=true");
+    command.addAll(ManagementFactory.getRuntimeMXBean().getInputArguments());
+    command.add("-cp");
+    command.add(System.getProperty("java.class.path"));
+    command.add(CrossoverRunner.class.getName());
+    command.addAll(List.of(args));
+    try {
+      Process p = new ProcessBuilder(command).inheritIO().start();
+      return p.waitFor();
+    } catch (IOException e) {
+      System.err.println(
+          "crossover: could not re-launch with --add-modules jdk.incubator.vector ("
+              + e.getMessage()
+              + "); running without it");
+      return null;
+    } catch (InterruptedException e) {
+      Thread.currentThread().interrupt();
+      return 130;
+    }
+  }
+
+  /** The state of one sweep run. */
+  private static final class Sweep {
+    private final SweepConfig config;
+    private final Map<ComputePath, AttentionKernel> kernels;
+    private final Map<ComputePath, String> described;
+    private final MachineLimits limits;
+    private final ProgressListener progress;
+    private final long start;
+    private final double[] estimates;
+    private final List<SweepPoint> points = new ArrayList<>();
+
+    /** First calls that were too slow to time: {path, score, n, edges, nanos}. */
+    private final List<double[]> slowCalls = new ArrayList<>();
+
+    private double largestDifference = Double.NaN;
+    private double peakLoad = Double.NaN;
+    private int index;
+
+    Sweep(
+        SweepConfig config,
+        Map<ComputePath, AttentionKernel> kernels,
+        Map<ComputePath, String> described,
+        MachineLimits limits,
+        ProgressListener progress,
+        long start) {
+      this.config = config;
+      this.kernels = kernels;
+      this.described = described;
+      this.limits = limits;
+      this.progress = progress;
+      this.start = start;
+      this.estimates = pointEstimates(config, limits);
+    }
+
+    void runAll() {
+      long sweepStart = System.nanoTime();
+      for (int n : config.nodeCounts()) {
+        for (double density : config.densities()) {
+          long edges = RandomPatterns.entryCount(n, density);
+          AttentionPattern pattern = null;
+          String patternProblem = "";
+          if (overTime(sweepStart)) {
+            patternProblem = timeLimitText();
+          } else {
+            try {
+              pattern = buildPattern(n, density, edges);
+            } catch (IllegalArgumentException | OutOfMemoryError e) {
+              patternProblem = "graph not built: " + e.getMessage();
+            }
+          }
+          for (SweepScore score : config.scores()) {
+            HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
+            Inputs in = pattern == null ? null : Inputs.random(n, shape, seedFor(n, score));
+            float[] denseOut = null;
+            for (ComputePath path : ComputePath.values()) {
+              Outcome o =
+                  overTime(sweepStart)
+                      ? skipped(
+                          score,
+                          n,
+                          density,
+                          edges,
+                          path,
+                          limitFor(path, n),
+                          unitFor(path),
+                          timeLimitText())
+                      : runPoint(
+                          score, shape, n, density, edges, path, pattern, in, patternProblem);
+              SweepPoint p = o.point;
+              if (path == ComputePath.DENSE) {
+                denseOut = o.out;
+              } else if (denseOut != null && o.out != null) {
+                double diff = relativeDifference(denseOut, o.out);
+                largestDifference =
+                    Double.isNaN(largestDifference) ? diff : Math.max(largestDifference, diff);
+                if (!(diff <= 1e-3)) {
+                  p =
+                      p.withNote(
+                          String.format(
+                              Locale.ROOT,
+                              "paths disagree: relative difference %.2g between dense and sparse"
+                                  + " outputs",
+                              diff));
+                }
+              }
+              points.add(p);
+              index++;
+              report(p, sweepStart);
+            }
+          }
+        }
+      }
+    }
+
+    private double limitFor(ComputePath path, int n) {
+      return path == ComputePath.DENSE
+          ? limits.gemm().gflops()
+          : limits.gatherRowsPerSecond(n) / 1e6;
+    }
+
+    private static String unitFor(ComputePath path) {
+      return path == ComputePath.DENSE ? "GFLOP/s" : "Mrows/s";
+    }
+
+    private boolean overTime(long sweepStart) {
+      return config.maxSweepSeconds() > 0
+          && (System.nanoTime() - sweepStart) * 1e-9 > config.maxSweepSeconds();
+    }
+
+    private String timeLimitText() {
+      return String.format(
+          Locale.ROOT, "the sweep's time limit of %.0f s was reached", config.maxSweepSeconds());
+    }
+
+    private void report(SweepPoint p, long sweepStart) {
+      double load = ManagementFactory.getOperatingSystemMXBean().getSystemLoadAverage();
+      if (load >= 0) {
+        peakLoad = Double.isNaN(peakLoad) ? load : Math.max(peakLoad, load);
+      }
+      if (!p.measured()) {
+        estimates[index - 1] = 0; // a skipped point costs next to nothing; keep the rate honest
+      }
+      double elapsed = (System.nanoTime() - sweepStart) * 1e-9;
+      double estimatedDone = 0;
+      for (int i = 0; i < index; i++) {
+        estimatedDone += estimates[i];
+      }
+      double estimatedLeft = 0;
+      for (int i = index; i < estimates.length; i++) {
+        estimatedLeft += estimates[i];
+      }
+      double factor = estimatedDone > 0 ? elapsed / estimatedDone : 1.0;
+      factor = Math.max(0.1, Math.min(10, factor));
+      double left = estimatedLeft * factor;
+      if (config.maxSweepSeconds() > 0) {
+        // points still left at the time limit are skipped at once
+        left = Math.min(left, Math.max(0, config.maxSweepSeconds() - elapsed) + 1);
+      }
+      progress.pointDone(
+          index,
+          estimates.length,
+          p,
+          Duration.ofNanos(System.nanoTime() - start),
+          Duration.ofMillis(Math.round(left * 1000)));
+    }
+
+    private AttentionPattern buildPattern(int n, double density, long edges) {
+      if (density < 1.0) {
+        if (edges > Integer.MAX_VALUE - 8) {
+          throw new IllegalArgumentException(
+              edges + " entries are more than an int-indexed CSR graph holds");
+        }
+        long needed = RandomPatterns.buildBytes(n, edges);
+        if (needed > freeHeap() * 0.6) {
+          System.gc();
+          if (needed > freeHeap() * 0.6) {
+            throw new IllegalArgumentException(
+                String.format(
+                    Locale.ROOT,
+                    "needs about %d MiB of heap to build, %d MiB free (raise -Xmx)",
+                    needed >> 20,
+                    freeHeap() >> 20));
+          }
+        }
+      }
+      return RandomPatterns.uniform(n, density, config.seed() * 1_000_003L + n * 31L + edges);
+    }
+
+    private long seedFor(int n, SweepScore score) {
+      return config.seed() ^ (0x9E3779B97F4A7C15L * (n * 4L + score.ordinal() + 1));
+    }
+
+    private Outcome runPoint(
+        SweepScore score,
+        HeadShape shape,
+        int n,
+        double density,
+        long edges,
+        ComputePath path,
+        AttentionPattern pattern,
+        Inputs in,
+        String patternProblem) {
+      AttentionKernel kernel = kernels.get(path);
+      String unit = unitFor(path);
+      double limit = limitFor(path, n);
+      if (kernel == null) {
+        return skipped(
+            score,
+            n,
+            density,
+            edges,
+            path,
+            limit,
+            unit,
+            "no " + path + " kernel (" + described.get(path) + ")");
+      }
+      if (pattern == null) {
+        return skipped(score, n, density, edges, path, limit, unit, patternProblem);
+      }
+      double estimate = estimateCall(path, shape, score, n, edges);
+      if (estimate > config.maxCallSeconds()) {
+        return skipped(
+            score,
+            n,
+            density,
+            edges,
+            path,
+            limit,
+            unit,
+            String.format(
+                Locale.ROOT,
+                "estimated %.1f s per call, over the %.1f s cap (--max-call-seconds)",
+                estimate,
+                config.maxCallSeconds()));
+      }
+      ScoreFunction function = score.function();
+      float[] out;
+      try {
+        out = new float[in.value.length];
+      } catch (OutOfMemoryError e) {
+        return skipped(score, n, density, edges, path, limit, unit, "out of heap memory");
+      }
+      float[] target = out;
+      TimingResult timing;
+      try {
+        timing =
+            PointTimer.time(
+                () ->
+                    kernel.attend(
+                        pattern, function, shape, in.query, in.key, in.value, target, null),
+                config.timing(),
+                2 * config.maxCallSeconds());
+      } catch (PointTimer.TooSlowException e) {
+        slowCalls.add(new double[] {path.ordinal(), score.ordinal(), n, edges, e.firstCallNanos()});
+        return skipped(
+            score,
+            n,
+            density,
+            edges,
+            path,
+            limit,
+            unit,
+            String.format(
+                Locale.ROOT,
+                "the first call took %.1f s, over twice the %.1f s cap (--max-call-seconds)",
+                e.firstCallNanos() * 1e-9,
+                config.maxCallSeconds()));
+      } catch (MemoryBudgetExceededException e) {
+        return skipped(
+            score,
+            n,
+            density,
+            edges,
+            path,
+            limit,
+            unit,
+            "over the dense memory budget: " + e.getMessage());
+      } catch (OutOfMemoryError e) {
+        return skipped(
+            score, n, density, edges, path, limit, unit, "out of memory: " + e.getMessage());
+      } catch (RuntimeException | LinkageError e) {
+        return skipped(score, n, density, edges, path, limit, unit, "kernel failed: " + e);
+      }
+      double check = 0;
+      for (float v : out) {
+        check += v;
+      }
+      sink += check;
+      String note = Double.isFinite(check) ? "" : "output not finite";
+      double seconds = timing.medianNanos() * 1e-9;
+      double w = work(path, shape, n, edges);
+      double achieved = path == ComputePath.DENSE ? w / seconds / 1e9 : w / seconds / 1e6;
+      return new Outcome(
+          new SweepPoint(score, n, density, edges, path, timing, achieved, limit, unit, note), out);
+    }
+
+    /**
+     * Estimated seconds for one call: extrapolated from the largest point measured so far on the
+     * same path and score (dense by n², sparse by E), or from the model when none was.
+     */
+    private double estimateCall(
+        ComputePath path, HeadShape shape, SweepScore score, int n, long edges) {
+      SweepPoint basis = null;
+      double basisWork = 0;
+      for (SweepPoint p : points) {
+        if (p.path() != path || p.score() != score || !p.measured()) {
+          continue;
+        }
+        double w = scaleWork(path, p.n(), p.edges());
+        if (w >= basisWork) {
+          basis = p;
+          basisWork = w;
+        }
+      }
+      double basisNanos = basis == null ? Double.NaN : basis.timing().medianNanos();
+      for (double[] slow : slowCalls) {
+        if (slow[0] != path.ordinal() || slow[1] != score.ordinal()) {
+          continue;
+        }
+        double w = scaleWork(path, (int) slow[2], (long) slow[3]);
+        if (w <= scaleWork(path, n, edges) && (Double.isNaN(basisNanos) || w >= basisWork)) {
+          basisNanos = slow[4];
+          basisWork = w;
+        }
+      }
+      if (Double.isNaN(basisNanos)) {
+        return modelCallSeconds(path, shape, n, edges, limits);
+      }
+      return basisNanos * 1e-9 * scaleWork(path, n, edges) / basisWork;
+    }
+
+    private static double scaleWork(ComputePath path, int n, long edges) {
+      return path == ComputePath.DENSE ? (double) n * n : Math.max(edges, n);
+    }
+
+    private static Outcome skipped(
+        SweepScore score,
+        int n,
+        double density,
+        long edges,
+        ComputePath path,
+        double limit,
+        String unit,
+        String why) {
+      return new Outcome(
+          new SweepPoint(
+              score, n, density, edges, path, null, Double.NaN, limit, unit, "skipped: " + why),
+          null);
+    }
+
+    private static long freeHeap() {
+      Runtime rt = Runtime.getRuntime();
+      return rt.maxMemory() - (rt.totalMemory() - rt.freeMemory());
+    }
+  }
+
+  /** Norm-wise relative difference ‖a − b‖ / ‖a‖ (0 when both are zero). */
+  static double relativeDifference(float[] a, float[] b) {
+    double num = 0;
+    double den = 0;
+    for (int i = 0; i < a.length; i++) {
+      double d = (double) a[i] - b[i];
+      num += d * d;
+      den += (double) a[i] * a[i];
+    }
+    if (den == 0) {
+      return num == 0 ? 0 : Double.POSITIVE_INFINITY;
+    }
+    return Math.sqrt(num / den);
+  }
+
+  /** A point and its output (kept for the cross-check of the two paths); out null if skipped. */
+  private record Outcome(SweepPoint point, float[] out) {}
+
+  /** Seeded query, key and value arrays for one node count and shape, uniform in [-1, 1). */
+  private record Inputs(float[] query, float[] key, float[] value) {
+    static Inputs random(int n, HeadShape shape, long seed) {
+      SplittableRandom r = new SplittableRandom(seed);
+      return new Inputs(
+          fill(new float[n * shape.keyWidth()], r),
+          fill(new float[n * shape.keyWidth()], r),
+          fill(new float[n * shape.valueWidth()], r));
+    }
+
+    private static float[] fill(float[] a, SplittableRandom r) {
+      for (int i = 0; i < a.length; i++) {
+        a[i] = (float) (r.nextDouble() * 2 - 1);
+      }
+      return a;
+    }
+  }
+}

@@ -1,0 +1,182 @@
+package dev.heed.bench.kernel;
+
+import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.KernelOptions;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.CsrGraph;
+import java.util.Arrays;
+import java.util.SplittableRandom;
+import java.util.concurrent.TimeUnit;
+import org.openjdk.jmh.annotations.Benchmark;
+import org.openjdk.jmh.annotations.BenchmarkMode;
+import org.openjdk.jmh.annotations.Fork;
+import org.openjdk.jmh.annotations.Level;
+import org.openjdk.jmh.annotations.Measurement;
+import org.openjdk.jmh.annotations.Mode;
+import org.openjdk.jmh.annotations.OutputTimeUnit;
+import org.openjdk.jmh.annotations.Param;
+import org.openjdk.jmh.annotations.Scope;
+import org.openjdk.jmh.annotations.Setup;
+import org.openjdk.jmh.annotations.State;
+import org.openjdk.jmh.annotations.Warmup;
+
+/**
+ * One layer of sparse (CSR) attention: {@code AttentionKernels.forPath(SPARSE)} over a seeded
+ * random graph with exactly {@code averageDegree} distinct uniformly random sources per row (a
+ * stand-in until the R-MAT generator lands), all heads and value dims, no weights requested.
+ *
+ * <p>Read the score as milliseconds per layer; edges per second = {@code nodes · averageDegree /
+ * (ms / 1000)}. The issue's target: 1M nodes, 16M edges, 8 heads × 8 dims, at least 23 M edges/s on
+ * 2 threads, and 2 threads at least 1.7× one. Run it with, for example:
+ *
+ * <pre>
+ * java -jar benchmarks/target/benchmarks.jar CsrAttentionBenchmark -p nodes=1000000 -p score=additive
+ * </pre>
+ *
+ * <p>{@code implementation=scalar} sets {@code heed.sparse.vector=false} in the fork before the
+ * kernel is first created, so the kernel runs its plain loops; each fork measures one
+ * implementation only. Every fork gets {@code --add-modules jdk.incubator.vector} and transparent
+ * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
+ * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine).
+ */
+@State(Scope.Benchmark)
+@BenchmarkMode(Mode.AverageTime)
+@OutputTimeUnit(TimeUnit.MILLISECONDS)
+@Warmup(iterations = 3, time = 2)
+@Measurement(iterations = 5, time = 2)
+@Fork(
+    value = 2,
+    jvmArgsAppend = {
+      "--add-modules",
+      "jdk.incubator.vector",
+      "-Xms4g",
+      "-Xmx4g",
+      "-XX:+UseTransparentHugePages"
+    })
+public class CsrAttentionBenchmark {
+
+  /** Number of nodes n. */
+  @Param({"100000"})
+  public int nodes;
+
+  /** Sources per row; E = nodes · averageDegree. */
+  @Param({"16"})
+  public int averageDegree;
+
+  /** Heads H. */
+  @Param({"8"})
+  public int heads;
+
+  /** Value width per head, and key width for GATv2 and dot-product scores. */
+  @Param({"8"})
+  public int headDim;
+
+  /** {@code additive} (GAT), {@code gatv2} or {@code dot} (scaled dot-product). */
+  @Param({"additive", "gatv2", "dot"})
+  public String score;
+
+  /** Threads per call ({@link KernelOptions#threads()}). */
+  @Param({"1", "2"})
+  public int threads;
+
+  /** {@code vector} (Vector API inner loops) or {@code scalar} (plain Java loops). */
+  @Param({"vector", "scalar"})
+  public String implementation;
+
+  /** Seed of the graph and the inputs. */
+  @Param({"20260401"})
+  public long seed;
+
+  private AttentionKernel kernel;
+  private CsrGraph graph;
+  private ScoreFunction scoreFunction;
+  private HeadShape shape;
+  private float[] query;
+  private float[] key;
+  private float[] value;
+  private float[] out;
+
+  /** Builds the graph and inputs and picks the implementation. */
+  @Setup(Level.Trial)
+  public void setUp() {
+    if (implementation.equals("scalar")) {
+      System.setProperty("heed.sparse.vector", "false");
+    } else if (!implementation.equals("vector")) {
+      throw new IllegalArgumentException("implementation must be vector or scalar");
+    }
+    kernel = AttentionKernels.forPath(ComputePath.SPARSE, new KernelOptions(threads, 1L << 30));
+    if (!kernel.describe().startsWith("csr-" + implementation)) {
+      throw new IllegalStateException(
+          "asked for the " + implementation + " implementation but got " + kernel.describe());
+    }
+    SplittableRandom random = new SplittableRandom(seed);
+    graph = randomGraph(random, nodes, averageDegree);
+    switch (score) {
+      case "additive" -> {
+        scoreFunction = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+        shape = new HeadShape(heads, 1, headDim);
+      }
+      case "gatv2" -> {
+        shape = new HeadShape(heads, headDim, headDim);
+        scoreFunction =
+            ScoreFunction.gatv2(
+                ScoreFunction.GAT_NEGATIVE_SLOPE, uniform(random, shape.keyWidth()));
+      }
+      case "dot" -> {
+        scoreFunction = ScoreFunction.scaledDotProduct();
+        shape = new HeadShape(heads, headDim, headDim);
+      }
+      default -> throw new IllegalArgumentException("score must be additive, gatv2 or dot");
+    }
+    query = uniform(random, nodes * shape.keyWidth());
+    key = uniform(random, nodes * shape.keyWidth());
+    value = uniform(random, nodes * shape.valueWidth());
+    out = new float[nodes * shape.valueWidth()];
+  }
+
+  /**
+   * One attention layer over every row.
+   *
+   * @return the output, so the work is not dead code
+   */
+  @Benchmark
+  public float[] attend() {
+    kernel.attend(graph, scoreFunction, shape, query, key, value, out, null);
+    return out;
+  }
+
+  private static CsrGraph randomGraph(SplittableRandom random, int n, int degree) {
+    int d = Math.min(degree, n);
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * d];
+    int[] row = new int[d];
+    for (int i = 0; i < n; i++) {
+      int filled = 0;
+      while (filled < d) {
+        int c = random.nextInt(n);
+        boolean seen = false;
+        for (int x = 0; x < filled; x++) {
+          seen |= row[x] == c;
+        }
+        if (!seen) {
+          row[filled++] = c;
+        }
+      }
+      Arrays.sort(row);
+      System.arraycopy(row, 0, columns, i * d, d);
+      offsets[i + 1] = (i + 1) * d;
+    }
+    return CsrGraph.of(offsets, columns);
+  }
+
+  private static float[] uniform(SplittableRandom random, int length) {
+    float[] a = new float[length];
+    for (int i = 0; i < length; i++) {
+      a[i] = (float) (2 * random.nextDouble() - 1);
+    }
+    return a;
+  }
+}

@@ -1,0 +1,30 @@
+package dev.heed.bench.roofline;
+
+import java.util.Arrays;
+
+/** Order statistics of small samples; package-private helper. */
+final class Stats {
+
+  private Stats() {}
+
+  /** Returns the median of {@code values} (not modified); NaN when empty. */
+  static double median(double[] values) {
+    return quantile(values, 0.5);
+  }
+
+  /**
+   * Returns the {@code q}-quantile of {@code values} (not modified) with linear interpolation
+   * between order statistics; NaN when empty.
+   */
+  static double quantile(double[] values, double q) {
+    if (values.length == 0) {
+      return Double.NaN;
+    }
+    double[] sorted = values.clone();
+    Arrays.sort(sorted);
+    double pos = q * (sorted.length - 1);
+    int lo = (int) Math.floor(pos);
+    int hi = Math.min(lo + 1, sorted.length - 1);
+    return sorted[lo] + (pos - lo) * (sorted[hi] - sorted[lo]);
+  }
+}

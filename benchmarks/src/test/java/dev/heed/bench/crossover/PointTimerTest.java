@@ -1,0 +1,60 @@
+package dev.heed.bench.crossover;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertThrows;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import java.util.concurrent.atomic.AtomicInteger;
+import org.junit.jupiter.api.Test;
+
+/** The timer's bookkeeping (call counts, order of the statistics); no speed is asserted. */
+class PointTimerTest {
+
+  private static final TimingPolicy POLICY = new TimingPolicy(2, 6, 1.0, 0.5, 5, 2, 1.0);
+
+  @Test
+  void everyCallIsCountedAndTheStatisticsAreOrdered() {
+    AtomicInteger calls = new AtomicInteger();
+    double[] sink = new double[1];
+    TimingResult r =
+        PointTimer.time(
+            () -> {
+              calls.incrementAndGet();
+              for (int i = 0; i < 1000; i++) {
+                sink[0] += Math.sqrt(i);
+              }
+            },
+            POLICY);
+    assertEquals(r.warmupCalls() + r.repetitions(), calls.get());
+    assertTrue(r.warmupCalls() >= POLICY.minWarmupCalls() || !r.stable(), r.toString());
+    assertTrue(r.warmupCalls() <= POLICY.maxWarmupCalls(), r.toString());
+    assertTrue(r.repetitions() >= POLICY.minRepetitions(), r.toString());
+    assertTrue(r.repetitions() <= POLICY.repetitions(), r.toString());
+    assertTrue(r.minNanos() <= r.q1Nanos() && r.q1Nanos() <= r.medianNanos(), r.toString());
+    assertTrue(r.medianNanos() <= r.q3Nanos() && r.q3Nanos() <= r.maxNanos(), r.toString());
+    assertTrue(sink[0] > 0);
+  }
+
+  @Test
+  void aFirstCallOverTheLimitStopsAfterOneCall() {
+    AtomicInteger calls = new AtomicInteger();
+    // any call takes longer than -1 s, so the timer must give up after exactly one call
+    PointTimer.TooSlowException e =
+        assertThrows(
+            PointTimer.TooSlowException.class,
+            () -> PointTimer.time(calls::incrementAndGet, POLICY, -1.0));
+    assertEquals(1, calls.get());
+    assertTrue(e.firstCallNanos() >= 0);
+  }
+
+  @Test
+  void quantilesInterpolateBetweenOrderStatistics() {
+    double[] v = {4, 1, 3, 2};
+    assertEquals(1, PointTimer.quantile(v, 0));
+    assertEquals(2.5, PointTimer.quantile(v, 0.5));
+    assertEquals(4, PointTimer.quantile(v, 1));
+    assertEquals(1.75, PointTimer.quantile(v, 0.25));
+    assertEquals(4, v[0], "input not modified");
+    assertTrue(Double.isNaN(PointTimer.quantile(new double[0], 0.5)));
+  }
+}
