@@ -1,6 +1,9 @@
 package dev.heed.train;
 
 import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.KernelOptions;
 import dev.heed.train.attention.AttentionForward;
 import dev.heed.train.attention.KernelAttentionForward;
 import dev.heed.train.layer.MaskedSoftmaxCrossEntropy;
@@ -57,6 +60,39 @@ public final class FullBatchTrainer {
    */
   public static FullBatchTrainer withKernel(AttentionKernel kernel) {
     return new FullBatchTrainer(new KernelAttentionForward(kernel));
+  }
+
+  /**
+   * A trainer on the production kernel: the sparse (CSR) kernel when {@code
+   * dev.heed:attention-sparse} is on the class path, else the dense (ND4J) kernel, both with {@link
+   * KernelOptions#defaults()}. The choice is logged once per call. Training attention is full-batch
+   * over the whole graph, which is the sparse kernel's case (cost O(E) rather than O(n²)).
+   *
+   * @return the trainer
+   */
+  public static FullBatchTrainer withDefaultKernel() {
+    return withKernel(defaultKernel());
+  }
+
+  /**
+   * Returns the production kernel {@link #withDefaultKernel()} uses.
+   *
+   * @return the sparse kernel if available, else the dense one
+   */
+  public static AttentionKernel defaultKernel() {
+    KernelOptions options = KernelOptions.defaults();
+    try {
+      AttentionKernel kernel = AttentionKernels.forPath(ComputePath.SPARSE, options);
+      LOG.info("training attention: {}", kernel.describe());
+      return kernel;
+    } catch (IllegalStateException e) {
+      AttentionKernel kernel = AttentionKernels.forPath(ComputePath.DENSE, options);
+      LOG.warn(
+          "training attention: no sparse kernel on the class path (add dev.heed:attention-sparse);"
+              + " using {}",
+          kernel.describe());
+      return kernel;
+    }
   }
 
   /**
