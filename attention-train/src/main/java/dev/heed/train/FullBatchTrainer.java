@@ -153,6 +153,7 @@ public final class FullBatchTrainer {
     int[] validationNodes = data.validationNodesShared();
     boolean validating = validationNodes.length > 0;
     int classes = data.classCount();
+    double[] weights = data.classWeightsShared();
     PassContext evaluation = PassContext.evaluation(data.pattern(), attention);
 
     List<Parameter> params = network.parameters();
@@ -171,7 +172,7 @@ public final class FullBatchTrainer {
       PassContext training = PassContext.training(data.pattern(), attention, dropoutRandom);
       double[] logits = network.forward(features, training);
       MaskedSoftmaxCrossEntropy.Result loss =
-          MaskedSoftmaxCrossEntropy.evaluate(logits, classes, labels, trainNodes, true);
+          MaskedSoftmaxCrossEntropy.evaluate(logits, classes, labels, trainNodes, true, weights);
       if (!Double.isFinite(loss.loss())) {
         throw new IllegalStateException(
             "training loss became "
@@ -185,21 +186,28 @@ public final class FullBatchTrainer {
 
       double[] evalLogits = network.forward(features, evaluation);
       MaskedSoftmaxCrossEntropy.Result train =
-          MaskedSoftmaxCrossEntropy.evaluate(evalLogits, classes, labels, trainNodes, false);
+          MaskedSoftmaxCrossEntropy.evaluate(
+              evalLogits, classes, labels, trainNodes, false, weights);
       MaskedSoftmaxCrossEntropy.Result validation =
-          MaskedSoftmaxCrossEntropy.evaluate(evalLogits, classes, labels, validationNodes, false);
+          MaskedSoftmaxCrossEntropy.evaluate(
+              evalLogits, classes, labels, validationNodes, false, weights);
       double seconds = (System.nanoTime() - started) / 1e9;
       double validationLoss = validating ? validation.loss() : Double.NaN;
       EpochProgress progress =
           new EpochProgress(
-              epoch, loss.loss(), train.accuracy(), validation.accuracy(), validationLoss, seconds);
+              epoch,
+              loss.loss(),
+              train.weightedAccuracy(),
+              validation.weightedAccuracy(),
+              validationLoss,
+              seconds);
       LOG.debug("{}", progress);
       listener.onEpoch(progress);
 
       if (!validating) {
         continue;
       }
-      double accuracy = validation.accuracy();
+      double accuracy = validation.weightedAccuracy();
       boolean improved = false;
       if (accuracy > bestAccuracy) {
         bestAccuracy = accuracy;
@@ -228,9 +236,11 @@ public final class FullBatchTrainer {
     }
     double[] finalLogits = network.forward(features, evaluation);
     MaskedSoftmaxCrossEntropy.Result train =
-        MaskedSoftmaxCrossEntropy.evaluate(finalLogits, classes, labels, trainNodes, false);
+        MaskedSoftmaxCrossEntropy.evaluate(
+            finalLogits, classes, labels, trainNodes, false, weights);
     MaskedSoftmaxCrossEntropy.Result validation =
-        MaskedSoftmaxCrossEntropy.evaluate(finalLogits, classes, labels, validationNodes, false);
+        MaskedSoftmaxCrossEntropy.evaluate(
+            finalLogits, classes, labels, validationNodes, false, weights);
     double seconds = (System.nanoTime() - started) / 1e9;
     TrainingReport report =
         new TrainingReport(
@@ -238,9 +248,9 @@ public final class FullBatchTrainer {
             bestEpoch,
             stoppedEarly,
             train.loss(),
-            train.accuracy(),
+            train.weightedAccuracy(),
             validating ? validation.loss() : Double.NaN,
-            validation.accuracy(),
+            validation.weightedAccuracy(),
             seconds);
     LOG.info("training finished: {}", report);
     return report;
