@@ -67,6 +67,7 @@ import picocli.CommandLine.Spec;
  */
 @Command(
     name = "train",
+    mixinStandardHelpOptions = true,
     description =
         "Train a graph-attention node classifier and write a Heed model file (--demo retrains the"
             + " bundled demo model).")
