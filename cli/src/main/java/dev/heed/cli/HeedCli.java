@@ -13,7 +13,7 @@ import picocli.CommandLine.Command;
     mixinStandardHelpOptions = true,
     versionProvider = HeedCli.Version.class,
     description = "Runs attention models over graphs on the CPU.",
-    subcommands = {VerifyCommand.class})
+    subcommands = {VerifyCommand.class, TrainCommand.class})
 public final class HeedCli implements Runnable {
 
   /** Exit code for a user error: a missing file, a bad argument, malformed input. */
