@@ -1,6 +1,9 @@
 package dev.heed.train;
 
 import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.KernelOptions;
 import dev.heed.train.attention.AttentionForward;
 import dev.heed.train.attention.KernelAttentionForward;
 import dev.heed.train.layer.MaskedSoftmaxCrossEntropy;
@@ -57,6 +60,39 @@ public final class FullBatchTrainer {
    */
   public static FullBatchTrainer withKernel(AttentionKernel kernel) {
     return new FullBatchTrainer(new KernelAttentionForward(kernel));
+  }
+
+  /**
+   * A trainer on the production kernel: the sparse (CSR) kernel when {@code
+   * dev.heed:attention-sparse} is on the class path, else the dense (ND4J) kernel, both with {@link
+   * KernelOptions#defaults()}. The choice is logged once per call. Training attention is full-batch
+   * over the whole graph, which is the sparse kernel's case (cost O(E) rather than O(n²)).
+   *
+   * @return the trainer
+   */
+  public static FullBatchTrainer withDefaultKernel() {
+    return withKernel(defaultKernel());
+  }
+
+  /**
+   * Returns the production kernel {@link #withDefaultKernel()} uses.
+   *
+   * @return the sparse kernel if available, else the dense one
+   */
+  public static AttentionKernel defaultKernel() {
+    KernelOptions options = KernelOptions.defaults();
+    try {
+      AttentionKernel kernel = AttentionKernels.forPath(ComputePath.SPARSE, options);
+      LOG.info("training attention: {}", kernel.describe());
+      return kernel;
+    } catch (IllegalStateException e) {
+      AttentionKernel kernel = AttentionKernels.forPath(ComputePath.DENSE, options);
+      LOG.warn(
+          "training attention: no sparse kernel on the class path (add dev.heed:attention-sparse);"
+              + " using {}",
+          kernel.describe());
+      return kernel;
+    }
   }
 
   /**
@@ -117,6 +153,7 @@ public final class FullBatchTrainer {
     int[] validationNodes = data.validationNodesShared();
     boolean validating = validationNodes.length > 0;
     int classes = data.classCount();
+    double[] weights = data.classWeightsShared();
     PassContext evaluation = PassContext.evaluation(data.pattern(), attention);
 
     List<Parameter> params = network.parameters();
@@ -135,7 +172,7 @@ public final class FullBatchTrainer {
       PassContext training = PassContext.training(data.pattern(), attention, dropoutRandom);
       double[] logits = network.forward(features, training);
       MaskedSoftmaxCrossEntropy.Result loss =
-          MaskedSoftmaxCrossEntropy.evaluate(logits, classes, labels, trainNodes, true);
+          MaskedSoftmaxCrossEntropy.evaluate(logits, classes, labels, trainNodes, true, weights);
       if (!Double.isFinite(loss.loss())) {
         throw new IllegalStateException(
             "training loss became "
@@ -149,21 +186,28 @@ public final class FullBatchTrainer {
 
       double[] evalLogits = network.forward(features, evaluation);
       MaskedSoftmaxCrossEntropy.Result train =
-          MaskedSoftmaxCrossEntropy.evaluate(evalLogits, classes, labels, trainNodes, false);
+          MaskedSoftmaxCrossEntropy.evaluate(
+              evalLogits, classes, labels, trainNodes, false, weights);
       MaskedSoftmaxCrossEntropy.Result validation =
-          MaskedSoftmaxCrossEntropy.evaluate(evalLogits, classes, labels, validationNodes, false);
+          MaskedSoftmaxCrossEntropy.evaluate(
+              evalLogits, classes, labels, validationNodes, false, weights);
       double seconds = (System.nanoTime() - started) / 1e9;
       double validationLoss = validating ? validation.loss() : Double.NaN;
       EpochProgress progress =
           new EpochProgress(
-              epoch, loss.loss(), train.accuracy(), validation.accuracy(), validationLoss, seconds);
+              epoch,
+              loss.loss(),
+              train.weightedAccuracy(),
+              validation.weightedAccuracy(),
+              validationLoss,
+              seconds);
       LOG.debug("{}", progress);
       listener.onEpoch(progress);
 
       if (!validating) {
         continue;
       }
-      double accuracy = validation.accuracy();
+      double accuracy = validation.weightedAccuracy();
       boolean improved = false;
       if (accuracy > bestAccuracy) {
         bestAccuracy = accuracy;
@@ -192,9 +236,11 @@ public final class FullBatchTrainer {
     }
     double[] finalLogits = network.forward(features, evaluation);
     MaskedSoftmaxCrossEntropy.Result train =
-        MaskedSoftmaxCrossEntropy.evaluate(finalLogits, classes, labels, trainNodes, false);
+        MaskedSoftmaxCrossEntropy.evaluate(
+            finalLogits, classes, labels, trainNodes, false, weights);
     MaskedSoftmaxCrossEntropy.Result validation =
-        MaskedSoftmaxCrossEntropy.evaluate(finalLogits, classes, labels, validationNodes, false);
+        MaskedSoftmaxCrossEntropy.evaluate(
+            finalLogits, classes, labels, validationNodes, false, weights);
     double seconds = (System.nanoTime() - started) / 1e9;
     TrainingReport report =
         new TrainingReport(
@@ -202,9 +248,9 @@ public final class FullBatchTrainer {
             bestEpoch,
             stoppedEarly,
             train.loss(),
-            train.accuracy(),
+            train.weightedAccuracy(),
             validating ? validation.loss() : Double.NaN,
-            validation.accuracy(),
+            validation.weightedAccuracy(),
             seconds);
     LOG.info("training finished: {}", report);
     return report;

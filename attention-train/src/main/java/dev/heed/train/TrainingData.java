@@ -18,6 +18,7 @@ public final class TrainingData {
   private final int[] labels;
   private final int[] trainingNodes;
   private final int[] validationNodes;
+  private final double[] classWeights;
 
   private TrainingData(
       AttentionPattern pattern,
@@ -26,7 +27,8 @@ public final class TrainingData {
       int classCount,
       int[] labels,
       int[] trainingNodes,
-      int[] validationNodes) {
+      int[] validationNodes,
+      double[] classWeights) {
     this.pattern = pattern;
     this.featureWidth = featureWidth;
     this.features = features;
@@ -34,6 +36,7 @@ public final class TrainingData {
     this.labels = labels;
     this.trainingNodes = trainingNodes;
     this.validationNodes = validationNodes;
+    this.classWeights = classWeights;
   }
 
   /**
@@ -125,7 +128,79 @@ public final class TrainingData {
         classCount,
         labels.clone(),
         trainingNodes.clone(),
-        validationNodes.clone());
+        validationNodes.clone(),
+        null);
+  }
+
+  /**
+   * Returns the same data with class weights on the loss: each labelled node counts with its
+   * class's weight in the training loss, the validation loss and the validation accuracy that early
+   * stopping watches (see {@link dev.heed.train.layer.MaskedSoftmaxCrossEntropy}). For imbalanced
+   * classes (common practice).
+   *
+   * @param weights input, not modified: one positive finite weight per class, or null for none
+   * @return the data with the weights
+   * @throws IllegalArgumentException if the count or a weight is wrong
+   */
+  public TrainingData withClassWeights(double[] weights) {
+    if (weights != null) {
+      if (weights.length != classCount) {
+        throw new IllegalArgumentException(
+            "class weights must have one weight per class ("
+                + classCount
+                + "), got "
+                + weights.length);
+      }
+      for (int c = 0; c < classCount; c++) {
+        if (!(weights[c] > 0) || !Double.isFinite(weights[c])) {
+          throw new IllegalArgumentException(
+              "class weight " + c + " is " + weights[c] + "; weights must be positive and finite");
+        }
+      }
+    }
+    return new TrainingData(
+        pattern,
+        featureWidth,
+        features,
+        classCount,
+        labels,
+        trainingNodes,
+        validationNodes,
+        weights == null ? null : weights.clone());
+  }
+
+  /**
+   * Returns the same data with inverse-frequency class weights from the training nodes: {@code w_c
+   * = |training| / (classes · count_c)}, so every class weighs the same in total and the weighted
+   * accuracy is the balanced accuracy (the mean per-class recall). A class with no training node
+   * gets weight 1.
+   *
+   * @return the data with balanced weights
+   */
+  public TrainingData withBalancedClassWeights() {
+    int[] counts = new int[classCount];
+    for (int node : trainingNodes) {
+      counts[labels[node]]++;
+    }
+    double[] weights = new double[classCount];
+    for (int c = 0; c < classCount; c++) {
+      weights[c] =
+          counts[c] == 0 ? 1.0 : (double) trainingNodes.length / ((double) classCount * counts[c]);
+    }
+    return withClassWeights(weights);
+  }
+
+  /**
+   * Returns the class weights.
+   *
+   * @return a copy, or null when every node counts 1
+   */
+  public double[] classWeights() {
+    return classWeights == null ? null : classWeights.clone();
+  }
+
+  double[] classWeightsShared() {
+    return classWeights;
   }
 
   private static void checkNodes(String name, int[] nodes, int[] labels, boolean[] seen) {

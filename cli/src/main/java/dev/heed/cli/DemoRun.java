@@ -86,7 +86,7 @@ final class DemoRun {
             modelName,
             files.transfers(),
             files.features(),
-            GraphFileOptions.defaults(),
+            GraphFileOptions.demo(),
             threads);
     ClassifyCommand.warnIfDenseIsCostly(path, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();

@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import dev.heed.demo.DemoGraph;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.EdgeListFileBuilder;
@@ -14,8 +15,8 @@ import picocli.CommandLine.Option;
 
 /**
  * How {@code heed classify} reads an edge-list file into a graph. The defaults are the demo's
- * policy: transfers {@code source -> target}, made undirected (symmetrised), a self-loop added to
- * every node, repeated edges merged.
+ * policy ({@link DemoGraph}): edges {@code source -> target}, made undirected (symmetrised), a
+ * self-loop added to every node, repeated edges merged.
  */
 final class GraphFileOptions {
 
@@ -86,14 +87,16 @@ final class GraphFileOptions {
               + " ${DEFAULT-VALUE}.")
   String duplicates;
 
-  /** The demo's options: all defaults. */
-  static GraphFileOptions defaults() {
+  /**
+   * The demo's options: the policy of {@link DemoGraph}, the graph the demo model was trained on.
+   */
+  static GraphFileOptions demo() {
     GraphFileOptions o = new GraphFileOptions();
     o.delimiter = "auto";
     o.edgeHeader = "auto";
-    o.direction = "symmetrise";
-    o.selfLoops = "add";
-    o.duplicates = "merge";
+    o.direction = DemoGraph.DIRECTION == DirectionPolicy.SYMMETRISE ? "symmetrise" : "keep";
+    o.selfLoops = DemoGraph.SELF_LOOPS == SelfLoopPolicy.ADD ? "add" : "as-given";
+    o.duplicates = DemoGraph.DUPLICATES == DuplicatePolicy.MERGE ? "merge" : "reject";
     return o;
   }
 

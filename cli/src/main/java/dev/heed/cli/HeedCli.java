@@ -16,6 +16,7 @@ import picocli.CommandLine.Command;
     subcommands = {
       ClassifyCommand.class,
       InspectCommand.class,
+      TrainCommand.class,
       VerifyCommand.class,
       BenchCommand.class
     })

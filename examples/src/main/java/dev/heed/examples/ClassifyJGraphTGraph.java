@@ -118,6 +118,7 @@ public final class ClassifyJGraphTGraph {
         JGraphTGraphBuilder.from(graph)
             .selfLoops(PaymentsGraphs.SELF_LOOPS)
             .direction(PaymentsGraphs.DIRECTION)
+            .duplicates(PaymentsGraphs.DUPLICATES)
             .build();
     NodeIndex<V> index = indexed.nodes();
 

@@ -1,10 +1,11 @@
 package dev.heed.examples;
 
 import dev.heed.classify.NodeFeatures;
+import dev.heed.demo.DemoGraph;
 import dev.heed.demo.PaymentsNetwork;
 import dev.heed.graph.CsrGraph;
-import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.DirectionPolicy;
+import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.IndexedGraph;
 import dev.heed.graph.NodeIndex;
 import dev.heed.graph.SelfLoopPolicy;
@@ -21,22 +22,22 @@ import org.jgrapht.graph.DefaultEdge;
  * start from: a JGraphT graph with features keyed by account id, or a Heed graph with its node
  * index.
  *
- * <p>Graph convention used by both: every transfer ties its two accounts in both directions ({@link
- * DirectionPolicy#SYMMETRISE}: money in and money out both say something about an account), every
- * account also attends to itself ({@link SelfLoopPolicy#ADD}, the GAT convention), and repeated
- * transfers between two accounts count once. A model must be run on the graph convention it was
- * trained with; when the {@code demo} module publishes its own helper that builds the demo graph,
- * use that instead.
+ * <p>Graph convention used by both: the demo model's own, {@link DemoGraph} (every transfer ties
+ * its two accounts in both directions, every account also attends to itself, repeated transfers
+ * count once). A model must be run on the graph convention it was trained with.
  *
  * <p>Thread safety: stateless.
  */
 public final class PaymentsGraphs {
 
-  /** Self-loop policy of the examples' payments graphs. */
-  public static final SelfLoopPolicy SELF_LOOPS = SelfLoopPolicy.ADD;
+  /** Self-loop policy of the examples' payments graphs: the demo model's. */
+  public static final SelfLoopPolicy SELF_LOOPS = DemoGraph.SELF_LOOPS;
 
-  /** Direction policy of the examples' payments graphs. */
-  public static final DirectionPolicy DIRECTION = DirectionPolicy.SYMMETRISE;
+  /** Direction policy of the examples' payments graphs: the demo model's. */
+  public static final DirectionPolicy DIRECTION = DemoGraph.DIRECTION;
+
+  /** Duplicate policy of the examples' payments graphs: the demo model's. */
+  public static final DuplicatePolicy DUPLICATES = DemoGraph.DUPLICATES;
 
   private PaymentsGraphs() {}
 
@@ -94,12 +95,7 @@ public final class PaymentsGraphs {
    */
   public static IndexedGraph<String> toIndexedGraph(PaymentsNetwork network) {
     Objects.requireNonNull(network, "network");
-    CsrGraph graph =
-        CsrGraphBuilder.fromEdges(
-                network.transferSources(), network.transferTargets(), network.accountCount())
-            .selfLoops(SELF_LOOPS)
-            .direction(DIRECTION)
-            .build();
+    CsrGraph graph = DemoGraph.build(network);
     String[] ids = new String[network.accountCount()];
     for (int a = 0; a < ids.length; a++) {
       ids[a] = network.accountId(a);

@@ -5,7 +5,9 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.heed.attention.ReferenceAttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.KernelOptions;
 import dev.heed.train.EpochProgress;
 import dev.heed.train.FullBatchTrainer;
 import dev.heed.train.TrainingData;
@@ -45,7 +47,9 @@ class ContextualBlockModelTest {
   private static TrainingData data;
   private static int[] testNodes;
   private static final KernelAttentionForward ATTENTION =
-      new KernelAttentionForward(new ReferenceAttentionKernel());
+      new KernelAttentionForward(
+          // the production kernel (sparse CSR; vector when the test JVM adds the Vector API)
+          AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults()));
 
   @BeforeAll
   static void generate() {

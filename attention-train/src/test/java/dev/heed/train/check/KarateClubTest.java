@@ -3,7 +3,9 @@ package dev.heed.train.check;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.heed.attention.ReferenceAttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.KernelOptions;
 import dev.heed.graph.CsrGraph;
 import dev.heed.train.FullBatchTrainer;
 import dev.heed.train.TrainingData;
@@ -183,7 +185,10 @@ class KarateClubTest {
     TrainingNetwork network = karateGat();
     TrainingSettings settings =
         TrainingSettings.builder().learningRate(0.01).maxEpochs(200).seed(seed).build();
-    KernelAttentionForward attention = new KernelAttentionForward(new ReferenceAttentionKernel());
+    KernelAttentionForward attention =
+        new KernelAttentionForward(
+            // the production kernel (sparse CSR; vector when the test JVM adds the Vector API)
+            AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults()));
     TrainingReport report =
         FullBatchTrainer.withForward(attention)
             .train(network, data, settings, TrainingListener.NONE);
