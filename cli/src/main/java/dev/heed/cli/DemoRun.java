@@ -251,7 +251,11 @@ final class DemoRun {
     for (Layer layer : model.layers()) {
       parts.add(
           layer.kind()
-              + (layer.attentionHeads() > 0 ? " (" + layer.attentionHeads() + " heads)" : ""));
+              + (layer.attentionHeads() > 0
+                  ? " ("
+                      + layer.attentionHeads()
+                      + (layer.attentionHeads() == 1 ? " head)" : " heads)")
+                  : ""));
     }
     return String.join(" -> ", parts);
   }
