@@ -121,11 +121,13 @@ public interface RowMath {
   int ALL_HEADS = 8;
 
   /**
-   * Returns whether this implementation serves the all-heads methods ({@link
-   * #additiveScoresAllHeads}, {@link #softmaxAccumulateAllHeads}); the vector one does only where
-   * its vectors hold exactly {@link #ALL_HEADS} floats.
+   * Returns whether the kernel takes the all-heads path ({@link #additiveScoresAllHeads}, {@link
+   * #softmaxAccumulateAllHeads}) with this implementation: the vector one does where its vectors
+   * hold exactly {@link #ALL_HEADS} floats, the scalar one never (its all-heads methods are the
+   * bit-for-bit reference for the vector ones, and slower than its per-head loops). The all-heads
+   * methods work in either case.
    *
-   * @return true if the all-heads methods may be called
+   * @return true if the kernel should take the all-heads path
    */
   boolean servesAllHeads();
 
