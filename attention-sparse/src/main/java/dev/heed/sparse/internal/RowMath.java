@@ -134,7 +134,7 @@ public interface RowMath {
   /**
    * Writes the additive (GAT) scores of all {@link #ALL_HEADS} heads of a block of entries,
    * edge-major: {@code s[t·8 + h] = LeakyReLU(q[qOffset + h] + keys[t·8 + h])} for {@code t <
-   * count} (Veličković et al. 2018, eq. 1 with the concatenation split into query and key terms),
+   * count} (Veličković et al. 2018, eq. 3, with the concatenation split into query and key terms),
    * computed as {@code max(z, z · negativeSlope)}.
    *
    * @param q input, not modified: the target's query terms
