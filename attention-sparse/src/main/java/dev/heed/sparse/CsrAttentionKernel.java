@@ -44,12 +44,22 @@ final class CsrAttentionKernel implements AttentionKernel {
   private final int threads;
   private final RowMath math;
   private final long minCostPerThread;
+  private final boolean allHeadsAllowed;
 
   CsrAttentionKernel(int threads, RowMath math, long minCostPerThread) {
+    this(threads, math, minCostPerThread, RowMaths.allHeadsEnabled());
+  }
+
+  /**
+   * Creates the kernel; {@code allHeadsAllowed = false} keeps every shape on the per-head path
+   * (tests and A/B comparisons).
+   */
+  CsrAttentionKernel(int threads, RowMath math, long minCostPerThread, boolean allHeadsAllowed) {
     assert threads >= 1 && minCostPerThread >= 1;
     this.threads = threads;
     this.math = math;
     this.minCostPerThread = minCostPerThread;
+    this.allHeadsAllowed = allHeadsAllowed;
   }
 
   /** Creates the kernel on the implementation chosen for this JVM. */
@@ -87,7 +97,9 @@ final class CsrAttentionKernel implements AttentionKernel {
     if (n == 0) {
       return;
     }
-    CsrRowPass pass = new CsrRowPass(math, pattern, score, shape, query, key, value, out, weights);
+    CsrRowPass pass =
+        new CsrRowPass(
+            math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed);
     long cost = pattern.entryCount() + n;
     int useThreads = (int) Math.min(Math.min(threads, n), Math.max(1, cost / minCostPerThread));
     if (useThreads == 1) {

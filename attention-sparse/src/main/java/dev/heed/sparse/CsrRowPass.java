@@ -21,6 +21,13 @@ import java.util.Arrays;
  * No array of E×H scores is ever formed unless the caller asks for weights. The arithmetic of a row
  * depends only on that row, so results do not depend on how rows are split between threads.
  *
+ * <p>For additive (GAT) scores with {@link RowMath#ALL_HEADS} heads of {@link RowMath#ALL_HEADS}
+ * value floats (one 256-byte value row per node), the block is instead processed with all heads at
+ * once: scores edge-major (one vector per entry), one running maximum and sum vector, and one pass
+ * over the block's value rows that reads each row once ({@link RowMath#additiveScoresAllHeads},
+ * {@link RowMath#softmaxAccumulateAllHeads}). The general path reads the block's value rows once
+ * per head.
+ *
  * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
  * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
  * softmax.
@@ -54,6 +61,7 @@ final class CsrRowPass {
   private final float[] value;
   private final float[] out;
   private final float[] weights;
+  private final boolean allHeads;
 
   CsrRowPass(
       RowMath math,
@@ -64,7 +72,8 @@ final class CsrRowPass {
       float[] key,
       float[] value,
       float[] out,
-      float[] weights) {
+      float[] weights,
+      boolean allHeadsAllowed) {
     this.math = math;
     this.csr = pattern instanceof CsrGraph g ? g : null;
     assert csr != null || pattern instanceof CompletePattern;
@@ -95,6 +104,17 @@ final class CsrRowPass {
     this.value = value;
     this.out = out;
     this.weights = weights;
+    this.allHeads =
+        allHeadsAllowed
+            && kind == ADDITIVE
+            && heads == RowMath.ALL_HEADS
+            && valueDim == RowMath.ALL_HEADS
+            && math.servesAllHeads();
+  }
+
+  /** Returns whether rows take the all-heads path (see the class comment). */
+  boolean allHeads() {
+    return allHeads;
   }
 
   /** Per-thread work arrays, sized once per call. */
@@ -105,8 +125,10 @@ final class CsrRowPass {
     final float[] sum;
     final int[] rowBase;
     final float[] keys;
+    final float[] work;
 
     Scratch(int heads, int keyWidth, int valueWidth) {
+      work = new float[RowMath.ALL_HEADS];
       rowBase = new int[BLOCK];
       keys = new float[BLOCK * keyWidth];
       scores = new float[BLOCK * heads];
@@ -135,14 +157,41 @@ final class CsrRowPass {
       Arrays.fill(out, outBase, outBase + valueWidth, 0f);
       return;
     }
+    Arrays.fill(sc.acc, 0f);
+    Arrays.fill(sc.max, Float.NEGATIVE_INFINITY);
+    Arrays.fill(sc.sum, 0f);
+    long firstEntry = csr == null ? (long) i * n : start;
+    if (allHeads) {
+      allHeadsBlocks(i, start, degree, firstEntry, sc);
+    } else {
+      perHeadBlocks(i, start, degree, firstEntry, sc);
+    }
+    float[] acc = sc.acc;
+    float[] m = sc.max;
+    float[] l = sc.sum;
+    for (int h = 0; h < heads; h++) {
+      float total = l[h];
+      assert total >= 1f : "the row maximum contributes exactly 1";
+      for (int k = h * valueDim, end = k + valueDim; k < end; k++) {
+        out[outBase + k] = acc[k] / total;
+      }
+    }
+    if (weights != null) {
+      for (int t = 0; t < degree; t++) {
+        int w = (int) ((firstEntry + t) * heads);
+        for (int h = 0; h < heads; h++) {
+          weights[w + h] = FastExp.expNonPositive(weights[w + h] - m[h]) / l[h];
+        }
+      }
+    }
+  }
+
+  /** The blocks of row i on the per-head path: any score and shape. */
+  private void perHeadBlocks(int i, int start, int degree, long firstEntry, Scratch sc) {
     float[] s = sc.scores;
     float[] acc = sc.acc;
     float[] m = sc.max;
     float[] l = sc.sum;
-    Arrays.fill(acc, 0f);
-    Arrays.fill(m, Float.NEGATIVE_INFINITY);
-    Arrays.fill(l, 0f);
-    long firstEntry = csr == null ? (long) i * n : start;
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
       scoreBlock(i, start + b, count, sc);
@@ -177,20 +226,33 @@ final class CsrRowPass {
             s, h * BLOCK, rowBase, count, h * valueDim, value, acc, h * valueDim, valueDim);
       }
     }
-    for (int h = 0; h < heads; h++) {
-      float total = l[h];
-      assert total >= 1f : "the row maximum contributes exactly 1";
-      for (int k = h * valueDim, end = k + valueDim; k < end; k++) {
-        out[outBase + k] = acc[k] / total;
-      }
-    }
-    if (weights != null) {
-      for (int t = 0; t < degree; t++) {
-        int w = (int) ((firstEntry + t) * heads);
-        for (int h = 0; h < heads; h++) {
-          weights[w + h] = FastExp.expNonPositive(weights[w + h] - m[h]) / l[h];
+  }
+
+  /** The blocks of row i on the all-heads path: additive scores, 8 heads of 8 value floats. */
+  private void allHeadsBlocks(int i, int start, int degree, long firstEntry, Scratch sc) {
+    float[] s = sc.scores;
+    int[] rowBase = sc.rowBase;
+    int qb = i * keyWidth;
+    for (int b = 0; b < degree; b += BLOCK) {
+      int count = Math.min(BLOCK, degree - b);
+      float[] gathered = gatherKeys(start + b, count, sc);
+      if (!math.additiveScoresAllHeads(query, qb, gathered, count, slope, s)) {
+        for (int t = 0; t < count; t++) {
+          for (int h = 0; h < heads; h++) {
+            if (!Float.isFinite(s[t * heads + h])) {
+              s[t * heads + h] = exactScore(i, column(start + b + t), h);
+            }
+          }
         }
       }
+      if (weights != null) {
+        // the scratch is edge-major, like the weights array
+        System.arraycopy(s, 0, weights, (int) ((firstEntry + b) * heads), count * heads);
+      }
+      for (int t = 0; t < count; t++) {
+        rowBase[t] = column(start + b + t) * valueWidth;
+      }
+      math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, value, sc.acc, sc.work);
     }
   }
 

@@ -23,6 +23,13 @@ final class RowMaths {
    */
   static final String VECTOR_PROPERTY = "heed.sparse.vector";
 
+  /**
+   * System property that, set to {@code false}, keeps every shape on the per-head path, switching
+   * off the all-heads path for additive scores with 8 heads of 8 value floats (for A/B
+   * comparisons). Read once, on first use.
+   */
+  static final String ALL_HEADS_PROPERTY = "heed.sparse.allHeads";
+
   private static final String VECTOR_MODULE = "jdk.incubator.vector";
   private static final String VECTOR_CLASS = "dev.heed.sparse.simd.VectorRowMath";
   private static final Logger LOG = LoggerFactory.getLogger(RowMaths.class);
@@ -37,6 +44,16 @@ final class RowMaths {
   /** Returns the scalar implementation, whatever was chosen (tests and comparisons). */
   static RowMath scalar() {
     return ScalarRowMath.INSTANCE;
+  }
+
+  /** Returns false if {@value #ALL_HEADS_PROPERTY} was set to {@code false} before first use. */
+  static boolean allHeadsEnabled() {
+    return AllHeadsHolder.ENABLED;
+  }
+
+  private static final class AllHeadsHolder {
+    static final boolean ENABLED =
+        !"false".equalsIgnoreCase(System.getProperty(ALL_HEADS_PROPERTY));
   }
 
   private static final class Holder {

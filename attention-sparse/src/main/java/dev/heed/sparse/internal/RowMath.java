@@ -112,4 +112,68 @@ public interface RowMath {
    * @param factor the factor
    */
   void scale(float[] y, int offset, int length, float factor);
+
+  /**
+   * The head count and per-head value width that the all-heads methods serve: {@value}. With
+   * additive (GAT) scores the 8 key terms of a node are one 256-bit vector and its 64 value floats
+   * one 256-byte row of 8 vectors, one per head.
+   */
+  int ALL_HEADS = 8;
+
+  /**
+   * Returns whether the kernel takes the all-heads path ({@link #additiveScoresAllHeads}, {@link
+   * #softmaxAccumulateAllHeads}) with this implementation: the vector one does where its vectors
+   * hold exactly {@link #ALL_HEADS} floats, the scalar one never (its all-heads methods are the
+   * bit-for-bit reference for the vector ones, and slower than its per-head loops). The all-heads
+   * methods work in either case.
+   *
+   * @return true if the kernel should take the all-heads path
+   */
+  boolean servesAllHeads();
+
+  /**
+   * Writes the additive (GAT) scores of all {@link #ALL_HEADS} heads of a block of entries,
+   * edge-major: {@code s[t·8 + h] = LeakyReLU(q[qOffset + h] + keys[t·8 + h])} for {@code t <
+   * count} (Veličković et al. 2018, eq. 3, with the concatenation split into query and key terms),
+   * computed as {@code max(z, z · negativeSlope)}.
+   *
+   * @param q input, not modified: the target's query terms
+   * @param qOffset offset of head 0's term in {@code q}
+   * @param keys input, not modified: the block's key rows, row t at {@code t · 8}
+   * @param count number of entries, at least 1
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @param s output: {@code count · 8} scores
+   * @return true if every score is finite; if false, the caller recomputes the non-finite ones
+   */
+  boolean additiveScoresAllHeads(
+      float[] q, int qOffset, float[] keys, int count, float negativeSlope, float[] s);
+
+  /**
+   * One block of the online softmax and weighted sum for {@link #ALL_HEADS} heads of {@link
+   * #ALL_HEADS} value floats each, all heads at once (Milakov &amp; Gimelshein 2018, applied per
+   * block): per head, the new maximum is {@code max(max[h], max_t s[t·8+h])}; {@code sum[h]} and
+   * the head's accumulator span are multiplied by {@code exp(oldMax - newMax)} (0 when the old
+   * maximum is {@code -Infinity}); then each score is replaced by {@code p = exp(s - newMax)},
+   * {@code sum[h] += p} in order of t, and {@code acc[h·8 + x] = fma(p, value[rowBase[t] + h·8 +
+   * x], acc[h·8 + x])} in order of t. Both implementations do exactly these operations, so their
+   * results are bit-identical.
+   *
+   * @param s input and output: {@code count · 8} finite scores in, unnormalised weights out
+   * @param count number of entries, at least 1
+   * @param max input and output: the 8 running maxima
+   * @param sum input and output: the 8 running sums
+   * @param rowBase input, not modified: the start of each entry's 64-float value row
+   * @param value input, not modified: the value rows
+   * @param acc input and output: the 64-float accumulator
+   * @param work work array of at least 8 floats, contents ignored
+   */
+  void softmaxAccumulateAllHeads(
+      float[] s,
+      int count,
+      float[] max,
+      float[] sum,
+      int[] rowBase,
+      float[] value,
+      float[] acc,
+      float[] work);
 }

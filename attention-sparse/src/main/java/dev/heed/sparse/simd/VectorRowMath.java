@@ -241,4 +241,121 @@ public final class VectorRowMath implements RowMath {
       y[offset + k] *= factor;
     }
   }
+
+  @Override
+  public boolean servesAllHeads() {
+    return WIDE_LANES == ALL_HEADS;
+  }
+
+  @Override
+  public boolean additiveScoresAllHeads(
+      float[] q, int qOffset, float[] keys, int count, float negativeSlope, float[] s) {
+    assert WIDE_LANES == ALL_HEADS;
+    FloatVector query = FloatVector.fromArray(WIDE, q, qOffset);
+    // e · 0 is 0 for finite e and NaN for infinite or NaN e, so one NaN lane marks a bad score
+    FloatVector check = FloatVector.zero(WIDE);
+    for (int t = 0; t < count; t++) {
+      FloatVector z = query.add(FloatVector.fromArray(WIDE, keys, t * ALL_HEADS));
+      FloatVector e = z.max(z.mul(negativeSlope));
+      e.intoArray(s, t * ALL_HEADS);
+      check = check.add(e.mul(0f));
+    }
+    return check.eq(check).allTrue();
+  }
+
+  @Override
+  public void softmaxAccumulateAllHeads(
+      float[] s,
+      int count,
+      float[] max,
+      float[] sum,
+      int[] rowBase,
+      float[] value,
+      float[] acc,
+      float[] work) {
+    assert WIDE_LANES == ALL_HEADS;
+    FloatVector blockMax = FloatVector.fromArray(WIDE, s, 0);
+    for (int t = 1; t < count; t++) {
+      blockMax = blockMax.max(FloatVector.fromArray(WIDE, s, t * ALL_HEADS));
+    }
+    FloatVector oldMax = FloatVector.fromArray(WIDE, max, 0);
+    FloatVector newMax = oldMax.max(blockMax);
+    newMax.intoArray(max, 0);
+    FloatVector minusLn2Hi = FloatVector.broadcast(WIDE, -FastExp.LN2_HI);
+    FloatVector minusLn2Lo = FloatVector.broadcast(WIDE, -FastExp.LN2_LO);
+    FloatVector c0 = FloatVector.broadcast(WIDE, FastExp.P0);
+    FloatVector c1 = FloatVector.broadcast(WIDE, FastExp.P1);
+    FloatVector c2 = FloatVector.broadcast(WIDE, FastExp.P2);
+    FloatVector c3 = FloatVector.broadcast(WIDE, FastExp.P3);
+    FloatVector c4 = FloatVector.broadcast(WIDE, FastExp.P4);
+    FloatVector c5 = FloatVector.broadcast(WIDE, FastExp.P5);
+    // t = -1 rescales by exp(oldMax - newMax), t >= 0 exponentiates the block's scores: FastExp
+    // lane by lane, same operations in the same order as the scalar form, written once, inline
+    // (a vector passed to a helper that C2 does not inline is boxed; measured: slow)
+    FloatVector l = FloatVector.fromArray(WIDE, sum, 0);
+    for (int t = -1; t < count; t++) {
+      FloatVector x =
+          t < 0 ? oldMax.sub(newMax) : FloatVector.fromArray(WIDE, s, t * ALL_HEADS).sub(newMax);
+      FloatVector xc = x.max(FastExp.LOWEST_ARGUMENT);
+      FloatVector shifted = xc.mul(FastExp.LOG2E).add(FastExp.ROUNDING_MAGIC);
+      FloatVector n = shifted.sub(FastExp.ROUNDING_MAGIC);
+      FloatVector r = n.fma(minusLn2Hi, xc);
+      r = n.fma(minusLn2Lo, r);
+      FloatVector p = c0.fma(r, c1);
+      p = p.fma(r, c2);
+      p = p.fma(r, c3);
+      p = p.fma(r, c4);
+      p = p.fma(r, c5);
+      p = p.fma(r.mul(r), r).add(1f);
+      FloatVector scale =
+          ((IntVector) shifted.reinterpretAsInts())
+              .add(FastExp.EXPONENT_BIAS_FROM_MAGIC)
+              .lanewise(VectorOperators.LSHL, 23)
+              .reinterpretAsFloats();
+      p = p.mul(scale).blend(0f, x.lt(FastExp.LOWEST_ARGUMENT));
+      if (t < 0) {
+        l = l.mul(p);
+        p.intoArray(work, 0);
+      } else {
+        p.intoArray(s, t * ALL_HEADS);
+        l = l.add(p);
+      }
+    }
+    l.intoArray(sum, 0);
+    // with 8 heads of 8 floats, each 256-bit value vector is exactly one head: broadcast its weight
+    FloatVector a0 = FloatVector.fromArray(WIDE, acc, 0).mul(work[0]);
+    FloatVector a1 = FloatVector.fromArray(WIDE, acc, 8).mul(work[1]);
+    FloatVector a2 = FloatVector.fromArray(WIDE, acc, 16).mul(work[2]);
+    FloatVector a3 = FloatVector.fromArray(WIDE, acc, 24).mul(work[3]);
+    FloatVector a4 = FloatVector.fromArray(WIDE, acc, 32).mul(work[4]);
+    FloatVector a5 = FloatVector.fromArray(WIDE, acc, 40).mul(work[5]);
+    FloatVector a6 = FloatVector.fromArray(WIDE, acc, 48).mul(work[6]);
+    FloatVector a7 = FloatVector.fromArray(WIDE, acc, 56).mul(work[7]);
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int w = t * ALL_HEADS;
+      a0 = FloatVector.fromArray(WIDE, value, r).fma(FloatVector.broadcast(WIDE, s[w]), a0);
+      a1 = FloatVector.fromArray(WIDE, value, r + 8).fma(FloatVector.broadcast(WIDE, s[w + 1]), a1);
+      a2 =
+          FloatVector.fromArray(WIDE, value, r + 16).fma(FloatVector.broadcast(WIDE, s[w + 2]), a2);
+      a3 =
+          FloatVector.fromArray(WIDE, value, r + 24).fma(FloatVector.broadcast(WIDE, s[w + 3]), a3);
+      a4 =
+          FloatVector.fromArray(WIDE, value, r + 32).fma(FloatVector.broadcast(WIDE, s[w + 4]), a4);
+      a5 =
+          FloatVector.fromArray(WIDE, value, r + 40).fma(FloatVector.broadcast(WIDE, s[w + 5]), a5);
+      a6 =
+          FloatVector.fromArray(WIDE, value, r + 48).fma(FloatVector.broadcast(WIDE, s[w + 6]), a6);
+      a7 =
+          FloatVector.fromArray(WIDE, value, r + 56).fma(FloatVector.broadcast(WIDE, s[w + 7]), a7);
+    }
+    a0.intoArray(acc, 0);
+    a1.intoArray(acc, 8);
+    a2.intoArray(acc, 16);
+    a3.intoArray(acc, 24);
+    a4.intoArray(acc, 32);
+    a5.intoArray(acc, 40);
+    a6.intoArray(acc, 48);
+    a7.intoArray(acc, 56);
+  }
 }

@@ -1,0 +1,266 @@
+package dev.heed.sparse;
+
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+import static org.junit.jupiter.api.Assumptions.assumeTrue;
+
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.ReferenceAttention;
+import dev.heed.attention.ScoreFunction;
+import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CompletePattern;
+import dev.heed.graph.CsrGraph;
+import dev.heed.sparse.internal.RowMath;
+import java.util.Arrays;
+import java.util.List;
+import java.util.Random;
+import org.junit.jupiter.api.Test;
+
+/**
+ * The all-heads path (additive scores, 8 heads of 8 value floats): it is really taken, matches the
+ * float64 reference (Veličković et al. 2018, eqs. 1-4), gives identical bits for 1 to 3 threads,
+ * agrees with the per-head path, and its vector methods equal the scalar reference forms bit for
+ * bit.
+ */
+class CsrAllHeadsPathTest {
+
+  private static final HeadShape SHAPE = new HeadShape(8, 1, 8);
+  private static final ScoreFunction GAT = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+
+  /** Rows of 0 to 20 distinct sources, plus rows longer than one block (up to 2.5 blocks). */
+  private static CsrGraph graph(Random random, int n) {
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * (CsrRowPass.BLOCK * 3)];
+    int e = 0;
+    for (int i = 0; i < n; i++) {
+      int degree =
+          i % 17 == 5
+              ? CsrRowPass.BLOCK + random.nextInt(CsrRowPass.BLOCK * 3 / 2)
+              : random.nextInt(21);
+      int[] row = random.ints(0, n).distinct().limit(Math.min(degree, n)).sorted().toArray();
+      System.arraycopy(row, 0, columns, e, row.length);
+      e += row.length;
+      offsets[i + 1] = e;
+    }
+    return CsrGraph.of(offsets, Arrays.copyOf(columns, e));
+  }
+
+  private record Run(float[] out, float[] weights) {}
+
+  private static Run run(
+      AttentionPattern pattern,
+      RowMath math,
+      int threads,
+      boolean allHeads,
+      float[] q,
+      float[] k,
+      float[] v) {
+    float[] out = new float[pattern.nodeCount() * SHAPE.valueWidth()];
+    float[] weights = new float[Math.toIntExact(pattern.entryCount() * SHAPE.heads())];
+    new CsrAttentionKernel(threads, math, 1, allHeads)
+        .attend(pattern, GAT, SHAPE, q, k, v, out, weights);
+    return new Run(out, weights);
+  }
+
+  @Test
+  void pathIsTakenOnlyForItsShape() {
+    float[] none = new float[0];
+    CompletePattern p = CompletePattern.of(2);
+    assertFalse(
+        new CsrRowPass(RowMaths.scalar(), p, GAT, SHAPE, none, none, none, none, null, true)
+            .allHeads(),
+        "the scalar loops are slower on the all-heads path");
+    RowMath vector = RowMaths.preferred();
+    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    for (RowMath math : List.of(vector)) {
+      assertTrue(
+          new CsrRowPass(math, p, GAT, SHAPE, none, none, none, none, null, true).allHeads());
+      assertFalse(
+          new CsrRowPass(math, p, GAT, SHAPE, none, none, none, none, null, false).allHeads());
+      assertFalse(
+          new CsrRowPass(math, p, GAT, new HeadShape(8, 1, 4), none, none, none, none, null, true)
+              .allHeads());
+      assertFalse(
+          new CsrRowPass(
+                  math,
+                  p,
+                  ScoreFunction.scaledDotProduct(),
+                  new HeadShape(8, 8, 8),
+                  none,
+                  none,
+                  none,
+                  none,
+                  null,
+                  true)
+              .allHeads());
+    }
+  }
+
+  @Test
+  void matchesReferenceAndIsBitIdenticalAcrossThreads() {
+    long seed = 0xA11E4DL;
+    Random random = new Random(seed);
+    int n = 700;
+    CsrGraph graph = graph(random, n);
+    // scores of a few units: the softmax maxima move between blocks, so rescaling is exercised
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    ReferenceAttention.Result want = ReferenceAttention.attend(graph, GAT, SHAPE, q, k, v);
+    RowMath vector = RowMaths.preferred();
+    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    Run first = null;
+    for (RowMath math : List.of(vector)) {
+      String where = math.describe() + ", seed=" + seed;
+      Run perHead = run(graph, RowMaths.scalar(), 1, false, q, k, v);
+      for (int threads = 1; threads <= 3; threads++) {
+        Run got = run(graph, math, threads, true, q, k, v);
+        if (first == null) {
+          first = got;
+          double error = ReferenceAttention.relativeError(want.out(), got.out());
+          assertTrue(error < 1e-5, where + ": out relative error " + error);
+          double weightError = ReferenceAttention.relativeError(want.weights(), got.weights());
+          assertTrue(weightError < 1e-5, where + ": weights relative error " + weightError);
+        } else {
+          // the same operations in the same order for every thread count
+          assertArrayEquals(first.out(), got.out(), where + ", " + threads + " threads");
+          assertArrayEquals(first.weights(), got.weights(), where + ", " + threads + " threads");
+        }
+      }
+      double apart = relativeError(perHead.out(), first.out());
+      assertTrue(apart < 1e-5, where + ": per-head and all-heads paths differ by " + apart);
+    }
+  }
+
+  @Test
+  void completePatternMatchesReference() {
+    long seed = 0xA11E4EL;
+    Random random = new Random(seed);
+    int n = 300; // rows of 300 entries: two full blocks and a partial one
+    CompletePattern pattern = CompletePattern.of(n);
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -3f, 3f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -3f, 3f);
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    ReferenceAttention.Result want = ReferenceAttention.attend(pattern, GAT, SHAPE, q, k, v);
+    RowMath vector = RowMaths.preferred();
+    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    for (RowMath math : List.of(vector)) {
+      Run got = run(pattern, math, 2, true, q, k, v);
+      double error = ReferenceAttention.relativeError(want.out(), got.out());
+      assertTrue(error < 1e-5, math.describe() + ", seed=" + seed + ": relative error " + error);
+    }
+  }
+
+  // Float overflow of q + k: the kernel recomputes such scores in float64 and clamps them to the
+  // float range (CsrRowPass contract), so outputs stay convex combinations and weights sum to 1.
+  @Test
+  void overflowingScoresStayFiniteAndMatchThePerHeadPath() {
+    long seed = 0xA11E4FL;
+    Random random = new Random(seed);
+    int n = 200;
+    CsrGraph graph = graph(random, n);
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -1f, 1f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -1f, 1f);
+    for (int x = 0; x < q.length; x += 3) {
+      q[x] = 3e38f;
+      k[x] = 3e38f;
+    }
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
+    Run vector = run(graph, RowMaths.preferred(), 2, true, q, k, v);
+    Run oneThread = run(graph, RowMaths.preferred(), 1, true, q, k, v);
+    Run perHead = run(graph, RowMaths.scalar(), 1, false, q, k, v);
+    String where = "seed=" + seed;
+    assertArrayEquals(oneThread.out(), vector.out(), where);
+    assertArrayEquals(oneThread.weights(), vector.weights(), where);
+    for (float o : vector.out()) {
+      assertTrue(Float.isFinite(o) && Math.abs(o) <= 1f + 1e-6f, "out " + o + ", " + where);
+    }
+    for (int i = 0; i < n; i++) {
+      for (int h = 0; h < SHAPE.heads(); h++) {
+        double total = 0;
+        for (int e = graph.rowStart(i); e < graph.rowEnd(i); e++) {
+          total += vector.weights()[e * SHAPE.heads() + h];
+        }
+        if (graph.degree(i) > 0) {
+          assertEquals(1.0, total, 1e-5, "row " + i + ", head " + h + ", " + where);
+        }
+      }
+    }
+    double apart = relativeError(perHead.out(), vector.out());
+    assertTrue(apart < 1e-5, where + ": per-head and all-heads paths differ by " + apart);
+  }
+
+  // The vector all-heads methods against the scalar reference forms, bit for bit (RowMath contract:
+  // same IEEE operations in the same order), over block lengths that cross every edge case, with
+  // fresh and carried-over running maxima (rescaling by exp(old - new) and by exp(-inf) = 0).
+  @Test
+  void vectorAllHeadsMethodsEqualTheScalarReferenceBitForBit() {
+    RowMath vector = RowMaths.preferred();
+    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    RowMath scalar = RowMaths.scalar();
+    int h = RowMath.ALL_HEADS;
+    for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrRowPass.BLOCK}) {
+      long seed = 0xB17B17L + count;
+      Random random = new Random(seed);
+      String where = "count " + count + ", seed=" + seed;
+      float[] q = uniform(random, 3 + h, -6f, 6f);
+      float[] keys = uniform(random, count * h, -6f, 6f);
+      int nodes = 50;
+      float[] value = uniform(random, nodes * h * h, -1f, 1f);
+      int[] rowBase = new int[count];
+      for (int t = 0; t < count; t++) {
+        rowBase[t] = random.nextInt(nodes) * h * h;
+      }
+      float[] sv = new float[count * h];
+      float[] ss = new float[count * h];
+      assertTrue(vector.additiveScoresAllHeads(q, 3, keys, count, 0.2f, sv), where);
+      assertTrue(scalar.additiveScoresAllHeads(q, 3, keys, count, 0.2f, ss), where);
+      assertArrayEquals(ss, sv, "scores, " + where);
+      float[] maxV = new float[h];
+      float[] sumV = new float[h];
+      float[] accV = new float[h * h];
+      Arrays.fill(maxV, Float.NEGATIVE_INFINITY);
+      if (count % 2 == 0) { // a previous block: some maxima above, some below this block's
+        maxV = uniform(random, h, -6f, 6f);
+        sumV = uniform(random, h, 1f, 5f);
+        accV = uniform(random, h * h, -3f, 3f);
+      }
+      float[] maxS = maxV.clone();
+      float[] sumS = sumV.clone();
+      float[] accS = accV.clone();
+      vector.softmaxAccumulateAllHeads(sv, count, maxV, sumV, rowBase, value, accV, new float[h]);
+      scalar.softmaxAccumulateAllHeads(ss, count, maxS, sumS, rowBase, value, accS, new float[h]);
+      assertArrayEquals(ss, sv, "weights, " + where);
+      assertArrayEquals(maxS, maxV, "maxima, " + where);
+      assertArrayEquals(sumS, sumV, "sums, " + where);
+      assertArrayEquals(accS, accV, "accumulator, " + where);
+      for (int x = 0; x < sv.length; x++) {
+        assertTrue(sv[x] >= 0f && sv[x] <= 1f, "weight " + sv[x] + ", " + where);
+      }
+    }
+    // an overflowing score is reported, not hidden
+    float[] big = {3e38f, 3e38f, 0f, 0f, 0f, 0f, 0f, 0f};
+    float[] s = new float[h];
+    assertFalse(vector.additiveScoresAllHeads(big, 0, big, 1, 0.2f, s));
+    assertFalse(scalar.additiveScoresAllHeads(big, 0, big, 1, 0.2f, s));
+  }
+
+  private static double relativeError(float[] reference, float[] actual) {
+    double[] r = new double[reference.length];
+    for (int x = 0; x < r.length; x++) {
+      r[x] = reference[x];
+    }
+    return ReferenceAttention.relativeError(r, actual);
+  }
+
+  private static float[] uniform(Random random, int length, float lo, float hi) {
+    float[] a = new float[length];
+    for (int x = 0; x < length; x++) {
+      a[x] = lo + (hi - lo) * random.nextFloat();
+    }
+    return a;
+  }
+}
