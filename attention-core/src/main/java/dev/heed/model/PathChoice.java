@@ -10,10 +10,12 @@ import dev.heed.graph.CompletePattern;
  * <p>{@link #AUTO} applies a fixed rule to the pattern the layer attends over, until a calibrated
  * choice replaces it: the complete pattern, or a pattern with at most {@value
  * #AUTO_DENSE_MAX_NODES} nodes and density (E / n²) at least {@value #AUTO_DENSE_MIN_DENSITY}, goes
- * to {@link ComputePath#DENSE}; everything else to {@link ComputePath#SPARSE}. (The thresholds are
- * a guess to be replaced by measurement: dense work grows with n², sparse work with E.) If the
- * kernel AUTO picked is not on the class path, AUTO uses the other one and logs a warning; an
- * explicit {@link #DENSE} or {@link #SPARSE} fails instead.
+ * to {@link ComputePath#DENSE}; everything else to {@link ComputePath#SPARSE}. (The thresholds
+ * follow the crossover sweep recorded in {@code benchmarks/RESULTS.md}: on the 2-core reference
+ * machine the sparse path was faster below about 30–60 % density at every n measured, and the dense
+ * path won only on nearly complete patterns; measure your own hardware with {@code heed bench
+ * crossover}.) If the kernel AUTO picked is not on the class path, AUTO uses the other one and logs
+ * a warning; an explicit {@link #DENSE} or {@link #SPARSE} fails instead.
  *
  * <p>Thread safety: an enum, immutable.
  */
@@ -29,7 +31,7 @@ public enum PathChoice {
   public static final int AUTO_DENSE_MAX_NODES = 4096;
 
   /** Smallest density AUTO sends to the dense path unless the pattern is complete. */
-  public static final double AUTO_DENSE_MIN_DENSITY = 0.1;
+  public static final double AUTO_DENSE_MIN_DENSITY = 0.5;
 
   /**
    * Returns the path this choice takes for a pattern (for AUTO, before any fallback).

@@ -26,7 +26,10 @@ class PathChoiceTest {
   void autoRuleFollowsPatternKindSizeAndDensity() {
     assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(CompletePattern.of(100_000)));
     CsrGraph selfLoops = CsrGraph.of(new int[] {0, 1, 2, 3, 4}, new int[] {0, 1, 2, 3});
-    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(selfLoops)); // n = 4, density 4/16
+    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(selfLoops)); // n = 4, density 4/16
+    CsrGraph half =
+        CsrGraph.of(new int[] {0, 2, 4, 6, 8}, new int[] {0, 1, 1, 2, 2, 3, 0, 3}); // density 8/16
+    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(half));
     CsrGraph chain = CsrGraph.of(new int[] {0, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1}, new int[] {0});
     assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain)); // density 0.01
     assertEquals(ComputePath.SPARSE, PathChoice.SPARSE.pathFor(CompletePattern.of(3)));
