@@ -1,0 +1,2 @@
+/** JMH benchmarks of whole-model inference. */
+package dev.heed.bench.model;
