@@ -1,7 +1,7 @@
 package dev.heed.bench.crossover;
 
+import dev.heed.bench.roofline.Stats;
 import java.util.ArrayList;
-import java.util.Arrays;
 import java.util.List;
 
 /**
@@ -110,15 +110,7 @@ public final class PointTimer {
    * @return the quantile
    */
   static double quantile(double[] values, double q) {
-    if (values.length == 0) {
-      return Double.NaN;
-    }
-    double[] sorted = values.clone();
-    Arrays.sort(sorted);
-    double pos = q * (sorted.length - 1);
-    int lo = (int) Math.floor(pos);
-    int hi = Math.min(lo + 1, sorted.length - 1);
-    return sorted[lo] + (pos - lo) * (sorted[hi] - sorted[lo]);
+    return Stats.quantile(values, q);
   }
 
   /** Thrown when the first call alone took longer than the caller's limit. */

@@ -2,21 +2,34 @@ package dev.heed.bench.roofline;
 
 import java.util.Arrays;
 
-/** Order statistics of small samples; package-private helper. */
-final class Stats {
+/**
+ * Order statistics of small samples, shared by the roofline probes and the crossover runner.
+ *
+ * <p>Thread safety: stateless.
+ */
+public final class Stats {
 
   private Stats() {}
 
-  /** Returns the median of {@code values} (not modified); NaN when empty. */
-  static double median(double[] values) {
+  /**
+   * Returns the median of {@code values} (not modified); NaN when empty.
+   *
+   * @param values the sample
+   * @return the median
+   */
+  public static double median(double[] values) {
     return quantile(values, 0.5);
   }
 
   /**
    * Returns the {@code q}-quantile of {@code values} (not modified) with linear interpolation
    * between order statistics; NaN when empty.
+   *
+   * @param values the sample
+   * @param q in {@code [0, 1]}
+   * @return the quantile
    */
-  static double quantile(double[] values, double q) {
+  public static double quantile(double[] values, double q) {
     if (values.length == 0) {
       return Double.NaN;
     }
