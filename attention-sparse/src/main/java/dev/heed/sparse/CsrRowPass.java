@@ -123,12 +123,14 @@ final class CsrRowPass {
     final float[] acc;
     final float[] max;
     final float[] sum;
+    final int[] columns;
     final int[] rowBase;
     final float[] keys;
     final float[] work;
 
     Scratch(int heads, int keyWidth, int valueWidth) {
       work = new float[RowMath.ALL_HEADS];
+      columns = new int[BLOCK];
       rowBase = new int[BLOCK];
       keys = new float[BLOCK * keyWidth];
       scores = new float[BLOCK * heads];
@@ -194,7 +196,8 @@ final class CsrRowPass {
     float[] l = sc.sum;
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
-      scoreBlock(i, start + b, count, sc);
+      int[] columns = blockColumns(start + b, count, sc);
+      scoreBlock(i, columns, count, sc);
       if (weights != null) {
         for (int t = 0; t < count; t++) {
           int w = (int) ((firstEntry + b + t) * heads);
@@ -219,7 +222,7 @@ final class CsrRowPass {
       }
       int[] rowBase = sc.rowBase;
       for (int t = 0; t < count; t++) {
-        rowBase[t] = column(start + b + t) * valueWidth;
+        rowBase[t] = columns[t] * valueWidth;
       }
       for (int h = 0; h < heads; h++) {
         math.weightedRowSum(
@@ -235,12 +238,13 @@ final class CsrRowPass {
     int qb = i * keyWidth;
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
-      float[] gathered = gatherKeys(start + b, count, sc);
+      int[] columns = blockColumns(start + b, count, sc);
+      float[] gathered = gatherKeys(columns, count, sc);
       if (!math.additiveScoresAllHeads(query, qb, gathered, count, slope, s)) {
         for (int t = 0; t < count; t++) {
           for (int h = 0; h < heads; h++) {
             if (!Float.isFinite(s[t * heads + h])) {
-              s[t * heads + h] = exactScore(i, column(start + b + t), h);
+              s[t * heads + h] = exactScore(i, columns[t], h);
             }
           }
         }
@@ -250,36 +254,47 @@ final class CsrRowPass {
         System.arraycopy(s, 0, weights, (int) ((firstEntry + b) * heads), count * heads);
       }
       for (int t = 0; t < count; t++) {
-        rowBase[t] = column(start + b + t) * valueWidth;
+        rowBase[t] = columns[t] * valueWidth;
       }
       math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, value, sc.acc, sc.work);
     }
   }
 
-  private int column(int entry) {
-    return csr == null ? entry : csr.column(entry);
+  /** The source node of entries {@code first..first+count-1}, into the scratch. */
+  private int[] blockColumns(int first, int count, Scratch sc) {
+    int[] columns = sc.columns;
+    if (csr == null) {
+      for (int t = 0; t < count; t++) {
+        columns[t] = first + t;
+      }
+    } else {
+      for (int t = 0; t < count; t++) {
+        columns[t] = csr.column(first + t);
+      }
+    }
+    return columns;
   }
 
-  /** Scores of entries {@code first..first+count-1} of row i, head-major into the scratch. */
-  private void scoreBlock(int i, int first, int count, Scratch sc) {
+  /** Scores of the block's entries of row i, head-major into the scratch. */
+  private void scoreBlock(int i, int[] columns, int count, Scratch sc) {
     float[] s = sc.scores;
     int qb = i * keyWidth;
     switch (kind) {
       case ADDITIVE -> {
-        float[] gathered = gatherKeys(first, count, sc);
+        float[] gathered = gatherKeys(columns, count, sc);
         for (int t = 0; t < count; t++) {
           int gb = t * heads;
           for (int h = 0; h < heads; h++) {
             float z = query[qb + h] + gathered[gb + h];
             float e = Math.max(z, z * slope);
-            s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, column(first + t), h);
+            s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, columns[t], h);
           }
         }
       }
       case GATV2 -> {
-        float[] gathered = gatherKeys(first, count, sc);
+        float[] gathered = gatherKeys(columns, count, sc);
         for (int t = 0; t < count; t++) {
-          int j = column(first + t);
+          int j = columns[t];
           int kb = t * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
@@ -289,9 +304,9 @@ final class CsrRowPass {
         }
       }
       default -> {
-        float[] gathered = gatherKeys(first, count, sc);
+        float[] gathered = gatherKeys(columns, count, sc);
         for (int t = 0; t < count; t++) {
-          int j = column(first + t);
+          int j = columns[t];
           int kb = t * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
@@ -308,12 +323,9 @@ final class CsrRowPass {
    * of loads alone keeps many cache misses in flight; the scoring loops then read the scratch
    * (measured: with the random key loads inside the scoring loop, they were its hottest spot).
    */
-  private float[] gatherKeys(int first, int count, Scratch sc) {
-    float[] gathered = sc.keys;
-    for (int t = 0; t < count; t++) {
-      System.arraycopy(key, column(first + t) * keyWidth, gathered, t * keyWidth, keyWidth);
-    }
-    return gathered;
+  private float[] gatherKeys(int[] columns, int count, Scratch sc) {
+    math.gatherRows(key, keyWidth, columns, count, sc.keys);
+    return sc.keys;
   }
 
   /** The score in float64, clamped to the float range; the rare path after a float overflow. */

@@ -50,6 +50,17 @@ final class ScalarRowMath implements RowMath {
   }
 
   @Override
+  public void gatherRows(float[] table, int width, int[] rows, int count, float[] out) {
+    for (int t = 0; t < count; t++) {
+      int from = rows[t] * width;
+      int to = t * width;
+      for (int x = 0; x < width; x++) {
+        out[to + x] = table[from + x];
+      }
+    }
+  }
+
+  @Override
   public float max(float[] s, int offset, int length) {
     float m = s[offset];
     for (int k = 1; k < length; k++) {

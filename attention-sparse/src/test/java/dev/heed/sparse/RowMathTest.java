@@ -5,6 +5,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.sparse.internal.FastExp;
 import dev.heed.sparse.internal.RowMath;
+import java.util.Arrays;
 import java.util.List;
 import java.util.Random;
 import org.junit.jupiter.api.Test;
@@ -57,6 +58,37 @@ class RowMathTest {
             math.gatv2(c, 3, a, ao, b, bo, length, 0.2f),
             sumTolerance(length, gatMagnitude),
             where);
+      }
+    }
+  }
+
+  @Test
+  void gatherRowsCopiesEachRequestedRowAndNothingElse() {
+    Random random = new Random(0x0A13L);
+    for (RowMath math : implementations()) {
+      for (int width : LENGTHS) {
+        int tableRows = 37;
+        float[] table = uniform(random, tableRows * width, -1f, 1f);
+        float[] before = table.clone();
+        int count = 1 + random.nextInt(20);
+        int[] rows = new int[count + 2];
+        for (int t = 0; t < rows.length; t++) {
+          rows[t] = random.nextInt(tableRows);
+        }
+        rows[0] = tableRows - 1; // the last row: a vector load must not read past the table
+        float[] out = new float[(count + 1) * width];
+        Arrays.fill(out, 7f);
+        math.gatherRows(table, width, rows, count, out);
+        String where = math.describe() + ", width " + width;
+        for (int t = 0; t < count; t++) {
+          for (int x = 0; x < width; x++) {
+            assertEquals(table[rows[t] * width + x], out[t * width + x], where);
+          }
+        }
+        for (int k = count * width; k < out.length; k++) {
+          assertEquals(7f, out[k], where + ": wrote past the block");
+        }
+        assertTrue(Arrays.equals(before, table), where + ": modified the table");
       }
     }
   }

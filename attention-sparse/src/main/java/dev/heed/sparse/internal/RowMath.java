@@ -104,6 +104,20 @@ public interface RowMath {
       int length);
 
   /**
+   * Copies {@code count} rows of {@code width} floats from a table into consecutive rows of {@code
+   * out}: {@code out[t·width + x] = table[rows[t]·width + x]} for {@code t < count}, {@code x <
+   * width}. Gathering a block's rows in one loop of loads keeps many cache misses in flight before
+   * anything uses them.
+   *
+   * @param table input, not modified: rows of {@code width} floats
+   * @param width row width, at least 1
+   * @param rows input, not modified: the row index of each entry
+   * @param count number of rows, at least 1
+   * @param out output: {@code count · width} floats
+   */
+  void gatherRows(float[] table, int width, int[] rows, int count, float[] out);
+
+  /**
    * Multiplies each element of the span by {@code factor}.
    *
    * @param y input and output

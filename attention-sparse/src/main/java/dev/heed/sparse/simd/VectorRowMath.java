@@ -130,6 +130,30 @@ public final class VectorRowMath implements RowMath {
   }
 
   @Override
+  public void gatherRows(float[] table, int width, int[] rows, int count, float[] out) {
+    // vector moves, not System.arraycopy: measured on R-MAT 1M with 8-float key rows, a loop of
+    // arraycopy calls made the whole GAT layer about 1.4x slower than these loads and stores
+    if (width == WIDE_LANES) {
+      for (int t = 0; t < count; t++) {
+        FloatVector.fromArray(WIDE, table, rows[t] * WIDE_LANES).intoArray(out, t * WIDE_LANES);
+      }
+      return;
+    }
+    int vectorWidth = width - width % WIDE_LANES;
+    for (int t = 0; t < count; t++) {
+      int from = rows[t] * width;
+      int to = t * width;
+      int x = 0;
+      for (; x < vectorWidth; x += WIDE_LANES) {
+        FloatVector.fromArray(WIDE, table, from + x).intoArray(out, to + x);
+      }
+      for (; x < width; x++) {
+        out[to + x] = table[from + x];
+      }
+    }
+  }
+
+  @Override
   public float max(float[] s, int offset, int length) {
     float m = Float.NEGATIVE_INFINITY;
     int k = 0;
