@@ -1,6 +1,6 @@
 package dev.heed.sparse;
 
-import dev.heed.sparse.internal.FastExp;
+import dev.heed.attention.internal.FastExp;
 import dev.heed.sparse.internal.RowMath;
 
 /**

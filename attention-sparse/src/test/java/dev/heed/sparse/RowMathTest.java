@@ -3,7 +3,7 @@ package dev.heed.sparse;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.heed.sparse.internal.FastExp;
+import dev.heed.attention.internal.FastExp;
 import dev.heed.sparse.internal.RowMath;
 import java.util.Arrays;
 import java.util.List;

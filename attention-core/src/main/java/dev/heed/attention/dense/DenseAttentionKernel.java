@@ -6,6 +6,7 @@ import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.KernelOptions;
 import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.internal.RowSoftmax;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
 import java.nio.FloatBuffer;
@@ -85,6 +86,7 @@ final class DenseAttentionKernel implements AttentionKernel {
   private final long targetBlockFloats;
   private final long minTargetRows;
   private final double unshiftedExpLimit;
+  private final RowSoftmax rowSoftmax;
 
   /**
    * Creates the kernel.
@@ -93,14 +95,22 @@ final class DenseAttentionKernel implements AttentionKernel {
    * @param targetBlockFloats upper bound on one score block (rows · n)
    * @param minTargetRows least block height the target allows (the budget may still force less)
    * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum ({@link
-   *     #UNSHIFTED_EXP_LIMIT}; tests pass a negative value to force the shifted softmax)
+   *     #UNSHIFTED_EXP_LIMIT}; tests pass a negative value to force the shifted softmax); used only
+   *     on the ND4J route
+   * @param rowSoftmax the Java softmax of score rows ({@link RowSoftmaxes#preferred()}), or null to
+   *     take the exponentials with ND4J's ops
    */
   DenseAttentionKernel(
-      KernelOptions options, long targetBlockFloats, long minTargetRows, double unshiftedExpLimit) {
+      KernelOptions options,
+      long targetBlockFloats,
+      long minTargetRows,
+      double unshiftedExpLimit,
+      RowSoftmax rowSoftmax) {
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
     this.minTargetRows = minTargetRows;
     this.unshiftedExpLimit = unshiftedExpLimit;
+    this.rowSoftmax = rowSoftmax;
   }
 
   @Override
@@ -110,7 +120,11 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   @Override
   public String describe() {
-    return "dense-nd4j(row blocks, BLAS gemm, ND4J exp or softmax), budget "
+    return "dense-nd4j(row blocks, BLAS gemm, "
+        + (rowSoftmax == null
+            ? "ND4J exp or softmax"
+            : "Java " + rowSoftmax.describe() + " softmax")
+        + "), budget "
         + options.denseMemoryBudgetBytes()
         + " bytes, GATv2 score threads "
         + options.threads()
@@ -172,7 +186,8 @@ final class DenseAttentionKernel implements AttentionKernel {
               plan,
               pool,
               javaThreads,
-              unshiftedExpLimit)
+              unshiftedExpLimit,
+              rowSoftmax)
           .run();
     } finally {
       outside.close();
@@ -205,6 +220,8 @@ final class DenseAttentionKernel implements AttentionKernel {
     private final ExecutorService pool;
     private final int workers;
     private final double unshiftedExpLimit;
+    private final RowSoftmax rowSoftmax;
+    private final int valueWidth;
     private final List<INDArray> owned = new ArrayList<>();
     private float[] keyByHead;
 
@@ -220,7 +237,8 @@ final class DenseAttentionKernel implements AttentionKernel {
         DenseBlockPlan plan,
         ExecutorService pool,
         int workers,
-        double unshiftedExpLimit) {
+        double unshiftedExpLimit,
+        RowSoftmax rowSoftmax) {
       this.graph = pattern instanceof CsrGraph g ? g : null;
       this.score = score;
       this.n = pattern.nodeCount();
@@ -236,6 +254,9 @@ final class DenseAttentionKernel implements AttentionKernel {
       this.pool = pool;
       this.workers = workers;
       this.unshiftedExpLimit = unshiftedExpLimit;
+      this.rowSoftmax = rowSoftmax;
+      // the ND4J route gets each row's sum of weights from a column of ones appended to V
+      this.valueWidth = rowSoftmax == null ? valueDim + 1 : valueDim;
     }
 
     void run() {
@@ -275,20 +296,23 @@ final class DenseAttentionKernel implements AttentionKernel {
           }
         }
       }
-      // Values packed as [v_j, 1]: the product P·[V, 1] also yields each row's sum of P.
+      // On the ND4J route values are packed as [v_j, 1]: the product P·[V, 1] also yields each
+      // row's sum of P. The Java route sums each row while exponentiating it.
       INDArray[] packedValue = new INDArray[heads];
       boolean[] unshifted = new boolean[heads];
       for (int h = 0; h < heads; h++) {
-        packedValue[h] = allocate(n, valueDim + 1);
-        packValuesWithOnes(h, packedValue[h]);
-        unshifted[h] = scoreBound(h) <= Math.min(unshiftedExpLimit, safeUnshiftedLimit(h));
+        packedValue[h] = allocate(n, valueWidth);
+        packValues(h, packedValue[h]);
+        unshifted[h] =
+            rowSoftmax == null
+                && scoreBound(h) <= Math.min(unshiftedExpLimit, safeUnshiftedLimit(h));
       }
       int blockRows = plan.blockRows();
       INDArray scoreBlock = allocate(blockRows, n);
       FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
       INDArray biasBlock = graph != null && !gatv2 ? allocate(blockRows, n) : null;
       FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
-      INDArray outBlock = allocate(blockRows, valueDim + 1);
+      INDArray outBlock = allocate(blockRows, valueWidth);
       FloatBuffer outBuffer = outBlock.data().asNioFloat();
       float[][] workerRows = new float[workers][n];
       float[] row = workerRows[0];
@@ -322,7 +346,9 @@ final class DenseAttentionKernel implements AttentionKernel {
               s.addi(bias);
             }
           }
-          if (unshifted[h]) {
+          if (rowSoftmax != null) {
+            softmaxRows(rows, scoreBuffer, row, sums);
+          } else if (unshifted[h]) {
             Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
           } else {
             Nd4j.exec(new SoftMax(s, s, 1));
@@ -348,13 +374,32 @@ final class DenseAttentionKernel implements AttentionKernel {
       }
     }
 
-    /** Copies head {@code h} of the values into {@code [n, valueDim + 1]}, last column 1. */
-    private void packValuesWithOnes(int h, INDArray target) {
+    /**
+     * Copies head {@code h} of the values into {@code [n, valueWidth]}; on the ND4J route the last
+     * column is 1.
+     */
+    private void packValues(int h, INDArray target) {
       FloatBuffer buffer = target.data().asNioFloat();
-      int width = valueDim + 1;
+      int width = valueWidth;
       for (int j = 0; j < n; j++) {
         buffer.put(j * width, value, (j * heads + h) * valueDim, valueDim);
-        buffer.put(j * width + valueDim, 1f);
+        if (width > valueDim) {
+          buffer.put(j * width + valueDim, 1f);
+        }
+      }
+    }
+
+    /**
+     * The Java route: each score row of the block is copied to the heap, replaced by {@code exp(s -
+     * rowMax)} and copied back; its sum goes to {@code sums}. One thread: measured here, a second
+     * Java thread gained nothing while the BLAS threads of the previous product were still
+     * spinning.
+     */
+    private void softmaxRows(int rows, FloatBuffer scoreBuffer, float[] row, float[] sums) {
+      for (int r = 0; r < rows; r++) {
+        scoreBuffer.get(r * n, row, 0, n);
+        sums[r] = rowSoftmax.exponentiateShifted(row, n);
+        scoreBuffer.put(r * n, row, 0, n);
       }
     }
 
@@ -447,7 +492,7 @@ final class DenseAttentionKernel implements AttentionKernel {
      * the caller's output, and keeps each row's sum for the weights.
      */
     private void copyOut(int first, int rows, int h, FloatBuffer outBuffer, float[] sums) {
-      int width = valueDim + 1;
+      int width = valueWidth;
       for (int r = 0; r < rows; r++) {
         int i = first + r;
         int at = (i * heads + h) * valueDim;
@@ -455,7 +500,7 @@ final class DenseAttentionKernel implements AttentionKernel {
           Arrays.fill(out, at, at + valueDim, 0f);
           continue;
         }
-        float sum = outBuffer.get(r * width + valueDim);
+        float sum = rowSoftmax != null ? sums[r] : outBuffer.get(r * width + valueDim);
         sums[r] = sum;
         if (!(sum > 0f && sum < Float.POSITIVE_INFINITY)) {
           throw overflow(i, h);

@@ -65,6 +65,7 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
         options,
         DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
         DenseBlockPlan.MIN_TARGET_ROWS,
-        DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
+        DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
+        RowSoftmaxes.preferred());
   }
 }

@@ -126,30 +126,59 @@ class DenseAttentionKernelTest {
     return cases.stream();
   }
 
+  // Reference for the three routes below: ReferenceAttention (float64 evaluation of Vaswani et al.
+  // 2017 eq. 1, Veličković et al. 2018 eq. 1-3, Brody et al. 2022).
+
   @ParameterizedTest(name = "n={0} heads={1} dim={2} {3} masked={4}")
   @MethodSource("sizes")
   void matchesFloat64Reference(int n, int heads, int dim, Kind kind, boolean masked, long seed) {
-    AttentionPattern pattern =
-        masked ? randomMask(new Random(seed ^ 0x5eed), n, 0.3) : CompletePattern.of(n);
-    checkAgainstReference(kernel(ONE_THREAD), pattern, kind, heads, dim, seed);
+    // The default route: the Vector API softmax where the JVM reads it (the build's test JVM does)
+    checkAgainstReference(kernel(ONE_THREAD), pattern(n, masked, seed), kind, heads, dim, seed);
   }
 
   @ParameterizedTest(name = "n={0} heads={1} dim={2} {3} masked={4}")
   @MethodSource("sizes")
   void shiftedSoftmaxRouteMatchesFloat64Reference(
       int n, int heads, int dim, Kind kind, boolean masked, long seed) {
-    // The same cases with the row maximum always subtracted (ND4J's native softmax), the route
-    // taken when scores could exceed UNSHIFTED_EXP_LIMIT. Reference: ReferenceAttention (float64
-    // evaluation of Vaswani et al. 2017 eq. 1, Veličković et al. 2018 eq. 1-3, Brody et al. 2022).
-    AttentionPattern pattern =
-        masked ? randomMask(new Random(seed ^ 0x5eed), n, 0.3) : CompletePattern.of(n);
-    AttentionKernel shifted =
-        new DenseAttentionKernel(
-            ONE_THREAD,
-            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
-            DenseBlockPlan.MIN_TARGET_ROWS,
-            -1.0);
-    checkAgainstReference(shifted, pattern, kind, heads, dim, seed + 500);
+    // Without the Vector API, with the row maximum always subtracted (ND4J's native softmax): the
+    // route taken when scores could exceed UNSHIFTED_EXP_LIMIT.
+    AttentionKernel shifted = nd4jRouteKernel(-1.0);
+    checkAgainstReference(shifted, pattern(n, masked, seed), kind, heads, dim, seed + 500);
+  }
+
+  @ParameterizedTest(name = "n={0} heads={1} dim={2} {3} masked={4}")
+  @MethodSource("sizes")
+  void nd4jExpRouteMatchesFloat64Reference(
+      int n, int heads, int dim, Kind kind, boolean masked, long seed) {
+    // Without the Vector API: ND4J's Exp without the row maximum where the norm bound allows it,
+    // else ND4J's softmax.
+    AttentionKernel nd4jRoute = nd4jRouteKernel(DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
+    checkAgainstReference(nd4jRoute, pattern(n, masked, seed), kind, heads, dim, seed + 900);
+  }
+
+  private static AttentionPattern pattern(int n, boolean masked, long seed) {
+    return masked ? randomMask(new Random(seed ^ 0x5eed), n, 0.3) : CompletePattern.of(n);
+  }
+
+  private static AttentionKernel nd4jRouteKernel(double unshiftedExpLimit) {
+    return new DenseAttentionKernel(
+        ONE_THREAD,
+        DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+        DenseBlockPlan.MIN_TARGET_ROWS,
+        unshiftedExpLimit,
+        null);
+  }
+
+  @Test
+  void vectorSoftmaxRunsWhereTheBuildExpectsIt() {
+    // The build passes --add-modules jdk.incubator.vector and this property to the test JVM; if
+    // the kernel fell back to ND4J's exponential there, the tests above would not have covered the
+    // route users get.
+    if (Boolean.getBoolean("heed.test.expectVectorSoftmax")) {
+      assertTrue(RowSoftmaxes.preferred() != null, "the Vector API softmax was not chosen");
+      String description = kernel(ONE_THREAD).describe();
+      assertTrue(description.contains("Java vector"), description);
+    }
   }
 
   @ParameterizedTest(name = "{0}")
@@ -159,7 +188,12 @@ class DenseAttentionKernelTest {
     // (ReferenceAttention, float64 evaluation of the equations).
     int n = 61;
     AttentionKernel small =
-        new DenseAttentionKernel(ONE_THREAD, 7L * n, 1, DenseAttentionKernel.UNSHIFTED_EXP_LIMIT);
+        new DenseAttentionKernel(
+            ONE_THREAD,
+            7L * n,
+            1,
+            DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
+            RowSoftmaxes.preferred());
     checkAgainstReference(small, CompletePattern.of(n), kind, 3, 5, 77);
     checkAgainstReference(small, randomMask(new Random(78), n, 0.2), kind, 3, 5, 79);
   }

@@ -1,5 +1,7 @@
 package dev.heed.sparse.internal;
 
+import dev.heed.attention.internal.FastExp;
+
 /**
  * The inner loops of the CSR attention kernel: spans of floats in, numbers out. Internal to {@code
  * attention-sparse}, not API.

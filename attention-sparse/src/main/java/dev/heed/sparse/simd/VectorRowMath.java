@@ -1,9 +1,9 @@
 package dev.heed.sparse.simd;
 
-import dev.heed.sparse.internal.FastExp;
+import dev.heed.attention.internal.FastExp;
+import dev.heed.attention.simd.VectorExp;
 import dev.heed.sparse.internal.RowMath;
 import jdk.incubator.vector.FloatVector;
-import jdk.incubator.vector.IntVector;
 import jdk.incubator.vector.VectorOperators;
 import jdk.incubator.vector.VectorShuffle;
 import jdk.incubator.vector.VectorSpecies;
@@ -177,35 +177,9 @@ public final class VectorRowMath implements RowMath {
     int k = 0;
     if (length >= WIDE_LANES) {
       FloatVector acc = FloatVector.zero(WIDE);
-      FloatVector minusLn2Hi = FloatVector.broadcast(WIDE, -FastExp.LN2_HI);
-      FloatVector minusLn2Lo = FloatVector.broadcast(WIDE, -FastExp.LN2_LO);
-      FloatVector c0 = FloatVector.broadcast(WIDE, FastExp.P0);
-      FloatVector c1 = FloatVector.broadcast(WIDE, FastExp.P1);
-      FloatVector c2 = FloatVector.broadcast(WIDE, FastExp.P2);
-      FloatVector c3 = FloatVector.broadcast(WIDE, FastExp.P3);
-      FloatVector c4 = FloatVector.broadcast(WIDE, FastExp.P4);
-      FloatVector c5 = FloatVector.broadcast(WIDE, FastExp.P5);
       for (; k <= length - WIDE_LANES; k += WIDE_LANES) {
-        // FastExp.expNonPositive lane by lane, same operations in the same order; written inline
-        // because a vector passed to a helper that C2 does not inline is boxed (measured: slow)
-        FloatVector x = FloatVector.fromArray(WIDE, s, offset + k).sub(shift);
-        FloatVector xc = x.max(FastExp.LOWEST_ARGUMENT);
-        FloatVector shifted = xc.mul(FastExp.LOG2E).add(FastExp.ROUNDING_MAGIC);
-        FloatVector n = shifted.sub(FastExp.ROUNDING_MAGIC);
-        FloatVector r = n.fma(minusLn2Hi, xc);
-        r = n.fma(minusLn2Lo, r);
-        FloatVector p = c0.fma(r, c1);
-        p = p.fma(r, c2);
-        p = p.fma(r, c3);
-        p = p.fma(r, c4);
-        p = p.fma(r, c5);
-        p = p.fma(r.mul(r), r).add(1f);
-        FloatVector scale =
-            ((IntVector) shifted.reinterpretAsInts())
-                .add(FastExp.EXPONENT_BIAS_FROM_MAGIC)
-                .lanewise(VectorOperators.LSHL, 23)
-                .reinterpretAsFloats();
-        p = p.mul(scale).blend(0f, x.lt(FastExp.LOWEST_ARGUMENT));
+        FloatVector p =
+            VectorExp.expNonPositive(FloatVector.fromArray(WIDE, s, offset + k).sub(shift));
         p.intoArray(s, offset + k);
         acc = acc.add(p);
       }
@@ -305,38 +279,14 @@ public final class VectorRowMath implements RowMath {
     FloatVector oldMax = FloatVector.fromArray(WIDE, max, 0);
     FloatVector newMax = oldMax.max(blockMax);
     newMax.intoArray(max, 0);
-    FloatVector minusLn2Hi = FloatVector.broadcast(WIDE, -FastExp.LN2_HI);
-    FloatVector minusLn2Lo = FloatVector.broadcast(WIDE, -FastExp.LN2_LO);
-    FloatVector c0 = FloatVector.broadcast(WIDE, FastExp.P0);
-    FloatVector c1 = FloatVector.broadcast(WIDE, FastExp.P1);
-    FloatVector c2 = FloatVector.broadcast(WIDE, FastExp.P2);
-    FloatVector c3 = FloatVector.broadcast(WIDE, FastExp.P3);
-    FloatVector c4 = FloatVector.broadcast(WIDE, FastExp.P4);
-    FloatVector c5 = FloatVector.broadcast(WIDE, FastExp.P5);
-    // t = -1 rescales by exp(oldMax - newMax), t >= 0 exponentiates the block's scores: FastExp
-    // lane by lane, same operations in the same order as the scalar form, written once, inline
-    // (a vector passed to a helper that C2 does not inline is boxed; measured: slow)
+    // t = -1 rescales by exp(oldMax - newMax), t >= 0 exponentiates the block's scores
     FloatVector l = FloatVector.fromArray(WIDE, sum, 0);
     for (int t = -1; t < count; t++) {
-      FloatVector x =
-          t < 0 ? oldMax.sub(newMax) : FloatVector.fromArray(WIDE, s, t * ALL_HEADS).sub(newMax);
-      FloatVector xc = x.max(FastExp.LOWEST_ARGUMENT);
-      FloatVector shifted = xc.mul(FastExp.LOG2E).add(FastExp.ROUNDING_MAGIC);
-      FloatVector n = shifted.sub(FastExp.ROUNDING_MAGIC);
-      FloatVector r = n.fma(minusLn2Hi, xc);
-      r = n.fma(minusLn2Lo, r);
-      FloatVector p = c0.fma(r, c1);
-      p = p.fma(r, c2);
-      p = p.fma(r, c3);
-      p = p.fma(r, c4);
-      p = p.fma(r, c5);
-      p = p.fma(r.mul(r), r).add(1f);
-      FloatVector scale =
-          ((IntVector) shifted.reinterpretAsInts())
-              .add(FastExp.EXPONENT_BIAS_FROM_MAGIC)
-              .lanewise(VectorOperators.LSHL, 23)
-              .reinterpretAsFloats();
-      p = p.mul(scale).blend(0f, x.lt(FastExp.LOWEST_ARGUMENT));
+      FloatVector p =
+          VectorExp.expNonPositive(
+              t < 0
+                  ? oldMax.sub(newMax)
+                  : FloatVector.fromArray(WIDE, s, t * ALL_HEADS).sub(newMax));
       if (t < 0) {
         l = l.mul(p);
         p.intoArray(work, 0);

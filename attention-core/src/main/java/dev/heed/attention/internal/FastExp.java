@@ -1,10 +1,10 @@
-package dev.heed.sparse.internal;
+package dev.heed.attention.internal;
 
 /**
  * A float32 exponential for non-positive arguments, built only from IEEE-754 add, multiply, fused
  * multiply-add and exact bit manipulation, so that a scalar loop and a Vector API loop written from
- * the same steps give the same bits, interpreted or compiled. Internal to {@code attention-sparse},
- * not API.
+ * the same steps give the same bits, interpreted or compiled. Internal to Heed (used by the sparse
+ * kernel and the dense kernel's vector softmax), not API.
  *
  * <p>Method (common practice for float32 exp; the coefficients are the classic Cephes {@code expf}
  * minimax polynomial, from memory, checked here against {@link Math#exp} by the tests): write

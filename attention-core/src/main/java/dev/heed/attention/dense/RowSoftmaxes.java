@@ -1,0 +1,80 @@
+package dev.heed.attention.dense;
+
+import dev.heed.attention.internal.RowSoftmax;
+import java.lang.reflect.InvocationTargetException;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
+
+/**
+ * Chooses, once per JVM, how the dense kernel exponentiates its score blocks: in Java on the Vector
+ * API when the JVM reads {@code jdk.incubator.vector}, else with ND4J's own {@code Exp} or {@code
+ * SoftMax} ops (with exactly one WARN naming the flag to add). Measured here, the Vector API route
+ * is several times faster than ND4J's exponential, which is the largest cost after the two matrix
+ * products (see {@code benchmarks/results/dense-kernel.md}).
+ *
+ * <p>Thread safety: the holder idiom makes the one-time choice safe; everything else is stateless.
+ */
+final class RowSoftmaxes {
+
+  /** The JVM flag that makes the Vector API readable. */
+  static final String VECTOR_FLAG = "--add-modules jdk.incubator.vector";
+
+  /**
+   * System property that, set to {@code false}, keeps the dense kernel on ND4J's exponential even
+   * when the Vector API is readable (for comparisons and benchmarks). Read once, on first use.
+   */
+  static final String VECTOR_PROPERTY = "heed.dense.vector";
+
+  private static final String VECTOR_MODULE = "jdk.incubator.vector";
+  private static final String VECTOR_CLASS = "dev.heed.attention.simd.VectorRowSoftmax";
+  private static final Logger LOG = LoggerFactory.getLogger(RowSoftmaxes.class);
+
+  private RowSoftmaxes() {}
+
+  /**
+   * Returns the Vector API implementation, or null when the kernel should use ND4J's ops.
+   *
+   * @return the implementation chosen for this JVM, or null
+   */
+  static RowSoftmax preferred() {
+    return Holder.PREFERRED;
+  }
+
+  private static final class Holder {
+    static final RowSoftmax PREFERRED = choose();
+  }
+
+  private static RowSoftmax choose() {
+    if ("false".equalsIgnoreCase(System.getProperty(VECTOR_PROPERTY))) {
+      LOG.info(
+          "Dense attention uses ND4J's exponential: the Vector API softmax was switched off with"
+              + " -D{}=false",
+          VECTOR_PROPERTY);
+      return null;
+    }
+    if (ModuleLayer.boot().findModule(VECTOR_MODULE).isEmpty()) {
+      LOG.warn(
+          "The Java Vector API is not enabled, so dense attention takes its exponentials with"
+              + " ND4J's slower op. Start the JVM with {} to use the vector softmax.",
+          VECTOR_FLAG);
+      return null;
+    }
+    try {
+      RowSoftmax vector = (RowSoftmax) Class.forName(VECTOR_CLASS).getMethod("create").invoke(null);
+      LOG.debug("Dense attention softmax: {}", vector.describe());
+      return vector;
+    } catch (InvocationTargetException e) {
+      LOG.warn(
+          "The Java Vector API is enabled but cannot be used here ({}); dense attention takes its"
+              + " exponentials with ND4J",
+          e.getCause().toString());
+    } catch (ReflectiveOperationException | LinkageError | ClassCastException e) {
+      LOG.warn(
+          "The vector softmax of dense attention could not be loaded ({}); it uses ND4J's"
+              + " exponential. Check that the JVM was started with {}",
+          e.toString(),
+          VECTOR_FLAG);
+    }
+    return null;
+  }
+}

@@ -1,0 +1,83 @@
+package dev.heed.attention.simd;
+
+import dev.heed.attention.internal.FastExp;
+import dev.heed.attention.internal.RowSoftmax;
+import jdk.incubator.vector.FloatVector;
+import jdk.incubator.vector.VectorOperators;
+import jdk.incubator.vector.VectorSpecies;
+
+/**
+ * {@link RowSoftmax} on the Vector API, in the machine's preferred vector width (512 bits on
+ * AVX-512, 256 on AVX2): one pass for the row maximum, one for the exponentials and their sum. The
+ * exponential is {@link FastExp}'s polynomial, lane by lane ({@link VectorExp}); tails shorter than
+ * a vector use the scalar form. Measured on this project's 2-core machine (n = 4096, 8 heads,
+ * 256-row blocks): about 0.5 ns per score on one thread including the copies in and out of ND4J's
+ * buffer, against 0.8 to 1.8 ns for ND4J's own {@code Exp} on two threads.
+ *
+ * <p>Thread safety: stateless.
+ */
+public final class VectorRowSoftmax implements RowSoftmax {
+
+  private static final VectorSpecies<Float> SPECIES = FloatVector.SPECIES_PREFERRED;
+  private static final int LANES = SPECIES.length();
+
+  private VectorRowSoftmax() {}
+
+  /**
+   * Creates the vector implementation, or explains why it cannot run here.
+   *
+   * @return the implementation
+   * @throws UnsupportedOperationException if the preferred vector holds fewer than 4 floats (no
+   *     useful SIMD), with the width in the message
+   */
+  public static RowSoftmax create() {
+    if (LANES < 4) {
+      throw new UnsupportedOperationException(
+          "the preferred float vector is only "
+              + SPECIES.vectorBitSize()
+              + " bits wide; ND4J's exponential is as fast");
+    }
+    return new VectorRowSoftmax();
+  }
+
+  @Override
+  public String describe() {
+    return "vector(" + SPECIES.vectorBitSize() + "-bit)";
+  }
+
+  @Override
+  public float exponentiateShifted(float[] row, int length) {
+    int vectorEnd = length - length % LANES;
+    float max = Float.NEGATIVE_INFINITY;
+    if (vectorEnd > 0) {
+      FloatVector m = FloatVector.fromArray(SPECIES, row, 0);
+      for (int x = LANES; x < vectorEnd; x += LANES) {
+        m = m.max(FloatVector.fromArray(SPECIES, row, x));
+      }
+      max = m.reduceLanes(VectorOperators.MAX);
+    }
+    for (int x = vectorEnd; x < length; x++) {
+      max = Math.max(max, row[x]);
+    }
+    FloatVector acc = FloatVector.zero(SPECIES);
+    for (int x = 0; x < vectorEnd; x += LANES) {
+      FloatVector p = VectorExp.expNonPositive(FloatVector.fromArray(SPECIES, row, x).sub(max));
+      p.intoArray(row, x);
+      acc = acc.add(p);
+    }
+    // lanes added in index order (reduceLanes(ADD) leaves the order open, so interpreted and
+    // compiled code could differ in the last bit): the same sum on every call
+    float[] lanes = new float[LANES];
+    acc.intoArray(lanes, 0);
+    float sum = 0f;
+    for (float lane : lanes) {
+      sum += lane;
+    }
+    for (int x = vectorEnd; x < length; x++) {
+      float p = FastExp.expNonPositive(row[x] - max);
+      row[x] = p;
+      sum += p;
+    }
+    return sum;
+  }
+}
