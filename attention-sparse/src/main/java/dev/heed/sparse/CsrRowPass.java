@@ -2,10 +2,10 @@ package dev.heed.sparse;
 
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.internal.FastExp;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
-import dev.heed.sparse.internal.FastExp;
 import dev.heed.sparse.internal.RowMath;
 import java.util.Arrays;
 
@@ -62,6 +62,7 @@ final class CsrRowPass {
   private final float[] out;
   private final float[] weights;
   private final boolean allHeads;
+  private final boolean gatherWideKeys;
 
   CsrRowPass(
       RowMath math,
@@ -104,6 +105,11 @@ final class CsrRowPass {
     this.value = value;
     this.out = out;
     this.weights = weights;
+    // Over a CSR graph the block's key rows are gathered first (many misses in flight at once;
+    // measured on R-MAT 1M, 8 x 8 dot and GATv2 scores: 1.5-1.8x faster than reading them in the
+    // scoring loop). Over the complete pattern they are consecutive rows already, and copying
+    // them only costs (n = 4096, 8 x 64 dot: 1.25x slower with the copy).
+    this.gatherWideKeys = csr != null;
     this.allHeads =
         allHeadsAllowed
             && kind == ADDITIVE
@@ -292,10 +298,10 @@ final class CsrRowPass {
         }
       }
       case GATV2 -> {
-        float[] gathered = gatherKeys(columns, count, sc);
+        float[] gathered = gatherWideKeys ? gatherKeys(columns, count, sc) : key;
         for (int t = 0; t < count; t++) {
           int j = columns[t];
-          int kb = t * keyWidth;
+          int kb = gatherWideKeys ? t * keyWidth : j * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
             float e = math.gatv2(attention, o, query, qb + o, gathered, kb + o, keyDim, slope);
@@ -304,10 +310,10 @@ final class CsrRowPass {
         }
       }
       default -> {
-        float[] gathered = gatherKeys(columns, count, sc);
+        float[] gathered = gatherWideKeys ? gatherKeys(columns, count, sc) : key;
         for (int t = 0; t < count; t++) {
           int j = columns[t];
-          int kb = t * keyWidth;
+          int kb = gatherWideKeys ? t * keyWidth : j * keyWidth;
           for (int h = 0; h < heads; h++) {
             int o = h * keyDim;
             float e = math.dot(query, qb + o, gathered, kb + o, keyDim) * dotScale;

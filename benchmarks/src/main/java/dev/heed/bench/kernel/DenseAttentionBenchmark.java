@@ -1,6 +1,8 @@
 package dev.heed.bench.kernel;
 
 import dev.heed.attention.AttentionKernel;
+import dev.heed.attention.AttentionKernels;
+import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.KernelOptions;
 import dev.heed.attention.ScoreFunction;
@@ -33,6 +35,8 @@ import org.openjdk.jmh.annotations.Warmup;
  * <ul>
  *   <li>{@code denseKernel}: {@code attend} over the complete pattern on n nodes, H heads of width
  *       d, Heed's node-major head-contiguous arrays in and out (repacking included), no weights.
+ *   <li>{@code sparseKernel}: the sparse (CSR) path over the same complete pattern and inputs, on
+ *       all cores (its cost grows with the n² entries, as the dense path's does).
  *   <li>{@code twoGemmsAlone}: per head, {@code S = Q_h·K_hᵀ} ({@code n×n}) and {@code O = S·V_h},
  *       each one {@code Nd4j.gemm} into a preallocated array, inputs already packed per head: the
  *       floor that the issue's "within 1.5× of its two matrix products" is measured against
@@ -42,8 +46,11 @@ import org.openjdk.jmh.annotations.Warmup;
  *       unlike {@code denseKernel}); it allocates its output, closed each time.
  * </ul>
  *
- * <p>Run: {@code java -jar benchmarks/target/benchmarks.jar DenseAttentionBenchmark}. Inputs are
- * seeded; results are returned to JMH. Forked JVMs cap ND4J's off-heap memory.
+ * <p>Run: {@code OMP_WAIT_POLICY=PASSIVE java -jar benchmarks/target/benchmarks.jar
+ * DenseAttentionBenchmark} (the forks inherit the environment; the {@code heed} launcher sets the
+ * same policy, and without it ND4J's idle OpenMP threads spin on the cores the Java code needs).
+ * Inputs are seeded; results are returned to JMH. Forked JVMs read the Vector API and cap ND4J's
+ * off-heap memory; {@code -p softmax=vector,nd4j} compares the kernel's two exponential routes.
  */
 @BenchmarkMode(Mode.AverageTime)
 @OutputTimeUnit(TimeUnit.MILLISECONDS)
@@ -52,6 +59,8 @@ import org.openjdk.jmh.annotations.Warmup;
 @Fork(
     value = 2,
     jvmArgsAppend = {
+      "--add-modules",
+      "jdk.incubator.vector",
       "-Xmx2g",
       "-Dorg.bytedeco.javacpp.maxphysicalbytes=6g",
       "-Dorg.bytedeco.javacpp.maxbytes=3g",
@@ -85,7 +94,16 @@ public class DenseAttentionBenchmark {
     @Param({"dot", "additive", "gatv2"})
     public String score;
 
+    /**
+     * {@code vector}: exponentials in Java on the Vector API (the default where the JVM reads
+     * {@code jdk.incubator.vector}); {@code nd4j}: ND4J's Exp and SoftMax ops ({@code
+     * -Dheed.dense.vector=false}, the route without the Vector API).
+     */
+    @Param({"vector"})
+    public String softmax;
+
     AttentionKernel kernel;
+    AttentionKernel sparseKernel;
     CompletePattern pattern;
     ScoreFunction scoreFunction;
     HeadShape shape;
@@ -101,6 +119,11 @@ public class DenseAttentionBenchmark {
      */
     @Setup(Level.Trial)
     public void setUp(Shape s) {
+      if (softmax.equals("nd4j")) {
+        System.setProperty("heed.dense.vector", "false");
+      } else if (!softmax.equals("vector")) {
+        throw new IllegalArgumentException("softmax must be vector or nd4j");
+      }
       Random random = new Random(SEED);
       int keyDim = score.equals("additive") ? 1 : s.headDim;
       shape = new HeadShape(s.heads, keyDim, s.headDim);
@@ -119,6 +142,12 @@ public class DenseAttentionBenchmark {
       kernel =
           new DenseAttentionKernelProvider()
               .create(KernelOptions.defaults().withDenseMemoryBudgetBytes(512L << 20));
+      sparseKernel = AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults());
+      String route = softmax.equals("vector") ? "Java vector" : "ND4J exp";
+      if (!kernel.describe().contains(route)) {
+        throw new IllegalStateException(
+            "asked for the " + softmax + " softmax but got " + kernel.describe());
+      }
     }
   }
 
@@ -194,6 +223,21 @@ public class DenseAttentionBenchmark {
   @Benchmark
   public float[] denseKernel(Shape s, KernelInput in) {
     in.kernel.attend(
+        in.pattern, in.scoreFunction, in.shape, in.query, in.key, in.value, in.out, null);
+    return in.out;
+  }
+
+  /**
+   * The sparse (CSR) kernel over the same complete pattern and inputs, on all cores: full
+   * self-attention as graph attention over the complete graph, for the comparison with ND4J's op.
+   *
+   * @param s the shape
+   * @param in the kernel's inputs
+   * @return the output, so the work is not dead code
+   */
+  @Benchmark
+  public float[] sparseKernel(Shape s, KernelInput in) {
+    in.sparseKernel.attend(
         in.pattern, in.scoreFunction, in.shape, in.query, in.key, in.value, in.out, null);
     return in.out;
   }
