@@ -79,8 +79,11 @@ final class DenseAttentionKernel implements AttentionKernel {
    */
   static final double UNSHIFTED_EXP_LIMIT = 60.0;
 
-  /** Below this many score terms per block (rows·n·keyDim), GATv2 scores stay on one thread. */
-  private static final long PARALLEL_GATV2_MIN_WORK = 1L << 18;
+  /**
+   * Below this many terms per block (rows·n·keyDim for GATv2 scores, rows·n for the softmax), Java
+   * work stays on the calling thread.
+   */
+  private static final long PARALLEL_MIN_WORK = 1L << 18;
 
   private final KernelOptions options;
   private final long targetBlockFloats;
@@ -126,7 +129,7 @@ final class DenseAttentionKernel implements AttentionKernel {
             : "Java " + rowSoftmax.describe() + " softmax")
         + "), budget "
         + options.denseMemoryBudgetBytes()
-        + " bytes, GATv2 score threads "
+        + " bytes, Java threads (GATv2 scores, softmax) "
         + options.threads()
         + ", BLAS threads process-wide";
   }
@@ -147,7 +150,8 @@ final class DenseAttentionKernel implements AttentionKernel {
       return;
     }
     boolean gatv2 = score instanceof ScoreFunction.Gatv2;
-    int javaThreads = gatv2 ? options.threads() : 1;
+    // Java threads: GATv2 scores, and the Vector API softmax (when the route is taken)
+    int javaThreads = gatv2 || rowSoftmax != null ? options.threads() : 1;
     DenseBlockPlan plan =
         DenseBlockPlan.of(
             n,
@@ -168,7 +172,7 @@ final class DenseAttentionKernel implements AttentionKernel {
           plan.bytesUsed());
     }
     ExecutorService pool =
-        javaThreads > 1 && (long) n * n * shape.keyDim() >= PARALLEL_GATV2_MIN_WORK
+        javaThreads > 1 && (long) n * n >= PARALLEL_MIN_WORK
             ? Executors.newFixedThreadPool(javaThreads - 1, DenseAttentionKernel::daemon)
             : null;
     // Allocate outside any workspace the caller has open, so close() below really frees.
@@ -198,7 +202,7 @@ final class DenseAttentionKernel implements AttentionKernel {
   }
 
   private static Thread daemon(Runnable r) {
-    Thread t = new Thread(r, "heed-dense-gatv2");
+    Thread t = new Thread(r, "heed-dense-worker");
     t.setDaemon(true);
     return t;
   }
@@ -347,7 +351,13 @@ final class DenseAttentionKernel implements AttentionKernel {
             }
           }
           if (rowSoftmax != null) {
-            softmaxRows(rows, scoreBuffer, row, sums);
+            forRowRanges(
+                rows,
+                (long) rows * n,
+                scoreBuffer,
+                workerRows,
+                (from, to, buffer, rowBuffer) -> softmaxRows(from, to, buffer, rowBuffer, sums),
+                "softmax");
           } else if (unshifted[h]) {
             Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
           } else {
@@ -390,13 +400,11 @@ final class DenseAttentionKernel implements AttentionKernel {
     }
 
     /**
-     * The Java route: each score row of the block is copied to the heap, replaced by {@code exp(s -
-     * rowMax)} and copied back; its sum goes to {@code sums}. One thread: measured here, a second
-     * Java thread gained nothing while the BLAS threads of the previous product were still
-     * spinning.
+     * The Java route for rows {@code from..to-1} of the block: each score row is copied to the
+     * heap, replaced by {@code exp(s - rowMax)} and copied back; its sum goes to {@code sums}.
      */
-    private void softmaxRows(int rows, FloatBuffer scoreBuffer, float[] row, float[] sums) {
-      for (int r = 0; r < rows; r++) {
+    private void softmaxRows(int from, int to, FloatBuffer scoreBuffer, float[] row, float[] sums) {
+      for (int r = from; r < to; r++) {
         scoreBuffer.get(r * n, row, 0, n);
         sums[r] = rowSoftmax.exponentiateShifted(row, n);
         scoreBuffer.put(r * n, row, 0, n);
@@ -569,8 +577,36 @@ final class DenseAttentionKernel implements AttentionKernel {
         linear[k] = a * 0.5f * (1f + slope);
         absolute[k] = a * 0.5f * (1f - slope);
       }
-      if (pool == null || (long) rows * n * keyDim < PARALLEL_GATV2_MIN_WORK) {
-        gatv2Rows(first, 0, rows, h, linear, absolute, scoreBuffer, workerRows[0]);
+      forRowRanges(
+          rows,
+          (long) rows * n * keyDim,
+          scoreBuffer,
+          workerRows,
+          (from, to, buffer, row) -> gatv2Rows(first, from, to, h, linear, absolute, buffer, row),
+          "GATv2 scores");
+    }
+
+    /**
+     * Work on rows {@code from..to-1} of a block, with its own view of the block and row buffer.
+     */
+    private interface RowRangeTask {
+      void run(int from, int to, FloatBuffer block, float[] row);
+    }
+
+    /**
+     * Runs {@code task} over rows {@code 0..rows-1} of the block, split in equal ranges over the
+     * calling thread and the call's pool when there is one and the work is at least {@link
+     * #PARALLEL_MIN_WORK}; each range gets its own view of the block and its own row buffer.
+     */
+    private void forRowRanges(
+        int rows,
+        long work,
+        FloatBuffer block,
+        float[][] workerRows,
+        RowRangeTask task,
+        String what) {
+      if (pool == null || work < PARALLEL_MIN_WORK) {
+        task.run(0, rows, block, workerRows[0]);
         return;
       }
       int parts = workers;
@@ -580,21 +616,20 @@ final class DenseAttentionKernel implements AttentionKernel {
         int from = p * chunk;
         int to = Math.min(rows, from + chunk);
         if (from < to) {
-          FloatBuffer view = scoreBuffer.duplicate();
+          FloatBuffer view = block.duplicate();
           float[] workerRow = workerRows[p];
-          pending.add(
-              pool.submit(() -> gatv2Rows(first, from, to, h, linear, absolute, view, workerRow)));
+          pending.add(pool.submit(() -> task.run(from, to, view, workerRow)));
         }
       }
-      gatv2Rows(first, 0, Math.min(rows, chunk), h, linear, absolute, scoreBuffer, workerRows[0]);
+      task.run(0, Math.min(rows, chunk), block, workerRows[0]);
       for (Future<?> f : pending) {
         try {
           f.get();
         } catch (InterruptedException e) {
           Thread.currentThread().interrupt();
-          throw new IllegalStateException("interrupted while computing GATv2 scores", e);
+          throw new IllegalStateException("interrupted while computing " + what, e);
         } catch (ExecutionException e) {
-          throw new IllegalStateException("GATv2 score worker failed", e.getCause());
+          throw new IllegalStateException(what + " worker failed", e.getCause());
         }
       }
     }

@@ -26,11 +26,12 @@ import java.util.Objects;
  *       (off-heap ND4J arrays plus Java scratch): the per-head repacked inputs plus one block of
  *       target rows. The block height is derived from it; a call that cannot fit even a one-row
  *       block throws {@link dev.heed.attention.MemoryBudgetExceededException}.
- *   <li>{@link KernelOptions#threads()} is <b>not</b> applied to the matrix products and softmax:
- *       those run on ND4J's and OpenBLAS's own thread pools, which are process-wide and set at
- *       start-up by {@code OMP_NUM_THREADS} (default: the core count). The kernel never changes
- *       that global setting. The GATv2 score loops, which run in Java, use up to {@code threads}
- *       threads of their own per call.
+ *   <li>{@link KernelOptions#threads()} is <b>not</b> applied to the matrix products (nor to ND4J's
+ *       exponential, on the route without the Vector API): those run on ND4J's and OpenBLAS's own
+ *       thread pools, which are process-wide and set at start-up by {@code OMP_NUM_THREADS}
+ *       (default: the core count). The kernel never changes that global setting. The work that runs
+ *       in Java (the GATv2 score loops and the Vector API softmax) uses up to {@code threads}
+ *       threads of its own per call.
  * </ul>
  *
  * <p>Thread safety: stateless; safe from any thread. The kernels it creates are immutable and may
@@ -54,7 +55,8 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
   /**
    * Creates a dense kernel with the given options. Cheap: no ND4J memory is allocated until a call.
    *
-   * @param options threads (for the GATv2 score loops only) and the dense memory budget
+   * @param options threads (for the Java work only: GATv2 scores, softmax) and the dense memory
+   *     budget
    * @return an immutable dense kernel
    * @throws NullPointerException if {@code options} is null
    */

@@ -390,6 +390,34 @@ class DenseAttentionKernelTest {
     }
   }
 
+  @ParameterizedTest(name = "{0}")
+  @MethodSource("kinds")
+  void softmaxThreadsGiveBitIdenticalResultsAndMatchFloat64(Kind kind) {
+    // n = 1100: a block's rows·n passes the threshold for splitting the Java softmax over threads,
+    // and 3 threads leave a short last range. Multithreaded results are compared with
+    // single-threaded ones (EJML habit, STYLE.md) and with the float64 reference
+    // (ReferenceAttention).
+    Random random = new Random(22 + kind.ordinal());
+    int n = 1100;
+    HeadShape shape = new HeadShape(2, kind == Kind.ADDITIVE ? 1 : 8, 8);
+    ScoreFunction score = scoreOf(kind, shape, random);
+    float[] q = randomArray(random, n * shape.keyWidth(), 1f);
+    float[] k = randomArray(random, n * shape.keyWidth(), 1f);
+    float[] v = randomArray(random, n * shape.valueWidth(), 1f);
+    for (AttentionPattern pattern :
+        new AttentionPattern[] {CompletePattern.of(n), randomMask(random, n, 0.5)}) {
+      float[] single = new float[n * shape.valueWidth()];
+      float[] multi = new float[n * shape.valueWidth()];
+      kernel(ONE_THREAD).attend(pattern, score, shape, q, k, v, single, null);
+      kernel(new KernelOptions(3, 64L << 20)).attend(pattern, score, shape, q, k, v, multi, null);
+      assertArrayEquals(single, multi, pattern.toString());
+      double error =
+          ReferenceAttention.relativeError(
+              ReferenceAttention.attend(pattern, score, shape, q, k, v).out(), multi);
+      assertTrue(error < TOLERANCE, "relative error " + error + " for " + pattern);
+    }
+  }
+
   @Test
   void concurrentCallersGetTheSameResults() throws Exception {
     Random random = new Random(31);
