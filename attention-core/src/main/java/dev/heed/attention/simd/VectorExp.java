@@ -14,9 +14,26 @@ import jdk.incubator.vector.VectorSpecies;
  * (a vector passed to a method that is not inlined is boxed, which the sparse kernel measured as
  * slow). Callers keep it in hot loops only.
  *
+ * <p><b>Every caller must pass vectors of {@link #SPECIES}.</b> Measured here on JDK 17: once the
+ * dense kernel passed 512-bit vectors and the sparse kernel 256-bit ones in the same JVM, the
+ * polluted type profile left this method off the intrinsic path, and both kernels ran 5-10x slower
+ * for the rest of the JVM's life (a sweep running both paths showed it; JMH forks running one
+ * kernel each did not).
+ *
  * <p>Thread safety: stateless.
  */
 public final class VectorExp {
+
+  /**
+   * The one species of every vector loop in Heed: 256 bits (8 floats, one 8-dim head) where the
+   * preferred shape is at least that wide (AVX2, AVX-512), else the preferred one. Not 512 bits
+   * even where the hardware has them: on JDK 17, methods mixing 512- and 256-bit vectors (needed
+   * for 8-float heads) left their vector operations on the slow, non-intrinsic path.
+   */
+  public static final VectorSpecies<Float> SPECIES =
+      FloatVector.SPECIES_PREFERRED.vectorBitSize() >= 256
+          ? FloatVector.SPECIES_256
+          : FloatVector.SPECIES_PREFERRED;
 
   private VectorExp() {}
 
@@ -24,8 +41,8 @@ public final class VectorExp {
    * Returns {@code e^x} in each lane, for lanes {@code x <= 0}; lanes below {@link
    * FastExp#LOWEST_ARGUMENT}, including {@code -Infinity}, give exactly 0.
    *
-   * @param x non-positive arguments
-   * @return the exponentials, in the species of {@code x}
+   * @param x non-positive arguments, of {@link #SPECIES}
+   * @return the exponentials, of {@link #SPECIES}
    */
   public static FloatVector expNonPositive(FloatVector x) {
     VectorSpecies<Float> species = x.species();

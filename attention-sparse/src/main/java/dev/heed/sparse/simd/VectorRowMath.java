@@ -23,17 +23,14 @@ import jdk.incubator.vector.VectorSpecies;
 public final class VectorRowMath implements RowMath {
 
   /**
-   * The species used everywhere: 256 bits (8 floats, one 8-dim head) where the preferred shape is
-   * at least that wide, else the preferred one. Not 512 bits even where the hardware has them:
-   * measured on JDK 17 here, a method mixing 512- and 256-bit vectors (needed for 8-float heads)
-   * left its 256-bit stores on the slow, non-intrinsic path, and Zen 4 runs 512-bit arithmetic as
-   * two 256-bit halves anyway (from memory). One species also keeps each method small enough for C2
-   * to compile whole.
+   * The species used everywhere, {@link VectorExp#SPECIES}: 256 bits (8 floats, one 8-dim head)
+   * where the preferred shape is at least that wide, else the preferred one. Not 512 bits even
+   * where the hardware has them: measured on JDK 17 here, a method mixing 512- and 256-bit vectors
+   * (needed for 8-float heads) left its 256-bit stores on the slow, non-intrinsic path, and a
+   * second species passed to the shared {@link VectorExp} slowed every vector loop in the JVM. One
+   * species also keeps each method small enough for C2 to compile whole.
    */
-  private static final VectorSpecies<Float> WIDE =
-      FloatVector.SPECIES_PREFERRED.vectorBitSize() >= 256
-          ? FloatVector.SPECIES_256
-          : FloatVector.SPECIES_PREFERRED;
+  private static final VectorSpecies<Float> WIDE = VectorExp.SPECIES;
 
   private static final int WIDE_LANES = WIDE.length();
 
