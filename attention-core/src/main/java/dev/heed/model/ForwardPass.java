@@ -69,7 +69,7 @@ final class ForwardPass {
       float[] query,
       float[] key,
       float[] value) {
-    AttentionKernel kernel = kernelFor(pattern);
+    AttentionKernel kernel = kernelFor(pattern, score);
     layerPath = kernel.path();
     float[] out = new float[nodeCount * shape.valueWidth()];
     float[] weights = null;
@@ -94,8 +94,8 @@ final class ForwardPass {
     return out;
   }
 
-  private AttentionKernel kernelFor(AttentionPattern pattern) {
-    ComputePath path = choice.pathFor(pattern);
+  private AttentionKernel kernelFor(AttentionPattern pattern, ScoreFunction score) {
+    ComputePath path = choice.pathFor(pattern, score);
     if (choice != PathChoice.AUTO) {
       return kernels.kernel(path);
     }

@@ -133,6 +133,11 @@ public final class GraphAttentionLayer extends Layer {
     return heads;
   }
 
+  /** The layer's score function (package-private: the path rule and its tests read it). */
+  ScoreFunction score() {
+    return score;
+  }
+
   /**
    * Returns the score function's name in model files.
    *

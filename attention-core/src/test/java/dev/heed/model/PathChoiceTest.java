@@ -23,17 +23,49 @@ import org.junit.jupiter.api.Test;
 class PathChoiceTest {
 
   @Test
-  void autoRuleFollowsPatternKindSizeAndDensity() {
-    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(CompletePattern.of(100_000)));
-    CsrGraph selfLoops = CsrGraph.of(new int[] {0, 1, 2, 3, 4}, new int[] {0, 1, 2, 3});
-    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(selfLoops)); // n = 4, density 4/16
-    CsrGraph half =
-        CsrGraph.of(new int[] {0, 2, 4, 6, 8}, new int[] {0, 1, 1, 2, 2, 3, 0, 3}); // density 8/16
-    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(half));
+  void autoRuleFollowsPatternKindSizeDensityAndScore() {
+    // The documented rule; its thresholds come from the crossover sweep in benchmarks/RESULTS.md.
+    ScoreFunction gat = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+    ScoreFunction dot = ScoreFunction.scaledDotProduct();
+    for (ScoreFunction score : new ScoreFunction[] {gat, dot}) {
+      assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(CompletePattern.of(100_000), score));
+      assertEquals(ComputePath.SPARSE, PathChoice.SPARSE.pathFor(CompletePattern.of(3), score));
+    }
     CsrGraph chain = CsrGraph.of(new int[] {0, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1}, new int[] {0});
-    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain)); // density 0.01
-    assertEquals(ComputePath.SPARSE, PathChoice.SPARSE.pathFor(CompletePattern.of(3)));
-    assertEquals(ComputePath.DENSE, PathChoice.DENSE.pathFor(chain));
+    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain, dot)); // density 0.01
+    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain, gat));
+    assertEquals(ComputePath.DENSE, PathChoice.DENSE.pathFor(chain, gat));
+    CsrGraph selfLoops = CsrGraph.of(new int[] {0, 1, 2, 3, 4}, new int[] {0, 1, 2, 3});
+    // density 4/16 = 0.25: above the dot-product threshold, below the additive one
+    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(selfLoops, dot));
+    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(selfLoops, gat));
+    CsrGraph threeQuarters =
+        CsrGraph.of(
+            new int[] {0, 3, 6, 9, 12},
+            new int[] {0, 1, 2, 1, 2, 3, 0, 2, 3, 0, 1, 3}); // density 12/16
+    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(threeQuarters, gat));
+    assertEquals(
+        ComputePath.DENSE,
+        PathChoice.AUTO.pathFor(threeQuarters, ScoreFunction.gatv2(0.2f, new float[] {1f})));
+  }
+
+  @Test
+  void autoSendsLargeGraphsToTheSparsePathExceptDenseDotProductOnes() {
+    int n = PathChoice.AUTO_DENSE_MAX_NODES + 1;
+    int degree = n; // every pair: density 1 without being the complete-pattern type
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * degree];
+    for (int i = 0; i < n; i++) {
+      offsets[i + 1] = (i + 1) * degree;
+      for (int j = 0; j < degree; j++) {
+        columns[i * degree + j] = j;
+      }
+    }
+    CsrGraph full = CsrGraph.of(offsets, columns);
+    ScoreFunction gat = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(full, gat));
+    assertEquals(
+        ComputePath.DENSE, PathChoice.AUTO.pathFor(full, ScoreFunction.scaledDotProduct()));
   }
 
   @Test
@@ -114,7 +146,8 @@ class PathChoiceTest {
       } else {
         boolean complete = layer instanceof SelfAttentionLayer s && s.attendsToAllNodes();
         ComputePath expected =
-            PathChoice.AUTO.pathFor(complete ? CompletePattern.of(graph.nodeCount()) : graph);
+            PathChoice.AUTO.pathFor(
+                complete ? CompletePattern.of(graph.nodeCount()) : graph, scoreOf(layer));
         assertEquals(Optional.of(expected), run.path(), run.toString());
       }
     }
@@ -137,5 +170,9 @@ class PathChoiceTest {
           run.path().isEmpty() || run.path().get() == ComputePath.SPARSE,
           "AUTO's fallback is reported: " + run);
     }
+  }
+
+  private static ScoreFunction scoreOf(Layer layer) {
+    return layer instanceof GraphAttentionLayer g ? g.score() : ScoreFunction.scaledDotProduct();
   }
 }
