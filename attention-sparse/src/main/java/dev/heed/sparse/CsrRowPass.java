@@ -152,28 +152,82 @@ final class CsrRowPass {
 
   /** Computes rows {@code from..to-1}. */
   void run(int from, int to, Scratch sc) {
+    if (allHeads && csr != null) {
+      runGrouped(from, to, sc);
+      return;
+    }
     for (int i = from; i < to; i++) {
       row(i, sc);
+    }
+  }
+
+  /**
+   * The all-heads path over a CSR graph: consecutive rows of 1 to {@link #BLOCK} entries are taken
+   * in groups of at most {@link #BLOCK} entries in all, whose key rows are gathered in one loop (on
+   * power-law graphs most rows are short, and a row's own few key loads leave the memory system
+   * idle); then each row of the group runs exactly the operations {@link #row} would, so results do
+   * not depend on the grouping, nor on how rows are split between threads.
+   */
+  private void runGrouped(int from, int to, Scratch sc) {
+    int i = from;
+    while (i < to) {
+      int start = csr.rowStart(i);
+      int degree = csr.rowEnd(i) - start;
+      if (degree == 0 || degree > BLOCK) {
+        row(i, sc);
+        i++;
+        continue;
+      }
+      int j = i + 1;
+      while (j < to && csr.rowEnd(j) > csr.rowStart(j) && csr.rowEnd(j) - start <= BLOCK) {
+        j++;
+      }
+      int count = csr.rowEnd(j - 1) - start;
+      int[] columns = blockColumns(start, count, sc);
+      float[] keys = gatherKeys(columns, count, sc);
+      for (int r = i; r < j; r++) {
+        int rowStart = csr.rowStart(r);
+        int rowDegree = csr.rowEnd(r) - rowStart;
+        beginRow(sc);
+        allHeadsBlock(r, columns, keys, rowStart - start, rowDegree, rowStart, sc);
+        finishRow(r, rowDegree, rowStart, sc);
+      }
+      i = j;
     }
   }
 
   private void row(int i, Scratch sc) {
     int start = csr == null ? 0 : csr.rowStart(i);
     int degree = csr == null ? n : csr.rowEnd(i) - start;
-    int outBase = i * valueWidth;
     if (degree == 0) {
+      int outBase = i * valueWidth;
       Arrays.fill(out, outBase, outBase + valueWidth, 0f);
       return;
     }
-    Arrays.fill(sc.acc, 0f);
-    Arrays.fill(sc.max, Float.NEGATIVE_INFINITY);
-    Arrays.fill(sc.sum, 0f);
+    beginRow(sc);
     long firstEntry = csr == null ? (long) i * n : start;
     if (allHeads) {
-      allHeadsBlocks(i, start, degree, firstEntry, sc);
+      for (int b = 0; b < degree; b += BLOCK) {
+        int count = Math.min(BLOCK, degree - b);
+        int[] columns = blockColumns(start + b, count, sc);
+        float[] keys = gatherKeys(columns, count, sc);
+        allHeadsBlock(i, columns, keys, 0, count, firstEntry + b, sc);
+      }
     } else {
       perHeadBlocks(i, start, degree, firstEntry, sc);
     }
+    finishRow(i, degree, firstEntry, sc);
+  }
+
+  private static void beginRow(Scratch sc) {
+    Arrays.fill(sc.acc, 0f);
+    Arrays.fill(sc.max, Float.NEGATIVE_INFINITY);
+    Arrays.fill(sc.sum, 0f);
+  }
+
+  /** Writes row i's output (and weights) from the running sums of its last block. */
+  private void finishRow(int i, int degree, long firstEntry, Scratch sc) {
+    int outBase = i * valueWidth;
     float[] acc = sc.acc;
     float[] m = sc.max;
     float[] l = sc.sum;
@@ -237,33 +291,33 @@ final class CsrRowPass {
     }
   }
 
-  /** The blocks of row i on the all-heads path: additive scores, 8 heads of 8 value floats. */
-  private void allHeadsBlocks(int i, int start, int degree, long firstEntry, Scratch sc) {
+  /**
+   * One block of row i on the all-heads path (additive scores, 8 heads of 8 value floats): its
+   * {@code count} entries have their columns at {@code columns[offset..]} and their key rows at
+   * {@code keys[offset·8..]}; {@code firstEntry} is the CSR index of the block's first entry.
+   */
+  private void allHeadsBlock(
+      int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     float[] s = sc.scores;
-    int[] rowBase = sc.rowBase;
     int qb = i * keyWidth;
-    for (int b = 0; b < degree; b += BLOCK) {
-      int count = Math.min(BLOCK, degree - b);
-      int[] columns = blockColumns(start + b, count, sc);
-      float[] gathered = gatherKeys(columns, count, sc);
-      if (!math.additiveScoresAllHeads(query, qb, gathered, count, slope, s)) {
-        for (int t = 0; t < count; t++) {
-          for (int h = 0; h < heads; h++) {
-            if (!Float.isFinite(s[t * heads + h])) {
-              s[t * heads + h] = exactScore(i, columns[t], h);
-            }
+    if (!math.additiveScoresAllHeads(query, qb, keys, offset * keyWidth, count, slope, s)) {
+      for (int t = 0; t < count; t++) {
+        for (int h = 0; h < heads; h++) {
+          if (!Float.isFinite(s[t * heads + h])) {
+            s[t * heads + h] = exactScore(i, columns[offset + t], h);
           }
         }
       }
-      if (weights != null) {
-        // the scratch is edge-major, like the weights array
-        System.arraycopy(s, 0, weights, (int) ((firstEntry + b) * heads), count * heads);
-      }
-      for (int t = 0; t < count; t++) {
-        rowBase[t] = columns[t] * valueWidth;
-      }
-      math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, value, sc.acc, sc.work);
     }
+    if (weights != null) {
+      // the scratch is edge-major, like the weights array
+      System.arraycopy(s, 0, weights, (int) (firstEntry * heads), count * heads);
+    }
+    int[] rowBase = sc.rowBase;
+    for (int t = 0; t < count; t++) {
+      rowBase[t] = columns[offset + t] * valueWidth;
+    }
+    math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, value, sc.acc, sc.work);
   }
 
   /** The source node of entries {@code first..first+count-1}, into the scratch. */

@@ -119,11 +119,17 @@ final class ScalarRowMath implements RowMath {
 
   @Override
   public boolean additiveScoresAllHeads(
-      float[] q, int qOffset, float[] keys, int count, float negativeSlope, float[] s) {
+      float[] q,
+      int qOffset,
+      float[] keys,
+      int keysOffset,
+      int count,
+      float negativeSlope,
+      float[] s) {
     boolean finite = true;
     for (int t = 0; t < count; t++) {
       for (int h = 0; h < ALL_HEADS; h++) {
-        float z = q[qOffset + h] + keys[t * ALL_HEADS + h];
+        float z = q[qOffset + h] + keys[keysOffset + t * ALL_HEADS + h];
         float e = Math.max(z, z * negativeSlope);
         s[t * ALL_HEADS + h] = e;
         finite &= Float.isFinite(e);

@@ -216,8 +216,8 @@ class CsrAllHeadsPathTest {
       }
       float[] sv = new float[count * h];
       float[] ss = new float[count * h];
-      assertTrue(vector.additiveScoresAllHeads(q, 3, keys, count, 0.2f, sv), where);
-      assertTrue(scalar.additiveScoresAllHeads(q, 3, keys, count, 0.2f, ss), where);
+      assertTrue(vector.additiveScoresAllHeads(q, 3, keys, 0, count, 0.2f, sv), where);
+      assertTrue(scalar.additiveScoresAllHeads(q, 3, keys, 0, count, 0.2f, ss), where);
       assertArrayEquals(ss, sv, "scores, " + where);
       float[] maxV = new float[h];
       float[] sumV = new float[h];
@@ -244,8 +244,8 @@ class CsrAllHeadsPathTest {
     // an overflowing score is reported, not hidden
     float[] big = {3e38f, 3e38f, 0f, 0f, 0f, 0f, 0f, 0f};
     float[] s = new float[h];
-    assertFalse(vector.additiveScoresAllHeads(big, 0, big, 1, 0.2f, s));
-    assertFalse(scalar.additiveScoresAllHeads(big, 0, big, 1, 0.2f, s));
+    assertFalse(vector.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
+    assertFalse(scalar.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
   }
 
   private static double relativeError(float[] reference, float[] actual) {

@@ -149,20 +149,27 @@ public interface RowMath {
 
   /**
    * Writes the additive (GAT) scores of all {@link #ALL_HEADS} heads of a block of entries,
-   * edge-major: {@code s[t·8 + h] = LeakyReLU(q[qOffset + h] + keys[t·8 + h])} for {@code t <
-   * count} (Veličković et al. 2018, eq. 3, with the concatenation split into query and key terms),
-   * computed as {@code max(z, z · negativeSlope)}.
+   * edge-major: {@code s[t·8 + h] = LeakyReLU(q[qOffset + h] + keys[keysOffset + t·8 + h])} for
+   * {@code t < count} (Veličković et al. 2018, eq. 3, with the concatenation split into query and
+   * key terms), computed as {@code max(z, z · negativeSlope)}.
    *
    * @param q input, not modified: the target's query terms
    * @param qOffset offset of head 0's term in {@code q}
-   * @param keys input, not modified: the block's key rows, row t at {@code t · 8}
+   * @param keys input, not modified: the block's key rows, row t at {@code keysOffset + t · 8}
+   * @param keysOffset offset of entry 0's key row in {@code keys}
    * @param count number of entries, at least 1
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
    * @param s output: {@code count · 8} scores
    * @return true if every score is finite; if false, the caller recomputes the non-finite ones
    */
   boolean additiveScoresAllHeads(
-      float[] q, int qOffset, float[] keys, int count, float negativeSlope, float[] s);
+      float[] q,
+      int qOffset,
+      float[] keys,
+      int keysOffset,
+      int count,
+      float negativeSlope,
+      float[] s);
 
   /**
    * One block of the online softmax and weighted sum for {@link #ALL_HEADS} heads of {@link

@@ -244,13 +244,19 @@ public final class VectorRowMath implements RowMath {
 
   @Override
   public boolean additiveScoresAllHeads(
-      float[] q, int qOffset, float[] keys, int count, float negativeSlope, float[] s) {
+      float[] q,
+      int qOffset,
+      float[] keys,
+      int keysOffset,
+      int count,
+      float negativeSlope,
+      float[] s) {
     assert WIDE_LANES == ALL_HEADS;
     FloatVector query = FloatVector.fromArray(WIDE, q, qOffset);
     // e · 0 is 0 for finite e and NaN for infinite or NaN e, so one NaN lane marks a bad score
     FloatVector check = FloatVector.zero(WIDE);
     for (int t = 0; t < count; t++) {
-      FloatVector z = query.add(FloatVector.fromArray(WIDE, keys, t * ALL_HEADS));
+      FloatVector z = query.add(FloatVector.fromArray(WIDE, keys, keysOffset + t * ALL_HEADS));
       FloatVector e = z.max(z.mul(negativeSlope));
       e.intoArray(s, t * ALL_HEADS);
       check = check.add(e.mul(0f));
