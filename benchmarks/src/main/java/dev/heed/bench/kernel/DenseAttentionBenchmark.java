@@ -13,6 +13,7 @@ import java.util.concurrent.TimeUnit;
 import org.nd4j.linalg.api.buffer.DataType;
 import org.nd4j.linalg.api.ndarray.INDArray;
 import org.nd4j.linalg.api.ops.impl.transforms.custom.DotProductAttention;
+import org.nd4j.linalg.api.ops.impl.transforms.custom.MultiHeadDotProductAttention;
 import org.nd4j.linalg.factory.Nd4j;
 import org.openjdk.jmh.annotations.Benchmark;
 import org.openjdk.jmh.annotations.BenchmarkMode;
@@ -41,6 +42,11 @@ import org.openjdk.jmh.annotations.Warmup;
  *       each one {@code Nd4j.gemm} into a preallocated array, inputs already packed per head: the
  *       floor that the issue's "within 1.5× of its two matrix products" is measured against
  *       (2·2·n²·d flops per head). Does not depend on the score function.
+ *   <li>{@code denseKernelWithProjections}, {@code sparseKernelWithProjections} and {@code
+ *       nd4jMultiHeadAttention}: a whole multi-head self-attention with its four projections
+ *       ({@code H·d × H·d} each), Heed's dense or sparse path with ND4J gemms around it against
+ *       ND4J's {@code MultiHeadDotProductAttention} op on the same features and weights (the setup
+ *       checks that the dense path and ND4J's op give the same output).
  *   <li>{@code nd4jDotProductAttention}: ND4J's {@code DotProductAttention} op (scaled), heads as
  *       the batch: q, k, v {@code [H, d, n]} prepared in setup (so ND4J pays no layout conversion,
  *       unlike {@code denseKernel}); it allocates its output, closed each time.
@@ -151,6 +157,109 @@ public class DenseAttentionBenchmark {
     }
   }
 
+  /**
+   * Full multi-head self-attention with its four projections, for the comparison with ND4J's {@code
+   * MultiHeadDotProductAttention} op: node features {@code x} of width {@code H·d}, weights {@code
+   * Wq, Wk, Wv} ({@code H·d × H·d}, one {@code d}-column slice per head) and {@code Wo}.
+   */
+  @State(Scope.Benchmark)
+  public static class ProjectedInput {
+    AttentionKernel kernel;
+    AttentionKernel sparseKernel;
+    HeadShape shape;
+    INDArray x;
+    INDArray wq;
+    INDArray wk;
+    INDArray wv;
+    INDArray wo;
+    INDArray q;
+    INDArray k;
+    INDArray v;
+    INDArray attended;
+    INDArray out;
+    float[] query;
+    float[] key;
+    float[] value;
+    float[] heads;
+    INDArray batchedX;
+    INDArray headWq;
+    INDArray headWk;
+    INDArray headWv;
+
+    @Setup(Level.Trial)
+    public void setUp(Shape s) {
+      Random random = new Random(SEED + 1);
+      int width = s.heads * s.headDim;
+      shape = new HeadShape(s.heads, s.headDim, s.headDim);
+      kernel =
+          new DenseAttentionKernelProvider()
+              .create(KernelOptions.defaults().withDenseMemoryBudgetBytes(512L << 20));
+      sparseKernel = AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults());
+      float scale = (float) (1 / Math.sqrt(width));
+      float[] xs = scaled(random(random, s.n * width), 1f);
+      float[] wqs = scaled(random(random, width * width), scale);
+      float[] wks = scaled(random(random, width * width), scale);
+      float[] wvs = scaled(random(random, width * width), scale);
+      float[] wos = scaled(random(random, width * width), scale);
+      x = Nd4j.create(xs, new long[] {s.n, width}, 'c');
+      wq = Nd4j.create(wqs, new long[] {width, width}, 'c');
+      wk = Nd4j.create(wks, new long[] {width, width}, 'c');
+      wv = Nd4j.create(wvs, new long[] {width, width}, 'c');
+      wo = Nd4j.create(wos, new long[] {width, width}, 'c');
+      q = Nd4j.create(DataType.FLOAT, new long[] {s.n, width}, 'c');
+      k = Nd4j.create(DataType.FLOAT, new long[] {s.n, width}, 'c');
+      v = Nd4j.create(DataType.FLOAT, new long[] {s.n, width}, 'c');
+      attended = Nd4j.create(DataType.FLOAT, new long[] {s.n, width}, 'c');
+      out = Nd4j.create(DataType.FLOAT, new long[] {s.n, width}, 'c');
+      query = new float[s.n * width];
+      key = new float[s.n * width];
+      value = new float[s.n * width];
+      heads = new float[s.n * width];
+      // ND4J's layout: x as [1, nIn, n]; per-head weights [H, d, nIn] with row (h, c) = column
+      // h·d + c of W; Wo as [H·d, nOut]
+      batchedX = x.transpose().dup('c').reshape(1, width, s.n);
+      headWq = wq.transpose().dup('c').reshape(s.heads, s.headDim, width);
+      headWk = wk.transpose().dup('c').reshape(s.heads, s.headDim, width);
+      headWv = wv.transpose().dup('c').reshape(s.heads, s.headDim, width);
+      checkSameResult(s);
+    }
+
+    /** Both benchmarks must compute the same thing: compare their outputs once. */
+    private void checkSameResult(Shape s) {
+      INDArray heed = new DenseAttentionBenchmark().denseKernelWithProjections(s, this).dup();
+      INDArray nd4j =
+          Nd4j.exec(
+              new MultiHeadDotProductAttention(
+                  batchedX, batchedX, batchedX, headWq, headWk, headWv, wo, null, true))[0];
+      INDArray nd4jNodeMajor = nd4j.reshape(heed.columns(), s.n).transpose();
+      double error =
+          nd4jNodeMajor.sub(heed).norm2Number().doubleValue() / heed.norm2Number().doubleValue();
+      nd4j.close();
+      heed.close();
+      if (!(error < 1e-4)) {
+        throw new IllegalStateException(
+            "Heed and ND4J's multi-head attention disagree: relative error " + error);
+      }
+    }
+
+    @TearDown(Level.Trial)
+    public void tearDown() {
+      for (INDArray a :
+          new INDArray[] {
+            x, wq, wk, wv, wo, q, k, v, attended, out, batchedX, headWq, headWk, headWv
+          }) {
+        a.close();
+      }
+    }
+  }
+
+  private static float[] scaled(float[] a, float factor) {
+    for (int i = 0; i < a.length; i++) {
+      a[i] *= factor;
+    }
+    return a;
+  }
+
   /** Per-head packed inputs and preallocated outputs for the gemm floor and ND4J's op. */
   @State(Scope.Benchmark)
   public static class PackedInput {
@@ -256,6 +365,79 @@ public class DenseAttentionBenchmark {
       Nd4j.gemm(in.scores, in.value[h], in.out, false, false, 1.0, 0.0);
     }
     return in.out;
+  }
+
+  /**
+   * Heed's dense path with the four projections around it, as a self-attention layer runs it: three
+   * gemms {@code X·W}, copies into Heed's arrays, the kernel, the output gemm.
+   *
+   * @param s the shape
+   * @param in inputs and weights
+   * @return the output
+   */
+  @Benchmark
+  public INDArray denseKernelWithProjections(Shape s, ProjectedInput in) {
+    return withProjections(s, in, in.kernel);
+  }
+
+  /**
+   * The same with the sparse (CSR) path over the complete pattern.
+   *
+   * @param s the shape
+   * @param in inputs and weights
+   * @return the output
+   */
+  @Benchmark
+  public INDArray sparseKernelWithProjections(Shape s, ProjectedInput in) {
+    return withProjections(s, in, in.sparseKernel);
+  }
+
+  private static INDArray withProjections(Shape s, ProjectedInput in, AttentionKernel kernel) {
+    Nd4j.gemm(in.x, in.wq, in.q, false, false, 1.0, 0.0);
+    Nd4j.gemm(in.x, in.wk, in.k, false, false, 1.0, 0.0);
+    Nd4j.gemm(in.x, in.wv, in.v, false, false, 1.0, 0.0);
+    in.q.data().asNioFloat().get(0, in.query);
+    in.k.data().asNioFloat().get(0, in.key);
+    in.v.data().asNioFloat().get(0, in.value);
+    kernel.attend(
+        CompletePattern.of(s.n),
+        ScoreFunction.scaledDotProduct(),
+        in.shape,
+        in.query,
+        in.key,
+        in.value,
+        in.heads,
+        null);
+    in.attended.data().asNioFloat().put(0, in.heads);
+    Nd4j.gemm(in.attended, in.wo, in.out, false, false, 1.0, 0.0);
+    return in.out;
+  }
+
+  /**
+   * ND4J's own {@code MultiHeadDotProductAttention} op (scaled) on the same features and weights:
+   * its projections, attention and output projection in one call.
+   *
+   * @param s the shape
+   * @param in inputs and weights
+   * @return a probe of the output, so the work is not dead code
+   */
+  @Benchmark
+  public double nd4jMultiHeadAttention(Shape s, ProjectedInput in) {
+    INDArray result =
+        Nd4j.exec(
+            new MultiHeadDotProductAttention(
+                in.batchedX,
+                in.batchedX,
+                in.batchedX,
+                in.headWq,
+                in.headWk,
+                in.headWv,
+                in.wo,
+                null,
+                true))[0];
+    double probe = result.getDouble(0L) + result.getDouble(result.length() - 1);
+    result.close();
+    return probe;
   }
 
   /**
