@@ -4,6 +4,7 @@ import dev.heed.attention.internal.FastExp;
 import dev.heed.attention.internal.RowSoftmax;
 import jdk.incubator.vector.FloatVector;
 import jdk.incubator.vector.VectorOperators;
+import jdk.incubator.vector.VectorShuffle;
 import jdk.incubator.vector.VectorSpecies;
 
 /**
@@ -22,6 +23,13 @@ public final class VectorRowSoftmax implements RowSoftmax {
   // the species the sparse kernel uses too: see VectorExp on mixing species in one JVM
   private static final VectorSpecies<Float> SPECIES = VectorExp.SPECIES;
   private static final int LANES = SPECIES.length();
+
+  // lane permutations i -> i xor 4, 2, 1 for the pairwise horizontal sum (8 or 4 lanes)
+  private static final VectorShuffle<Float> XOR4 =
+      VectorShuffle.fromOp(SPECIES, i -> LANES >= 8 ? i ^ 4 : i);
+  private static final VectorShuffle<Float> XOR2 =
+      VectorShuffle.fromOp(SPECIES, i -> LANES >= 4 ? i ^ 2 : i);
+  private static final VectorShuffle<Float> XOR1 = VectorShuffle.fromOp(SPECIES, i -> i ^ 1);
 
   private VectorRowSoftmax() {}
 
@@ -67,14 +75,15 @@ public final class VectorRowSoftmax implements RowSoftmax {
       p.intoArray(row, x);
       acc = acc.add(p);
     }
-    // lanes added in index order (reduceLanes(ADD) leaves the order open, so interpreted and
-    // compiled code could differ in the last bit): the same sum on every call
-    float[] lanes = new float[LANES];
-    acc.intoArray(lanes, 0);
-    float sum = 0f;
-    for (float lane : lanes) {
-      sum += lane;
+    // a fixed pairwise tree of lane-wise adds (reduceLanes(ADD) leaves the order open, so
+    // interpreted and compiled code could differ in the last bit): the same sum on every call,
+    // and no allocation per row
+    if (LANES >= 8) {
+      acc = acc.add(acc.rearrange(XOR4));
     }
+    acc = acc.add(acc.rearrange(XOR2));
+    acc = acc.add(acc.rearrange(XOR1));
+    float sum = acc.lane(0);
     for (int x = vectorEnd; x < length; x++) {
       float p = FastExp.expNonPositive(row[x] - max);
       row[x] = p;
