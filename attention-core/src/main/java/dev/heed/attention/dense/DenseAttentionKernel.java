@@ -47,11 +47,16 @@ import org.slf4j.LoggerFactory;
  *   <li>A CSR pattern is a 0/1 mask: a bias block holding 0 for allowed and -∞ for other pairs is
  *       added after the score (and after LeakyReLU, so a slope of 0 never meets -∞), and softmax
  *       gives those pairs exactly 0. Rows with no allowed source get a zero output row.
- *   <li>Softmax, one ND4J call over the whole block: when a bound from the input norms shows that
- *       no score of the head exceeds {@link #UNSHIFTED_EXP_LIMIT} in magnitude, just {@code exp}
- *       (no row maximum, no normalising pass); otherwise ND4J's native softmax, which subtracts the
- *       row maximum (common practice). Then {@code [out_blk, rowSum] = P·[V_h, 1]}, one gemm into a
- *       preallocated array, and the rows are divided by their sums while being copied out.
+ *   <li>Softmax, where the JVM reads the Vector API ({@link RowSoftmaxes}): each score row of the
+ *       block is copied to the heap, replaced by {@code exp(s - rowMax)} (common practice: the row
+ *       maximum keeps every term in [0, 1]) and summed in Java, on up to {@code options.threads()}
+ *       threads, and copied back; then {@code out_blk = P·V_h}, one gemm into a preallocated array,
+ *       and the rows are divided by their sums while being copied out. Measured several times
+ *       faster than ND4J's element-wise {@code Exp}.
+ *   <li>Without the Vector API, one ND4J call over the whole block: when a bound from the input
+ *       norms shows that no score of the head exceeds {@link #UNSHIFTED_EXP_LIMIT} in magnitude,
+ *       just {@code exp} (no row maximum, no normalising pass); otherwise ND4J's native softmax.
+ *       Then {@code [out_blk, rowSum] = P·[V_h, 1]} yields the row sums too.
  *   <li>Scores or sums that overflow float32 (inputs of huge magnitude) raise an {@link
  *       IllegalArgumentException} rather than returning NaN.
  * </ul>
@@ -172,7 +177,7 @@ final class DenseAttentionKernel implements AttentionKernel {
           plan.bytesUsed());
     }
     ExecutorService pool =
-        javaThreads > 1 && (long) n * n >= PARALLEL_MIN_WORK
+        javaThreads > 1 && (long) n * n * (gatv2 ? shape.keyDim() : 1) >= PARALLEL_MIN_WORK
             ? Executors.newFixedThreadPool(javaThreads - 1, DenseAttentionKernel::daemon)
             : null;
     // Allocate outside any workspace the caller has open, so close() below really frees.
