@@ -28,6 +28,11 @@ import java.util.Arrays;
  * {@link RowMath#softmaxAccumulateAllHeads}). The general path reads the block's value rows once
  * per head.
  *
+ * <p>Key rows are gathered into scratch first, one vector load and store per row, so that many
+ * cache misses are in flight before the scores need them; on the all-heads path consecutive short
+ * rows share one gather loop. Over the complete pattern the keys are consecutive rows already and
+ * are read in place.
+ *
  * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
  * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
  * softmax.
