@@ -1,7 +1,7 @@
 package dev.heed.sparse;
 
+import dev.heed.attention.internal.VectorApiLoader;
 import dev.heed.sparse.internal.RowMath;
-import java.lang.reflect.InvocationTargetException;
 import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
 
@@ -13,9 +13,6 @@ import org.slf4j.LoggerFactory;
  * <p>Thread safety: the holder idiom makes the one-time choice safe; everything else is stateless.
  */
 final class RowMaths {
-
-  /** The JVM flag that makes the Vector API readable. */
-  static final String VECTOR_FLAG = "--add-modules jdk.incubator.vector";
 
   /**
    * System property that, set to {@code false}, keeps the kernel on the scalar loops even when the
@@ -30,7 +27,6 @@ final class RowMaths {
    */
   static final String ALL_HEADS_PROPERTY = "heed.sparse.allHeads";
 
-  private static final String VECTOR_MODULE = "jdk.incubator.vector";
   private static final String VECTOR_CLASS = "dev.heed.sparse.simd.VectorRowMath";
   private static final Logger LOG = LoggerFactory.getLogger(RowMaths.class);
 
@@ -61,36 +57,17 @@ final class RowMaths {
   }
 
   private static RowMath choose() {
-    if ("false".equalsIgnoreCase(System.getProperty(VECTOR_PROPERTY))) {
-      LOG.info(
-          "CSR attention uses its scalar loops: the Vector API implementation was switched off"
-              + " with -D{}=false",
-          VECTOR_PROPERTY);
+    RowMath vector =
+        VectorApiLoader.load(
+            RowMath.class,
+            VECTOR_CLASS,
+            VECTOR_PROPERTY,
+            "CSR attention runs its slower scalar loops",
+            LOG);
+    if (vector == null) {
       return ScalarRowMath.INSTANCE;
     }
-    if (ModuleLayer.boot().findModule(VECTOR_MODULE).isEmpty()) {
-      LOG.warn(
-          "The Java Vector API is not enabled, so CSR attention runs its slower scalar loops."
-              + " Start the JVM with {} to use the vector implementation.",
-          VECTOR_FLAG);
-      return ScalarRowMath.INSTANCE;
-    }
-    try {
-      RowMath vector = (RowMath) Class.forName(VECTOR_CLASS).getMethod("create").invoke(null);
-      LOG.debug("CSR attention uses {}", vector.describe());
-      return vector;
-    } catch (InvocationTargetException e) {
-      LOG.warn(
-          "The Java Vector API is enabled but cannot be used here ({}); CSR attention runs its"
-              + " scalar loops",
-          e.getCause().toString());
-    } catch (ReflectiveOperationException | LinkageError | ClassCastException e) {
-      LOG.warn(
-          "The vector implementation of CSR attention could not be loaded ({}); it runs its"
-              + " scalar loops. Check that the JVM was started with {}",
-          e.toString(),
-          VECTOR_FLAG);
-    }
-    return ScalarRowMath.INSTANCE;
+    LOG.debug("CSR attention uses {}", vector.describe());
+    return vector;
   }
 }

@@ -7,6 +7,7 @@ import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.KernelOptions;
+import dev.heed.attention.internal.VectorApiLoader;
 import java.util.regex.Matcher;
 import java.util.regex.Pattern;
 import org.junit.jupiter.api.Test;
@@ -23,7 +24,7 @@ class RowMathSelectionTest {
       assertTrue(
           chosen.startsWith("vector("),
           "expected the Vector API implementation (the test JVM has "
-              + RowMaths.VECTOR_FLAG
+              + VectorApiLoader.VECTOR_FLAG
               + "), but "
               + chosen
               + " was chosen");

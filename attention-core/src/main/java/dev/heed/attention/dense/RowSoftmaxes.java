@@ -1,7 +1,7 @@
 package dev.heed.attention.dense;
 
 import dev.heed.attention.internal.RowSoftmax;
-import java.lang.reflect.InvocationTargetException;
+import dev.heed.attention.internal.VectorApiLoader;
 import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
 
@@ -16,16 +16,12 @@ import org.slf4j.LoggerFactory;
  */
 final class RowSoftmaxes {
 
-  /** The JVM flag that makes the Vector API readable. */
-  static final String VECTOR_FLAG = "--add-modules jdk.incubator.vector";
-
   /**
    * System property that, set to {@code false}, keeps the dense kernel on ND4J's exponential even
    * when the Vector API is readable (for comparisons and benchmarks). Read once, on first use.
    */
   static final String VECTOR_PROPERTY = "heed.dense.vector";
 
-  private static final String VECTOR_MODULE = "jdk.incubator.vector";
   private static final String VECTOR_CLASS = "dev.heed.attention.simd.VectorRowSoftmax";
   private static final Logger LOG = LoggerFactory.getLogger(RowSoftmaxes.class);
 
@@ -45,36 +41,16 @@ final class RowSoftmaxes {
   }
 
   private static RowSoftmax choose() {
-    if ("false".equalsIgnoreCase(System.getProperty(VECTOR_PROPERTY))) {
-      LOG.info(
-          "Dense attention uses ND4J's exponential: the Vector API softmax was switched off with"
-              + " -D{}=false",
-          VECTOR_PROPERTY);
-      return null;
-    }
-    if (ModuleLayer.boot().findModule(VECTOR_MODULE).isEmpty()) {
-      LOG.warn(
-          "The Java Vector API is not enabled, so dense attention takes its exponentials with"
-              + " ND4J's slower op. Start the JVM with {} to use the vector softmax.",
-          VECTOR_FLAG);
-      return null;
-    }
-    try {
-      RowSoftmax vector = (RowSoftmax) Class.forName(VECTOR_CLASS).getMethod("create").invoke(null);
+    RowSoftmax vector =
+        VectorApiLoader.load(
+            RowSoftmax.class,
+            VECTOR_CLASS,
+            VECTOR_PROPERTY,
+            "dense attention takes its exponentials with ND4J's slower op",
+            LOG);
+    if (vector != null) {
       LOG.debug("Dense attention softmax: {}", vector.describe());
-      return vector;
-    } catch (InvocationTargetException e) {
-      LOG.warn(
-          "The Java Vector API is enabled but cannot be used here ({}); dense attention takes its"
-              + " exponentials with ND4J",
-          e.getCause().toString());
-    } catch (ReflectiveOperationException | LinkageError | ClassCastException e) {
-      LOG.warn(
-          "The vector softmax of dense attention could not be loaded ({}); it uses ND4J's"
-              + " exponential. Check that the JVM was started with {}",
-          e.toString(),
-          VECTOR_FLAG);
     }
-    return null;
+    return vector;
   }
 }

@@ -254,9 +254,9 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
      * @throws IllegalArgumentException if a setting is out of range
      */
     public GraphAttentionTrainingLayer build() {
-      checkPositive("inputWidth", inputWidth);
-      checkPositive("heads", heads);
-      checkPositive("headWidth", headWidth);
+      LayerMath.checkPositive("inputWidth", inputWidth);
+      LayerMath.checkPositive("heads", heads);
+      LayerMath.checkPositive("headWidth", headWidth);
       if (scoreKind == null || scoreKind == AttentionScore.Kind.SCALED_DOT_PRODUCT) {
         throw new IllegalArgumentException(
             "graph attention scores must be ADDITIVE (GAT) or GATV2, got "
@@ -273,10 +273,6 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
             "heads * headWidth = " + (long) heads * headWidth + " is too large");
       }
       return new GraphAttentionTrainingLayer(this);
-    }
-
-    private static void checkPositive(String name, int value) {
-      LayerMath.checkPositive(name, value);
     }
   }
 

@@ -1,0 +1,74 @@
+package dev.heed.attention.internal;
+
+import java.lang.reflect.InvocationTargetException;
+import org.slf4j.Logger;
+
+/**
+ * Loads a kernel's Vector API implementation by name, once, or says why it cannot: the JVM does not
+ * read {@code jdk.incubator.vector}, a system property switched it off, or the implementation
+ * refused this machine. The implementation classes are compiled in a separate pass against the
+ * module and never referenced directly, so the rest of Heed runs without it. Internal, not API.
+ *
+ * <p>Thread safety: stateless.
+ */
+public final class VectorApiLoader {
+
+  /** The JVM flag that makes the Vector API readable. */
+  public static final String VECTOR_FLAG = "--add-modules jdk.incubator.vector";
+
+  private static final String VECTOR_MODULE = "jdk.incubator.vector";
+
+  private VectorApiLoader() {}
+
+  /**
+   * Returns the vector implementation, or null for the fallback; logs once which was chosen and why
+   * (INFO when switched off, WARN naming {@link #VECTOR_FLAG} when the module is missing or the
+   * class cannot be used, DEBUG on success).
+   *
+   * @param type the interface the implementation provides
+   * @param className the implementation, with a public static {@code create()} method that returns
+   *     it or throws {@link UnsupportedOperationException} with a reason
+   * @param switchProperty system property that, set to {@code false}, selects the fallback
+   * @param fallback what runs instead, completing "so ..." (for example "CSR attention runs its
+   *     slower scalar loops")
+   * @param log the caller's logger
+   * @param <T> the interface type
+   * @return the implementation, or null
+   */
+  public static <T> T load(
+      Class<T> type, String className, String switchProperty, String fallback, Logger log) {
+    if ("false".equalsIgnoreCase(System.getProperty(switchProperty))) {
+      log.info(
+          "The Vector API implementation was switched off with -D{}=false, so {}",
+          switchProperty,
+          fallback);
+      return null;
+    }
+    if (ModuleLayer.boot().findModule(VECTOR_MODULE).isEmpty()) {
+      log.warn(
+          "The Java Vector API is not enabled, so {}. Start the JVM with {} to use the vector"
+              + " implementation.",
+          fallback,
+          VECTOR_FLAG);
+      return null;
+    }
+    try {
+      T vector = type.cast(Class.forName(className).getMethod("create").invoke(null));
+      log.debug("Loaded the Vector API implementation {}", className);
+      return vector;
+    } catch (InvocationTargetException e) {
+      log.warn(
+          "The Java Vector API is enabled but cannot be used here ({}), so {}",
+          e.getCause().toString(),
+          fallback);
+    } catch (ReflectiveOperationException | LinkageError | ClassCastException e) {
+      log.warn(
+          "{} could not be loaded ({}), so {}. Check that the JVM was started with {}",
+          className,
+          e.toString(),
+          fallback,
+          VECTOR_FLAG);
+    }
+    return null;
+  }
+}
