@@ -208,10 +208,7 @@ final class CsrRowPass {
         float[] keys = gatherKeys(columns, count, sc);
         for (int r = i; r < j; r++) {
           int rowStart = csr.rowStart(r);
-          int rowDegree = csr.rowEnd(r) - rowStart;
-          beginRow(sc);
-          allHeadsBlock(r, columns, keys, rowStart - start, rowDegree, rowStart, sc);
-          finishRow(r, rowDegree, rowStart, sc);
+          allHeadsRow(r, columns, keys, rowStart - start, csr.rowEnd(r) - rowStart, rowStart, sc);
         }
       }
       i = j;
@@ -271,8 +268,13 @@ final class CsrRowPass {
       Arrays.fill(out, outBase, outBase + valueWidth, 0f);
       return;
     }
-    beginRow(sc);
     long firstEntry = csr == null ? (long) i * n : start;
+    if (allHeads && degree <= BLOCK) {
+      int[] columns = blockColumns(start, degree, sc);
+      allHeadsRow(i, columns, gatherKeys(columns, degree, sc), 0, degree, firstEntry, sc);
+      return;
+    }
+    beginRow(sc);
     if (allHeads) {
       for (int b = 0; b < degree; b += BLOCK) {
         int count = Math.min(BLOCK, degree - b);
@@ -309,12 +311,34 @@ final class CsrRowPass {
       }
     }
     if (weights != null) {
-      for (int t = 0; t < degree; t++) {
-        int w = (int) ((firstEntry + t) * heads);
-        for (int h = 0; h < heads; h++) {
-          weights[w + h] = FastExp.expNonPositive(weights[w + h] - m[h]) / l[h];
-        }
+      normaliseWeights(degree, firstEntry, sc);
+    }
+  }
+
+  /** Turns row scores in the weights array into weights, with the row's final maxima and sums. */
+  private void normaliseWeights(int degree, long firstEntry, Scratch sc) {
+    float[] m = sc.max;
+    float[] l = sc.sum;
+    for (int t = 0; t < degree; t++) {
+      int w = (int) ((firstEntry + t) * heads);
+      for (int h = 0; h < heads; h++) {
+        weights[w + h] = FastExp.expNonPositive(weights[w + h] - m[h]) / l[h];
       }
+    }
+  }
+
+  /**
+   * A whole row of at most {@link #BLOCK} entries on the all-heads path, with the same arguments as
+   * {@link #allHeadsBlock}: the same operations as {@link #beginRow}, one block and {@link
+   * #finishRow}, in one call that keeps the accumulator in registers.
+   */
+  private void allHeadsRow(
+      int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
+    float[] s = allHeadsScores(i, columns, keys, offset, count, firstEntry, sc);
+    math.softmaxRowAllHeads(
+        s, count, sc.max, sc.sum, sc.rowBase, value, sc.acc, sc.work, out, i * valueWidth);
+    if (weights != null) {
+      normaliseWeights(count, firstEntry, sc);
     }
   }
 
@@ -368,6 +392,16 @@ final class CsrRowPass {
    */
   private void allHeadsBlock(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
+    float[] s = allHeadsScores(i, columns, keys, offset, count, firstEntry, sc);
+    math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, sc.rowBase, value, sc.acc, sc.work);
+  }
+
+  /**
+   * The block's scores, edge-major into the scratch (and into the weights array if asked for), and
+   * the start of each entry's value row into {@code sc.rowBase}.
+   */
+  private float[] allHeadsScores(
+      int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     float[] s = sc.scores;
     int qb = i * keyWidth;
     if (!math.additiveScoresAllHeads(query, qb, keys, offset * keyWidth, count, slope, s)) {
@@ -387,7 +421,7 @@ final class CsrRowPass {
     for (int t = 0; t < count; t++) {
       rowBase[t] = columns[offset + t] * valueWidth;
     }
-    math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, value, sc.acc, sc.work);
+    return s;
   }
 
   /** The source node of entries {@code first..first+count-1}, into the scratch. */

@@ -2,6 +2,7 @@ package dev.heed.sparse;
 
 import dev.heed.attention.internal.FastExp;
 import dev.heed.sparse.internal.RowMath;
+import java.util.Arrays;
 
 /**
  * Plain Java loops for {@link RowMath}: the fallback when the Vector API cannot be used. C2 does
@@ -174,6 +175,29 @@ final class ScalarRowMath implements RowMath {
         for (int x = h * ALL_HEADS, end = x + ALL_HEADS; x < end; x++) {
           acc[x] = Math.fma(p, value[r + x], acc[x]);
         }
+      }
+    }
+  }
+
+  @Override
+  public void softmaxRowAllHeads(
+      float[] s,
+      int count,
+      float[] max,
+      float[] sum,
+      int[] rowBase,
+      float[] value,
+      float[] acc,
+      float[] work,
+      float[] out,
+      int outOffset) {
+    Arrays.fill(max, 0, ALL_HEADS, Float.NEGATIVE_INFINITY);
+    Arrays.fill(sum, 0, ALL_HEADS, 0f);
+    Arrays.fill(acc, 0, ALL_HEADS * ALL_HEADS, 0f);
+    softmaxAccumulateAllHeads(s, count, max, sum, rowBase, value, acc, work);
+    for (int h = 0; h < ALL_HEADS; h++) {
+      for (int x = h * ALL_HEADS, end = x + ALL_HEADS; x < end; x++) {
+        out[outOffset + x] = acc[x] / sum[h];
       }
     }
   }

@@ -138,18 +138,22 @@ class CsrAllHeadsPathTest {
   void completePatternMatchesReference() {
     long seed = 0xA11E4EL;
     Random random = new Random(seed);
-    int n = 300; // rows of 300 entries: two full blocks and a partial one
-    CompletePattern pattern = CompletePattern.of(n);
-    float[] q = uniform(random, n * SHAPE.keyWidth(), -3f, 3f);
-    float[] k = uniform(random, n * SHAPE.keyWidth(), -3f, 3f);
-    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
-    ReferenceAttention.Result want = ReferenceAttention.attend(pattern, GAT, SHAPE, q, k, v);
-    RowMath vector = RowMaths.preferred();
-    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
-    for (RowMath math : List.of(vector)) {
-      Run got = run(pattern, math, 2, true, q, k, v);
-      double error = ReferenceAttention.relativeError(want.out(), got.out());
-      assertTrue(error < 1e-5, math.describe() + ", seed=" + seed + ": relative error " + error);
+    // rows of 300 entries: two full blocks and a partial one; rows of 61: one block
+    for (int n : new int[] {300, 61}) {
+      CompletePattern pattern = CompletePattern.of(n);
+      float[] q = uniform(random, n * SHAPE.keyWidth(), -3f, 3f);
+      float[] k = uniform(random, n * SHAPE.keyWidth(), -3f, 3f);
+      float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+      ReferenceAttention.Result want = ReferenceAttention.attend(pattern, GAT, SHAPE, q, k, v);
+      RowMath vector = RowMaths.preferred();
+      assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+      for (RowMath math : List.of(vector)) {
+        Run got = run(pattern, math, 2, true, q, k, v);
+        double error = ReferenceAttention.relativeError(want.out(), got.out());
+        assertTrue(
+            error < 1e-5,
+            math.describe() + ", n=" + n + ", seed=" + seed + ": relative error " + error);
+      }
     }
   }
 
@@ -246,6 +250,51 @@ class CsrAllHeadsPathTest {
     float[] s = new float[h];
     assertFalse(vector.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
     assertFalse(scalar.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
+  }
+
+  // The one-block row method against the steps it replaces (RowMath contract: fresh maxima, sums
+  // and accumulator, one block, then acc / sum), bit for bit, for both implementations; the scratch
+  // it is given holds junk first, which it must ignore.
+  @Test
+  void wholeRowMethodEqualsTheBlockStepsBitForBit() {
+    int h = RowMath.ALL_HEADS;
+    for (RowMath math : List.of(RowMaths.preferred(), RowMaths.scalar())) {
+      for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrRowPass.BLOCK}) {
+        long seed = 0xB10C4L + count;
+        Random random = new Random(seed);
+        String where = math.describe() + ", count " + count + ", seed=" + seed;
+        float[] scores = uniform(random, count * h, -8f, 8f);
+        int nodes = 40;
+        float[] value = uniform(random, nodes * h * h, -1f, 1f);
+        int[] rowBase = new int[count];
+        for (int t = 0; t < count; t++) {
+          rowBase[t] = random.nextInt(nodes) * h * h;
+        }
+        float[] sStep = scores.clone();
+        float[] maxStep = new float[h];
+        Arrays.fill(maxStep, Float.NEGATIVE_INFINITY);
+        float[] sumStep = new float[h];
+        float[] accStep = new float[h * h];
+        RowMaths.scalar()
+            .softmaxAccumulateAllHeads(
+                sStep, count, maxStep, sumStep, rowBase, value, accStep, new float[h]);
+        float[] outStep = new float[3 + h * h];
+        for (int x = 0; x < h * h; x++) {
+          outStep[3 + x] = accStep[x] / sumStep[x / h];
+        }
+        float[] sRow = scores.clone();
+        float[] maxRow = uniform(random, h, -9f, 9f);
+        float[] sumRow = uniform(random, h, -9f, 9f);
+        float[] accRow = uniform(random, h * h, -9f, 9f);
+        float[] outRow = new float[3 + h * h];
+        math.softmaxRowAllHeads(
+            sRow, count, maxRow, sumRow, rowBase, value, accRow, new float[h], outRow, 3);
+        assertArrayEquals(outStep, outRow, "outputs, " + where);
+        assertArrayEquals(sStep, sRow, "weights, " + where);
+        assertArrayEquals(maxStep, maxRow, "maxima, " + where);
+        assertArrayEquals(sumStep, sumRow, "sums, " + where);
+      }
+    }
   }
 
   private static double relativeError(float[] reference, float[] actual) {

@@ -199,4 +199,35 @@ public interface RowMath {
       float[] value,
       float[] acc,
       float[] work);
+
+  /**
+   * A whole row whose entries fit in one block, all heads at once: exactly {@link
+   * #softmaxAccumulateAllHeads} started from {@code max[h] = -Infinity}, {@code sum[h] = 0} and a
+   * zero accumulator, then {@code out[outOffset + h·8 + x] = acc[h·8 + x] / sum[h]}. The same bits
+   * as those steps; the vector implementation skips the rescale of an empty accumulator and keeps
+   * the accumulator in registers (on power-law graphs most rows are short, and these per-row steps
+   * cost as much as the entries).
+   *
+   * @param s input and output: {@code count · 8} finite scores in, unnormalised weights out
+   * @param count number of entries, at least 1
+   * @param max output: the 8 row maxima
+   * @param sum output: the 8 row sums
+   * @param rowBase input, not modified: the start of each entry's 64-float value row
+   * @param value input, not modified: the value rows
+   * @param acc work array of at least 64 floats, contents ignored and overwritten
+   * @param work work array of at least 8 floats, contents ignored
+   * @param out output: the row's 64 normalised output floats at {@code outOffset}
+   * @param outOffset start of the row in {@code out}
+   */
+  void softmaxRowAllHeads(
+      float[] s,
+      int count,
+      float[] max,
+      float[] sum,
+      int[] rowBase,
+      float[] value,
+      float[] acc,
+      float[] work,
+      float[] out,
+      int outOffset);
 }

@@ -335,4 +335,69 @@ public final class VectorRowMath implements RowMath {
     a6.intoArray(acc, 48);
     a7.intoArray(acc, 56);
   }
+
+  @Override
+  public void softmaxRowAllHeads(
+      float[] s,
+      int count,
+      float[] max,
+      float[] sum,
+      int[] rowBase,
+      float[] value,
+      float[] acc,
+      float[] work,
+      float[] out,
+      int outOffset) {
+    assert WIDE_LANES == ALL_HEADS;
+    // max(-Infinity, m) is m, and the rescale of a zero accumulator and sum by exp(-Infinity) = 0
+    // leaves +0: starting from the block maximum and zeros gives the same bits
+    FloatVector rowMax = FloatVector.fromArray(WIDE, s, 0);
+    for (int t = 1; t < count; t++) {
+      rowMax = rowMax.max(FloatVector.fromArray(WIDE, s, t * ALL_HEADS));
+    }
+    rowMax.intoArray(max, 0);
+    FloatVector l = FloatVector.zero(WIDE);
+    for (int t = 0; t < count; t++) {
+      FloatVector p =
+          VectorExp.expNonPositive(FloatVector.fromArray(WIDE, s, t * ALL_HEADS).sub(rowMax));
+      p.intoArray(s, t * ALL_HEADS);
+      l = l.add(p);
+    }
+    l.intoArray(sum, 0);
+    FloatVector a0 = FloatVector.zero(WIDE);
+    FloatVector a1 = a0;
+    FloatVector a2 = a0;
+    FloatVector a3 = a0;
+    FloatVector a4 = a0;
+    FloatVector a5 = a0;
+    FloatVector a6 = a0;
+    FloatVector a7 = a0;
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int w = t * ALL_HEADS;
+      a0 = FloatVector.fromArray(WIDE, value, r).fma(FloatVector.broadcast(WIDE, s[w]), a0);
+      a1 = FloatVector.fromArray(WIDE, value, r + 8).fma(FloatVector.broadcast(WIDE, s[w + 1]), a1);
+      a2 =
+          FloatVector.fromArray(WIDE, value, r + 16).fma(FloatVector.broadcast(WIDE, s[w + 2]), a2);
+      a3 =
+          FloatVector.fromArray(WIDE, value, r + 24).fma(FloatVector.broadcast(WIDE, s[w + 3]), a3);
+      a4 =
+          FloatVector.fromArray(WIDE, value, r + 32).fma(FloatVector.broadcast(WIDE, s[w + 4]), a4);
+      a5 =
+          FloatVector.fromArray(WIDE, value, r + 40).fma(FloatVector.broadcast(WIDE, s[w + 5]), a5);
+      a6 =
+          FloatVector.fromArray(WIDE, value, r + 48).fma(FloatVector.broadcast(WIDE, s[w + 6]), a6);
+      a7 =
+          FloatVector.fromArray(WIDE, value, r + 56).fma(FloatVector.broadcast(WIDE, s[w + 7]), a7);
+    }
+    // lane-wise IEEE division: the same bits as the scalar acc[x] / sum[h]
+    a0.div(sum[0]).intoArray(out, outOffset);
+    a1.div(sum[1]).intoArray(out, outOffset + 8);
+    a2.div(sum[2]).intoArray(out, outOffset + 16);
+    a3.div(sum[3]).intoArray(out, outOffset + 24);
+    a4.div(sum[4]).intoArray(out, outOffset + 32);
+    a5.div(sum[5]).intoArray(out, outOffset + 40);
+    a6.div(sum[6]).intoArray(out, outOffset + 48);
+    a7.div(sum[7]).intoArray(out, outOffset + 56);
+  }
 }
