@@ -1,5 +1,6 @@
 package dev.heed.attention;
 
+import dev.heed.attention.internal.FiniteScans;
 import dev.heed.graph.AttentionPattern;
 import java.util.Objects;
 import java.util.ServiceLoader;
@@ -121,20 +122,19 @@ public final class AttentionKernels {
   }
 
   private static void checkFinite(String name, float[] array, int width) {
-    for (int i = 0; i < array.length; i++) {
-      if (!Float.isFinite(array[i])) {
-        throw new IllegalArgumentException(
-            name
-                + " holds "
-                + array[i]
-                + " at index "
-                + i
-                + " (node "
-                + i / width
-                + ", offset "
-                + i % width
-                + "); inputs must be finite");
-      }
+    int i = FiniteScans.preferred().firstNonFinite(array);
+    if (i >= 0) {
+      throw new IllegalArgumentException(
+          name
+              + " holds "
+              + array[i]
+              + " at index "
+              + i
+              + " (node "
+              + i / width
+              + ", offset "
+              + i % width
+              + "); inputs must be finite");
     }
   }
 }
