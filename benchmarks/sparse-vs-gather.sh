@@ -1,0 +1,49 @@
+#!/usr/bin/env bash
+# The sparse GAT layer's speed as a fraction of this machine's random-gather limit, both measured in
+# one run: alternates the C random-gather probe of ../shared/roofline (256 MiB table of 256-byte
+# rows, 2 threads) with the JMH benchmark of the layer (R-MAT 1M nodes, 8 heads x 8 dims, 2
+# threads), so that each JMH result sits between two gather measurements taken minutes apart.
+# The machine is shared and its limits move between minutes; quote the median of the ratios.
+#
+# Usage: benchmarks/sparse-vs-gather.sh [rounds] [output folder]
+#   needs benchmarks/target/benchmarks.jar (mvn -B package -DskipTests) and gcc with OpenMP.
+set -euo pipefail
+rounds=${1:-3}
+out=${2:-benchmarks/results/raw/sparse-vs-gather-$(date -u +%Y%m%d-%H%M)}
+here=$(cd "$(dirname "$0")" && pwd)
+probe_src="$here/../../shared/roofline/c/gather.c"
+[ -f "$probe_src" ] || { echo "no roofline probe at $probe_src" >&2; exit 2; }
+jar="$here/target/benchmarks.jar"
+[ -f "$jar" ] || { echo "build $jar first: mvn -B package -DskipTests" >&2; exit 2; }
+mkdir -p "$out"
+probe=$(mktemp -d)/gather
+gcc -O3 -march=native -fopenmp -o "$probe" "$probe_src" -lm
+gather() {
+  OMP_PROC_BIND=close OMP_PLACES=cores OMP_NUM_THREADS=2 "$probe" 256 64 | grep -E "pattern=rand " \
+    > "$out/c-gather-$1.txt"
+}
+for k in $(seq "$rounds"); do
+  gather "$k"
+  java -jar "$jar" CsrAttentionBenchmark -p graph=rmat -p nodes=1048576 -p score=additive \
+    -p implementation=vector -p threads=2 -f 1 -wi 3 -i 5 -w 2s -r 2s \
+    -rf json -rff "$out/jmh-sparse-rmat-$k.json" > "$out/jmh-sparse-rmat-$k.log" 2>&1
+done
+gather $((rounds + 1))
+python3 - "$out" "$rounds" <<'PY'
+import json, re, statistics, sys
+out, rounds = sys.argv[1], int(sys.argv[2])
+ratios = []
+for k in range(1, rounds + 1):
+    result = json.load(open(f"{out}/jmh-sparse-rmat-{k}.json"))[0]
+    edges = 17132183  # R-MAT scale 20, edge factor 16, seed 20260401, self-loops added
+    times = [t for fork in result["primaryMetric"]["rawData"] for t in fork]
+    ms = statistics.median(times)
+    rate = edges / ms / 1e3
+    gathers = [float(re.search(r"Mrows/s median=([0-9.]+)", open(f"{out}/c-gather-{i}.txt").read()).group(1))
+               for i in (k, k + 1)]
+    ratio = rate / statistics.mean(gathers)
+    ratios.append(ratio)
+    print(f"round {k}: layer {ms:.0f} ms = {rate:.1f} M edges/s; gather {gathers[0]:.1f} and "
+          f"{gathers[1]:.1f} M rows/s; {100 * ratio:.1f} %")
+print(f"median of {rounds} ratios: {100 * statistics.median(ratios):.1f} %")
+PY
