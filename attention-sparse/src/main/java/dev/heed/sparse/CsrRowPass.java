@@ -284,11 +284,11 @@ final class CsrRowPass {
    * Loads one float from every 64-byte cache line of the key and value rows of entries {@code
    * first..min(end, first + BLOCK)-1} and returns their sum, which the caller keeps so that the
    * loads are not dropped. Java has no prefetch instruction; a tight loop of independent loads puts
-   * many of the next block's cache misses in flight while the current block computes, and its
-   * scores and weighted sum then find their rows in cache. All-heads path only: value rows of 64
-   * floats (5 lines at most, however the array is aligned) and key rows of 8 (2 lines at most).
-   * Written out, not as a loop over lines: a loop with a running sum measured 2x slower than no
-   * prefetch at all.
+   * many of the next block's cache misses in flight at once (the score and softmax work between a
+   * block's own loads would not), and that block's scores and weighted sum then find their rows in
+   * cache. All-heads path only: value rows of 64 floats (5 lines at most, however the array is
+   * aligned) and key rows of 8 (2 lines at most). Written out, not as a loop over lines: a loop
+   * with a running sum measured 2x slower than no prefetch at all.
    */
   private float prefetch(int first, int end) {
     assert allHeads && valueWidth == 64 && keyWidth == RowMath.ALL_HEADS;
