@@ -364,6 +364,8 @@ public final class VectorRowMath implements RowMath {
       l = l.add(p);
     }
     l.intoArray(sum, 0);
+    // softmaxAccumulateAllHeads's weighted-sum loop, repeated so that the accumulators start as
+    // zeros in registers: vectors are not passed through helper methods (see DEVELOPERS.md)
     FloatVector a0 = FloatVector.zero(WIDE);
     FloatVector a1 = a0;
     FloatVector a2 = a0;
