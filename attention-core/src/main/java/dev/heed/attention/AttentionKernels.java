@@ -65,6 +65,30 @@ public final class AttentionKernels {
       float[] value,
       float[] out,
       float[] weights) {
+    checkCallShapes(pattern, score, shape, query, key, value, out, weights);
+    checkFinite("query", query, shape.keyWidth());
+    checkFinite("key", key, shape.keyWidth());
+    checkFinite("value", value, shape.valueWidth());
+  }
+
+  /**
+   * Everything {@link #checkCall} checks except that the inputs are finite: for an implementation
+   * that reads every input anyway and checks finiteness on that pass. Such an implementation must
+   * still reject a non-finite input before writing any output, with {@link #checkFinite} (query,
+   * then key, then value), so that its errors match {@code checkCall}'s.
+   *
+   * @throws IllegalArgumentException naming the array, the expected and actual values
+   * @throws NullPointerException if a required argument is null
+   */
+  public static void checkCallShapes(
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value,
+      float[] out,
+      float[] weights) {
     Objects.requireNonNull(pattern, "pattern");
     Objects.requireNonNull(score, "score");
     Objects.requireNonNull(shape, "shape");
@@ -98,9 +122,6 @@ public final class AttentionKernels {
                     : ""));
       }
     }
-    checkFinite("query", query, shape.keyWidth());
-    checkFinite("key", key, shape.keyWidth());
-    checkFinite("value", value, shape.valueWidth());
   }
 
   private static void checkLength(
@@ -121,7 +142,16 @@ public final class AttentionKernels {
     }
   }
 
-  private static void checkFinite(String name, float[] array, int width) {
+  /**
+   * Rejects an input array that holds NaN or an infinity, with {@link #checkCall}'s message: the
+   * array's name, the first bad value, its index, node and offset.
+   *
+   * @param name the argument's name, for the message
+   * @param array input, not modified
+   * @param width floats per node in {@code array}, at least 1
+   * @throws IllegalArgumentException if an element is NaN or infinite
+   */
+  public static void checkFinite(String name, float[] array, int width) {
     int i = FiniteScans.preferred().firstNonFinite(array);
     if (i >= 0) {
       throw new IllegalArgumentException(

@@ -8,6 +8,7 @@ import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
 import dev.heed.sparse.internal.RowMath;
+import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicInteger;
 
 /**
@@ -20,7 +21,11 @@ import java.util.concurrent.atomic.AtomicInteger;
  * <p>Cost: O(E·H·(keyDim + valueDim)) time; per thread and call, {@code 128·H·(1 + keyDim) +
  * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
  * neighbour costs one random access to its key row and one to its value row, since a node's data
- * for all heads is contiguous.
+ * for all heads is contiguous. For additive scores with 8 heads of 8 value floats over a graph of
+ * at least {@value #DEFAULT_MIN_PACKED_TABLE_BYTES} bytes of {@link PackedNodeTable} (about 58k
+ * nodes), a call first copies every node's key terms and value row into that table (288 bytes per
+ * node, one access per neighbour instead of two), and keeps the table for the next call (softly
+ * referenced; see {@link PackedNodeTable}).
  *
  * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
  * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one
@@ -30,8 +35,9 @@ import java.util.concurrent.atomic.AtomicInteger;
  * small calls never pay for a hand-off. Every row is computed by one thread with arithmetic that
  * depends only on that row, so results are bit-identical for any thread count.
  *
- * <p>Thread safety: immutable; concurrent calls are safe (each has its own scratch and waits only
- * for its own helpers).
+ * <p>Thread safety: immutable apart from the spare packed table, which one call at a time takes;
+ * concurrent calls are safe (each has its own scratch and table and waits only for its own
+ * helpers).
  */
 final class CsrAttentionKernel implements AttentionKernel {
 
@@ -45,6 +51,14 @@ final class CsrAttentionKernel implements AttentionKernel {
   private final RowMath math;
   private final long minCostPerThread;
   private final boolean allHeadsAllowed;
+  private final long minPackedTableBytes;
+  private final PackedNodeTable tables = new PackedNodeTable();
+
+  /**
+   * Calls whose {@link PackedNodeTable} would be smaller than this many bytes read the caller's key
+   * and value arrays in place (their rows stay in cache, and the copy costs more than it saves).
+   */
+  static final long DEFAULT_MIN_PACKED_TABLE_BYTES = 16L << 20;
 
   CsrAttentionKernel(int threads, RowMath math, long minCostPerThread) {
     this(threads, math, minCostPerThread, RowMaths.allHeadsEnabled());
@@ -55,11 +69,31 @@ final class CsrAttentionKernel implements AttentionKernel {
    * (tests and A/B comparisons).
    */
   CsrAttentionKernel(int threads, RowMath math, long minCostPerThread, boolean allHeadsAllowed) {
-    assert threads >= 1 && minCostPerThread >= 1;
+    this(
+        threads,
+        math,
+        minCostPerThread,
+        allHeadsAllowed,
+        PackedNodeTable.ENABLED ? DEFAULT_MIN_PACKED_TABLE_BYTES : Long.MAX_VALUE);
+  }
+
+  /**
+   * Creates the kernel; calls on the all-heads path whose packed node table would have at least
+   * {@code minPackedTableBytes} bytes use one ({@code Long.MAX_VALUE}: never; 0: always, for
+   * tests).
+   */
+  CsrAttentionKernel(
+      int threads,
+      RowMath math,
+      long minCostPerThread,
+      boolean allHeadsAllowed,
+      long minPackedTableBytes) {
+    assert threads >= 1 && minCostPerThread >= 1 && minPackedTableBytes >= 0;
     this.threads = threads;
     this.math = math;
     this.minCostPerThread = minCostPerThread;
     this.allHeadsAllowed = allHeadsAllowed;
+    this.minPackedTableBytes = minPackedTableBytes;
   }
 
   /** Creates the kernel on the implementation chosen for this JVM. */
@@ -92,16 +126,77 @@ final class CsrAttentionKernel implements AttentionKernel {
       float[] value,
       float[] out,
       float[] weights) {
-    AttentionKernels.checkCall(pattern, score, shape, query, key, value, out, weights);
+    AttentionKernels.checkCallShapes(pattern, score, shape, query, key, value, out, weights);
     int n = pattern.nodeCount();
+    AttentionKernels.checkFinite("query", query, shape.keyWidth());
+    float[] table =
+        n > 0
+                && n <= PackedNodeTable.MAX_NODES
+                && PackedNodeTable.bytes(n) >= minPackedTableBytes
+                && CsrRowPass.allHeadsOverCsr(math, pattern, score, shape, allHeadsAllowed)
+            ? tables.take(n)
+            : null;
+    if (table == null) {
+      // the packed path checks key and value while it copies them
+      AttentionKernels.checkFinite("key", key, shape.keyWidth());
+      AttentionKernels.checkFinite("value", value, shape.valueWidth());
+    }
     if (n == 0) {
+      return;
+    }
+    long cost = pattern.entryCount() + n;
+    int useThreads = (int) Math.min(Math.min(threads, n), Math.max(1, cost / minCostPerThread));
+    if (table == null) {
+      run(
+          new CsrRowPass(
+              math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed),
+          pattern,
+          useThreads);
       return;
     }
     CsrRowPass pass =
         new CsrRowPass(
-            math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed);
-    long cost = pattern.entryCount() + n;
-    int useThreads = (int) Math.min(Math.min(threads, n), Math.max(1, cost / minCostPerThread));
+            math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed, table);
+    try {
+      if (!pack(pass, n, useThreads)) {
+        // the first bad value, with checkCall's message
+        AttentionKernels.checkFinite("key", key, shape.keyWidth());
+        AttentionKernels.checkFinite("value", value, shape.valueWidth());
+        throw new AssertionError("the packed copy flagged a value that the full check passed");
+      }
+      run(pass, pattern, useThreads);
+    } finally {
+      tables.giveBack(table);
+    }
+  }
+
+  /**
+   * Fills the pass's packed node table on {@code useThreads} threads, in equal ranges of nodes.
+   *
+   * @return true if every key and value float is finite
+   */
+  private static boolean pack(CsrRowPass pass, int n, int useThreads) {
+    if (useThreads == 1) {
+      return pass.pack(0, n);
+    }
+    int chunks = Math.min(n, useThreads * CHUNKS_PER_THREAD);
+    AtomicInteger next = new AtomicInteger();
+    AtomicBoolean finite = new AtomicBoolean(true);
+    CsrWorkerPool.runShared(
+        useThreads - 1,
+        () -> {
+          for (int c = next.getAndIncrement(); c < chunks; c = next.getAndIncrement()) {
+            if (!pass.pack((int) ((long) n * c / chunks), (int) ((long) n * (c + 1) / chunks))) {
+              finite.set(false);
+            }
+          }
+        });
+    return finite.get();
+  }
+
+  /** Runs every row of the pass on {@code useThreads} threads. */
+  private static void run(CsrRowPass pass, AttentionPattern pattern, int useThreads) {
+    int n = pattern.nodeCount();
     if (useThreads == 1) {
       pass.run(0, n, pass.newScratch());
       return;

@@ -34,7 +34,10 @@ import java.util.Arrays;
  * block) are loaded ahead, one float per cache line, before the current one is computed ({@link
  * #prefetch}); on the per-head path, rows of 64-float keys and values load the next row's first
  * block ahead the same way. Over the complete pattern the keys are consecutive rows already and are
- * read in place.
+ * read in place. On the all-heads path over a large CSR graph the kernel may hand the pass a packed
+ * node table ({@link PackedNodeTable}: each node's key terms and value row together, 5 cache lines
+ * instead of up to 7 in two places); the pass then reads keys and values from it, scores the keys
+ * in place instead of gathering them, and computes exactly the same operations.
  *
  * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
  * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
@@ -78,7 +81,10 @@ final class CsrRowPass {
   private final float[] weights;
   private final boolean allHeads;
   private final boolean gatherWideKeys;
+  private final float[] table; // the packed node table, or null
+  private final float[] valueRows; // table, or value
 
+  /** A pass without the packed node table. */
   CsrRowPass(
       RowMath math,
       AttentionPattern pattern,
@@ -90,6 +96,26 @@ final class CsrRowPass {
       float[] out,
       float[] weights,
       boolean allHeadsAllowed) {
+    this(math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed, null);
+  }
+
+  /**
+   * Creates the pass; {@code table}, if not null, is the packed node table ({@link
+   * PackedNodeTable}) that the all-heads path reads keys and values from once {@link #pack} has
+   * filled it for every node; it requires {@link #allHeadsOverCsr}.
+   */
+  CsrRowPass(
+      RowMath math,
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value,
+      float[] out,
+      float[] weights,
+      boolean allHeadsAllowed,
+      float[] table) {
     this.math = math;
     this.csr = pattern instanceof CsrGraph g ? g : null;
     assert csr != null || pattern instanceof CompletePattern;
@@ -125,12 +151,48 @@ final class CsrRowPass {
     // scoring loop). Over the complete pattern they are consecutive rows already, and copying
     // them only costs (n = 4096, 8 x 64 dot: 1.25x slower with the copy).
     this.gatherWideKeys = csr != null;
-    this.allHeads =
-        allHeadsAllowed
-            && kind == ADDITIVE
-            && heads == RowMath.ALL_HEADS
-            && valueDim == RowMath.ALL_HEADS
-            && math.servesAllHeads();
+    this.allHeads = allHeadsApplies(math, score, shape, allHeadsAllowed);
+    assert table == null || (allHeads && csr != null);
+    this.table = table;
+    this.valueRows = table == null ? value : table;
+  }
+
+  /** Whether a pass with these arguments takes the all-heads path (see the class comment). */
+  static boolean allHeadsApplies(
+      RowMath math, ScoreFunction score, HeadShape shape, boolean allHeadsAllowed) {
+    return allHeadsAllowed
+        && score instanceof ScoreFunction.Additive
+        && shape.heads() == RowMath.ALL_HEADS
+        && shape.valueDim() == RowMath.ALL_HEADS
+        && math.servesAllHeads();
+  }
+
+  /**
+   * Whether a pass with these arguments takes the all-heads path over a CSR graph, the only one
+   * that reads the packed node table.
+   */
+  static boolean allHeadsOverCsr(
+      RowMath math,
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      boolean allHeadsAllowed) {
+    return pattern instanceof CsrGraph && allHeadsApplies(math, score, shape, allHeadsAllowed);
+  }
+
+  /**
+   * Copies the key terms and value rows of nodes {@code from..to-1} into the packed node table.
+   *
+   * @return true if every float copied is finite
+   */
+  boolean pack(int from, int to) {
+    assert table != null;
+    return math.packAllHeads(key, value, from, to, table, PackedNodeTable.OFFSET);
+  }
+
+  /** Start of node c's value row in {@link #valueRows}. */
+  private int valueRow(int c) {
+    return table == null ? c * valueWidth : PackedNodeTable.valueRow(c);
   }
 
   /** Returns whether rows take the all-heads path (see the class comment). */
@@ -255,7 +317,7 @@ final class CsrRowPass {
       } else {
         int count = csr.rowEnd(j - 1) - start;
         int[] columns = blockColumns(start, count, sc);
-        float[] keys = gatherKeys(columns, count, sc);
+        float[] keys = table == null ? gatherKeys(columns, count, sc) : null;
         for (int r = i; r < j; r++) {
           int rowStart = csr.rowStart(r);
           allHeadsRow(r, columns, keys, rowStart - start, csr.rowEnd(r) - rowStart, rowStart, sc);
@@ -294,6 +356,15 @@ final class CsrRowPass {
     assert allHeads && valueWidth == 64 && keyWidth == RowMath.ALL_HEADS;
     int last = Math.min(end, first + BLOCK);
     float s = 0f;
+    if (table != null) {
+      // a packed row is 288 bytes that start on a 32-byte boundary: 5 cache lines
+      float[] t = table;
+      for (int e = first; e < last; e++) {
+        int p = PackedNodeTable.valueRow(csr.column(e)) - RowMath.ALL_HEADS;
+        s += t[p] + t[p + 16] + t[p + 32] + t[p + 48] + t[p + RowMath.PACKED_ROW - 1];
+      }
+      return s;
+    }
     for (int e = first; e < last; e++) {
       int c = csr.column(e);
       int v = c * 64;
@@ -321,7 +392,8 @@ final class CsrRowPass {
     long firstEntry = csr == null ? (long) i * n : start;
     if (allHeads && degree <= BLOCK) {
       int[] columns = blockColumns(start, degree, sc);
-      allHeadsRow(i, columns, gatherKeys(columns, degree, sc), 0, degree, firstEntry, sc);
+      float[] keys = table == null ? gatherKeys(columns, degree, sc) : null;
+      allHeadsRow(i, columns, keys, 0, degree, firstEntry, sc);
       return;
     }
     beginRow(sc);
@@ -329,7 +401,7 @@ final class CsrRowPass {
       for (int b = 0; b < degree; b += BLOCK) {
         int count = Math.min(BLOCK, degree - b);
         int[] columns = blockColumns(start + b, count, sc);
-        float[] keys = gatherKeys(columns, count, sc);
+        float[] keys = table == null ? gatherKeys(columns, count, sc) : null;
         if (PREFETCH && csr != null && b + BLOCK < degree) {
           sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
         }
@@ -386,7 +458,7 @@ final class CsrRowPass {
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     float[] s = allHeadsScores(i, columns, keys, offset, count, firstEntry, sc);
     math.softmaxRowAllHeads(
-        s, count, sc.max, sc.sum, sc.rowBase, value, sc.acc, sc.work, out, i * valueWidth);
+        s, count, sc.max, sc.sum, sc.rowBase, valueRows, sc.acc, sc.work, out, i * valueWidth);
     if (weights != null) {
       normaliseWeights(count, firstEntry, sc);
     }
@@ -443,7 +515,8 @@ final class CsrRowPass {
   private void allHeadsBlock(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     float[] s = allHeadsScores(i, columns, keys, offset, count, firstEntry, sc);
-    math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, sc.rowBase, value, sc.acc, sc.work);
+    math.softmaxAccumulateAllHeads(
+        s, count, sc.max, sc.sum, sc.rowBase, valueRows, sc.acc, sc.work);
   }
 
   /**
@@ -454,7 +527,15 @@ final class CsrRowPass {
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     float[] s = sc.scores;
     int qb = i * keyWidth;
-    if (!math.additiveScoresAllHeads(query, qb, keys, offset * keyWidth, count, slope, s)) {
+    int[] rowBase = sc.rowBase;
+    for (int t = 0; t < count; t++) {
+      rowBase[t] = valueRow(columns[offset + t]);
+    }
+    boolean finite =
+        table == null
+            ? math.additiveScoresAllHeads(query, qb, keys, offset * keyWidth, count, slope, s)
+            : math.additiveScoresAllHeadsPacked(query, qb, table, rowBase, count, slope, s);
+    if (!finite) {
       for (int t = 0; t < count; t++) {
         for (int h = 0; h < heads; h++) {
           if (!Float.isFinite(s[t * heads + h])) {
@@ -466,10 +547,6 @@ final class CsrRowPass {
     if (weights != null) {
       // the scratch is edge-major, like the weights array
       System.arraycopy(s, 0, weights, (int) (firstEntry * heads), count * heads);
-    }
-    int[] rowBase = sc.rowBase;
-    for (int t = 0; t < count; t++) {
-      rowBase[t] = columns[offset + t] * valueWidth;
     }
     return s;
   }

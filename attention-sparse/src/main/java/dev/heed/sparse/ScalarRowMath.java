@@ -140,6 +140,49 @@ final class ScalarRowMath implements RowMath {
   }
 
   @Override
+  public boolean packAllHeads(
+      float[] key, float[] value, int from, int to, float[] table, int tableOffset) {
+    boolean finite = true;
+    for (int c = from; c < to; c++) {
+      int p = tableOffset + c * PACKED_ROW;
+      for (int h = 0; h < ALL_HEADS; h++) {
+        float k = key[c * ALL_HEADS + h];
+        table[p + h] = k;
+        finite &= Float.isFinite(k);
+      }
+      p += ALL_HEADS;
+      for (int x = 0; x < ALL_HEADS * ALL_HEADS; x++) {
+        float v = value[c * ALL_HEADS * ALL_HEADS + x];
+        table[p + x] = v;
+        finite &= Float.isFinite(v);
+      }
+    }
+    return finite;
+  }
+
+  @Override
+  public boolean additiveScoresAllHeadsPacked(
+      float[] q,
+      int qOffset,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float negativeSlope,
+      float[] s) {
+    boolean finite = true;
+    for (int t = 0; t < count; t++) {
+      int k = rowBase[t] - ALL_HEADS;
+      for (int h = 0; h < ALL_HEADS; h++) {
+        float z = q[qOffset + h] + table[k + h];
+        float e = Math.max(z, z * negativeSlope);
+        s[t * ALL_HEADS + h] = e;
+        finite &= Float.isFinite(e);
+      }
+    }
+    return finite;
+  }
+
+  @Override
   public void softmaxAccumulateAllHeads(
       float[] s,
       int count,

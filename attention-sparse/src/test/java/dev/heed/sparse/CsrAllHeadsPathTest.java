@@ -3,9 +3,12 @@ package dev.heed.sparse;
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertFalse;
+import static org.junit.jupiter.api.Assertions.assertSame;
+import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
+import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ReferenceAttention;
 import dev.heed.attention.ScoreFunction;
@@ -21,8 +24,8 @@ import org.junit.jupiter.api.Test;
 /**
  * The all-heads path (additive scores, 8 heads of 8 value floats): it is really taken, matches the
  * float64 reference (Veličković et al. 2018, eqs. 1-4), gives identical bits for 1 to 3 threads,
- * agrees with the per-head path, and its vector methods equal the scalar reference forms bit for
- * bit.
+ * agrees with the per-head path, reads the packed node table with the same bits as the caller's
+ * arrays, and its vector methods equal the scalar reference forms bit for bit.
  */
 class CsrAllHeadsPathTest {
 
@@ -57,11 +60,27 @@ class CsrAllHeadsPathTest {
       float[] q,
       float[] k,
       float[] v) {
+    return run(new CsrAttentionKernel(threads, math, 1, allHeads), pattern, true, q, k, v);
+  }
+
+  /** One call; {@code withWeights = false} leaves the weights array null and returns it so. */
+  private static Run run(
+      CsrAttentionKernel kernel,
+      AttentionPattern pattern,
+      boolean withWeights,
+      float[] q,
+      float[] k,
+      float[] v) {
     float[] out = new float[pattern.nodeCount() * SHAPE.valueWidth()];
-    float[] weights = new float[Math.toIntExact(pattern.entryCount() * SHAPE.heads())];
-    new CsrAttentionKernel(threads, math, 1, allHeads)
-        .attend(pattern, GAT, SHAPE, q, k, v, out, weights);
+    float[] weights =
+        withWeights ? new float[Math.toIntExact(pattern.entryCount() * SHAPE.heads())] : null;
+    kernel.attend(pattern, GAT, SHAPE, q, k, v, out, weights);
     return new Run(out, weights);
+  }
+
+  private static CsrAttentionKernel packing(int threads, boolean packed) {
+    return new CsrAttentionKernel(
+        threads, RowMaths.preferred(), 1, true, packed ? 0 : Long.MAX_VALUE);
   }
 
   @Test
@@ -132,6 +151,110 @@ class CsrAllHeadsPathTest {
       double apart = relativeError(perHead.out(), first.out());
       assertTrue(apart < 1e-5, where + ": per-head and all-heads paths differ by " + apart);
     }
+  }
+
+  // The packed node table changes only where the kernel reads keys and values from, not the
+  // arithmetic: outputs and weights equal the unpacked path bit for bit, for 1 to 3 threads, with
+  // and without weights, and on a second call that reuses the spare table.
+  @Test
+  void packedNodeTableGivesTheSameBits() {
+    long seed = 0x9AC4EDL;
+    Random random = new Random(seed);
+    int n = 700;
+    CsrGraph graph = graph(random, n);
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    float[] k0 = k.clone();
+    float[] v0 = v.clone();
+    assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
+    for (int threads = 1; threads <= 3; threads++) {
+      String where = threads + " threads, seed=" + seed;
+      CsrAttentionKernel packed = packing(threads, true);
+      for (boolean withWeights : new boolean[] {true, false}) {
+        Run want = run(packing(threads, false), graph, withWeights, q, k, v);
+        for (int call = 0; call < 2; call++) {
+          Run got = run(packed, graph, withWeights, q, k, v);
+          assertArrayEquals(want.out(), got.out(), where + ", call " + call);
+          if (withWeights) {
+            assertArrayEquals(want.weights(), got.weights(), where + ", call " + call);
+          }
+        }
+      }
+    }
+    assertArrayEquals(k0, k, "the kernel must not modify key");
+    assertArrayEquals(v0, v, "the kernel must not modify value");
+  }
+
+  // The packed path checks key and value for NaN and infinities while it copies them (it skips
+  // checkCall's separate scan); it must reject the same inputs with the same message, and before
+  // any output is written.
+  @Test
+  void packedNodeTableRejectsNonFiniteInputsLikeCheckCall() {
+    long seed = 0x9AC4EEL;
+    Random random = new Random(seed);
+    int n = 300;
+    CsrGraph graph = graph(random, n);
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
+    float[] bad = {Float.NaN, Float.POSITIVE_INFINITY, Float.NEGATIVE_INFINITY};
+    for (boolean inKey : new boolean[] {true, false}) {
+      float[] target = inKey ? k : v;
+      int[] places = {0, target.length / 2 + 3, target.length - 1};
+      for (int b = 0; b < bad.length; b++) {
+        int at = places[b];
+        float saved = target[at];
+        target[at] = bad[b];
+        float[] out = new float[n * SHAPE.valueWidth()];
+        String want =
+            assertThrows(
+                    IllegalArgumentException.class,
+                    () -> AttentionKernels.checkCall(graph, GAT, SHAPE, q, k, v, out, null))
+                .getMessage();
+        for (int threads = 1; threads <= 3; threads++) {
+          CsrAttentionKernel kernel = packing(threads, true);
+          String where = (inKey ? "key" : "value") + "[" + at + "] = " + bad[b] + ", " + threads;
+          IllegalArgumentException e =
+              assertThrows(
+                  IllegalArgumentException.class,
+                  () -> kernel.attend(graph, GAT, SHAPE, q, k, v, out, null),
+                  where);
+          assertEquals(want, e.getMessage(), where);
+          for (float o : out) {
+            assertEquals(0f, o, where + ": output written before the error");
+          }
+        }
+        target[at] = saved;
+      }
+    }
+  }
+
+  @Test
+  void spareTableIsReusedOnlyWhenLargeEnough() {
+    PackedNodeTable tables = new PackedNodeTable();
+    float[] first = tables.take(10);
+    assertEquals(PackedNodeTable.OFFSET + 10 * RowMath.PACKED_ROW, first.length);
+    tables.giveBack(first);
+    assertSame(first, tables.take(7), "a spare large enough is reused");
+    assertFalse(tables.take(7) == first, "a spare is handed to one call at a time");
+    tables.giveBack(first);
+    float[] larger = tables.take(11);
+    assertEquals(PackedNodeTable.OFFSET + 11 * RowMath.PACKED_ROW, larger.length);
+  }
+
+  // A table the heap cannot hold is not an error: take() says so with null (and logs once), and
+  // the kernel then reads the caller's arrays in place.
+  @Test
+  void tableTheHeapCannotHoldIsDeclined() {
+    int n = PackedNodeTable.MAX_NODES;
+    assumeTrue(
+        PackedNodeTable.bytes(n) > Runtime.getRuntime().maxMemory(),
+        "the test heap could hold " + PackedNodeTable.bytes(n) + " bytes");
+    PackedNodeTable tables = new PackedNodeTable();
+    assertEquals(null, tables.take(n));
+    assertEquals(null, tables.take(n));
   }
 
   @Test
@@ -244,6 +367,53 @@ class CsrAllHeadsPathTest {
       for (int x = 0; x < sv.length; x++) {
         assertTrue(sv[x] >= 0f && sv[x] <= 1f, "weight " + sv[x] + ", " + where);
       }
+    }
+    // packing and reading keys in place: the same copies and the same scores, bit for bit
+    for (int nodes : new int[] {1, 2, 13}) {
+      long seed = 0x9AC4EFL + nodes;
+      Random random = new Random(seed);
+      String where = nodes + " nodes, seed=" + seed;
+      float[] key = uniform(random, nodes * h, -6f, 6f);
+      float[] value = uniform(random, nodes * h * h, -1f, 1f);
+      int offset = PackedNodeTable.OFFSET;
+      float[] tableV = uniform(random, offset + nodes * RowMath.PACKED_ROW + 5, -9f, 9f);
+      float[] tableS = tableV.clone();
+      assertTrue(vector.packAllHeads(key, value, 0, nodes, tableV, offset), where);
+      assertTrue(scalar.packAllHeads(key, value, 0, nodes, tableS, offset), where);
+      assertArrayEquals(tableS, tableV, "packed table, " + where);
+      int count = 3 * nodes + 1;
+      int[] rows = random.ints(count, 0, nodes).toArray();
+      int[] rowBase = Arrays.stream(rows).map(PackedNodeTable::valueRow).toArray();
+      float[] gathered = new float[count * h];
+      for (int t = 0; t < count; t++) {
+        System.arraycopy(key, rows[t] * h, gathered, t * h, h);
+        assertArrayEquals(
+            Arrays.copyOfRange(value, rows[t] * h * h, (rows[t] + 1) * h * h),
+            Arrays.copyOfRange(tableV, rowBase[t], rowBase[t] + h * h),
+            "value row in the table, " + where);
+      }
+      float[] q = uniform(random, h, -6f, 6f);
+      float[] want = new float[count * h];
+      scalar.additiveScoresAllHeads(q, 0, gathered, 0, count, 0.2f, want);
+      for (RowMath math : List.of(vector, scalar)) {
+        float[] got = new float[count * h];
+        assertTrue(math.additiveScoresAllHeadsPacked(q, 0, tableV, rowBase, count, 0.2f, got));
+        assertArrayEquals(want, got, "scores from the table, " + math.describe() + ", " + where);
+      }
+      for (float bad : new float[] {Float.NaN, Float.POSITIVE_INFINITY, Float.NEGATIVE_INFINITY}) {
+        for (float[] input : List.of(key, value)) {
+          int at = random.nextInt(input.length);
+          float saved = input[at];
+          input[at] = bad;
+          assertFalse(vector.packAllHeads(key, value, 0, nodes, tableV, offset), where);
+          assertFalse(scalar.packAllHeads(key, value, 0, nodes, tableS, offset), where);
+          input[at] = saved;
+        }
+      }
+      // finite values whose sum overflows are not mistaken for infinities
+      Arrays.fill(value, 3e38f);
+      assertTrue(vector.packAllHeads(key, value, 0, nodes, tableV, offset), where);
+      assertTrue(scalar.packAllHeads(key, value, 0, nodes, tableS, offset), where);
     }
     // an overflowing score is reported, not hidden
     float[] big = {3e38f, 3e38f, 0f, 0f, 0f, 0f, 0f, 0f};

@@ -201,6 +201,53 @@ public interface RowMath {
       float[] work);
 
   /**
+   * Floats per node in the packed node table of the all-heads path: the node's {@link #ALL_HEADS}
+   * additive key terms, then its {@code ALL_HEADS · ALL_HEADS} value floats (288 bytes).
+   */
+  int PACKED_ROW = ALL_HEADS + ALL_HEADS * ALL_HEADS;
+
+  /**
+   * Copies the key terms and value rows of nodes {@code from..to-1} into the packed node table:
+   * {@code table[tableOffset + c·72 + h] = key[c·8 + h]} for {@code h < 8} and {@code
+   * table[tableOffset + c·72 + 8 + x] = value[c·64 + x]} for {@code x < 64}, and reports whether
+   * every float copied is finite (so that the kernel's check for NaN and infinities reads the
+   * inputs only once).
+   *
+   * @param key input, not modified: 8 key terms per node
+   * @param value input, not modified: 64 value floats per node
+   * @param from first node
+   * @param to one past the last node, at least {@code from + 1}
+   * @param table output: the packed rows of nodes {@code from..to-1}
+   * @param tableOffset where node 0's packed row starts in {@code table}
+   * @return true if every copied float is finite
+   */
+  boolean packAllHeads(
+      float[] key, float[] value, int from, int to, float[] table, int tableOffset);
+
+  /**
+   * {@link #additiveScoresAllHeads} with each entry's key terms read in place from the packed node
+   * table ({@link #packAllHeads}): entry t's 8 key terms are the 8 floats just before its value
+   * row, at {@code table[rowBase[t] - 8 ..]}; the same operations, so the same bits.
+   *
+   * @param q input, not modified: the target's query terms
+   * @param qOffset offset of head 0's term in {@code q}
+   * @param table input, not modified: the packed node table
+   * @param rowBase input, not modified: the start of each entry's value row in {@code table}
+   * @param count number of entries, at least 1
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @param s output: {@code count · 8} scores
+   * @return true if every score is finite; if false, the caller recomputes the non-finite ones
+   */
+  boolean additiveScoresAllHeadsPacked(
+      float[] q,
+      int qOffset,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float negativeSlope,
+      float[] s);
+
+  /**
    * A whole row whose entries fit in one block, all heads at once: exactly {@link
    * #softmaxAccumulateAllHeads} started from {@code max[h] = -Infinity}, {@code sum[h] = 0} and a
    * zero accumulator, then {@code out[outOffset + h·8 + x] = acc[h·8 + x] / sum[h]}. The same bits

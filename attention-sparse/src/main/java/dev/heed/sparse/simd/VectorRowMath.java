@@ -265,6 +265,71 @@ public final class VectorRowMath implements RowMath {
   }
 
   @Override
+  public boolean packAllHeads(
+      float[] key, float[] value, int from, int to, float[] table, int tableOffset) {
+    assert WIDE_LANES == ALL_HEADS;
+    // v - v is 0 for a finite v and NaN for NaN or an infinity: one NaN lane marks a bad input
+    FloatVector check = FloatVector.zero(WIDE);
+    for (int c = from; c < to; c++) {
+      int p = tableOffset + c * PACKED_ROW;
+      int v = c * ALL_HEADS * ALL_HEADS;
+      FloatVector k = FloatVector.fromArray(WIDE, key, c * ALL_HEADS);
+      FloatVector v0 = FloatVector.fromArray(WIDE, value, v);
+      FloatVector v1 = FloatVector.fromArray(WIDE, value, v + 8);
+      FloatVector v2 = FloatVector.fromArray(WIDE, value, v + 16);
+      FloatVector v3 = FloatVector.fromArray(WIDE, value, v + 24);
+      FloatVector v4 = FloatVector.fromArray(WIDE, value, v + 32);
+      FloatVector v5 = FloatVector.fromArray(WIDE, value, v + 40);
+      FloatVector v6 = FloatVector.fromArray(WIDE, value, v + 48);
+      FloatVector v7 = FloatVector.fromArray(WIDE, value, v + 56);
+      k.intoArray(table, p);
+      v0.intoArray(table, p + 8);
+      v1.intoArray(table, p + 16);
+      v2.intoArray(table, p + 24);
+      v3.intoArray(table, p + 32);
+      v4.intoArray(table, p + 40);
+      v5.intoArray(table, p + 48);
+      v6.intoArray(table, p + 56);
+      v7.intoArray(table, p + 64);
+      // each difference is exactly 0 or NaN, so the sum cannot overflow to a false alarm
+      check =
+          check
+              .add(k.sub(k))
+              .add(v0.sub(v0))
+              .add(v1.sub(v1))
+              .add(v2.sub(v2))
+              .add(v3.sub(v3))
+              .add(v4.sub(v4))
+              .add(v5.sub(v5))
+              .add(v6.sub(v6))
+              .add(v7.sub(v7));
+    }
+    return check.eq(check).allTrue();
+  }
+
+  @Override
+  public boolean additiveScoresAllHeadsPacked(
+      float[] q,
+      int qOffset,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float negativeSlope,
+      float[] s) {
+    assert WIDE_LANES == ALL_HEADS;
+    FloatVector query = FloatVector.fromArray(WIDE, q, qOffset);
+    // e · 0 is 0 for finite e and NaN for infinite or NaN e, so one NaN lane marks a bad score
+    FloatVector check = FloatVector.zero(WIDE);
+    for (int t = 0; t < count; t++) {
+      FloatVector z = query.add(FloatVector.fromArray(WIDE, table, rowBase[t] - ALL_HEADS));
+      FloatVector e = z.max(z.mul(negativeSlope));
+      e.intoArray(s, t * ALL_HEADS);
+      check = check.add(e.mul(0f));
+    }
+    return check.eq(check).allTrue();
+  }
+
+  @Override
   public void softmaxAccumulateAllHeads(
       float[] s,
       int count,

@@ -106,6 +106,14 @@ public class CsrAttentionBenchmark {
   @Param({"allHeads"})
   public String path;
 
+  /**
+   * {@code auto} (the kernel uses its packed node table where it applies: additive 8 × 8 over at
+   * least 16 MiB of table) or {@code off} ({@code heed.sparse.pack=false} in the fork: keys and
+   * values are always read from the caller's arrays), for A/B comparisons in one run.
+   */
+  @Param({"auto"})
+  public String packedTable;
+
   /** Seed of the graph and the inputs. */
   @Param({"20260401"})
   public long seed;
@@ -126,6 +134,11 @@ public class CsrAttentionBenchmark {
       System.setProperty("heed.sparse.vector", "false");
     } else if (!implementation.equals("vector")) {
       throw new IllegalArgumentException("implementation must be vector or scalar");
+    }
+    if (packedTable.equals("off")) {
+      System.setProperty("heed.sparse.pack", "false");
+    } else if (!packedTable.equals("auto")) {
+      throw new IllegalArgumentException("packedTable must be auto or off");
     }
     if (path.equals("perHead")) {
       System.setProperty("heed.sparse.allHeads", "false");
