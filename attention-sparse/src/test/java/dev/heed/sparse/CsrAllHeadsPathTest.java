@@ -186,6 +186,57 @@ class CsrAllHeadsPathTest {
     assertArrayEquals(v0, v, "the kernel must not modify value");
   }
 
+  // Kernel contract: concurrent calls on one kernel are safe. With the packed table, each call must
+  // get a table of its own (the spare goes to one call at a time), or calls would read each
+  // other's keys and values. Four threads, each with its own inputs, ten calls each.
+  @Test
+  void concurrentCallsOnOneKernelDoNotShareATable() throws Exception {
+    long seed = 0x9AC4F0L;
+    Random random = new Random(seed);
+    int n = 400;
+    CsrGraph graph = graph(random, n);
+    assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
+    int callers = 4;
+    float[][][] inputs = new float[callers][][];
+    float[][] want = new float[callers][];
+    for (int c = 0; c < callers; c++) {
+      inputs[c] =
+          new float[][] {
+            uniform(random, n * SHAPE.keyWidth(), -4f, 4f),
+            uniform(random, n * SHAPE.keyWidth(), -4f, 4f),
+            uniform(random, n * SHAPE.valueWidth(), -1f, 1f)
+          };
+      want[c] =
+          run(packing(1, false), graph, false, inputs[c][0], inputs[c][1], inputs[c][2]).out();
+    }
+    CsrAttentionKernel shared = packing(2, true);
+    java.util.concurrent.ExecutorService pool =
+        java.util.concurrent.Executors.newFixedThreadPool(callers);
+    try {
+      List<java.util.concurrent.Future<String>> results = new java.util.ArrayList<>();
+      for (int c = 0; c < callers; c++) {
+        int caller = c;
+        results.add(
+            pool.submit(
+                () -> {
+                  float[][] in = inputs[caller];
+                  for (int call = 0; call < 10; call++) {
+                    float[] got = run(shared, graph, false, in[0], in[1], in[2]).out();
+                    if (!Arrays.equals(want[caller], got)) {
+                      return "caller " + caller + ", call " + call + " got another result";
+                    }
+                  }
+                  return "";
+                }));
+      }
+      for (java.util.concurrent.Future<String> r : results) {
+        assertEquals("", r.get(), "seed=" + seed);
+      }
+    } finally {
+      pool.shutdownNow();
+    }
+  }
+
   // The packed path checks key and value for NaN and infinities while it copies them (it skips
   // checkCall's separate scan); it must reject the same inputs with the same message, and before
   // any output is written.
