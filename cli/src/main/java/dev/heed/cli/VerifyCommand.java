@@ -100,6 +100,16 @@ final class VerifyCommand implements Callable<Integer> {
             path.name().toLowerCase(java.util.Locale.ROOT), names[f], worst, ok ? "ok" : "FAILED");
       }
     }
+    // The sparse path's packed node table (GAT scores, 8 heads x 8 dims, graphs of more than about
+    // 58k nodes) only runs on large graphs, which the cases above (sized for the dense path's n^2)
+    // never reach: one sparse-only case of 65,536 nodes and 8 random sources per row.
+    SplittableRandom random = new SplittableRandom(s + 1009L);
+    double packedWorst = checkLargeGat(kernels.get(ComputePath.SPARSE), random);
+    boolean packedOk = packedWorst <= TOLERANCE;
+    failed |= !packedOk;
+    out.printf(
+        "%-8s %-20s %14.2e  %s%n",
+        "sparse", "GAT, 65,536 nodes", packedWorst, packedOk ? "ok" : "FAILED");
     out.flush();
     if (failed) {
       throw new CliException(
@@ -142,6 +152,40 @@ final class VerifyCommand implements Callable<Integer> {
   }
 
   /** A random graph with self-loops (so no row is empty) at roughly the given density. */
+  private static double checkLargeGat(AttentionKernel kernel, SplittableRandom random) {
+    int n = 1 << 16;
+    int degree = 8;
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * (degree + 1)];
+    int e = 0;
+    for (int i = 0; i < n; i++) {
+      int start = e;
+      columns[e++] = i;
+      while (e - start < degree + 1) {
+        int c = random.nextInt(n);
+        boolean seen = false;
+        for (int x = start; x < e; x++) {
+          seen |= columns[x] == c;
+        }
+        if (!seen) {
+          columns[e++] = c;
+        }
+      }
+      java.util.Arrays.sort(columns, start, e);
+      offsets[i + 1] = e;
+    }
+    CsrGraph graph = CsrGraph.of(offsets, columns);
+    ScoreFunction score = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+    HeadShape shape = new HeadShape(8, 1, 8);
+    float[] q = randomArray(n * shape.keyWidth(), random);
+    float[] k = randomArray(n * shape.keyWidth(), random);
+    float[] v = randomArray(n * shape.valueWidth(), random);
+    float[] out = new float[n * shape.valueWidth()];
+    kernel.attend(graph, score, shape, q, k, v, out, null);
+    return ReferenceAttention.relativeError(
+        ReferenceAttention.attend(graph, score, shape, q, k, v).out(), out);
+  }
+
   private static CsrGraph randomGraph(int n, double density, SplittableRandom random) {
     int[] offsets = new int[n + 1];
     List<Integer> cols = new ArrayList<>();

@@ -39,7 +39,8 @@ class HeedCliIT {
   void verifyPassesOnThisMachine() throws Exception {
     CliProcess.Result r = CliProcess.run(dir, "verify", "--seed", "12345");
     assertEquals(0, r.exitCode(), r.toString());
-    for (String expected : new String[] {"dense", "sparse", "GATv2", "scaled dot-product"}) {
+    for (String expected :
+        new String[] {"dense", "sparse", "GATv2", "scaled dot-product", "GAT, 65,536 nodes"}) {
       assertTrue(r.stdout().contains(expected), expected + " missing:\n" + r);
     }
     assertFalse(r.stdout().contains("FAILED"), r.toString());
