@@ -10,6 +10,9 @@ import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
+import dev.heed.graph.DuplicatePolicy;
+import dev.heed.graph.SelfLoopPolicy;
+import dev.heed.graph.generate.RmatGenerator;
 import java.io.PrintWriter;
 import java.util.ArrayList;
 import java.util.List;
@@ -102,7 +105,7 @@ final class VerifyCommand implements Callable<Integer> {
     }
     // The sparse path's packed node table (GAT scores, 8 heads x 8 dims, graphs of more than about
     // 58k nodes) only runs on large graphs, which the cases above (sized for the dense path's n^2)
-    // never reach: one sparse-only case of 65,536 nodes and 8 random sources per row.
+    // never reach: one sparse-only case of 65,536 nodes (an R-MAT graph, edge factor 8).
     SplittableRandom random = new SplittableRandom(s + 1009L);
     double packedWorst = checkLargeGat(kernels.get(ComputePath.SPARSE), random);
     boolean packedOk = packedWorst <= TOLERANCE;
@@ -153,28 +156,16 @@ final class VerifyCommand implements Callable<Integer> {
 
   /** A random graph with self-loops (so no row is empty) at roughly the given density. */
   private static double checkLargeGat(AttentionKernel kernel, SplittableRandom random) {
-    int n = 1 << 16;
-    int degree = 8;
-    int[] offsets = new int[n + 1];
-    int[] columns = new int[n * (degree + 1)];
-    int e = 0;
-    for (int i = 0; i < n; i++) {
-      int start = e;
-      columns[e++] = i;
-      while (e - start < degree + 1) {
-        int c = random.nextInt(n);
-        boolean seen = false;
-        for (int x = start; x < e; x++) {
-          seen |= columns[x] == c;
-        }
-        if (!seen) {
-          columns[e++] = c;
-        }
-      }
-      java.util.Arrays.sort(columns, start, e);
-      offsets[i + 1] = e;
-    }
-    CsrGraph graph = CsrGraph.of(offsets, columns);
+    // an R-MAT graph of 2^16 nodes, edge factor 8, with a self-loop per node and repeats merged
+    CsrGraph graph =
+        RmatGenerator.withScale(16)
+            .edgeFactor(8)
+            .seed(random.nextLong())
+            .generateEdges()
+            .selfLoops(SelfLoopPolicy.ADD)
+            .duplicates(DuplicatePolicy.MERGE)
+            .build();
+    int n = graph.nodeCount();
     ScoreFunction score = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
     HeadShape shape = new HeadShape(8, 1, 8);
     float[] q = randomArray(n * shape.keyWidth(), random);
