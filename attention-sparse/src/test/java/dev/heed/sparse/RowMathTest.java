@@ -163,6 +163,46 @@ class RowMathTest {
     }
   }
 
+  // The edges of the vector exponential's domain, where it relies on its final blend instead of
+  // clamping its argument: every lane must still equal FastExp bit for bit (0 below the lowest
+  // argument and for -Infinity, the polynomial from the lowest argument up), wherever the lane sits
+  // in a vector or in the scalar tail.
+  @Test
+  void vectorExponentialMatchesScalarAtTheEdgesOfItsDomain() {
+    float lowest = FastExp.LOWEST_ARGUMENT;
+    float[] edges = {
+      Float.NEGATIVE_INFINITY,
+      -Float.MAX_VALUE,
+      -1e30f,
+      -1000f,
+      -128f,
+      -100f,
+      Math.nextDown(lowest),
+      lowest,
+      Math.nextUp(lowest),
+      -86.99f,
+      -1e-30f,
+      -Float.MIN_VALUE,
+      -0f,
+      0f
+    };
+    RowMath vector = RowMaths.preferred();
+    for (int rotation = 0; rotation < edges.length; rotation++) {
+      float[] s = new float[edges.length];
+      for (int k = 0; k < edges.length; k++) {
+        s[k] = edges[(k + rotation) % edges.length];
+      }
+      float[] t = s.clone();
+      vector.expShiftSum(s, 0, s.length, 0f);
+      for (int k = 0; k < s.length; k++) {
+        assertEquals(
+            Float.floatToRawIntBits(FastExp.expNonPositive(t[k])),
+            Float.floatToRawIntBits(s[k]),
+            "exp(" + t[k] + ") at position " + k);
+      }
+    }
+  }
+
   @Test
   void polynomialExponentialMatchesMathExp() {
     assertEquals(1f, FastExp.expNonPositive(0f));
