@@ -452,10 +452,17 @@ final class CsrRowPass {
   /**
    * A whole row of at most {@link #BLOCK} entries on the all-heads path, with the same arguments as
    * {@link #allHeadsBlock}: the same operations as {@link #beginRow}, one block and {@link
-   * #finishRow}, in one call that keeps the accumulator in registers.
+   * #finishRow}, in one call that keeps the accumulator in registers. A row of one entry, when no
+   * weights are asked for, is {@link RowMath#singleEntryRowAllHeads}: the same output bits.
    */
   private void allHeadsRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
+    if (count == 1 && weights == null) {
+      // the same output bits for any finite score (every score here is: non-finite ones are
+      // recomputed, clamped), so the score, exponential and division are skipped
+      math.singleEntryRowAllHeads(valueRows, valueRow(columns[offset]), out, i * valueWidth);
+      return;
+    }
     float[] s = allHeadsScores(i, columns, keys, offset, count, firstEntry, sc);
     math.softmaxRowAllHeads(
         s, count, sc.max, sc.sum, sc.rowBase, valueRows, sc.acc, sc.work, out, i * valueWidth);

@@ -244,4 +244,11 @@ final class ScalarRowMath implements RowMath {
       }
     }
   }
+
+  @Override
+  public void singleEntryRowAllHeads(float[] value, int rowBase, float[] out, int outOffset) {
+    for (int x = 0; x < ALL_HEADS * ALL_HEADS; x++) {
+      out[outOffset + x] = value[rowBase + x] + 0f;
+    }
+  }
 }

@@ -518,6 +518,89 @@ class CsrAllHeadsPathTest {
     }
   }
 
+  // A row of one entry skips its score: for any finite score the whole-row method's maximum is the
+  // score, its weight exp(0) = 1 and each output fma(1, v, +0) / 1, so the shortcut must give the
+  // same bits, including +0 for a -0 value, subnormals and the largest floats.
+  @Test
+  void singleEntryRowEqualsTheWholeRowMethodBitForBit() {
+    int h = RowMath.ALL_HEADS;
+    float[] special = {
+      0f, -0f, Float.MIN_VALUE, -Float.MIN_VALUE, 1e-40f, -1e-40f, Float.MAX_VALUE, -Float.MAX_VALUE
+    };
+    for (RowMath math : List.of(RowMaths.preferred(), RowMaths.scalar())) {
+      for (int trial = 0; trial < 50; trial++) {
+        long seed = 0x51E6L + trial;
+        Random random = new Random(seed);
+        String where = math.describe() + ", seed=" + seed;
+        float[] scores = uniform(random, h, -8f, 8f);
+        if (trial % 2 == 1) {
+          for (int x = 0; x < h; x++) {
+            scores[x] = special[random.nextInt(special.length)];
+          }
+        }
+        float[] value = uniform(random, 3 * h * h, -1f, 1f);
+        for (int x = 0; x < value.length; x += 1 + random.nextInt(4)) {
+          value[x] = special[random.nextInt(special.length)];
+        }
+        int base = random.nextInt(3) * h * h;
+        float[] want = new float[5 + h * h];
+        math.softmaxRowAllHeads(
+            scores.clone(),
+            1,
+            new float[h],
+            new float[h],
+            new int[] {base},
+            value,
+            new float[h * h],
+            new float[h],
+            want,
+            5);
+        float[] got = new float[5 + h * h];
+        math.singleEntryRowAllHeads(value, base, got, 5);
+        assertArrayEquals(want, got, where);
+      }
+    }
+  }
+
+  // The kernel takes that shortcut only when no weights are asked for: the outputs of a graph full
+  // of
+  // one-entry rows must not depend on whether weights are written, and those rows' weights are 1.
+  @Test
+  void oneEntryRowsGiveTheSameBitsWithAndWithoutWeights() {
+    Random random = new Random(0x1E27L);
+    int n = 300;
+    int[] offsets = new int[n + 1];
+    int[] columns = new int[n * 12];
+    int e = 0;
+    for (int i = 0; i < n; i++) {
+      int degree = i % 3 == 0 ? random.nextInt(12) : 1;
+      int[] row = random.ints(0, n).distinct().limit(degree).sorted().toArray();
+      System.arraycopy(row, 0, columns, e, row.length);
+      e += row.length;
+      offsets[i + 1] = e;
+    }
+    CsrGraph graph = CsrGraph.of(offsets, Arrays.copyOf(columns, e));
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -2f, 2f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -2f, 2f);
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    v[7] = -0f;
+    for (int threads = 1; threads <= 2; threads++) {
+      for (boolean packed : new boolean[] {false, true}) {
+        String where = threads + " thread(s), packed " + packed;
+        Run with = run(packing(threads, packed), graph, true, q, k, v);
+        Run without = run(packing(threads, packed), graph, false, q, k, v);
+        assertArrayEquals(with.out(), without.out(), where);
+        for (int i = 0; i < n; i++) {
+          if (graph.rowEnd(i) - graph.rowStart(i) == 1) {
+            for (int x = 0; x < SHAPE.heads(); x++) {
+              assertEquals(1f, with.weights()[graph.rowStart(i) * SHAPE.heads() + x], where);
+            }
+          }
+        }
+      }
+    }
+  }
+
   private static double relativeError(float[] reference, float[] actual) {
     double[] r = new double[reference.length];
     for (int x = 0; x < r.length; x++) {

@@ -277,4 +277,20 @@ public interface RowMath {
       float[] work,
       float[] out,
       int outOffset);
+
+  /**
+   * A row whose only entry has a finite score, all heads at once, without the score: exactly what
+   * {@link #softmaxRowAllHeads} with {@code count = 1} writes to {@code out} for any finite score.
+   * There the maximum is the score itself, its weight {@code exp(0) = 1}, the sum 1, and each
+   * output float {@code fma(1, v, +0) / 1}, which is {@code v + 0f}: {@code v} itself, except that
+   * {@code -0} becomes {@code +0}. On power-law graphs with self-loops added, the rows of nodes
+   * that nothing points to are such rows (48 % of the rows of the R-MAT benchmark graph at 1M
+   * nodes).
+   *
+   * @param value input, not modified: the value rows
+   * @param rowBase start of the entry's 64-float value row in {@code value}
+   * @param out output: the row's 64 output floats at {@code outOffset}
+   * @param outOffset start of the row in {@code out}
+   */
+  void singleEntryRowAllHeads(float[] value, int rowBase, float[] out, int outOffset);
 }

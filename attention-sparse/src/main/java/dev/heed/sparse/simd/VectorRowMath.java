@@ -467,4 +467,12 @@ public final class VectorRowMath implements RowMath {
     a6.div(sum[6]).intoArray(out, outOffset + 48);
     a7.div(sum[7]).intoArray(out, outOffset + 56);
   }
+
+  @Override
+  public void singleEntryRowAllHeads(float[] value, int rowBase, float[] out, int outOffset) {
+    assert WIDE_LANES == ALL_HEADS;
+    for (int x = 0; x < ALL_HEADS * ALL_HEADS; x += ALL_HEADS) {
+      FloatVector.fromArray(WIDE, value, rowBase + x).add(0f).intoArray(out, outOffset + x);
+    }
+  }
 }
