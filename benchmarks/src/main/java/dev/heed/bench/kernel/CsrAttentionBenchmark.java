@@ -52,7 +52,11 @@ import org.openjdk.jmh.annotations.Warmup;
  * kernel is first created, so the kernel runs its plain loops; each fork measures one
  * implementation only. Every fork gets {@code --add-modules jdk.incubator.vector} and transparent
  * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
- * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine).
+ * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine), and {@code
+ * -XX:PerMethodTrapLimit=10000}, the setting the README recommends on JDK 17: without it C2
+ * sometimes compiles the kernel's vector methods 2-3x slower for the fork's life (DEVELOPERS.md,
+ * "Vector API lessons"). To measure without it, replace the list: {@code -jvmArgsAppend
+ * "--add-modules jdk.incubator.vector -Xms4g -Xmx4g -XX:+UseTransparentHugePages"}.
  */
 @State(Scope.Benchmark)
 @BenchmarkMode(Mode.AverageTime)
@@ -66,7 +70,8 @@ import org.openjdk.jmh.annotations.Warmup;
       "jdk.incubator.vector",
       "-Xms4g",
       "-Xmx4g",
-      "-XX:+UseTransparentHugePages"
+      "-XX:+UseTransparentHugePages",
+      "-XX:PerMethodTrapLimit=10000"
     })
 public class CsrAttentionBenchmark {
 
