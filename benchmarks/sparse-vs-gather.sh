@@ -7,6 +7,9 @@
 #
 # Usage: benchmarks/sparse-vs-gather.sh [rounds] [output folder]
 #   needs benchmarks/target/benchmarks.jar (mvn -B package -DskipTests) and gcc with OpenMP.
+#   HEED_BENCH_JVM_ARGS, if set, replaces the benchmark's fork JVM options (JMH -jvmArgsAppend);
+#   for example, the defaults without -XX:PerMethodTrapLimit=10000:
+#   HEED_BENCH_JVM_ARGS="--add-modules jdk.incubator.vector -Xms4g -Xmx4g -XX:+UseTransparentHugePages"
 set -euo pipefail
 rounds=${1:-3}
 out=${2:-benchmarks/results/raw/sparse-vs-gather-$(date -u +%Y%m%d-%H%M)}
@@ -24,8 +27,10 @@ gather() {
 }
 for k in $(seq "$rounds"); do
   gather "$k"
+  extra=()
+  if [ -n "${HEED_BENCH_JVM_ARGS:-}" ]; then extra=(-jvmArgsAppend "$HEED_BENCH_JVM_ARGS"); fi
   java -jar "$jar" CsrAttentionBenchmark -p graph=rmat -p nodes=1048576 -p score=additive \
-    -p implementation=vector -p threads=2 -f 1 -wi 3 -i 5 -w 2s -r 2s \
+    -p implementation=vector -p threads=2 -f 1 -wi 3 -i 5 -w 2s -r 2s "${extra[@]}" \
     -rf json -rff "$out/jmh-sparse-rmat-$k.json" > "$out/jmh-sparse-rmat-$k.log" 2>&1
 done
 gather $((rounds + 1))
