@@ -52,11 +52,11 @@ import org.openjdk.jmh.annotations.Warmup;
  * kernel is first created, so the kernel runs its plain loops; each fork measures one
  * implementation only. Every fork gets {@code --add-modules jdk.incubator.vector} and transparent
  * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
- * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine), and {@code
- * -XX:PerMethodTrapLimit=10000}, the setting the README recommends on JDK 17: without it C2
- * sometimes compiles the kernel's vector methods 2-3x slower for the fork's life (DEVELOPERS.md,
- * "Vector API lessons"). To measure without it, replace the list: {@code -jvmArgsAppend
- * "--add-modules jdk.incubator.vector -Xms4g -Xmx4g -XX:+UseTransparentHugePages"}.
+ * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine). On JDK 17 an
+ * occasional fork compiles the kernel 2-3x slower (DEVELOPERS.md, "Vector API lessons"); to rule
+ * that out, add {@code -XX:PerMethodTrapLimit=10000} by replacing the list: {@code -jvmArgsAppend
+ * "--add-modules jdk.incubator.vector -Xms4g -Xmx4g -XX:+UseTransparentHugePages
+ * -XX:PerMethodTrapLimit=10000"}.
  */
 @State(Scope.Benchmark)
 @BenchmarkMode(Mode.AverageTime)
@@ -70,8 +70,7 @@ import org.openjdk.jmh.annotations.Warmup;
       "jdk.incubator.vector",
       "-Xms4g",
       "-Xmx4g",
-      "-XX:+UseTransparentHugePages",
-      "-XX:PerMethodTrapLimit=10000"
+      "-XX:+UseTransparentHugePages"
     })
 public class CsrAttentionBenchmark {
 
