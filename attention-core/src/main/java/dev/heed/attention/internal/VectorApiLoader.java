@@ -18,6 +18,12 @@ public final class VectorApiLoader {
 
   private static final String VECTOR_MODULE = "jdk.incubator.vector";
 
+  /** The warm-up of the Vector API's profiles, run before the first implementation is created. */
+  static final String WARMUP_CLASS = "dev.heed.attention.simd.VectorProfileWarmup";
+
+  /** {@code -Dheed.vector.warmup=false} skips the warm-up, for measurements. */
+  static final String WARMUP_PROPERTY = "heed.vector.warmup";
+
   private VectorApiLoader() {}
 
   /**
@@ -52,6 +58,7 @@ public final class VectorApiLoader {
           VECTOR_FLAG);
       return null;
     }
+    ProfileWarmup.ensureRun(log);
     try {
       T vector = type.cast(Class.forName(className).getMethod("create").invoke(null));
       log.debug("Loaded the Vector API implementation {}", className);
@@ -70,5 +77,47 @@ public final class VectorApiLoader {
           VECTOR_FLAG);
     }
     return null;
+  }
+
+  /**
+   * Whether the warm-up has run to its end in this JVM (package-private, for tests).
+   *
+   * @return true once {@link #load} has run the warm-up without an error
+   */
+  static boolean warmupCompleted() {
+    return ProfileWarmup.completed;
+  }
+
+  /**
+   * Runs {@code VectorProfileWarmup} once per JVM, before any vector implementation is created: on
+   * JDK 17 it keeps the JIT from recording type-check traps in the Vector API's shared methods that
+   * would later slow large vector kernels 2-3x (see that class). Speed only: if it cannot run, the
+   * implementations still compute the same results, and the reason is logged at DEBUG.
+   */
+  private static final class ProfileWarmup {
+    private static boolean attempted;
+    private static volatile boolean completed;
+
+    static synchronized void ensureRun(Logger log) {
+      if (attempted) {
+        return;
+      }
+      attempted = true;
+      if ("false".equalsIgnoreCase(System.getProperty(WARMUP_PROPERTY))) {
+        log.debug("The Vector API warm-up was switched off with -D{}=false", WARMUP_PROPERTY);
+        return;
+      }
+      long start = System.nanoTime();
+      try {
+        Class.forName(WARMUP_CLASS).getMethod("run").invoke(null);
+        completed = true;
+        log.debug(
+            "Warmed the Vector API's type profiles in {} ms", (System.nanoTime() - start) / 1e6);
+      } catch (InvocationTargetException e) {
+        log.debug("The Vector API warm-up failed ({}); speed only", e.getCause().toString());
+      } catch (ReflectiveOperationException | LinkageError e) {
+        log.debug("The Vector API warm-up could not run ({}); speed only", e.toString());
+      }
+    }
   }
 }
