@@ -8,9 +8,9 @@
 # Usage: benchmarks/sparse-vs-gather.sh [rounds] [output folder]
 #   needs benchmarks/target/benchmarks.jar (mvn -B package -DskipTests) and gcc with OpenMP.
 #   HEED_BENCH_JVM_ARGS, if set, replaces the benchmark's fork JVM options (JMH -jvmArgsAppend);
-#   for example, the defaults plus the JDK 17 trap limit (DEVELOPERS.md, "Vector API lessons"):
+#   for example, the defaults with the Vector API warm-up off (DEVELOPERS.md, "Vector API lessons"):
 #   HEED_BENCH_JVM_ARGS="--add-modules jdk.incubator.vector -Xms4g -Xmx4g \
-#     -XX:+UseTransparentHugePages -XX:PerMethodTrapLimit=10000"
+#     -XX:+UseTransparentHugePages -Dheed.vector.warmup=false"
 set -euo pipefail
 rounds=${1:-3}
 out=${2:-benchmarks/results/raw/sparse-vs-gather-$(date -u +%Y%m%d-%H%M)}

@@ -53,10 +53,9 @@ import org.openjdk.jmh.annotations.Warmup;
  * implementation only. Every fork gets {@code --add-modules jdk.incubator.vector} and transparent
  * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
  * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine). On JDK 17 an
- * occasional fork compiles the kernel 2-3x slower (DEVELOPERS.md, "Vector API lessons"); to rule
- * that out, add {@code -XX:PerMethodTrapLimit=10000} by replacing the list: {@code -jvmArgsAppend
- * "--add-modules jdk.incubator.vector -Xms4g -Xmx4g -XX:+UseTransparentHugePages
- * -XX:PerMethodTrapLimit=10000"}.
+ * occasional fork used to compile the kernel 2-3x slower; Heed's Vector API warm-up now prevents
+ * that (DEVELOPERS.md, "Vector API lessons"). To compare with the warm-up off, add {@code
+ * -jvmArgsPrepend -Dheed.vector.warmup=false}.
  */
 @State(Scope.Benchmark)
 @BenchmarkMode(Mode.AverageTime)
