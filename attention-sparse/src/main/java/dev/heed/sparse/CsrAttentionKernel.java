@@ -22,10 +22,11 @@ import java.util.concurrent.atomic.AtomicInteger;
  * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
  * neighbour costs one random access to its key row and one to its value row, since a node's data
  * for all heads is contiguous. For additive scores with 8 heads of 8 value floats over a graph of
- * at least {@value #DEFAULT_MIN_PACKED_TABLE_BYTES} bytes of {@link PackedNodeTable} (about 58k
- * nodes), a call first copies every node's key terms and value row into that table (288 bytes per
- * node, one access per neighbour instead of two), and keeps the table for the next call (softly
- * referenced; see {@link PackedNodeTable}).
+ * at least {@value #DEFAULT_MIN_PACKED_TABLE_BYTES} bytes of {@link PackedNodeTable} (about 52k
+ * nodes), a call first copies every node's key terms (or, without weights, two factors of them) and
+ * value row into that table (320 bytes per node, one access per neighbour instead of two), and
+ * keeps the table for the next call (softly referenced; see {@link PackedNodeTable}). Without
+ * weights the rows then use factored weights ({@link CsrRowPass}): no exponential per entry.
  *
  * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
  * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one
@@ -154,9 +155,29 @@ final class CsrAttentionKernel implements AttentionKernel {
           useThreads);
       return;
     }
+    float[] keyMax = null;
+    if (FACTOR && weights == null) {
+      keyMax = new float[RowMath.ALL_HEADS];
+      java.util.Arrays.fill(keyMax, Float.NEGATIVE_INFINITY);
+      if (!math.keyMaximaAllHeads(key, 0, n, keyMax)) {
+        AttentionKernels.checkFinite("key", key, shape.keyWidth());
+        throw new AssertionError("the key maxima flagged a value that the full check passed");
+      }
+    }
     CsrRowPass pass =
         new CsrRowPass(
-            math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed, table);
+            math,
+            pattern,
+            score,
+            shape,
+            query,
+            key,
+            value,
+            out,
+            weights,
+            allHeadsAllowed,
+            table,
+            keyMax);
     try {
       if (!pack(pass, n, useThreads)) {
         // the first bad value, with checkCall's message
@@ -169,6 +190,14 @@ final class CsrAttentionKernel implements AttentionKernel {
       tables.giveBack(table);
     }
   }
+
+  /**
+   * Whether calls that use the node table and ask for no weights use its factored form ({@link
+   * CsrRowPass}); {@code -Dheed.sparse.factor=false} keeps the exact per-row softmax there, for
+   * measurements.
+   */
+  static final boolean FACTOR =
+      Boolean.parseBoolean(System.getProperty("heed.sparse.factor", "true"));
 
   /**
    * Fills the pass's packed node table on {@code useThreads} threads, in equal ranges of nodes.

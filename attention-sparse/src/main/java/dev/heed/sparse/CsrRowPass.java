@@ -36,8 +36,28 @@ import java.util.Arrays;
  * block ahead the same way. Over the complete pattern the keys are consecutive rows already and are
  * read in place. On the all-heads path over a large CSR graph the kernel may hand the pass a packed
  * node table ({@link PackedNodeTable}: each node's key terms and value row together, 5 cache lines
- * instead of up to 7 in two places); the pass then reads keys and values from it, scores the keys
- * in place instead of gathering them, and computes exactly the same operations.
+ * instead of up to 7 in two places). When weights are asked for, the pass reads keys and values
+ * from it, scores the keys in place instead of gathering them, and computes exactly the same
+ * operations; when not, the table holds factored weights instead of key terms (below).
+ *
+ * <p><b>Factored weights.</b> When the kernel hands the pass a node table and no weights are asked
+ * for, the table is in its factored layout and the all-heads rows skip the per-entry exponential
+ * and the row maximum. With K the largest key term of a head over all nodes and {@code z = q_i +
+ * K}, every score {@code LeakyReLU(q_i + k_j)} of row i is at most {@code m_i = LeakyReLU(z)}, and
+ * {@code exp(LeakyReLU(q_i + k_j) - m_i)} is {@code exp(k_j - K)} where {@code q_i + k_j >= 0} and
+ * {@code exp(slope · (k_j - K)) · exp(-(1 - slope) · max(z, 0))} elsewhere (Veličković et al. 2018,
+ * eq. 3, and {@code exp(a + b) = exp(a) · exp(b)}; LeakyReLU is linear on each side of 0). So the
+ * table stores the two per-node factors in place of the key terms (same five cache lines per node),
+ * each row computes one per-row factor, and each entry costs a compare, a multiply and a blend
+ * instead of a score, a maximum and an exponential: 1.2× faster for the whole layer at 1M nodes
+ * (benchmarks/results/sparse-kernel.md, "Sixth window"). The weights are relative to the bound
+ * rather than the row's own maximum, so a row whose scores all lie more than about 41 below its
+ * bound (a head's sum under {@link RowMath#FACTORED_MIN_SUM}) is recomputed with the exact online
+ * softmax above, keys read from the caller's array. Outputs agree with the exact path to within
+ * rounding (the float difference {@code k_j - K} is rounded once, as {@code q_i + k_j} is on the
+ * exact path), not bit for bit; they are still identical for any thread count. Where q + k itself
+ * loses the key's digits to rounding (inputs near {@link Float#MAX_VALUE}), the factored weights
+ * keep them and the two paths can differ by more; both stay finite convex combinations.
  *
  * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
  * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
@@ -83,6 +103,8 @@ final class CsrRowPass {
   private final boolean gatherWideKeys;
   private final float[] table; // the packed node table, or null
   private final float[] valueRows; // table, or value
+  private final float[] keyMax; // per head, the largest key term: the factored table's K, or null
+  private final boolean factored;
 
   /** A pass without the packed node table. */
   CsrRowPass(
@@ -116,6 +138,28 @@ final class CsrRowPass {
       float[] weights,
       boolean allHeadsAllowed,
       float[] table) {
+    this(
+        math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed, table, null);
+  }
+
+  /**
+   * Creates the pass; {@code keyMax}, if not null, selects the factored layout of the node table
+   * (see the class comment) and holds each head's largest key term over all nodes; it requires a
+   * table and no weights.
+   */
+  CsrRowPass(
+      RowMath math,
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] query,
+      float[] key,
+      float[] value,
+      float[] out,
+      float[] weights,
+      boolean allHeadsAllowed,
+      float[] table,
+      float[] keyMax) {
     this.math = math;
     this.csr = pattern instanceof CsrGraph g ? g : null;
     assert csr != null || pattern instanceof CompletePattern;
@@ -155,6 +199,9 @@ final class CsrRowPass {
     assert table == null || (allHeads && csr != null);
     this.table = table;
     this.valueRows = table == null ? value : table;
+    this.keyMax = keyMax;
+    this.factored = keyMax != null;
+    assert !factored || (table != null && weights == null);
   }
 
   /** Whether a pass with these arguments takes the all-heads path (see the class comment). */
@@ -187,11 +234,18 @@ final class CsrRowPass {
    */
   boolean pack(int from, int to) {
     assert table != null;
+    if (factored) {
+      return math.packFactored(
+          key, value, from, to, keyMax, slope, table, PackedNodeTable.FACTORED_OFFSET);
+    }
     return math.packAllHeads(key, value, from, to, table, PackedNodeTable.OFFSET);
   }
 
   /** Start of node c's value row in {@link #valueRows}. */
   private int valueRow(int c) {
+    if (factored) {
+      return PackedNodeTable.factoredValueRow(c);
+    }
     return table == null ? c * valueWidth : PackedNodeTable.valueRow(c);
   }
 
@@ -219,7 +273,8 @@ final class CsrRowPass {
       columns = new int[BLOCK];
       rowBase = new int[BLOCK];
       keys = new float[BLOCK * keyWidth];
-      scores = new float[BLOCK * heads];
+      // one row more: the factored row method keeps its sums there
+      scores = new float[(BLOCK + 1) * heads];
       acc = new float[valueWidth];
       max = new float[heads];
       sum = new float[heads];
@@ -356,6 +411,15 @@ final class CsrRowPass {
     assert allHeads && valueWidth == 64 && keyWidth == RowMath.ALL_HEADS;
     int last = Math.min(end, first + BLOCK);
     float s = 0f;
+    if (factored) {
+      // a factored row is 320 bytes on a 64-byte boundary: 5 whole cache lines
+      float[] t = table;
+      for (int e = first; e < last; e++) {
+        int p = PackedNodeTable.factoredValueRow(csr.column(e)) - 2 * RowMath.ALL_HEADS;
+        s += t[p] + t[p + 16] + t[p + 32] + t[p + 48] + t[p + 64];
+      }
+      return s;
+    }
     if (table != null) {
       // a packed row is 288 bytes that start on a 32-byte boundary: 5 cache lines
       float[] t = table;
@@ -394,6 +458,10 @@ final class CsrRowPass {
       int[] columns = blockColumns(start, degree, sc);
       float[] keys = table == null ? gatherKeys(columns, degree, sc) : null;
       allHeadsRow(i, columns, keys, 0, degree, firstEntry, sc);
+      return;
+    }
+    if (factored) {
+      factoredLongRow(i, start, degree, sc);
       return;
     }
     beginRow(sc);
@@ -461,6 +529,26 @@ final class CsrRowPass {
       // the same output bits for any finite score (every score here is: non-finite ones are
       // recomputed, clamped), so the score, exponential and division are skipped
       math.singleEntryRowAllHeads(valueRows, valueRow(columns[offset]), out, i * valueWidth);
+      return;
+    }
+    if (factored) {
+      int[] rowBase = sc.rowBase;
+      for (int t = 0; t < count; t++) {
+        rowBase[t] = valueRow(columns[offset + t]);
+      }
+      if (!math.factoredRowAllHeads(
+          query,
+          i * keyWidth,
+          keyMax,
+          slope,
+          table,
+          rowBase,
+          count,
+          sc.scores,
+          out,
+          i * valueWidth)) {
+        exactRow(i, sc);
+      }
       return;
     }
     float[] s = allHeadsScores(i, columns, keys, offset, count, firstEntry, sc);
@@ -648,5 +736,72 @@ final class CsrRowPass {
 
   private double leakyRelu(double z) {
     return z > 0 ? z : slope * z;
+  }
+
+  /**
+   * A row of more than {@link #BLOCK} entries with factored weights: block by block, each block's
+   * rows loaded ahead as on the exact path; the sums and the accumulator just add up (the bound
+   * does not move), and the row is recomputed exactly if a head's sum is too small.
+   */
+  private void factoredLongRow(int i, int start, int degree, Scratch sc) {
+    Arrays.fill(sc.acc, 0f);
+    Arrays.fill(sc.sum, 0f);
+    int[] rowBase = sc.rowBase;
+    for (int b = 0; b < degree; b += BLOCK) {
+      int count = Math.min(BLOCK, degree - b);
+      for (int t = 0; t < count; t++) {
+        rowBase[t] = valueRow(csr.column(start + b + t));
+      }
+      if (PREFETCH && b + BLOCK < degree) {
+        sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
+      }
+      math.factoredBlockAllHeads(
+          query, i * keyWidth, keyMax, slope, table, rowBase, count, sc.scores, sc.sum, sc.acc);
+    }
+    for (int h = 0; h < heads; h++) {
+      if (!(sc.sum[h] >= RowMath.FACTORED_MIN_SUM)) {
+        exactRow(i, sc);
+        return;
+      }
+    }
+    int outBase = i * valueWidth;
+    for (int h = 0; h < heads; h++) {
+      float total = sc.sum[h];
+      for (int k = h * valueDim, end = k + valueDim; k < end; k++) {
+        out[outBase + k] = sc.acc[k] / total;
+      }
+    }
+  }
+
+  /**
+   * Row i by the exact online softmax (running maxima), its key terms read from the caller's array
+   * and its values from the factored table: for the rare rows whose factored weights are too small
+   * to keep their precision ({@link RowMath#FACTORED_MIN_SUM}).
+   */
+  private void exactRow(int i, Scratch sc) {
+    int start = csr.rowStart(i);
+    int degree = csr.rowEnd(i) - start;
+    beginRow(sc);
+    int[] rowBase = sc.rowBase;
+    float[] s = sc.scores;
+    for (int b = 0; b < degree; b += BLOCK) {
+      int count = Math.min(BLOCK, degree - b);
+      int[] columns = blockColumns(start + b, count, sc);
+      float[] keys = gatherKeys(columns, count, sc);
+      for (int t = 0; t < count; t++) {
+        rowBase[t] = valueRow(columns[t]);
+      }
+      if (!math.additiveScoresAllHeads(query, i * keyWidth, keys, 0, count, slope, s)) {
+        for (int t = 0; t < count; t++) {
+          for (int h = 0; h < heads; h++) {
+            if (!Float.isFinite(s[t * heads + h])) {
+              s[t * heads + h] = exactScore(i, columns[t], h);
+            }
+          }
+        }
+      }
+      math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, table, sc.acc, sc.work);
+    }
+    finishRow(i, degree, start, sc);
   }
 }

@@ -9,9 +9,13 @@ import org.slf4j.LoggerFactory;
 
 /**
  * The packed node table of the all-heads path (additive scores, 8 heads of 8 value floats, over a
- * CSR graph): for every node, its 8 key terms and then its 64 value floats, {@link
- * RowMath#PACKED_ROW} = 72 floats (288 bytes) per node, node c's row at {@link #OFFSET} {@code + c
- * · 72}. Internal.
+ * CSR graph), in one of two layouts. Exact (calls that ask for weights): for every node, its 8 key
+ * terms and then its 64 value floats, {@link RowMath#PACKED_ROW} = 72 floats (288 bytes) per node,
+ * node c's row at {@link #OFFSET} {@code + c · 72}. Factored (calls without weights; see {@link
+ * CsrRowPass}): its 8 factors {@code exp(k - K)}, its 8 factors {@code exp(slope · (k - K))}, then
+ * its 64 value floats, {@link RowMath#FACTORED_ROW} = 80 floats (320 bytes) per node, at {@link
+ * #FACTORED_OFFSET} {@code + c · 80}: 12 floats put every row on a 64-byte boundary, five whole
+ * lines, as many as the exact layout's 288 bytes span. A table is sized for either. Internal.
  *
  * <p>Why: each entry of a row reads its source's key terms and value row at random. From the
  * caller's two arrays that is two random accesses, and as many cache lines as the arrays' alignment
@@ -29,7 +33,7 @@ import org.slf4j.LoggerFactory;
  * rows stay in cache anyway and the copy costs more than it saves; the kernel reads the caller's
  * arrays in place there.
  *
- * <p>Memory: the table is {@code 288·n} bytes (288 MiB for 1M nodes), allocated on the first call
+ * <p>Memory: the table is {@code 320·n} bytes (320 MiB for 1M nodes), allocated on the first call
  * that needs it. The kernel keeps one spare table between calls, softly referenced, so repeated
  * calls reuse it and the garbage collector can take it back when memory runs short; concurrent
  * calls that find the spare taken allocate their own. If the heap cannot hold a table, the call
@@ -52,8 +56,14 @@ final class PackedNodeTable {
    */
   static final int OFFSET = 4;
 
+  /**
+   * Index of node 0's row in the factored layout: 12 floats, so that with a 16-byte array header on
+   * a 64-byte boundary every 320-byte row is exactly five cache lines.
+   */
+  static final int FACTORED_OFFSET = 12;
+
   /** Most nodes a table can hold: one Java array of {@code OFFSET + 72·n} floats. */
-  static final int MAX_NODES = (Integer.MAX_VALUE - 8 - OFFSET) / RowMath.PACKED_ROW;
+  static final int MAX_NODES = (Integer.MAX_VALUE - 8 - FACTORED_OFFSET) / RowMath.FACTORED_ROW;
 
   private static final Logger LOG = LoggerFactory.getLogger(PackedNodeTable.class);
 
@@ -72,9 +82,18 @@ final class PackedNodeTable {
     return OFFSET + c * RowMath.PACKED_ROW + RowMath.ALL_HEADS;
   }
 
-  private static int length(int n) {
+  /**
+   * Returns the start of node c's value row in the factored layout (its E and F factors are the 16
+   * floats before).
+   */
+  static int factoredValueRow(int c) {
+    return FACTORED_OFFSET + c * RowMath.FACTORED_ROW + 2 * RowMath.ALL_HEADS;
+  }
+
+  /** Floats of a table for n nodes: room for either layout. */
+  static int length(int n) {
     assert n <= MAX_NODES;
-    return OFFSET + n * RowMath.PACKED_ROW;
+    return FACTORED_OFFSET + n * RowMath.FACTORED_ROW;
   }
 
   /**

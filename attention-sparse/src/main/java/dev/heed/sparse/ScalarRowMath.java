@@ -251,4 +251,116 @@ final class ScalarRowMath implements RowMath {
       out[outOffset + x] = value[rowBase + x] + 0f;
     }
   }
+
+  @Override
+  public boolean keyMaximaAllHeads(float[] key, int from, int to, float[] max) {
+    boolean finite = true;
+    for (int c = from; c < to; c++) {
+      for (int h = 0; h < ALL_HEADS; h++) {
+        float k = key[c * ALL_HEADS + h];
+        max[h] = Math.max(max[h], k);
+        finite &= Float.isFinite(k);
+      }
+    }
+    return finite;
+  }
+
+  @Override
+  public boolean packFactored(
+      float[] key,
+      float[] value,
+      int from,
+      int to,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int tableOffset) {
+    boolean finite = true;
+    for (int c = from; c < to; c++) {
+      int p = tableOffset + c * FACTORED_ROW;
+      for (int h = 0; h < ALL_HEADS; h++) {
+        float d = key[c * ALL_HEADS + h] - keyMax[h];
+        table[p + h] = FastExp.expNonPositive(d);
+        table[p + ALL_HEADS + h] = FastExp.expNonPositive(d * negativeSlope);
+      }
+      p += 2 * ALL_HEADS;
+      for (int x = 0; x < ALL_HEADS * ALL_HEADS; x++) {
+        float v = value[c * ALL_HEADS * ALL_HEADS + x];
+        table[p + x] = v;
+        finite &= Float.isFinite(v);
+      }
+    }
+    return finite;
+  }
+
+  // The scalar factored methods are the bit-for-bit reference of the vector ones (tests); the
+  // kernel never runs them (servesAllHeads() is false here), so their small work arrays are
+  // allocated per call.
+  @Override
+  public boolean factoredRowAllHeads(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] out,
+      int outOffset) {
+    float[] sum = new float[ALL_HEADS];
+    float[] acc = new float[ALL_HEADS * ALL_HEADS];
+    factoredBlockAllHeads(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, acc);
+    for (int h = 0; h < ALL_HEADS; h++) {
+      if (!(sum[h] >= FACTORED_MIN_SUM)) {
+        return false;
+      }
+    }
+    for (int h = 0; h < ALL_HEADS; h++) {
+      for (int x = 0; x < ALL_HEADS; x++) {
+        out[outOffset + h * ALL_HEADS + x] = acc[h * ALL_HEADS + x] / sum[h];
+      }
+    }
+    return true;
+  }
+
+  @Override
+  public void factoredBlockAllHeads(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] sum,
+      float[] acc) {
+    float[] rest = new float[ALL_HEADS];
+    float[] threshold = new float[ALL_HEADS];
+    for (int h = 0; h < ALL_HEADS; h++) {
+      float qk = q[qOffset + h] + keyMax[h];
+      rest[h] = FastExp.expNonPositive(Math.max(qk, 0f) * (negativeSlope - 1f));
+      threshold[h] = qk < 0f ? Float.POSITIVE_INFINITY : FastExp.expNonPositive(Math.min(-qk, 0f));
+    }
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      for (int h = 0; h < ALL_HEADS; h++) {
+        float e = table[r - 2 * ALL_HEADS + h];
+        float p = e >= threshold[h] ? e : table[r - ALL_HEADS + h] * rest[h];
+        s[t * ALL_HEADS + h] = p;
+        sum[h] += p;
+      }
+    }
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      for (int h = 0; h < ALL_HEADS; h++) {
+        float p = s[t * ALL_HEADS + h];
+        for (int x = 0; x < ALL_HEADS; x++) {
+          int k = h * ALL_HEADS + x;
+          acc[k] = Math.fma(p, table[r + k], acc[k]);
+        }
+      }
+    }
+  }
 }

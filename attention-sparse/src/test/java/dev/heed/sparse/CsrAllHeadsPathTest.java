@@ -24,8 +24,10 @@ import org.junit.jupiter.api.Test;
 /**
  * The all-heads path (additive scores, 8 heads of 8 value floats): it is really taken, matches the
  * float64 reference (Veličković et al. 2018, eqs. 1-4), gives identical bits for 1 to 3 threads,
- * agrees with the per-head path, reads the packed node table with the same bits as the caller's
- * arrays, and its vector methods equal the scalar reference forms bit for bit.
+ * agrees with the per-head path, reads the node table's exact layout with the same bits as the
+ * caller's arrays, computes the table's factored weights to within rounding of the exact softmax
+ * (falling back to it where they underflow), and its vector methods equal the scalar reference
+ * forms bit for bit.
  */
 class CsrAllHeadsPathTest {
 
@@ -153,11 +155,14 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  // The packed node table changes only where the kernel reads keys and values from, not the
-  // arithmetic: outputs and weights equal the unpacked path bit for bit, for 1 to 3 threads, with
-  // and without weights, and on a second call that reuses the spare table.
+  // The node table's exact layout (used when weights are asked for) changes only where the kernel
+  // reads keys and values from, not the arithmetic: outputs and weights equal the unpacked path bit
+  // for bit. Without weights the table is factored (CsrRowPass): other operations on the same
+  // values, so the outputs must match the float64 reference (Veličković et al. 2018, eqs. 1-4)
+  // within 1e-5 and the exact path within 1e-6, with identical bits for 1 to 3 threads and on a
+  // second call that reuses the spare table.
   @Test
-  void packedNodeTableGivesTheSameBits() {
+  void packedNodeTableMatchesTheUnpackedPath() {
     long seed = 0x9AC4EDL;
     Random random = new Random(seed);
     int n = 700;
@@ -168,17 +173,26 @@ class CsrAllHeadsPathTest {
     float[] k0 = k.clone();
     float[] v0 = v.clone();
     assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
+    ReferenceAttention.Result reference = ReferenceAttention.attend(graph, GAT, SHAPE, q, k, v);
+    float[] factored = null;
     for (int threads = 1; threads <= 3; threads++) {
       String where = threads + " threads, seed=" + seed;
       CsrAttentionKernel packed = packing(threads, true);
-      for (boolean withWeights : new boolean[] {true, false}) {
-        Run want = run(packing(threads, false), graph, withWeights, q, k, v);
-        for (int call = 0; call < 2; call++) {
-          Run got = run(packed, graph, withWeights, q, k, v);
-          assertArrayEquals(want.out(), got.out(), where + ", call " + call);
-          if (withWeights) {
-            assertArrayEquals(want.weights(), got.weights(), where + ", call " + call);
-          }
+      Run exact = run(packing(threads, false), graph, true, q, k, v);
+      Run exactOutOnly = run(packing(threads, false), graph, false, q, k, v);
+      for (int call = 0; call < 2; call++) {
+        Run got = run(packed, graph, true, q, k, v);
+        assertArrayEquals(exact.out(), got.out(), where + ", weights, call " + call);
+        assertArrayEquals(exact.weights(), got.weights(), where + ", weights, call " + call);
+        float[] out = run(packed, graph, false, q, k, v).out();
+        if (factored == null) {
+          factored = out;
+          double error = ReferenceAttention.relativeError(reference.out(), out);
+          assertTrue(error < 1e-5, where + ": factored out, relative error " + error);
+          double apart = relativeError(exactOutOnly.out(), out);
+          assertTrue(apart < 1e-6, where + ": factored and exact outputs differ by " + apart);
+        } else {
+          assertArrayEquals(factored, out, where + ", no weights, call " + call);
         }
       }
     }
@@ -206,8 +220,7 @@ class CsrAllHeadsPathTest {
             uniform(random, n * SHAPE.keyWidth(), -4f, 4f),
             uniform(random, n * SHAPE.valueWidth(), -1f, 1f)
           };
-      want[c] =
-          run(packing(1, false), graph, false, inputs[c][0], inputs[c][1], inputs[c][2]).out();
+      want[c] = run(packing(1, true), graph, false, inputs[c][0], inputs[c][1], inputs[c][2]).out();
     }
     CsrAttentionKernel shared = packing(2, true);
     java.util.concurrent.ExecutorService pool =
@@ -286,13 +299,17 @@ class CsrAllHeadsPathTest {
   void spareTableIsReusedOnlyWhenLargeEnough() {
     PackedNodeTable tables = new PackedNodeTable();
     float[] first = tables.take(10);
-    assertEquals(PackedNodeTable.OFFSET + 10 * RowMath.PACKED_ROW, first.length);
+    assertEquals(PackedNodeTable.length(10), first.length);
+    assertTrue(first.length >= PackedNodeTable.OFFSET + 10 * RowMath.PACKED_ROW, "exact layout");
+    assertTrue(
+        first.length >= PackedNodeTable.factoredValueRow(9) + RowMath.ALL_HEADS * RowMath.ALL_HEADS,
+        "factored layout");
     tables.giveBack(first);
     assertSame(first, tables.take(7), "a spare large enough is reused");
     assertFalse(tables.take(7) == first, "a spare is handed to one call at a time");
     tables.giveBack(first);
     float[] larger = tables.take(11);
-    assertEquals(PackedNodeTable.OFFSET + 11 * RowMath.PACKED_ROW, larger.length);
+    assertEquals(PackedNodeTable.length(11), larger.length);
   }
 
   // A table the heap cannot hold is not an error: take() says so with null (and logs once), and
@@ -473,6 +490,155 @@ class CsrAllHeadsPathTest {
     assertFalse(scalar.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
   }
 
+  // The factored methods (RowMath contract): vector and scalar forms do the same IEEE operations in
+  // the same order, so tables, weights, sums, accumulators and outputs agree bit for bit; over
+  // queries that put each head above and below zero (z = q + K), keys near q + k = 0 and keys far
+  // below the maximum (factors that underflow to 0).
+  @Test
+  void factoredMethodsEqualTheScalarReferenceBitForBit() {
+    RowMath vector = RowMaths.preferred();
+    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    RowMath scalar = RowMaths.scalar();
+    int h = RowMath.ALL_HEADS;
+    int nodes = 40;
+    for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrRowPass.BLOCK}) {
+      long seed = 0xFAC702L + count;
+      Random random = new Random(seed);
+      String where = "count " + count + ", seed=" + seed;
+      float[] key = uniform(random, nodes * h, -6f, 6f);
+      key[5] = -200f; // exp(k - K) below the exponential's range: exactly 0
+      float[] value = uniform(random, nodes * h * h, -1f, 1f);
+      float[] maxV = new float[h];
+      Arrays.fill(maxV, Float.NEGATIVE_INFINITY);
+      float[] maxS = maxV.clone();
+      assertTrue(vector.keyMaximaAllHeads(key, 0, nodes, maxV), where);
+      assertTrue(scalar.keyMaximaAllHeads(key, 0, nodes, maxS), where);
+      assertArrayEquals(maxS, maxV, "key maxima, " + where);
+      int offset = PackedNodeTable.FACTORED_OFFSET;
+      float[] tableV = uniform(random, PackedNodeTable.length(nodes) + 3, -9f, 9f);
+      float[] tableS = tableV.clone();
+      assertTrue(vector.packFactored(key, value, 0, nodes, maxV, 0.2f, tableV, offset), where);
+      assertTrue(scalar.packFactored(key, value, 0, nodes, maxS, 0.2f, tableS, offset), where);
+      assertArrayEquals(tableS, tableV, "factored table, " + where);
+      int[] rowBase = new int[count];
+      int[] rows = new int[count];
+      for (int t = 0; t < count; t++) {
+        rows[t] = random.nextInt(nodes);
+        rowBase[t] = PackedNodeTable.factoredValueRow(rows[t]);
+      }
+      // heads 0-3 with q + K above zero, 4-7 below; head 2 exactly on q + k = 0 for one source
+      float[] q = new float[3 + h];
+      for (int x = 0; x < h; x++) {
+        q[3 + x] = x < 4 ? random.nextFloat() * 8f - maxV[x] : -maxV[x] - 1f - random.nextFloat();
+      }
+      q[3 + 2] = -key[rows[0] * h + 2];
+      float[] sV = new float[(count + 1) * h];
+      float[] sS = new float[(count + 1) * h];
+      float[] outV = new float[h * h + 4];
+      float[] outS = new float[h * h + 4];
+      boolean okV =
+          vector.factoredRowAllHeads(q, 3, maxV, 0.2f, tableV, rowBase, count, sV, outV, 4);
+      boolean okS =
+          scalar.factoredRowAllHeads(q, 3, maxS, 0.2f, tableS, rowBase, count, sS, outS, 4);
+      assertEquals(okS, okV, "accepted, " + where);
+      assertTrue(okV, "weights of a few units must not underflow, " + where);
+      assertArrayEquals(
+          Arrays.copyOf(sS, count * h), Arrays.copyOf(sV, count * h), "weights, " + where);
+      assertArrayEquals(outS, outV, "outputs, " + where);
+      float[] sumV = uniform(random, h, 0.5f, 2f);
+      float[] accV = uniform(random, h * h, -1f, 1f);
+      float[] sumS = sumV.clone();
+      float[] accS = accV.clone();
+      vector.factoredBlockAllHeads(q, 3, maxV, 0.2f, tableV, rowBase, count, sV, sumV, accV);
+      scalar.factoredBlockAllHeads(q, 3, maxS, 0.2f, tableS, rowBase, count, sS, sumS, accS);
+      assertArrayEquals(sumS, sumV, "block sums, " + where);
+      assertArrayEquals(accS, accV, "block accumulator, " + where);
+      // against the definition in float64: weight exp(LeakyReLU(q + k) - LeakyReLU(q + K)). The
+      // float differences k - K carry a rounding error of up to half an ulp of |k - K|, so the
+      // tolerance grows with it (2^-23 per unit of distance, plus the exponential's few ulp)
+      for (int t = 0; t < count; t++) {
+        for (int x = 0; x < h; x++) {
+          double z = (double) q[3 + x] + key[rows[t] * h + x];
+          double bound = (double) q[3 + x] + maxV[x];
+          double want = Math.exp(leaky(z) - leaky(bound));
+          double distance = Math.abs((double) key[rows[t] * h + x] - maxV[x]);
+          double tolerance = want * 0x1p-23 * (4 + distance);
+          assertEquals(want, sV[t * h + x], tolerance, "weight " + t + "/" + x + ", " + where);
+        }
+      }
+    }
+    // a non-finite key term is reported by the maxima, a non-finite value by the copy
+    float[] key = uniform(new Random(3), nodes * h, -1f, 1f);
+    float[] value = uniform(new Random(4), nodes * h * h, -1f, 1f);
+    float[] table = new float[PackedNodeTable.length(nodes)];
+    for (RowMath math : List.of(vector, scalar)) {
+      float[] max = new float[h];
+      Arrays.fill(max, Float.NEGATIVE_INFINITY);
+      key[17] = Float.NaN;
+      assertFalse(math.keyMaximaAllHeads(key, 0, nodes, max), math.describe());
+      key[17] = 0.5f;
+      Arrays.fill(max, Float.NEGATIVE_INFINITY);
+      assertTrue(math.keyMaximaAllHeads(key, 0, nodes, max), math.describe());
+      value[99] = Float.NEGATIVE_INFINITY;
+      assertFalse(math.packFactored(key, value, 0, nodes, max, 0.2f, table, 12), math.describe());
+      value[99] = 0.25f;
+    }
+  }
+
+  private static double leaky(double z) {
+    return z > 0 ? z : 0.2 * z;
+  }
+
+  // Factored weights are relative to a bound from the largest key term of the whole graph; a row
+  // whose own scores lie far below it (here, every source's key terms 56 below one node's) would
+  // underflow, so such rows are recomputed with the exact online softmax. Outputs match the float64
+  // reference (Veličković et al. 2018, eqs. 1-4) and the exact path within 1e-5, with identical
+  // bits for 1 and 3 threads. With queries near the float maximum, q + k rounds to the same float
+  // (and double) for every source, so the exact path and the reference see equal scores, while the
+  // factored weights still see exp(k) (softmax shift invariance): there the outputs need only be
+  // finite convex combinations, the same for any thread count.
+  @Test
+  void factoredRowsFallBackToTheExactSoftmaxWhereTheirWeightsUnderflow() {
+    long seed = 0xFAC703L;
+    Random random = new Random(seed);
+    int n = 500;
+    CsrGraph graph = graph(random, n);
+    assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
+    float[] q = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] k = uniform(random, n * SHAPE.keyWidth(), -4f, 4f);
+    float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
+    for (int x = 0; x < SHAPE.keyWidth(); x++) {
+      // node 7: 56 or more above the rest, so rows without it have factored weights of e^-48 or
+      // less, sums under 2^-60; most rows do not contain it
+      k[7 * SHAPE.keyWidth() + x] = 60f;
+    }
+    for (boolean overflow : new boolean[] {false, true}) {
+      float[] kk = k.clone();
+      float[] qq = q.clone();
+      if (overflow) {
+        for (int x = 0; x < qq.length; x += 5) {
+          qq[x] = 3e38f;
+        }
+        kk[7 * SHAPE.keyWidth() + 1] = 3e38f;
+      }
+      String where = "overflow " + overflow + ", seed=" + seed;
+      Run one = run(packing(1, true), graph, false, qq, kk, v);
+      Run three = run(packing(3, true), graph, false, qq, kk, v);
+      assertArrayEquals(one.out(), three.out(), where);
+      for (float o : one.out()) {
+        assertTrue(Float.isFinite(o) && Math.abs(o) <= 1f + 1e-6f, "out " + o + ", " + where);
+      }
+      if (!overflow) {
+        Run exact = run(packing(1, false), graph, false, qq, kk, v);
+        double apart = relativeError(exact.out(), one.out());
+        assertTrue(apart < 1e-5, where + ": factored and exact outputs differ by " + apart);
+        ReferenceAttention.Result want = ReferenceAttention.attend(graph, GAT, SHAPE, qq, kk, v);
+        double error = ReferenceAttention.relativeError(want.out(), one.out());
+        assertTrue(error < 1e-5, where + ": relative error " + error);
+      }
+    }
+  }
+
   // The one-block row method against the steps it replaces (RowMath contract: fresh maxima, sums
   // and accumulator, one block, then acc / sum), bit for bit, for both implementations; the scratch
   // it is given holds junk first, which it must ignore.
@@ -562,9 +728,11 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  // The kernel takes that shortcut only when no weights are asked for: the outputs of a graph full
-  // of
-  // one-entry rows must not depend on whether weights are written, and those rows' weights are 1.
+  // The kernel takes that shortcut only when no weights are asked for: the outputs of one-entry
+  // rows
+  // must not depend on whether weights are written, and those rows' weights are 1. Over the node
+  // table the other rows' outputs do depend on it (factored weights without, the exact softmax
+  // with), but only to within rounding.
   @Test
   void oneEntryRowsGiveTheSameBitsWithAndWithoutWeights() {
     Random random = new Random(0x1E27L);
@@ -589,7 +757,21 @@ class CsrAllHeadsPathTest {
         String where = threads + " thread(s), packed " + packed;
         Run with = run(packing(threads, packed), graph, true, q, k, v);
         Run without = run(packing(threads, packed), graph, false, q, k, v);
-        assertArrayEquals(with.out(), without.out(), where);
+        if (packed) {
+          double apart = relativeError(with.out(), without.out());
+          assertTrue(apart < 1e-6, where + ": outputs differ by " + apart);
+        } else {
+          assertArrayEquals(with.out(), without.out(), where);
+        }
+        for (int i = 0; i < n; i++) {
+          if (graph.rowEnd(i) - graph.rowStart(i) == 1) {
+            int o = i * SHAPE.valueWidth();
+            assertArrayEquals(
+                Arrays.copyOfRange(with.out(), o, o + SHAPE.valueWidth()),
+                Arrays.copyOfRange(without.out(), o, o + SHAPE.valueWidth()),
+                where + ", one-entry row " + i);
+          }
+        }
         for (int i = 0; i < n; i++) {
           if (graph.rowEnd(i) - graph.rowStart(i) == 1) {
             for (int x = 0; x < SHAPE.heads(); x++) {

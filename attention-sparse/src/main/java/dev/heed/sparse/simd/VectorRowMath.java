@@ -3,6 +3,7 @@ package dev.heed.sparse.simd;
 import dev.heed.attention.internal.FastExp;
 import dev.heed.attention.simd.VectorExp;
 import dev.heed.sparse.internal.RowMath;
+import java.util.Arrays;
 import jdk.incubator.vector.FloatVector;
 import jdk.incubator.vector.VectorOperators;
 import jdk.incubator.vector.VectorShuffle;
@@ -474,5 +475,213 @@ public final class VectorRowMath implements RowMath {
     for (int x = 0; x < ALL_HEADS * ALL_HEADS; x += ALL_HEADS) {
       FloatVector.fromArray(WIDE, value, rowBase + x).add(0f).intoArray(out, outOffset + x);
     }
+  }
+
+  @Override
+  public boolean keyMaximaAllHeads(float[] key, int from, int to, float[] max) {
+    assert WIDE_LANES == ALL_HEADS;
+    FloatVector m = FloatVector.fromArray(WIDE, max, 0);
+    FloatVector check = FloatVector.zero(WIDE);
+    for (int c = from; c < to; c++) {
+      FloatVector k = FloatVector.fromArray(WIDE, key, c * ALL_HEADS);
+      m = m.max(k);
+      check = check.add(k.sub(k));
+    }
+    m.intoArray(max, 0);
+    return check.eq(check).allTrue();
+  }
+
+  @Override
+  public boolean packFactored(
+      float[] key,
+      float[] value,
+      int from,
+      int to,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int tableOffset) {
+    assert WIDE_LANES == ALL_HEADS;
+    FloatVector top = FloatVector.fromArray(WIDE, keyMax, 0);
+    FloatVector check = FloatVector.zero(WIDE);
+    for (int c = from; c < to; c++) {
+      int p = tableOffset + c * FACTORED_ROW;
+      int v = c * ALL_HEADS * ALL_HEADS;
+      FloatVector d = FloatVector.fromArray(WIDE, key, c * ALL_HEADS).sub(top);
+      VectorExp.expNonPositive(d).intoArray(table, p);
+      VectorExp.expNonPositive(d.mul(negativeSlope)).intoArray(table, p + 8);
+      FloatVector v0 = FloatVector.fromArray(WIDE, value, v);
+      FloatVector v1 = FloatVector.fromArray(WIDE, value, v + 8);
+      FloatVector v2 = FloatVector.fromArray(WIDE, value, v + 16);
+      FloatVector v3 = FloatVector.fromArray(WIDE, value, v + 24);
+      FloatVector v4 = FloatVector.fromArray(WIDE, value, v + 32);
+      FloatVector v5 = FloatVector.fromArray(WIDE, value, v + 40);
+      FloatVector v6 = FloatVector.fromArray(WIDE, value, v + 48);
+      FloatVector v7 = FloatVector.fromArray(WIDE, value, v + 56);
+      v0.intoArray(table, p + 16);
+      v1.intoArray(table, p + 24);
+      v2.intoArray(table, p + 32);
+      v3.intoArray(table, p + 40);
+      v4.intoArray(table, p + 48);
+      v5.intoArray(table, p + 56);
+      v6.intoArray(table, p + 64);
+      v7.intoArray(table, p + 72);
+      check =
+          check
+              .add(v0.sub(v0))
+              .add(v1.sub(v1))
+              .add(v2.sub(v2))
+              .add(v3.sub(v3))
+              .add(v4.sub(v4))
+              .add(v5.sub(v5))
+              .add(v6.sub(v6))
+              .add(v7.sub(v7));
+    }
+    return check.eq(check).allTrue();
+  }
+
+  @Override
+  public boolean factoredRowAllHeads(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] out,
+      int outOffset) {
+    assert WIDE_LANES == ALL_HEADS;
+    int lw = count * ALL_HEADS;
+    Arrays.fill(s, lw, lw + ALL_HEADS, 0f);
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, s, lw);
+    if (!FloatVector.fromArray(WIDE, s, lw)
+        .compare(VectorOperators.GE, FACTORED_MIN_SUM)
+        .allTrue()) {
+      return false;
+    }
+    FloatVector a0 = FloatVector.zero(WIDE);
+    FloatVector a1 = a0;
+    FloatVector a2 = a0;
+    FloatVector a3 = a0;
+    FloatVector a4 = a0;
+    FloatVector a5 = a0;
+    FloatVector a6 = a0;
+    FloatVector a7 = a0;
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int w = t * ALL_HEADS;
+      a0 = FloatVector.fromArray(WIDE, table, r).fma(FloatVector.broadcast(WIDE, s[w]), a0);
+      a1 = FloatVector.fromArray(WIDE, table, r + 8).fma(FloatVector.broadcast(WIDE, s[w + 1]), a1);
+      a2 =
+          FloatVector.fromArray(WIDE, table, r + 16).fma(FloatVector.broadcast(WIDE, s[w + 2]), a2);
+      a3 =
+          FloatVector.fromArray(WIDE, table, r + 24).fma(FloatVector.broadcast(WIDE, s[w + 3]), a3);
+      a4 =
+          FloatVector.fromArray(WIDE, table, r + 32).fma(FloatVector.broadcast(WIDE, s[w + 4]), a4);
+      a5 =
+          FloatVector.fromArray(WIDE, table, r + 40).fma(FloatVector.broadcast(WIDE, s[w + 5]), a5);
+      a6 =
+          FloatVector.fromArray(WIDE, table, r + 48).fma(FloatVector.broadcast(WIDE, s[w + 6]), a6);
+      a7 =
+          FloatVector.fromArray(WIDE, table, r + 56).fma(FloatVector.broadcast(WIDE, s[w + 7]), a7);
+    }
+    a0.div(s[lw]).intoArray(out, outOffset);
+    a1.div(s[lw + 1]).intoArray(out, outOffset + 8);
+    a2.div(s[lw + 2]).intoArray(out, outOffset + 16);
+    a3.div(s[lw + 3]).intoArray(out, outOffset + 24);
+    a4.div(s[lw + 4]).intoArray(out, outOffset + 32);
+    a5.div(s[lw + 5]).intoArray(out, outOffset + 40);
+    a6.div(s[lw + 6]).intoArray(out, outOffset + 48);
+    a7.div(s[lw + 7]).intoArray(out, outOffset + 56);
+    return true;
+  }
+
+  @Override
+  public void factoredBlockAllHeads(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] sum,
+      float[] acc) {
+    assert WIDE_LANES == ALL_HEADS;
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, 0);
+    FloatVector a0 = FloatVector.fromArray(WIDE, acc, 0);
+    FloatVector a1 = FloatVector.fromArray(WIDE, acc, 8);
+    FloatVector a2 = FloatVector.fromArray(WIDE, acc, 16);
+    FloatVector a3 = FloatVector.fromArray(WIDE, acc, 24);
+    FloatVector a4 = FloatVector.fromArray(WIDE, acc, 32);
+    FloatVector a5 = FloatVector.fromArray(WIDE, acc, 40);
+    FloatVector a6 = FloatVector.fromArray(WIDE, acc, 48);
+    FloatVector a7 = FloatVector.fromArray(WIDE, acc, 56);
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int w = t * ALL_HEADS;
+      a0 = FloatVector.fromArray(WIDE, table, r).fma(FloatVector.broadcast(WIDE, s[w]), a0);
+      a1 = FloatVector.fromArray(WIDE, table, r + 8).fma(FloatVector.broadcast(WIDE, s[w + 1]), a1);
+      a2 =
+          FloatVector.fromArray(WIDE, table, r + 16).fma(FloatVector.broadcast(WIDE, s[w + 2]), a2);
+      a3 =
+          FloatVector.fromArray(WIDE, table, r + 24).fma(FloatVector.broadcast(WIDE, s[w + 3]), a3);
+      a4 =
+          FloatVector.fromArray(WIDE, table, r + 32).fma(FloatVector.broadcast(WIDE, s[w + 4]), a4);
+      a5 =
+          FloatVector.fromArray(WIDE, table, r + 40).fma(FloatVector.broadcast(WIDE, s[w + 5]), a5);
+      a6 =
+          FloatVector.fromArray(WIDE, table, r + 48).fma(FloatVector.broadcast(WIDE, s[w + 6]), a6);
+      a7 =
+          FloatVector.fromArray(WIDE, table, r + 56).fma(FloatVector.broadcast(WIDE, s[w + 7]), a7);
+    }
+    a0.intoArray(acc, 0);
+    a1.intoArray(acc, 8);
+    a2.intoArray(acc, 16);
+    a3.intoArray(acc, 24);
+    a4.intoArray(acc, 32);
+    a5.intoArray(acc, 40);
+    a6.intoArray(acc, 48);
+    a7.intoArray(acc, 56);
+  }
+
+  /**
+   * The factored weights of a block's entries ({@link RowMath#factoredRowAllHeads}): entry t's into
+   * {@code s[t·8 ..]}, and their sums, in order of t, added to {@code sum[sumOffset ..]}. Arrays in
+   * and out, so no vector crosses the call.
+   */
+  private static void addFactoredWeights(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] sum,
+      int sumOffset) {
+    FloatVector qk =
+        FloatVector.fromArray(WIDE, q, qOffset).add(FloatVector.fromArray(WIDE, keyMax, 0));
+    // under the row's bound m = LeakyReLU(q + K): entries with q + k >= 0 weigh exp(k - K) = E,
+    // the others exp(slope (k - K)) exp(-(1 - slope) max(q + K, 0)) = F B
+    FloatVector b = VectorExp.expNonPositive(qk.max(0f).mul(negativeSlope - 1f));
+    FloatVector threshold =
+        VectorExp.expNonPositive(qk.neg().min(0f)).blend(Float.POSITIVE_INFINITY, qk.lt(0f));
+    FloatVector l = FloatVector.fromArray(WIDE, sum, sumOffset);
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      FloatVector e = FloatVector.fromArray(WIDE, table, r - 16);
+      FloatVector p =
+          FloatVector.fromArray(WIDE, table, r - 8)
+              .mul(b)
+              .blend(e, e.compare(VectorOperators.GE, threshold));
+      p.intoArray(s, t * ALL_HEADS);
+      l = l.add(p);
+    }
+    l.intoArray(sum, sumOffset);
   }
 }

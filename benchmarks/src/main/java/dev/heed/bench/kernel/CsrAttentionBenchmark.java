@@ -117,6 +117,14 @@ public class CsrAttentionBenchmark {
   @Param({"auto"})
   public String packedTable;
 
+  /**
+   * {@code on} (the kernel uses factored weights on its packed node table when no weights are asked
+   * for, as here) or {@code off} ({@code heed.sparse.factor=false} in the fork: the exact per-row
+   * softmax on the same table), for A/B comparisons in one run.
+   */
+  @Param({"on"})
+  public String factoredWeights;
+
   /** Seed of the graph and the inputs. */
   @Param({"20260401"})
   public long seed;
@@ -142,6 +150,11 @@ public class CsrAttentionBenchmark {
       System.setProperty("heed.sparse.pack", "false");
     } else if (!packedTable.equals("auto")) {
       throw new IllegalArgumentException("packedTable must be auto or off");
+    }
+    if (factoredWeights.equals("off")) {
+      System.setProperty("heed.sparse.factor", "false");
+    } else if (!factoredWeights.equals("on")) {
+      throw new IllegalArgumentException("factoredWeights must be on or off");
     }
     if (path.equals("perHead")) {
       System.setProperty("heed.sparse.allHeads", "false");
