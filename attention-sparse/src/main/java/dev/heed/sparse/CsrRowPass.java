@@ -626,8 +626,9 @@ final class CsrRowPass {
     for (int t = 0; t < count; t++) {
       rowBase[t] = valueRow(columns[offset + t]);
     }
+    // keys gathered from the caller's array, or (exact layout of the table) read in place
     boolean finite =
-        table == null
+        keys != null
             ? math.additiveScoresAllHeads(query, qb, keys, offset * keyWidth, count, slope, s)
             : math.additiveScoresAllHeadsPacked(query, qb, table, rowBase, count, slope, s);
     if (!finite) {
@@ -782,25 +783,10 @@ final class CsrRowPass {
     int start = csr.rowStart(i);
     int degree = csr.rowEnd(i) - start;
     beginRow(sc);
-    int[] rowBase = sc.rowBase;
-    float[] s = sc.scores;
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
       int[] columns = blockColumns(start + b, count, sc);
-      float[] keys = gatherKeys(columns, count, sc);
-      for (int t = 0; t < count; t++) {
-        rowBase[t] = valueRow(columns[t]);
-      }
-      if (!math.additiveScoresAllHeads(query, i * keyWidth, keys, 0, count, slope, s)) {
-        for (int t = 0; t < count; t++) {
-          for (int h = 0; h < heads; h++) {
-            if (!Float.isFinite(s[t * heads + h])) {
-              s[t * heads + h] = exactScore(i, columns[t], h);
-            }
-          }
-        }
-      }
-      math.softmaxAccumulateAllHeads(s, count, sc.max, sc.sum, rowBase, table, sc.acc, sc.work);
+      allHeadsBlock(i, columns, gatherKeys(columns, count, sc), 0, count, start + b, sc);
     }
     finishRow(i, degree, start, sc);
   }
