@@ -68,9 +68,10 @@ public final class VectorProfileWarmup {
       // plain binary (sub, div), then the ternary fma
       FloatVector z = x.add(y).mul(y).sub(x).max(y).min(x).div(2f).fma(y, x);
       z = z.add(FloatVector.broadcast(SPECIES, 1f)).mul(0.5f).sub(0.25f).max(-1f);
-      // comparisons, masks and blends
+      // a unary operation, comparisons, masks and blends
+      z = z.neg().max(z);
       VectorMask<Float> below = x.lt(y);
-      z = z.blend(0f, below);
+      z = z.blend(0f, below).blend(y, z.compare(VectorOperators.GE, x));
       boolean finite = z.eq(z).allTrue();
       // integer lanes, as in the exponential's scale bits
       IntVector bits = (IntVector) z.reinterpretAsInts();
