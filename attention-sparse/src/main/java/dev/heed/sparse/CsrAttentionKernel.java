@@ -23,10 +23,10 @@ import java.util.concurrent.atomic.AtomicInteger;
  * neighbour costs one random access to its key row and one to its value row, since a node's data
  * for all heads is contiguous. For additive scores with 8 heads of 8 value floats over a graph of
  * at least {@value #DEFAULT_MIN_PACKED_TABLE_BYTES} bytes of {@link PackedNodeTable} (about 52k
- * nodes), a call first copies every node's key terms (or, without weights, two factors of them) and
- * value row into that table (320 bytes per node, one access per neighbour instead of two), and
- * keeps the table for the next call (softly referenced; see {@link PackedNodeTable}). Without
- * weights the rows then use factored weights ({@link CsrRowPass}): no exponential per entry.
+ * nodes), a call first copies two factors of every node's key terms and its value row into that
+ * table (320 bytes per node, one access per neighbour instead of two), and keeps the table for the
+ * next call (softly referenced; see {@link PackedNodeTable}). The rows then use factored weights
+ * ({@link CsrRowPass}): no exponential per entry.
  *
  * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
  * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one
@@ -53,6 +53,7 @@ final class CsrAttentionKernel implements AttentionKernel {
   private final long minCostPerThread;
   private final boolean allHeadsAllowed;
   private final long minPackedTableBytes;
+  private final boolean factorTable;
   private final PackedNodeTable tables = new PackedNodeTable();
 
   /**
@@ -89,12 +90,27 @@ final class CsrAttentionKernel implements AttentionKernel {
       long minCostPerThread,
       boolean allHeadsAllowed,
       long minPackedTableBytes) {
+    this(threads, math, minCostPerThread, allHeadsAllowed, minPackedTableBytes, FACTOR);
+  }
+
+  /**
+   * Creates the kernel; {@code factorTable} selects the packed node table's factored layout and
+   * weights ({@link CsrRowPass}) over its exact one (tests cover both).
+   */
+  CsrAttentionKernel(
+      int threads,
+      RowMath math,
+      long minCostPerThread,
+      boolean allHeadsAllowed,
+      long minPackedTableBytes,
+      boolean factorTable) {
     assert threads >= 1 && minCostPerThread >= 1 && minPackedTableBytes >= 0;
     this.threads = threads;
     this.math = math;
     this.minCostPerThread = minCostPerThread;
     this.allHeadsAllowed = allHeadsAllowed;
     this.minPackedTableBytes = minPackedTableBytes;
+    this.factorTable = factorTable;
   }
 
   /** Creates the kernel on the implementation chosen for this JVM. */
@@ -156,7 +172,7 @@ final class CsrAttentionKernel implements AttentionKernel {
       return;
     }
     float[] keyMax = null;
-    if (FACTOR && weights == null) {
+    if (factorTable) {
       keyMax = new float[RowMath.ALL_HEADS];
       java.util.Arrays.fill(keyMax, Float.NEGATIVE_INFINITY);
       if (!math.keyMaximaAllHeads(key, 0, n, keyMax)) {
@@ -192,9 +208,8 @@ final class CsrAttentionKernel implements AttentionKernel {
   }
 
   /**
-   * Whether calls that use the node table and ask for no weights use its factored form ({@link
-   * CsrRowPass}); {@code -Dheed.sparse.factor=false} keeps the exact per-row softmax there, for
-   * measurements.
+   * Whether calls that use the node table use its factored form ({@link CsrRowPass}); {@code
+   * -Dheed.sparse.factor=false} keeps the exact per-row softmax there, for measurements.
    */
   static final boolean FACTOR =
       Boolean.parseBoolean(System.getProperty("heed.sparse.factor", "true"));

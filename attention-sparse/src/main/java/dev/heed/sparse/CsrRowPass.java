@@ -36,28 +36,30 @@ import java.util.Arrays;
  * block ahead the same way. Over the complete pattern the keys are consecutive rows already and are
  * read in place. On the all-heads path over a large CSR graph the kernel may hand the pass a packed
  * node table ({@link PackedNodeTable}: each node's key terms and value row together, 5 cache lines
- * instead of up to 7 in two places). When weights are asked for, the pass reads keys and values
- * from it, scores the keys in place instead of gathering them, and computes exactly the same
- * operations; when not, the table holds factored weights instead of key terms (below).
+ * instead of up to 7 in two places). By default the table holds factored weights instead of key
+ * terms (below); in its exact layout ({@code -Dheed.sparse.factor=false}) the pass reads keys and
+ * values from it, scores the keys in place instead of gathering them, and computes exactly the same
+ * operations as without the table.
  *
- * <p><b>Factored weights.</b> When the kernel hands the pass a node table and no weights are asked
- * for, the table is in its factored layout and the all-heads rows skip the per-entry exponential
- * and the row maximum. With K the largest key term of a head over all nodes and {@code z = q_i +
- * K}, every score {@code LeakyReLU(q_i + k_j)} of row i is at most {@code m_i = LeakyReLU(z)}, and
- * {@code exp(LeakyReLU(q_i + k_j) - m_i)} is {@code exp(k_j - K)} where {@code q_i + k_j >= 0} and
- * {@code exp(slope · (k_j - K)) · exp(-(1 - slope) · max(z, 0))} elsewhere (Veličković et al. 2018,
- * eq. 3, and {@code exp(a + b) = exp(a) · exp(b)}; LeakyReLU is linear on each side of 0). So the
- * table stores the two per-node factors in place of the key terms (same five cache lines per node),
- * each row computes one per-row factor, and each entry costs a compare, a multiply and a blend
- * instead of a score, a maximum and an exponential: 1.2× faster for the whole layer at 1M nodes
- * (benchmarks/results/sparse-kernel.md, "Sixth window"). The weights are relative to the bound
- * rather than the row's own maximum, so a row whose scores all lie more than about 41 below its
- * bound (a head's sum under {@link RowMath#FACTORED_MIN_SUM}) is recomputed with the exact online
- * softmax above, keys read from the caller's array. Outputs agree with the exact path to within
- * rounding (the float difference {@code k_j - K} is rounded once, as {@code q_i + k_j} is on the
- * exact path), not bit for bit; they are still identical for any thread count. Where q + k itself
- * loses the key's digits to rounding (inputs near {@link Float#MAX_VALUE}), the factored weights
- * keep them and the two paths can differ by more; both stay finite convex combinations.
+ * <p><b>Factored weights.</b> When the kernel hands the pass a node table in its factored layout,
+ * the all-heads rows skip the per-entry exponential and the row maximum. With K the largest key
+ * term of a head over all nodes and {@code z = q_i + K}, every score {@code LeakyReLU(q_i + k_j)}
+ * of row i is at most {@code m_i = LeakyReLU(z)}, and {@code exp(LeakyReLU(q_i + k_j) - m_i)} is
+ * {@code exp(k_j - K)} where {@code q_i + k_j >= 0} and {@code exp(slope · (k_j - K)) · exp(-(1 -
+ * slope) · max(z, 0))} elsewhere (Veličković et al. 2018, eq. 3, and {@code exp(a + b) = exp(a) ·
+ * exp(b)}; LeakyReLU is linear on each side of 0). So the table stores the two per-node factors in
+ * place of the key terms (same five cache lines per node), each row computes one per-row factor,
+ * and each entry costs a compare, a multiply and a blend instead of a score, a maximum and an
+ * exponential: 1.2× faster for the whole layer at 1M nodes (benchmarks/results/sparse-kernel.md,
+ * "Sixth window"). The weights are relative to the bound rather than the row's own maximum, so a
+ * row whose scores all lie more than about 41 below its bound (a head's sum under {@link
+ * RowMath#FACTORED_MIN_SUM}) is recomputed with the exact online softmax above, keys read from the
+ * caller's array. Outputs agree with the exact path to within rounding (the float difference {@code
+ * k_j - K} is rounded once, as {@code q_i + k_j} is on the exact path), not bit for bit; they are
+ * still identical for any thread count and whether or not weights are asked for (those written are
+ * each entry's factored weight over its head's sum). Where q + k itself loses the key's digits to
+ * rounding (inputs near {@link Float#MAX_VALUE}), the factored weights keep them and the two paths
+ * can differ by more; both stay finite convex combinations.
  *
  * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
  * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
@@ -201,7 +203,7 @@ final class CsrRowPass {
     this.valueRows = table == null ? value : table;
     this.keyMax = keyMax;
     this.factored = keyMax != null;
-    assert !factored || (table != null && weights == null);
+    assert !factored || table != null;
   }
 
   /** Whether a pass with these arguments takes the all-heads path (see the class comment). */
@@ -520,15 +522,20 @@ final class CsrRowPass {
   /**
    * A whole row of at most {@link #BLOCK} entries on the all-heads path, with the same arguments as
    * {@link #allHeadsBlock}: the same operations as {@link #beginRow}, one block and {@link
-   * #finishRow}, in one call that keeps the accumulator in registers. A row of one entry, when no
-   * weights are asked for, is {@link RowMath#singleEntryRowAllHeads}: the same output bits.
+   * #finishRow}, in one call that keeps the accumulator in registers. A row of one entry is {@link
+   * RowMath#singleEntryRowAllHeads}: the same output bits, and a weight of exactly 1 per head.
    */
   private void allHeadsRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
-    if (count == 1 && weights == null) {
+    if (count == 1) {
       // the same output bits for any finite score (every score here is: non-finite ones are
-      // recomputed, clamped), so the score, exponential and division are skipped
+      // recomputed, clamped), so the score, exponential and division are skipped; the weight of
+      // a lone entry is exp(0) / 1 = 1 exactly
       math.singleEntryRowAllHeads(valueRows, valueRow(columns[offset]), out, i * valueWidth);
+      if (weights != null) {
+        int w = (int) (firstEntry * heads);
+        Arrays.fill(weights, w, w + heads, 1f);
+      }
       return;
     }
     if (factored) {
@@ -548,6 +555,15 @@ final class CsrRowPass {
           out,
           i * valueWidth)) {
         exactRow(i, sc);
+      } else if (weights != null) {
+        // the row method leaves the weights relative to the bound in the scratch, their sums after
+        int w = (int) (firstEntry * heads);
+        int sums = count * heads;
+        for (int t = 0; t < sums; t += heads) {
+          for (int h = 0; h < heads; h++) {
+            weights[w + t + h] = sc.scores[t + h] / sc.scores[sums + h];
+          }
+        }
       }
       return;
     }
@@ -758,11 +774,21 @@ final class CsrRowPass {
       }
       math.factoredBlockAllHeads(
           query, i * keyWidth, keyMax, slope, table, rowBase, count, sc.scores, sc.sum, sc.acc);
+      if (weights != null) {
+        System.arraycopy(sc.scores, 0, weights, (start + b) * heads, count * heads);
+      }
     }
     for (int h = 0; h < heads; h++) {
       if (!(sc.sum[h] >= RowMath.FACTORED_MIN_SUM)) {
         exactRow(i, sc);
         return;
+      }
+    }
+    if (weights != null) {
+      for (int w = start * heads, end = (start + degree) * heads; w < end; w += heads) {
+        for (int h = 0; h < heads; h++) {
+          weights[w + h] /= sc.sum[h];
+        }
       }
     }
     int outBase = i * valueWidth;

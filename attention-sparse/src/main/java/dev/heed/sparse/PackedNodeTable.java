@@ -9,9 +9,9 @@ import org.slf4j.LoggerFactory;
 
 /**
  * The packed node table of the all-heads path (additive scores, 8 heads of 8 value floats, over a
- * CSR graph), in one of two layouts. Exact (calls that ask for weights): for every node, its 8 key
- * terms and then its 64 value floats, {@link RowMath#PACKED_ROW} = 72 floats (288 bytes) per node,
- * node c's row at {@link #OFFSET} {@code + c · 72}. Factored (calls without weights; see {@link
+ * CSR graph), in one of two layouts. Exact ({@code -Dheed.sparse.factor=false}): for every node,
+ * its 8 key terms and then its 64 value floats, {@link RowMath#PACKED_ROW} = 72 floats (288 bytes)
+ * per node, node c's row at {@link #OFFSET} {@code + c · 72}. Factored (the default; see {@link
  * CsrRowPass}): its 8 factors {@code exp(k - K)}, its 8 factors {@code exp(slope · (k - K))}, then
  * its 64 value floats, {@link RowMath#FACTORED_ROW} = 80 floats (320 bytes) per node, at {@link
  * #FACTORED_OFFSET} {@code + c · 80}: 12 floats put every row on a 64-byte boundary, five whole

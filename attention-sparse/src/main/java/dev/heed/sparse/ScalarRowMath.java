@@ -311,6 +311,7 @@ final class ScalarRowMath implements RowMath {
     float[] sum = new float[ALL_HEADS];
     float[] acc = new float[ALL_HEADS * ALL_HEADS];
     factoredBlockAllHeads(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, acc);
+    System.arraycopy(sum, 0, s, count * ALL_HEADS, ALL_HEADS);
     for (int h = 0; h < ALL_HEADS; h++) {
       if (!(sum[h] >= FACTORED_MIN_SUM)) {
         return false;

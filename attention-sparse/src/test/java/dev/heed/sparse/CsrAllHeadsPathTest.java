@@ -80,9 +80,16 @@ class CsrAllHeadsPathTest {
     return new Run(out, weights);
   }
 
+  /** A kernel that uses the node table for every graph (or never), in its default layout. */
   private static CsrAttentionKernel packing(int threads, boolean packed) {
     return new CsrAttentionKernel(
         threads, RowMaths.preferred(), 1, true, packed ? 0 : Long.MAX_VALUE);
+  }
+
+  /** A kernel that uses the node table for every graph, in its factored or its exact layout. */
+  private static CsrAttentionKernel packing(int threads, boolean packed, boolean factored) {
+    return new CsrAttentionKernel(
+        threads, RowMaths.preferred(), 1, true, packed ? 0 : Long.MAX_VALUE, factored);
   }
 
   @Test
@@ -155,12 +162,12 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  // The node table's exact layout (used when weights are asked for) changes only where the kernel
-  // reads keys and values from, not the arithmetic: outputs and weights equal the unpacked path bit
-  // for bit. Without weights the table is factored (CsrRowPass): other operations on the same
-  // values, so the outputs must match the float64 reference (Veličković et al. 2018, eqs. 1-4)
-  // within 1e-5 and the exact path within 1e-6, with identical bits for 1 to 3 threads and on a
-  // second call that reuses the spare table.
+  // The node table's exact layout changes only where the kernel reads keys and values from, not
+  // the arithmetic: outputs and weights equal the unpacked path bit for bit. The factored layout
+  // (the default, CsrRowPass) does other operations on the same values, so its outputs and weights
+  // must match the float64 reference (Veličković et al. 2018, eqs. 1-4) within 1e-5 and the exact
+  // path within 1e-6; they must be identical for 1 to 3 threads, on a second call that reuses the
+  // spare table, and with and without weights asked for.
   @Test
   void packedNodeTableMatchesTheUnpackedPath() {
     long seed = 0x9AC4EDL;
@@ -174,26 +181,37 @@ class CsrAllHeadsPathTest {
     float[] v0 = v.clone();
     assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
     ReferenceAttention.Result reference = ReferenceAttention.attend(graph, GAT, SHAPE, q, k, v);
-    float[] factored = null;
+    Run factored = null;
     for (int threads = 1; threads <= 3; threads++) {
       String where = threads + " threads, seed=" + seed;
-      CsrAttentionKernel packed = packing(threads, true);
-      Run exact = run(packing(threads, false), graph, true, q, k, v);
-      Run exactOutOnly = run(packing(threads, false), graph, false, q, k, v);
+      Run unpacked = run(packing(threads, false), graph, true, q, k, v);
+      CsrAttentionKernel exact = packing(threads, true, false);
+      CsrAttentionKernel factoring = packing(threads, true, true);
       for (int call = 0; call < 2; call++) {
-        Run got = run(packed, graph, true, q, k, v);
-        assertArrayEquals(exact.out(), got.out(), where + ", weights, call " + call);
-        assertArrayEquals(exact.weights(), got.weights(), where + ", weights, call " + call);
-        float[] out = run(packed, graph, false, q, k, v).out();
+        Run got = run(exact, graph, true, q, k, v);
+        assertArrayEquals(unpacked.out(), got.out(), where + ", exact layout, call " + call);
+        assertArrayEquals(unpacked.weights(), got.weights(), where + ", exact, call " + call);
+        assertArrayEquals(
+            unpacked.out(), run(exact, graph, false, q, k, v).out(), where + ", exact, no weights");
+        got = run(factoring, graph, true, q, k, v);
         if (factored == null) {
-          factored = out;
-          double error = ReferenceAttention.relativeError(reference.out(), out);
+          factored = got;
+          double error = ReferenceAttention.relativeError(reference.out(), got.out());
           assertTrue(error < 1e-5, where + ": factored out, relative error " + error);
-          double apart = relativeError(exactOutOnly.out(), out);
+          error = ReferenceAttention.relativeError(reference.weights(), got.weights());
+          assertTrue(error < 1e-5, where + ": factored weights, relative error " + error);
+          double apart = relativeError(unpacked.out(), got.out());
           assertTrue(apart < 1e-6, where + ": factored and exact outputs differ by " + apart);
+          apart = relativeError(unpacked.weights(), got.weights());
+          assertTrue(apart < 1e-6, where + ": factored and exact weights differ by " + apart);
         } else {
-          assertArrayEquals(factored, out, where + ", no weights, call " + call);
+          assertArrayEquals(factored.out(), got.out(), where + ", factored, call " + call);
+          assertArrayEquals(factored.weights(), got.weights(), where + ", factored, call " + call);
         }
+        assertArrayEquals(
+            factored.out(),
+            run(factoring, graph, false, q, k, v).out(),
+            where + ", factored, no weights, call " + call);
       }
     }
     assertArrayEquals(k0, k, "the kernel must not modify key");
@@ -635,6 +653,10 @@ class CsrAllHeadsPathTest {
         ReferenceAttention.Result want = ReferenceAttention.attend(graph, GAT, SHAPE, qq, kk, v);
         double error = ReferenceAttention.relativeError(want.out(), one.out());
         assertTrue(error < 1e-5, where + ": relative error " + error);
+        Run weighed = run(packing(1, true), graph, true, qq, kk, v);
+        assertArrayEquals(one.out(), weighed.out(), where + ": with and without weights");
+        error = ReferenceAttention.relativeError(want.weights(), weighed.weights());
+        assertTrue(error < 1e-5, where + ": weights relative error " + error);
       }
     }
   }
@@ -728,11 +750,9 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  // The kernel takes that shortcut only when no weights are asked for: the outputs of one-entry
-  // rows
-  // must not depend on whether weights are written, and those rows' weights are 1. Over the node
-  // table the other rows' outputs do depend on it (factored weights without, the exact softmax
-  // with), but only to within rounding.
+  // The kernel takes that shortcut with and without weights (a lone entry's weight is exp(0) / 1 =
+  // 1 exactly): outputs must not depend on whether weights are written, without the node table or
+  // with either of its layouts, and those rows' weights are 1.
   @Test
   void oneEntryRowsGiveTheSameBitsWithAndWithoutWeights() {
     Random random = new Random(0x1E27L);
@@ -753,16 +773,13 @@ class CsrAllHeadsPathTest {
     float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
     v[7] = -0f;
     for (int threads = 1; threads <= 2; threads++) {
-      for (boolean packed : new boolean[] {false, true}) {
-        String where = threads + " thread(s), packed " + packed;
-        Run with = run(packing(threads, packed), graph, true, q, k, v);
-        Run without = run(packing(threads, packed), graph, false, q, k, v);
-        if (packed) {
-          double apart = relativeError(with.out(), without.out());
-          assertTrue(apart < 1e-6, where + ": outputs differ by " + apart);
-        } else {
-          assertArrayEquals(with.out(), without.out(), where);
-        }
+      for (int layout = 0; layout < 3; layout++) {
+        String where =
+            threads + " thread(s), " + List.of("unpacked", "exact", "factored").get(layout);
+        CsrAttentionKernel kernel = packing(threads, layout > 0, layout == 2);
+        Run with = run(kernel, graph, true, q, k, v);
+        Run without = run(kernel, graph, false, q, k, v);
+        assertArrayEquals(with.out(), without.out(), where);
         for (int i = 0; i < n; i++) {
           if (graph.rowEnd(i) - graph.rowStart(i) == 1) {
             int o = i * SHAPE.valueWidth();

@@ -358,11 +358,11 @@ public interface RowMath {
    * 0} when {@code E >= T}, {@code T = exp(-z)} ({@code +Infinity} when {@code z < 0}); near {@code
    * q + k = 0} the two forms agree to rounding. Computed, in this order: {@code B}, {@code T}; for
    * each entry t, {@code p = E >= T ? E : F · B} into {@code s[t·8 + h]} and {@code sum[h] += p}
-   * (from 0); if any {@code sum[h]} is not at least {@link #FACTORED_MIN_SUM}, return false with
-   * {@code out} untouched; else {@code acc[h·8 + x] = fma(p, value, acc)} in order of t (from 0)
-   * and {@code out[outOffset + h·8 + x] = acc[h·8 + x] / sum[h]}. Both implementations do exactly
-   * these operations, so their results are bit-identical. No per-entry exponential and no row
-   * maximum: that is the point.
+   * (from 0), then the sums into {@code s[count·8 + h]}; if any {@code sum[h]} is not at least
+   * {@link #FACTORED_MIN_SUM}, return false with {@code out} untouched; else {@code acc[h·8 + x] =
+   * fma(p, value, acc)} in order of t (from 0) and {@code out[outOffset + h·8 + x] = acc[h·8 + x] /
+   * sum[h]}. Both implementations do exactly these operations, so their results are bit-identical.
+   * No per-entry exponential and no row maximum: that is the point.
    *
    * @param q input, not modified: the target's query terms
    * @param qOffset offset of head 0's term in {@code q}
