@@ -8,6 +8,7 @@ import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
 import dev.heed.sparse.internal.RowMath;
+import java.util.Arrays;
 import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicInteger;
 
@@ -171,30 +172,21 @@ final class CsrAttentionKernel implements AttentionKernel {
           useThreads);
       return;
     }
-    float[] keyMax = null;
-    if (factorTable) {
-      keyMax = new float[RowMath.ALL_HEADS];
-      java.util.Arrays.fill(keyMax, Float.NEGATIVE_INFINITY);
-      if (!math.keyMaximaAllHeads(key, 0, n, keyMax)) {
-        AttentionKernels.checkFinite("key", key, shape.keyWidth());
-        throw new AssertionError("the key maxima flagged a value that the full check passed");
-      }
-    }
-    CsrRowPass pass =
-        new CsrRowPass(
-            math,
-            pattern,
-            score,
-            shape,
-            query,
-            key,
-            value,
-            out,
-            weights,
-            allHeadsAllowed,
-            table,
-            keyMax);
     try {
+      CsrRowPass pass =
+          new CsrRowPass(
+              math,
+              pattern,
+              score,
+              shape,
+              query,
+              key,
+              value,
+              out,
+              weights,
+              allHeadsAllowed,
+              table,
+              factorTable ? keyMaxima(key, n, shape) : null);
       if (!pack(pass, n, useThreads)) {
         // the first bad value, with checkCall's message
         AttentionKernels.checkFinite("key", key, shape.keyWidth());
@@ -213,6 +205,22 @@ final class CsrAttentionKernel implements AttentionKernel {
    */
   static final boolean FACTOR =
       Boolean.parseBoolean(System.getProperty("heed.sparse.factor", "true"));
+
+  /**
+   * Each head's largest key term over all n nodes (the factored table's K), checking every key term
+   * for NaN and infinities on the way (the packed copy then checks only the values).
+   *
+   * @throws IllegalArgumentException for a non-finite key term, with checkCall's message
+   */
+  private float[] keyMaxima(float[] key, int n, HeadShape shape) {
+    float[] keyMax = new float[RowMath.ALL_HEADS];
+    Arrays.fill(keyMax, Float.NEGATIVE_INFINITY);
+    if (!math.keyMaximaAllHeads(key, 0, n, keyMax)) {
+      AttentionKernels.checkFinite("key", key, shape.keyWidth());
+      throw new AssertionError("the key maxima flagged a value that the full check passed");
+    }
+    return keyMax;
+  }
 
   /**
    * Fills the pass's packed node table on {@code useThreads} threads, in equal ranges of nodes.
@@ -294,7 +302,7 @@ final class CsrAttentionKernel implements AttentionKernel {
       }
     }
     bounds[++used] = n;
-    return java.util.Arrays.copyOf(bounds, used + 1);
+    return Arrays.copyOf(bounds, used + 1);
   }
 
   /** Cost of rows 0..row-1: their entries plus one per row. */
