@@ -151,11 +151,7 @@ final class ScalarRowMath implements RowMath {
         finite &= Float.isFinite(k);
       }
       p += ALL_HEADS;
-      for (int x = 0; x < ALL_HEADS * ALL_HEADS; x++) {
-        float v = value[c * ALL_HEADS * ALL_HEADS + x];
-        table[p + x] = v;
-        finite &= Float.isFinite(v);
-      }
+      finite &= copyValueRow(value, c, table, p);
     }
     return finite;
   }
@@ -284,11 +280,7 @@ final class ScalarRowMath implements RowMath {
         table[p + ALL_HEADS + h] = FastExp.expNonPositive(d * negativeSlope);
       }
       p += 2 * ALL_HEADS;
-      for (int x = 0; x < ALL_HEADS * ALL_HEADS; x++) {
-        float v = value[c * ALL_HEADS * ALL_HEADS + x];
-        table[p + x] = v;
-        finite &= Float.isFinite(v);
-      }
+      finite &= copyValueRow(value, c, table, p);
     }
     return finite;
   }
@@ -363,5 +355,16 @@ final class ScalarRowMath implements RowMath {
         }
       }
     }
+  }
+
+  /** Copies node c's 64 value floats to {@code table[p ..]}; returns whether all are finite. */
+  private static boolean copyValueRow(float[] value, int c, float[] table, int p) {
+    boolean finite = true;
+    for (int x = 0; x < ALL_HEADS * ALL_HEADS; x++) {
+      float v = value[c * ALL_HEADS * ALL_HEADS + x];
+      table[p + x] = v;
+      finite &= Float.isFinite(v);
+    }
+    return finite;
   }
 }
