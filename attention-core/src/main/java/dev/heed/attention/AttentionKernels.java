@@ -45,7 +45,7 @@ public final class AttentionKernels {
             + " path is on the class path"
             + (path == ComputePath.SPARSE
                 ? "; add the dependency dev.heed:attention-sparse"
-                : "; the dense kernel ships in dev.heed:attention-core"));
+                : "; add the dependency dev.heed:attention-dense"));
   }
 
   /**

@@ -7,12 +7,12 @@ import java.io.IOException;
 import java.nio.file.Path;
 import java.util.Arrays;
 import java.util.Objects;
-import org.nd4j.linalg.api.ndarray.INDArray;
 
 /**
  * An immutable n × f matrix of node features (row i = node i), float32, every value finite. Created
- * from {@code float[][]}, an ND4J {@link INDArray}, row-major values, or a {@code .npy} file read
- * with Heed's safe reader. All factories copy their input.
+ * from {@code float[][]}, row-major values, or a {@code .npy} file read with Heed's safe reader
+ * (from an ND4J array: {@code dev.heed.attention.dense.Nd4jFeatures} in {@code attention-dense}).
+ * All factories copy their input.
  *
  * <p>Memory: 4·n·f bytes. Thread safety: immutable.
  */
@@ -87,29 +87,6 @@ public final class NodeFeatures {
     float[] copy = values.clone();
     checkFinite(copy, featureCount);
     return new NodeFeatures(nodeCount, featureCount, copy);
-  }
-
-  /**
-   * Copies features from a rank-2 ND4J array (any data type, any ordering or view), rows = nodes.
-   *
-   * @param array input, not modified: shape [n, f]
-   * @return the features, converted to float32
-   * @throws IllegalArgumentException if the array is not rank 2 or holds a NaN or infinity
-   */
-  public static NodeFeatures of(INDArray array) {
-    Objects.requireNonNull(array, "array");
-    if (array.rank() != 2) {
-      throw new IllegalArgumentException(
-          "features must be a rank-2 array [nodes, features], got shape "
-              + Arrays.toString(array.shape()));
-    }
-    long n = array.size(0);
-    long f = array.size(1);
-    if (n * f > Integer.MAX_VALUE - 8 || f < 1) {
-      throw new IllegalArgumentException(
-          "features of shape " + Arrays.toString(array.shape()) + " are not supported");
-    }
-    return of(array.toFloatMatrix());
   }
 
   /**

@@ -1,17 +1,20 @@
 package dev.heed.model;
 
-import org.nd4j.linalg.api.buffer.DataType;
-import org.nd4j.linalg.api.ndarray.INDArray;
-import org.nd4j.linalg.factory.Nd4j;
+import dev.heed.attention.internal.MatrixProduct;
+import java.util.ServiceLoader;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
 
 /** Dense helpers for the layers. Internal: arguments are checked by callers. */
 final class ModelMath {
 
+  private static final Logger LOG = LoggerFactory.getLogger(ModelMath.class);
+
   /**
    * Products with at least this many multiply-adds (n·in·out) and at least {@link #GEMM_MIN_ROWS}
-   * rows go to BLAS (ND4J gemm into a preallocated output); smaller ones stay in Java, where an
-   * ND4J call's fixed cost of 7-60 µs would dominate (measured, see ND4J-NOTES.md). The threshold
-   * is a round guess, not a calibration.
+   * rows go to the plugged-in {@link MatrixProduct} (BLAS, when {@code attention-dense} is on the
+   * class path); smaller ones stay in Java, where an ND4J call's fixed cost of 7-60 µs would
+   * dominate (measured). The threshold is a round guess, not a calibration.
    */
   static final long GEMM_MIN_MULTIPLY_ADDS = 1L << 23;
 
@@ -22,30 +25,43 @@ final class ModelMath {
 
   /**
    * {@code y = x · w (+ bias)}: x is n × in, w is in × out, y is n × out, all row-major.
-   * O(n·in·out). Large products use BLAS, small ones {@link #projectInJava}.
+   * O(n·in·out). Large products use the plugged-in {@link MatrixProduct} if there is one, small
+   * ones (and all, without one) {@link #projectInJava}.
    */
   static float[] project(float[] x, int n, int in, float[] w, int out, float[] bias) {
-    if (n >= GEMM_MIN_ROWS && (long) n * in * out >= GEMM_MIN_MULTIPLY_ADDS) {
-      return projectWithGemm(x, n, in, w, out, bias);
+    MatrixProduct fast = LargeProducts.PLUGGED_IN;
+    if (fast != null && n >= GEMM_MIN_ROWS && (long) n * in * out >= GEMM_MIN_MULTIPLY_ADDS) {
+      return projectWith(fast, x, n, in, w, out, bias);
     }
     return projectInJava(x, n, in, w, out, bias);
   }
 
-  /**
-   * The product with ND4J's gemm: x and w are copied off-heap, multiplied into a preallocated
-   * c-order output, and the result copied back. Each call uses its own arrays.
-   */
-  static float[] projectWithGemm(float[] x, int n, int in, float[] w, int out, float[] bias) {
-    INDArray xa = Nd4j.create(x, new long[] {n, in}, 'c');
-    INDArray wa = Nd4j.create(w, new long[] {in, out}, 'c');
-    INDArray ya = Nd4j.create(DataType.FLOAT, new long[] {n, out}, 'c');
-    Nd4j.gemm(xa, wa, ya, false, false, 1.0, 0.0);
-    float[] y = ya.data().asFloat();
+  /** The product with a plugged-in implementation, then the bias. */
+  static float[] projectWith(
+      MatrixProduct product, float[] x, int n, int in, float[] w, int out, float[] bias) {
+    float[] y = product.multiply(x, n, in, w, out);
     assert y.length == n * out;
     if (bias != null) {
       addRowBias(y, out, bias);
     }
     return y;
+  }
+
+  /** The plugged-in product, looked up once per JVM (holder idiom), or null. */
+  static final class LargeProducts {
+    static final MatrixProduct PLUGGED_IN = find();
+
+    private LargeProducts() {}
+
+    private static MatrixProduct find() {
+      for (MatrixProduct product :
+          ServiceLoader.load(MatrixProduct.class, ModelMath.class.getClassLoader())) {
+        LOG.debug("Large projections: {}", product.describe());
+        return product;
+      }
+      LOG.debug("Large projections: plain Java (no attention-dense on the class path)");
+      return null;
+    }
   }
 
   /**

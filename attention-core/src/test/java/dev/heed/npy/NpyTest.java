@@ -90,7 +90,7 @@ class NpyTest {
   }
 
   @Test
-  void rejectsBigEndianWithoutTouchingNd4j() throws IOException {
+  void rejectsBigEndian() throws IOException {
     NpyFormatException e =
         assertThrows(NpyFormatException.class, () -> read(resource("be_f4.npy"), "be_f4.npy"));
     assertTrue(e.getMessage().contains("big-endian"), e.getMessage());

@@ -8,8 +8,6 @@ import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.KernelOptions;
 import dev.heed.attention.internal.VectorApiLoader;
-import java.util.regex.Matcher;
-import java.util.regex.Pattern;
 import org.junit.jupiter.api.Test;
 
 /** Which implementation runs, and how the kernel is found (JVector practice, STYLE.md). */
@@ -28,24 +26,6 @@ class RowMathSelectionTest {
               + "), but "
               + chosen
               + " was chosen");
-    }
-  }
-
-  @Test
-  void bothKernelsUseOneVectorSpecies() {
-    // Both kernels call the shared VectorExp; a second vector width in the same JVM pollutes its
-    // type profile and slowed every vector loop 5-10x (measured here on JDK 17, see VectorExp).
-    // The kernels name their vector width in describe(): they must agree.
-    String sparse = RowMaths.preferred().describe();
-    String dense = AttentionKernels.forPath(ComputePath.DENSE, KernelOptions.defaults()).describe();
-    Matcher sparseBits = Pattern.compile("^vector\\((\\d+)-bit").matcher(sparse);
-    Matcher denseBits = Pattern.compile("Java vector\\((\\d+)-bit\\)").matcher(dense);
-    if (sparseBits.find() && denseBits.find()) {
-      assertEquals(sparseBits.group(1), denseBits.group(1), sparse + " against " + dense);
-    } else {
-      assertTrue(
-          !Boolean.getBoolean("heed.test.expectVectorKernel"),
-          "expected both kernels on the Vector API: " + sparse + " / " + dense);
     }
   }
 

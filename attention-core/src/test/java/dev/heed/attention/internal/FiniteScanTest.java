@@ -58,7 +58,7 @@ class FiniteScanTest {
   void vectorScanRunsWhereTheBuildExpectsIt() {
     // The build passes --add-modules jdk.incubator.vector and this property to the test JVM (as
     // for the dense softmax); the check must then take the vector form.
-    if (Boolean.getBoolean("heed.test.expectVectorSoftmax")) {
+    if (Boolean.getBoolean("heed.test.expectVector")) {
       String chosen = FiniteScans.preferred().getClass().getName();
       assertTrue(chosen.endsWith("VectorFiniteScan"), chosen);
     }

@@ -1,7 +1,8 @@
-package dev.heed.attention.simd;
+package dev.heed.attention.dense.simd;
 
 import dev.heed.attention.internal.FastExp;
 import dev.heed.attention.internal.RowSoftmax;
+import dev.heed.attention.simd.VectorExp;
 import jdk.incubator.vector.FloatVector;
 import jdk.incubator.vector.VectorOperators;
 import jdk.incubator.vector.VectorShuffle;

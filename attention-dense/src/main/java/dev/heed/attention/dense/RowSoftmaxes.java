@@ -22,7 +22,7 @@ final class RowSoftmaxes {
    */
   static final String VECTOR_PROPERTY = "heed.dense.vector";
 
-  private static final String VECTOR_CLASS = "dev.heed.attention.simd.VectorRowSoftmax";
+  private static final String VECTOR_CLASS = "dev.heed.attention.dense.simd.VectorRowSoftmax";
   private static final Logger LOG = LoggerFactory.getLogger(RowSoftmaxes.class);
 
   private RowSoftmaxes() {}

@@ -1,0 +1,33 @@
+package dev.heed.attention.dense;
+
+import dev.heed.attention.internal.MatrixProduct;
+import org.nd4j.linalg.api.buffer.DataType;
+import org.nd4j.linalg.api.ndarray.INDArray;
+import org.nd4j.linalg.factory.Nd4j;
+
+/**
+ * Large projections with BLAS through ND4J's gemm: x and w are copied off-heap, multiplied into a
+ * preallocated c-order output, and the result copied back. Found by the core's layers through
+ * {@link java.util.ServiceLoader}; public only for that. Not API.
+ *
+ * <p>Thread safety: each call uses its own arrays; safe from many threads.
+ */
+public final class Nd4jMatrixProduct implements MatrixProduct {
+
+  /** For {@link java.util.ServiceLoader}. */
+  public Nd4jMatrixProduct() {}
+
+  @Override
+  public float[] multiply(float[] x, int n, int in, float[] w, int out) {
+    INDArray xa = Nd4j.create(x, new long[] {n, in}, 'c');
+    INDArray wa = Nd4j.create(w, new long[] {in, out}, 'c');
+    INDArray ya = Nd4j.create(DataType.FLOAT, new long[] {n, out}, 'c');
+    Nd4j.gemm(xa, wa, ya, false, false, 1.0, 0.0);
+    return ya.data().asFloat();
+  }
+
+  @Override
+  public String describe() {
+    return "BLAS gemm through ND4J";
+  }
+}
