@@ -16,7 +16,7 @@ import java.util.Objects;
  *
  * <p>Memory: 4·n·f bytes. Thread safety: immutable.
  */
-public final class NodeFeatures {
+public final class NodeFeatures implements FeatureRows {
 
   private final int nodeCount;
   private final int featureCount;
@@ -155,6 +155,13 @@ public final class NodeFeatures {
     Objects.checkIndex(node, nodeCount);
     Objects.checkIndex(feature, featureCount);
     return values[node * featureCount + feature];
+  }
+
+  @Override
+  public void copyRow(int node, float[] into, int offset) {
+    Objects.checkIndex(node, nodeCount);
+    Objects.checkFromIndexSize(offset, featureCount, into.length);
+    System.arraycopy(values, node * featureCount, into, offset, featureCount);
   }
 
   /** The values without copying; callers in this package never modify them. */

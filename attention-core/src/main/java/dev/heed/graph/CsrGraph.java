@@ -17,7 +17,7 @@ import java.util.Objects;
  *
  * <p>Thread safety: immutable; safe to share between threads.
  */
-public final class CsrGraph implements AttentionPattern {
+public final class CsrGraph implements AttentionPattern, NeighbourRows {
 
   private final int[] rowOffsets;
   private final int[] columns; // entries 0..edgeCount-1 are the graph; any tail is unused
@@ -185,6 +185,16 @@ public final class CsrGraph implements AttentionPattern {
     Objects.checkIndex(target, nodeCount());
     Objects.checkIndex(source, nodeCount());
     return Arrays.binarySearch(columns, rowOffsets[target], rowOffsets[target + 1], source) >= 0;
+  }
+
+  @Override
+  public int copyRow(int target, int[] into, int offset) {
+    Objects.checkIndex(target, nodeCount());
+    int start = rowOffsets[target];
+    int length = rowOffsets[target + 1] - start;
+    Objects.checkFromIndexSize(offset, length, into.length);
+    System.arraycopy(columns, start, into, offset, length);
+    return length;
   }
 
   /**
