@@ -23,6 +23,23 @@ import dev.heed.graph.AttentionPattern;
  * to obtain one. Callers go through {@link AttentionKernels#checkCall}, which every implementation
  * runs first, so bad input is rejected the same way on every path.
  *
+ * <p>The contract every implementation follows (the shared contract test checks it):
+ *
+ * <ul>
+ *   <li><b>Overflow.</b> Scores are float32. Finite inputs whose scores, row sums or weighted sums
+ *       overflow float32 do not fail and do not give NaN: such a row is recomputed in float64 with
+ *       each score clamped to ±{@link Float#MAX_VALUE}, so the output is the float64 attention of
+ *       the clamped scores, a finite convex combination of value rows.
+ *   <li><b>Threads.</b> {@link KernelOptions#threads()} is the most threads one call uses, the
+ *       calling thread included; helpers come from one JVM-wide pool of daemon threads shared by
+ *       every kernel, which no call creates or shuts down.
+ *   <li><b>Determinism.</b> The same inputs give the same bits on every call and for every thread
+ *       count: work is split in fixed ranges and every sum runs in a fixed order. The dense path's
+ *       BLAS products may in addition depend on the BLAS library's own thread setting.
+ *   <li><b>Inputs.</b> Never modified; NaN and infinities are rejected before any output is
+ *       written.
+ * </ul>
+ *
  * <p>Thread safety: every implementation is immutable and may be called from many threads at once;
  * each call uses only its own arguments and per-call scratch.
  */

@@ -603,6 +603,81 @@ public abstract class AttentionKernelContractTest {
     }
   }
 
+  // The overflow contract of AttentionKernel: finite inputs whose float32 scores overflow (here
+  // |q|, |k| of 0.6 to 1 times Float.MAX_VALUE) give what float64 gives with each score clamped to
+  // the float32 range, on every path: finite outputs, rows of weights summing to one, no exception.
+  @ParameterizedTest
+  @EnumSource(ScoreKind.class)
+  void overflowingScoresFollowTheClampedFloat64Definition(ScoreKind kind) {
+    long seed = 0x5EED_0011L + kind.ordinal();
+    Random random = new Random(seed);
+    for (AttentionPattern pattern : List.of(randomGraph(random, 40, 6), CompletePattern.of(9))) {
+      int n = pattern.nodeCount();
+      HeadShape shape = shapeFor(kind, 2, 4);
+      ScoreFunction score = scoreFor(kind, shape, random);
+      float[] q = new float[n * shape.keyWidth()];
+      float[] k = new float[n * shape.keyWidth()];
+      for (int x = 0; x < q.length; x++) {
+        q[x] =
+            (random.nextBoolean() ? 1 : -1) * Float.MAX_VALUE * (0.6f + 0.4f * random.nextFloat());
+        k[x] =
+            (random.nextBoolean() ? 1 : -1) * Float.MAX_VALUE * (0.6f + 0.4f * random.nextFloat());
+      }
+      float[] v = uniform(random, n * shape.valueWidth(), -1f, 1f);
+      String where = describe(pattern, kind, shape, seed);
+      for (int threads : new int[] {1, 4}) {
+        Output got = run(kernel(threads), pattern, score, shape, q, k, v, true);
+        double[] want = clampedReference(pattern, score, shape, q, k, v);
+        assertClose(want, got.out(), TOLERANCE, "out, " + threads + " threads, " + where);
+        for (float w : got.weights()) {
+          assertTrue(w >= 0f && w <= 1f, "weight " + w + ", " + where);
+        }
+      }
+    }
+  }
+
+  /** Float64 attention with every score clamped to ±Float.MAX_VALUE (the overflow contract). */
+  private static double[] clampedReference(
+      AttentionPattern pattern,
+      ScoreFunction score,
+      HeadShape shape,
+      float[] q,
+      float[] k,
+      float[] v) {
+    int n = pattern.nodeCount();
+    int heads = shape.heads();
+    int dv = shape.valueDim();
+    double[] out = new double[n * shape.valueWidth()];
+    for (int i = 0; i < n; i++) {
+      for (int h = 0; h < heads; h++) {
+        double max = Double.NEGATIVE_INFINITY;
+        double[] e = new double[n];
+        for (int j = 0; j < n; j++) {
+          if (pattern.allows(i, j)) {
+            double raw = ReferenceAttention.score(score, shape, q, k, i, j, h);
+            e[j] = Math.max(-Float.MAX_VALUE, Math.min(Float.MAX_VALUE, raw));
+            max = Math.max(max, e[j]);
+          }
+        }
+        double sum = 0;
+        for (int j = 0; j < n; j++) {
+          if (pattern.allows(i, j)) {
+            e[j] = Math.exp(e[j] - max);
+            sum += e[j];
+          }
+        }
+        for (int j = 0; j < n; j++) {
+          if (pattern.allows(i, j)) {
+            for (int c = 0; c < dv; c++) {
+              out[(i * heads + h) * dv + c] += e[j] / sum * v[(j * heads + h) * dv + c];
+            }
+          }
+        }
+      }
+    }
+    return out;
+  }
+
   // ---------------------------------------------------------------- helpers
 
   /** Output and weights of one kernel call. */

@@ -5,7 +5,9 @@ import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.KernelOptions;
+import dev.heed.attention.ReferenceAttention;
 import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.internal.KernelWorkers;
 import dev.heed.attention.internal.RowSoftmax;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
@@ -13,10 +15,7 @@ import java.nio.FloatBuffer;
 import java.util.ArrayList;
 import java.util.Arrays;
 import java.util.List;
-import java.util.concurrent.ExecutionException;
-import java.util.concurrent.ExecutorService;
-import java.util.concurrent.Executors;
-import java.util.concurrent.Future;
+import java.util.concurrent.atomic.AtomicInteger;
 import org.nd4j.linalg.api.buffer.DataType;
 import org.nd4j.linalg.api.memory.MemoryWorkspace;
 import org.nd4j.linalg.api.ndarray.INDArray;
@@ -57,13 +56,17 @@ import org.slf4j.LoggerFactory;
  *       norms shows that no score of the head exceeds {@link #UNSHIFTED_EXP_LIMIT} in magnitude,
  *       just {@code exp} (no row maximum, no normalising pass); otherwise ND4J's native softmax.
  *       Then {@code [out_blk, rowSum] = P·[V_h, 1]} yields the row sums too.
- *   <li>Scores or sums that overflow float32 (inputs of huge magnitude) raise an {@link
- *       IllegalArgumentException} rather than returning NaN.
+ *   <li>A row whose float32 scores, sum or output overflow (inputs of huge magnitude) is recomputed
+ *       in float64 as {@link AttentionKernel} states: scores clamped to the float32 range, softmax
+ *       and weighted sum in float64, so the output stays a finite convex combination of value rows.
  * </ul>
  *
  * <p>Memory: see {@link DenseBlockPlan}. All ND4J arrays are allocated outside any workspace the
  * caller may have open and closed before the call returns, so repeated calls do not accumulate
  * off-heap memory.
+ *
+ * <p>Java work (GATv2 scores, the Vector API softmax) runs on the calling thread and helpers from
+ * {@link KernelWorkers}, in fixed row ranges, so it does not depend on the thread count.
  *
  * <p>Thread safety: immutable; every call uses only its own scratch. Results are deterministic for
  * a fixed ND4J/OpenBLAS thread configuration (the order of each reduction does not depend on
@@ -176,10 +179,8 @@ final class DenseAttentionKernel implements AttentionKernel {
           plan.blockRows(),
           plan.bytesUsed());
     }
-    ExecutorService pool =
-        javaThreads > 1 && (long) n * n * (gatv2 ? shape.keyDim() : 1) >= PARALLEL_MIN_WORK
-            ? Executors.newFixedThreadPool(javaThreads - 1, DenseAttentionKernel::daemon)
-            : null;
+    boolean parallel =
+        javaThreads > 1 && (long) n * n * (gatv2 ? shape.keyDim() : 1) >= PARALLEL_MIN_WORK;
     // Allocate outside any workspace the caller has open, so close() below really frees.
     MemoryWorkspace outside = Nd4j.getWorkspaceManager().scopeOutOfWorkspaces();
     try {
@@ -193,23 +194,14 @@ final class DenseAttentionKernel implements AttentionKernel {
               out,
               weights,
               plan,
-              pool,
+              parallel,
               javaThreads,
               unshiftedExpLimit,
               rowSoftmax)
           .run();
     } finally {
       outside.close();
-      if (pool != null) {
-        pool.shutdownNow();
-      }
     }
-  }
-
-  private static Thread daemon(Runnable r) {
-    Thread t = new Thread(r, "heed-dense-worker");
-    t.setDaemon(true);
-    return t;
   }
 
   /** The state of one call: its arguments and its own scratch. Used once, on one thread. */
@@ -226,7 +218,8 @@ final class DenseAttentionKernel implements AttentionKernel {
     private final float[] out;
     private final float[] weights;
     private final DenseBlockPlan plan;
-    private final ExecutorService pool;
+    private final HeadShape shape;
+    private final boolean parallel;
     private final int workers;
     private final double unshiftedExpLimit;
     private final RowSoftmax rowSoftmax;
@@ -244,7 +237,7 @@ final class DenseAttentionKernel implements AttentionKernel {
         float[] out,
         float[] weights,
         DenseBlockPlan plan,
-        ExecutorService pool,
+        boolean parallel,
         int workers,
         double unshiftedExpLimit,
         RowSoftmax rowSoftmax) {
@@ -260,7 +253,8 @@ final class DenseAttentionKernel implements AttentionKernel {
       this.out = out;
       this.weights = weights;
       this.plan = plan;
-      this.pool = pool;
+      this.shape = shape;
+      this.parallel = parallel;
       this.workers = workers;
       this.unshiftedExpLimit = unshiftedExpLimit;
       this.rowSoftmax = rowSoftmax;
@@ -326,6 +320,7 @@ final class DenseAttentionKernel implements AttentionKernel {
       float[][] workerRows = new float[workers][n];
       float[] row = workerRows[0];
       float[] sums = new float[blockRows];
+      boolean[] recomputed = new boolean[blockRows];
       keyByHead = gatv2 && graph == null ? transposeKeys() : null;
       float scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
 
@@ -361,17 +356,17 @@ final class DenseAttentionKernel implements AttentionKernel {
                 (long) rows * n,
                 scoreBuffer,
                 workerRows,
-                (from, to, buffer, rowBuffer) -> softmaxRows(from, to, buffer, rowBuffer, sums),
-                "softmax");
+                (from, to, buffer, rowBuffer) -> softmaxRows(from, to, buffer, rowBuffer, sums));
           } else if (unshifted[h]) {
             Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
           } else {
             Nd4j.exec(new SoftMax(s, s, 1));
           }
           Nd4j.gemm(s, packedValue[h], o, false, false, 1.0, 0.0);
-          copyOut(first, rows, h, outBuffer, sums);
+          Arrays.fill(recomputed, false);
+          copyOut(first, rows, h, outBuffer, sums, recomputed);
           if (weights != null) {
-            copyWeights(first, rows, h, scoreBuffer, row, sums);
+            copyWeights(first, rows, h, scoreBuffer, row, sums, recomputed);
           }
         }
       }
@@ -502,9 +497,11 @@ final class DenseAttentionKernel implements AttentionKernel {
 
     /**
      * Writes {@code o[r, 0..dv-1] / o[r, dv]} (the weighted sum over the row's sum of weights) to
-     * the caller's output, and keeps each row's sum for the weights.
+     * the caller's output, and keeps each row's sum for the weights. A row whose sum or output is
+     * not finite is recomputed in float64 ({@link #exactRow}) and marked in {@code recomputed}.
      */
-    private void copyOut(int first, int rows, int h, FloatBuffer outBuffer, float[] sums) {
+    private void copyOut(
+        int first, int rows, int h, FloatBuffer outBuffer, float[] sums, boolean[] recomputed) {
       int width = valueWidth;
       for (int r = 0; r < rows; r++) {
         int i = first + r;
@@ -515,38 +512,72 @@ final class DenseAttentionKernel implements AttentionKernel {
         }
         float sum = rowSoftmax != null ? sums[r] : outBuffer.get(r * width + valueDim);
         sums[r] = sum;
-        if (!(sum > 0f && sum < Float.POSITIVE_INFINITY)) {
-          throw overflow(i, h);
-        }
-        outBuffer.get(r * width, out, at, valueDim);
-        for (int c = at; c < at + valueDim; c++) {
-          float v = out[c] / sum;
-          if (!Float.isFinite(v)) {
-            throw overflow(i, h);
+        boolean finite = sum > 0f && sum < Float.POSITIVE_INFINITY;
+        if (finite) {
+          outBuffer.get(r * width, out, at, valueDim);
+          for (int c = at; c < at + valueDim && finite; c++) {
+            float v = out[c] / sum;
+            finite = Float.isFinite(v);
+            out[c] = v;
           }
-          out[c] = v;
+        }
+        if (!finite) {
+          exactRow(i, h);
+          recomputed[r] = true;
         }
       }
     }
 
-    private IllegalArgumentException overflow(int target, int h) {
-      return new IllegalArgumentException(
-          "attention scores overflowed float32 for target node "
-              + target
-              + ", head "
-              + h
-              + " ("
-              + score
-              + "): the query/key terms are too large in magnitude for float32 scores; scale the"
-              + " inputs down (softmax is shift-invariant, but q·k or q + k must stay finite)."
-              + " The output array holds partial results");
+    /**
+     * The rare path after a float32 overflow in row {@code i}, head {@code h}: scores in float64
+     * clamped to the float32 range, then softmax (row maximum subtracted) and the weighted sum in
+     * float64, written to the output and, if asked for, the weights.
+     */
+    private void exactRow(int i, int h) {
+      int count = graph == null ? n : graph.rowEnd(i) - graph.rowStart(i);
+      double[] e = new double[count];
+      double max = Double.NEGATIVE_INFINITY;
+      for (int t = 0; t < count; t++) {
+        int j = graph == null ? t : graph.column(graph.rowStart(i) + t);
+        double raw = ReferenceAttention.score(score, shape, query, key, i, j, h);
+        e[t] = Math.max(-Float.MAX_VALUE, Math.min(Float.MAX_VALUE, raw));
+        max = Math.max(max, e[t]);
+      }
+      double sum = 0;
+      for (int t = 0; t < count; t++) {
+        e[t] = Math.exp(e[t] - max);
+        sum += e[t];
+      }
+      double[] acc = new double[valueDim];
+      for (int t = 0; t < count; t++) {
+        int j = graph == null ? t : graph.column(graph.rowStart(i) + t);
+        double w = e[t] / sum;
+        int from = (j * heads + h) * valueDim;
+        for (int c = 0; c < valueDim; c++) {
+          acc[c] += w * value[from + c];
+        }
+        if (weights != null) {
+          int entry = graph == null ? i * n + j : graph.rowStart(i) + t;
+          weights[entry * heads + h] = (float) w;
+        }
+      }
+      int at = (i * heads + h) * valueDim;
+      for (int c = 0; c < valueDim; c++) {
+        out[at + c] = (float) acc[c];
+      }
     }
 
     private void copyWeights(
-        int first, int rows, int h, FloatBuffer scoreBuffer, float[] row, float[] sums) {
+        int first,
+        int rows,
+        int h,
+        FloatBuffer scoreBuffer,
+        float[] row,
+        float[] sums,
+        boolean[] recomputed) {
       for (int r = 0; r < rows; r++) {
         int i = first + r;
-        if (isolated(i)) {
+        if (isolated(i) || recomputed[r]) {
           continue;
         }
         scoreBuffer.get(r * n, row, 0, n);
@@ -587,8 +618,7 @@ final class DenseAttentionKernel implements AttentionKernel {
           (long) rows * n * keyDim,
           scoreBuffer,
           workerRows,
-          (from, to, buffer, row) -> gatv2Rows(first, from, to, h, linear, absolute, buffer, row),
-          "GATv2 scores");
+          (from, to, buffer, row) -> gatv2Rows(first, from, to, h, linear, absolute, buffer, row));
     }
 
     /**
@@ -599,44 +629,35 @@ final class DenseAttentionKernel implements AttentionKernel {
     }
 
     /**
-     * Runs {@code task} over rows {@code 0..rows-1} of the block, split in equal ranges over the
-     * calling thread and the call's pool when there is one and the work is at least {@link
-     * #PARALLEL_MIN_WORK}; each range gets its own view of the block and its own row buffer.
+     * Runs {@code task} over rows {@code 0..rows-1} of the block, split in {@code workers} equal
+     * ranges over the calling thread and {@link KernelWorkers} helpers when the call is parallel
+     * and the work is at least {@link #PARALLEL_MIN_WORK}; range p always gets view p of the block
+     * and row buffer p, whichever thread runs it.
      */
     private void forRowRanges(
-        int rows,
-        long work,
-        FloatBuffer block,
-        float[][] workerRows,
-        RowRangeTask task,
-        String what) {
-      if (pool == null || work < PARALLEL_MIN_WORK) {
+        int rows, long work, FloatBuffer block, float[][] workerRows, RowRangeTask task) {
+      if (!parallel || work < PARALLEL_MIN_WORK) {
         task.run(0, rows, block, workerRows[0]);
         return;
       }
       int parts = workers;
       int chunk = (rows + parts - 1) / parts;
-      List<Future<?>> pending = new ArrayList<>();
-      for (int p = 1; p < parts; p++) {
-        int from = p * chunk;
-        int to = Math.min(rows, from + chunk);
-        if (from < to) {
-          FloatBuffer view = block.duplicate();
-          float[] workerRow = workerRows[p];
-          pending.add(pool.submit(() -> task.run(from, to, view, workerRow)));
-        }
+      FloatBuffer[] views = new FloatBuffer[parts];
+      for (int p = 0; p < parts; p++) {
+        views[p] = block.duplicate();
       }
-      task.run(0, Math.min(rows, chunk), block, workerRows[0]);
-      for (Future<?> f : pending) {
-        try {
-          f.get();
-        } catch (InterruptedException e) {
-          Thread.currentThread().interrupt();
-          throw new IllegalStateException("interrupted while computing " + what, e);
-        } catch (ExecutionException e) {
-          throw new IllegalStateException(what + " worker failed", e.getCause());
-        }
-      }
+      AtomicInteger next = new AtomicInteger();
+      KernelWorkers.runShared(
+          parts - 1,
+          () -> {
+            for (int p = next.getAndIncrement(); p < parts; p = next.getAndIncrement()) {
+              int from = p * chunk;
+              int to = Math.min(rows, from + chunk);
+              if (from < to) {
+                task.run(from, to, views[p], workerRows[p]);
+              }
+            }
+          });
     }
 
     /** Keys as {@code [H][keyDim][n]}: element (h, k, j) at {@code (h·keyDim + k)·n + j}. */

@@ -69,8 +69,8 @@ class RowSoftmaxTest {
   }
 
   @Test
-  void nonFiniteScoresGiveASumTheKernelRejects() {
-    // The kernel reports an overflow when the sum is not a positive finite number.
+  void nonFiniteScoresGiveASumTheKernelRecomputes() {
+    // The kernel recomputes a row in float64 when its sum is not a positive finite number.
     RowSoftmax softmax = vector();
     for (float bad : new float[] {Float.NaN, Float.POSITIVE_INFINITY}) {
       for (int length : new int[] {1, 5, 16, 37}) {
