@@ -39,6 +39,10 @@ import java.util.Objects;
  */
 public final class DenseAttentionKernelProvider implements AttentionKernelProvider {
 
+  static {
+    Nd4jQuietStart.ensure(); // before any ND4J class initialises
+  }
+
   /** Creates the provider; {@link java.util.ServiceLoader} calls this. */
   public DenseAttentionKernelProvider() {}
 

@@ -14,6 +14,10 @@ import org.nd4j.linalg.factory.Nd4j;
  */
 public final class Nd4jMatrixProduct implements MatrixProduct {
 
+  static {
+    Nd4jQuietStart.ensure(); // before any ND4J class initialises
+  }
+
   /** For {@link java.util.ServiceLoader}. */
   public Nd4jMatrixProduct() {}
 
