@@ -39,7 +39,7 @@ final class BenchCommand implements Runnable {
   record CrossoverSettings(
       boolean quick, Integer threads, List<Integer> nodeCounts, List<Double> densities) {}
 
-  /** The sweep behind {@code heed bench crossover}, kept to one call into the benchmarks module. */
+  /** The sweep behind {@code heed bench crossover}, kept to one call into path-crossover. */
   interface CrossoverSweep {
 
     /**
@@ -50,7 +50,7 @@ final class BenchCommand implements Runnable {
     List<Path> run(CrossoverSettings settings, Path dir, PrintStream out, PrintStream progress)
         throws IOException;
 
-    /** The benchmarks module's {@link CrossoverRunner} with the registered kernels. */
+    /** The path-crossover module's {@link CrossoverRunner} with the registered kernels. */
     static CrossoverSweep runner() {
       return (settings, dir, out, progress) -> {
         SweepConfig config = settings.quick() ? SweepConfig.quickSweep() : SweepConfig.fullSweep();

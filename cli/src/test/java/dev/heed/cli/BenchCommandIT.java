@@ -11,7 +11,7 @@ import org.junit.jupiter.api.io.TempDir;
 
 /**
  * {@code heed bench crossover} through the real jar, on a one-size sweep (the full and quick sweeps
- * take minutes; the benchmarks module tests the sweep itself).
+ * take minutes; the path-crossover module tests the sweep itself).
  */
 class BenchCommandIT {
 

@@ -27,11 +27,11 @@ import java.util.SplittableRandom;
  * Sweeps node counts and densities on both attention paths and reports, for each node count and
  * score, the density below which the sparse path is faster than the dense one, on this machine.
  *
- * <p>Command line (the Vector API module is added by re-launching the JVM when it is missing;
- * {@code --no-relaunch} prevents that):
+ * <p>Command line ({@code heed bench crossover} runs the same sweep; the Vector API module is added
+ * by re-launching the JVM when it is missing; {@code --no-relaunch} prevents that):
  *
  * <pre>
- * java -cp benchmarks/target/benchmarks.jar dev.heed.bench.crossover.CrossoverRunner [--quick] [--out DIR]
+ * java -cp cli/target/heed.jar dev.heed.bench.crossover.CrossoverRunner [--quick] [--out DIR]
  *     [--threads N] [--seed S] [--n 256,1024] [--densities 0.1,1,10,100] [--scores additive,dot-product]
  *     [--max-call-seconds X] [--dense-budget-mib M] [--no-relaunch]
  * </pre>

@@ -7,7 +7,7 @@
  *
  * <p>Entry points: {@link dev.heed.bench.crossover.CrossoverRunner#main} (command line) and {@link
  * dev.heed.bench.crossover.CrossoverRunner#run} (library call with its own progress display).
- * Timing here is a careful in-process sweep, not a micro-benchmark: the JMH benchmarks in this
- * module are the authority for precise figures.
+ * Timing here is a careful in-process sweep, not a micro-benchmark: the JMH benchmarks in the
+ * {@code benchmarks} module are the authority for precise figures.
  */
 package dev.heed.bench.crossover;

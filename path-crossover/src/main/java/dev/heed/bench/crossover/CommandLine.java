@@ -10,7 +10,7 @@ record CommandLine(SweepConfig config, Path out, boolean help) {
   static final String USAGE =
       String.join(
           "\n",
-          "usage: java -cp benchmarks.jar dev.heed.bench.crossover.CrossoverRunner [options]",
+          "usage: java -cp cli/target/heed.jar dev.heed.bench.crossover.CrossoverRunner [options]",
           "  --quick                 small sweep, under 3 minutes on 2 cores",
           "  --out DIR               output folder (default " + CrossoverRunner.DEFAULT_OUT + ")",
           "  --threads N             kernel threads (default: all processors)",
