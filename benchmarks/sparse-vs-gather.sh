@@ -1,30 +1,41 @@
 #!/usr/bin/env bash
 # The sparse GAT layer's speed as a fraction of this machine's random-gather limit, both measured in
-# one run: alternates the C random-gather probe of ../shared/roofline (256 MiB table of 256-byte
-# rows, 2 threads) with the JMH benchmark of the layer (R-MAT 1M nodes, 8 heads x 8 dims, 2
+# one run: alternates the C random-gather probe benchmarks/probe/random-gather.c (256 MiB table of
+# 256-byte rows, 2 threads) with the JMH benchmark of the layer (R-MAT 1M nodes, 8 heads x 8 dims, 2
 # threads), so that each JMH result sits between two gather measurements taken minutes apart.
-# The machine is shared and its limits move between minutes; quote the median of the ratios.
+# A shared machine's limits move between minutes; quote the median of the ratios.
 #
 # Usage: benchmarks/sparse-vs-gather.sh [rounds] [output folder]
-#   needs benchmarks/target/benchmarks.jar (mvn -B package -DskipTests) and gcc with OpenMP.
+#   needs benchmarks/target/benchmarks.jar (mvn -B -pl benchmarks -am package -DskipTests), a C
+#   compiler (cc, or the one named in CC) and python3. The output folder defaults to
+#   benchmarks/target/sparse-vs-gather-<UTC time>; copy a run into benchmarks/results/raw/ only when
+#   a published figure rests on it (DEVELOPERS.md, "Benchmarks").
 #   HEED_BENCH_JVM_ARGS, if set, replaces the benchmark's fork JVM options (JMH -jvmArgsAppend);
 #   for example, the defaults with the Vector API warm-up off (DEVELOPERS.md, "Vector API lessons"):
 #   HEED_BENCH_JVM_ARGS="--add-modules jdk.incubator.vector -Xms4g -Xmx4g \
 #     -XX:+UseTransparentHugePages -Dheed.vector.warmup=false"
 set -euo pipefail
 rounds=${1:-3}
-out=${2:-benchmarks/results/raw/sparse-vs-gather-$(date -u +%Y%m%d-%H%M)}
 here=$(cd "$(dirname "$0")" && pwd)
-probe_src="$here/../../shared/roofline/c/gather.c"
-[ -f "$probe_src" ] || { echo "no roofline probe at $probe_src" >&2; exit 2; }
+out=${2:-$here/target/sparse-vs-gather-$(date -u +%Y%m%d-%H%M)}
 jar="$here/target/benchmarks.jar"
-[ -f "$jar" ] || { echo "build $jar first: mvn -B package -DskipTests" >&2; exit 2; }
-mkdir -p "$out"
-probe=$(mktemp -d)/gather
-gcc -O3 -march=native -fopenmp -o "$probe" "$probe_src" -lm
+[ -f "$jar" ] || { echo "build $jar first: mvn -B -pl benchmarks -am package -DskipTests" >&2; exit 2; }
+probe_src="$here/probe/random-gather.c"
+cc=${CC:-cc}
+command -v "$cc" >/dev/null 2>&1 || {
+  echo "no C compiler '$cc' on the PATH: the gather probe $probe_src needs one" \
+    "(for example: apt-get install gcc, or set CC=clang)" >&2
+  exit 2
+}
+command -v python3 >/dev/null 2>&1 || { echo "python3 is needed to summarise the rounds" >&2; exit 2; }
+mkdir -p "$out" "$here/target/probe"
+probe="$here/target/probe/random-gather"
+# -march=native where the compiler takes it (the probe should use the machine's widest loads)
+"$cc" -O3 -march=native -pthread -o "$probe" "$probe_src" 2>/dev/null \
+  || "$cc" -O3 -pthread -o "$probe" "$probe_src" \
+  || { echo "could not compile $probe_src with $cc" >&2; exit 2; }
 gather() {
-  OMP_PROC_BIND=close OMP_PLACES=cores OMP_NUM_THREADS=2 "$probe" 256 64 | grep -E "pattern=rand " \
-    > "$out/c-gather-$1.txt"
+  "$probe" 256 2 > "$out/c-gather-$1.txt"
 }
 for k in $(seq "$rounds"); do
   gather "$k"

@@ -51,10 +51,9 @@ import org.jgrapht.graph.DefaultEdge;
  * examples/run ClassifyJGraphTGraph path/to/model.heed 20
  * </pre>
  *
- * Arguments: the model (a file, or {@code classpath:/dev/heed/demo/payments-demo.heed}, the
- * default, once the demo model ships) and how many accounts to print (default 20). The model must
- * read the six features of {@link PaymentsNetworkGenerator#FEATURE_NAMES}. See {@code
- * examples/README.md}.
+ * Arguments: the model (a file, or {@code classpath:/dev/heed/demo/payments-demo.heed}, the bundled
+ * demo model and the default) and how many accounts to print (default 20). The model must read the
+ * six features of {@link PaymentsNetworkGenerator#FEATURE_NAMES}. See {@code examples/README.md}.
  *
  * <p>The outputs are model scores, not decisions, and attention weights show where the model
  * looked, not why.

@@ -26,7 +26,7 @@ public final class ModelSource {
   /** Prefix of a location that names a class path resource instead of a file. */
   public static final String CLASSPATH_PREFIX = "classpath:";
 
-  /** Where the bundled demo model lives once the {@code demo} module ships it. */
+  /** Where the bundled demo model lives: a resource of the {@code demo} jar. */
   public static final String DEMO_MODEL = CLASSPATH_PREFIX + "/dev/heed/demo/payments-demo.heed";
 
   private ModelSource() {}

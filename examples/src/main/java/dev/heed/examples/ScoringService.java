@@ -98,10 +98,10 @@ import org.slf4j.LoggerFactory;
  * curl 'http://127.0.0.1:8080/score?node=acct-000123&amp;explain=3'
  * </pre>
  *
- * Arguments: the model (a file, or {@code classpath:/dev/heed/demo/payments-demo.heed}, the
- * default, once the demo model ships), the port (default 8080) and the number of accounts (default:
- * the bundled demo's {@value PaymentsNetworkGenerator#DEFAULT_ACCOUNTS}, with its seed). Stop it
- * with Ctrl-C.
+ * Arguments: the model (a file, or {@code classpath:/dev/heed/demo/payments-demo.heed}, the bundled
+ * demo model and the default), the port (default 8080) and the number of accounts (default: the
+ * bundled demo's {@value PaymentsNetworkGenerator#DEFAULT_ACCOUNTS}, with its seed). Stop it with
+ * Ctrl-C.
  *
  * <p>The outputs are model scores, not decisions.
  *

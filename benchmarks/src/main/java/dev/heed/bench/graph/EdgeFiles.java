@@ -13,7 +13,7 @@ final class EdgeFiles {
   /** R-MAT scale of the benchmark graph: 2^20 nodes. */
   static final int SCALE = 20;
 
-  /** Edges in the benchmark file (the 10-million-edge case). */
+  /** Edges in the benchmark file (the 10-million-edge reference case). */
   static final int EDGES = 10_000_000;
 
   /** Seed of the benchmark graph. */

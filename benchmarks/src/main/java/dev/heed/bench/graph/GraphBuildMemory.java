@@ -16,7 +16,7 @@ import java.util.concurrent.TimeUnit;
 
 /**
  * Measures how much heap building a graph from a 10-million-edge edge-list file needs, compared
- * with the finished CSR plus id map (the issue asks for under 2x).
+ * with the finished CSR plus id map (the target: under 2x).
  *
  * <p>Method. (1) The finished size is counted from the array lengths ({@link
  * CsrGraph#storageBytes()} plus {@link LongNodeIndex#storageBytes()}) and checked by GC-and-sample:

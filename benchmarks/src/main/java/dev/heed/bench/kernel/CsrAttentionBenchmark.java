@@ -36,8 +36,9 @@ import org.openjdk.jmh.annotations.Warmup;
  * averageDegree}; the setup prints the node and edge counts.
  *
  * <p>Read the score as milliseconds per layer; edges per second = {@code edges / (ms / 1000)}. The
- * issue's target: R-MAT, 1M nodes, 16M edges, 8 heads × 8 dims, additive scores, at least 23 M
- * edges/s on 2 threads, and 2 threads at least 1.7× one. Run it with, for example:
+ * reference case: R-MAT, 1M nodes, 16M edges, 8 heads × 8 dims, additive scores; its targets are at
+ * least 50 % of the machine's random-gather limit on 2 threads ({@code
+ * benchmarks/sparse-vs-gather.sh}) and 2 threads at least 1.7× one. Run it with, for example:
  *
  * <pre>
  * java -jar benchmarks/target/benchmarks.jar CsrAttentionBenchmark -p graph=rmat \
@@ -52,10 +53,10 @@ import org.openjdk.jmh.annotations.Warmup;
  * kernel is first created, so the kernel runs its plain loops; each fork measures one
  * implementation only. Every fork gets {@code --add-modules jdk.incubator.vector} and transparent
  * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
- * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine). On JDK 17 an
- * occasional fork used to compile the kernel 2-3x slower; Heed's Vector API warm-up now prevents
- * that (DEVELOPERS.md, "Vector API lessons"). To compare with the warm-up off, add {@code
- * -jvmArgsPrepend -Dheed.vector.warmup=false}.
+ * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine). On JDK 17 a
+ * fork can compile the kernel 2-3x slower unless Heed's Vector API warm-up runs first
+ * (docs/design/vector-api.md). To compare with the warm-up off, add {@code -jvmArgsPrepend
+ * -Dheed.vector.warmup=false}.
  */
 @State(Scope.Benchmark)
 @BenchmarkMode(Mode.AverageTime)

@@ -40,7 +40,7 @@ import org.openjdk.jmh.annotations.Warmup;
  *       all cores (its cost grows with the n² entries, as the dense path's does).
  *   <li>{@code twoGemmsAlone}: per head, {@code S = Q_h·K_hᵀ} ({@code n×n}) and {@code O = S·V_h},
  *       each one {@code Nd4j.gemm} into a preallocated array, inputs already packed per head: the
- *       floor that the issue's "within 1.5× of its two matrix products" is measured against
+ *       floor that the target "within 1.5× of its two matrix products" is measured against
  *       (2·2·n²·d flops per head). Does not depend on the score function.
  *   <li>{@code denseKernelWithProjections}, {@code sparseKernelWithProjections} and {@code
  *       nd4jMultiHeadAttention}: a whole multi-head self-attention with its four projections

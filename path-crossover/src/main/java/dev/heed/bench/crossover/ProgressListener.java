@@ -5,8 +5,8 @@ import java.time.Duration;
 import java.util.Locale;
 
 /**
- * Receives the sweep's progress, so that a caller (the command line, or a future CLI with its own
- * display) can show it. All methods have empty defaults.
+ * Receives the sweep's progress, so that a caller (the runner's command line, or the {@code heed
+ * bench crossover} verb) can show it. All methods have empty defaults.
  *
  * <p>Thread safety: the sweep calls a listener from the thread that runs it.
  */

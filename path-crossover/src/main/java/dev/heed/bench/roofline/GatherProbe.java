@@ -25,7 +25,10 @@ import java.util.concurrent.ThreadFactory;
  */
 public final class GatherProbe {
 
-  /** Rows summed into each output row (K), as in the shared roofline probes: {@value}. */
+  /**
+   * Rows summed into each output row (K), as in the C probe {@code
+   * benchmarks/probe/random-gather.c}: {@value}.
+   */
   public static final int ROWS_PER_TARGET = 16;
 
   private static final String VECTOR_LOOP = "dev.heed.bench.roofline.vector.VectorGatherLoop";

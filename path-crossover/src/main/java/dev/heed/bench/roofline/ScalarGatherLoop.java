@@ -2,7 +2,8 @@ package dev.heed.bench.roofline;
 
 /**
  * Plain-Java gather loop, used only when the Vector API module is absent. C2 does not vectorise it
- * (shared roofline probes), so a limit measured with it understates the machine.
+ * (time it against the Vector API loop with {@link GatherProbe#measure(GatherLoop, int, int, int,
+ * long, int, long)}), so a limit measured with it understates the machine.
  *
  * <p>Thread safety: stateless.
  */

@@ -11,7 +11,8 @@
  *   <li>{@link dev.heed.bench.roofline.MachineLimits}: both, as one immutable value.
  * </ul>
  *
- * <p>These are quick in-process probes, not a calibrated benchmark suite; the shared roofline
- * probes in C and the JMH benchmarks give more careful figures.
+ * <p>These are quick in-process probes, not a calibrated benchmark suite; the C gather probe
+ * ({@code benchmarks/probe/random-gather.c}, run by {@code benchmarks/sparse-vs-gather.sh}) and the
+ * JMH benchmarks give more careful figures.
  */
 package dev.heed.bench.roofline;
