@@ -10,6 +10,8 @@ import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.EdgeListFileBuilder;
 import dev.heed.graph.EdgeListResult;
 import dev.heed.graph.NodeIndex;
+import dev.heed.model.Activation;
+import dev.heed.model.ModelFile;
 import dev.heed.train.EpochProgress;
 import dev.heed.train.FullBatchTrainer;
 import dev.heed.train.TrainingData;
@@ -19,12 +21,10 @@ import dev.heed.train.TrainingReport;
 import dev.heed.train.TrainingSettings;
 import dev.heed.train.attention.AttentionScore;
 import dev.heed.train.attention.KernelAttentionForward;
-import dev.heed.train.layer.Activation;
 import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
 import dev.heed.train.layer.PassContext;
 import dev.heed.train.layer.TrainingLayer;
-import dev.heed.train.model.ModelFileWriter;
 import java.io.BufferedReader;
 import java.io.IOException;
 import java.io.PrintStream;
@@ -274,9 +274,7 @@ final class TrainCommand implements Callable<Integer> {
     try (Progress progress = new Progress(epochs)) {
       report = FullBatchTrainer.withKernel(kernel).train(network, data, settings, progress);
     }
-    ModelFileWriter.to(this.out, labelTable.classes)
-        .featureNames(table.names)
-        .write(network.export());
+    ModelFile.write(network.toModel(labelTable.classes, table.names), this.out);
     out.println("training: " + describe(report));
     if (labelTable.test.length > 0) {
       double[] logits =
