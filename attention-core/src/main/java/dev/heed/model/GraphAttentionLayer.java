@@ -124,7 +124,7 @@ public final class GraphAttentionLayer extends Layer {
     Builder b =
         new Builder(v2, r.name, r.inputWidth, r.integer("heads", 1), r.integer("head_width", 1));
     b.concat = r.string("combine_heads", List.of("concat", "mean")).equals("concat");
-    b.leakyReluSlope = r.number("negative_slope", DEFAULT_LEAKY_RELU_SLOPE, 0, 1);
+    b.leakyReluSlope = r.number("leaky_relu_slope", DEFAULT_LEAKY_RELU_SLOPE, 0, 1);
     b.activation = r.activation("activation", Activation.IDENTITY);
     b.bias = r.bool("bias", false);
     b.residual = r.string("residual", "none", List.of("none", "identity", "linear"));
@@ -306,7 +306,7 @@ public final class GraphAttentionLayer extends Layer {
       parts.checkPositive("heads", heads);
       parts.checkPositive("head_width", headWidth);
       parts.checkNotTooLarge("heads * head_width", (long) heads * headWidth);
-      parts.checkRange("negative_slope", leakyReluSlope, 0, 1);
+      parts.checkRange("leaky_relu_slope", leakyReluSlope, 0, 1);
       int hd = heads * headWidth;
       int out = concat ? hd : headWidth;
       if (residual.equals("identity") && in != out) {
@@ -470,7 +470,7 @@ public final class GraphAttentionLayer extends Layer {
     json.put("heads", heads);
     json.put("head_width", headWidth);
     json.put("combine_heads", concat ? "concat" : "mean");
-    json.put("negative_slope", leakyReluSlope);
+    json.put("leaky_relu_slope", leakyReluSlope);
     json.put("activation", activation.fileName());
     json.put("bias", tensors.containsKey(BIAS));
     json.put("residual", residual);

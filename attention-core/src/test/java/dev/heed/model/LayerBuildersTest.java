@@ -197,7 +197,7 @@ class LayerBuildersTest {
                 .sourceAttention(a)
                 .leakyReluSlope(1.0)
                 .build(),
-        "negative_slope must be a number in [0.0, 1.0), got 1.0");
+        "leaky_relu_slope must be a number in [0.0, 1.0), got 1.0");
     assertRejected(() -> DenseLayer.builder("d", 0, 3).build(), "input width must be at least 1");
     assertRejected(() -> SoftmaxLayer.of("", 3), "name must not be empty");
     assertRejected(

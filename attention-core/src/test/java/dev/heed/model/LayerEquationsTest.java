@@ -179,7 +179,7 @@ class LayerEquationsTest {
     ObjectNode l = JSON.createObjectNode();
     l.put("kind", "graph_attention").put("name", "g").put("score", score);
     l.put("heads", heads).put("head_width", d).put("combine_heads", combine);
-    l.put("negative_slope", 0.2).put("activation", act).put("bias", bias);
+    l.put("leaky_relu_slope", 0.2).put("activation", act).put("bias", bias);
     l.put("residual", residual);
     return l;
   }
