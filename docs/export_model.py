@@ -6,23 +6,30 @@ full specification; this script is the reference writer for it. Copy it into any
 project (it needs nothing but NumPy), fill in the layer list from your trained weights, and call
 write_model().
 
-Example (a two-layer GAT classifier as in Velickovic et al. 2018, weights from your training):
+Example (a two-layer GAT classifier as in Velickovic et al. 2018, for a payments network:
+six features per account, each account an ordinary customer, a merchant or part of a mule ring;
+weights from your training):
 
     import numpy as np
     from export_model import write_model
+    features = ["account_age_years", "log_mean_amount", "night_share", "log_in_out_ratio",
+                "devices_seen", "business_registration"]
+    roles = ["ordinary", "merchant", "mule-ring"]
     layers = [
         {"kind": "graph_attention", "name": "gat1", "score": "gat", "heads": 8,
-         "head_width": 8, "combine_heads": "concat", "activation": "elu", "bias": True,
-         "tensors": {"weight": W1,                 # [in_features, 8*8]
+         "head_width": 8, "combine_heads": "concat", "leaky_relu_slope": 0.2,
+         "activation": "elu", "bias": True,
+         "tensors": {"weight": W1,                 # [6, 8*8]
                      "attention_target": a1_t,     # [8, 8]
                      "attention_source": a1_s,     # [8, 8]
                      "bias": b1}},                 # [64]
         {"kind": "graph_attention", "name": "gat2", "score": "gat", "heads": 1,
-         "head_width": 7, "combine_heads": "mean",
+         "head_width": 3, "combine_heads": "mean",
          "tensors": {"weight": W2, "attention_target": a2_t, "attention_source": a2_s}},
-        {"kind": "softmax", "name": "head"},
+        {"kind": "softmax", "name": "probabilities"},
     ]
-    write_model("cora-gat.heed", input_features=1433, class_labels=labels, layers=layers)
+    write_model("payments-gat.heed", input_features=6, class_labels=roles, layers=layers,
+                feature_names=features)
 
 Tensors are stored as little-endian float32 in C order (the exporter converts), named
 "<layer name>.<role>". The output is deterministic: entries are stored uncompressed with the
@@ -112,21 +119,26 @@ def write_model(path, input_features, class_labels, layers, feature_names=None):
 
 
 def _example(path):
+    """A tiny untrained payments-network classifier with seeded random weights."""
     rng = np.random.default_rng(7)
-    features, heads, width, classes = 4, 2, 3, 2
+    features = ["account_age_years", "log_mean_amount", "night_share", "log_in_out_ratio",
+                "devices_seen", "business_registration"]
+    roles = ["ordinary", "merchant", "mule-ring"]
+    heads, width = 2, 3
     layers = [
         {"kind": "graph_attention", "name": "gat1", "score": "gat", "heads": heads,
-         "head_width": width, "combine_heads": "concat", "activation": "elu", "bias": True,
-         "tensors": {"weight": rng.normal(size=(features, heads * width)),
+         "head_width": width, "combine_heads": "concat", "leaky_relu_slope": 0.2,
+         "activation": "elu", "bias": True,
+         "tensors": {"weight": rng.normal(size=(len(features), heads * width)),
                      "attention_target": rng.normal(size=(heads, width)),
                      "attention_source": rng.normal(size=(heads, width)),
                      "bias": rng.normal(size=(heads * width,))}},
-        {"kind": "dense", "name": "classifier", "units": classes, "bias": True,
-         "tensors": {"weight": rng.normal(size=(heads * width, classes)),
-                     "bias": np.zeros(classes)}},
+        {"kind": "dense", "name": "classifier", "units": len(roles), "bias": True,
+         "tensors": {"weight": rng.normal(size=(heads * width, len(roles))),
+                     "bias": np.zeros(len(roles))}},
         {"kind": "softmax", "name": "probabilities"},
     ]
-    write_model(path, features, ["left", "right"], layers)
+    write_model(path, len(features), roles, layers, feature_names=features)
 
 
 if __name__ == "__main__":

@@ -9,7 +9,7 @@ import dev.heed.graph.AttentionPattern;
  *
  * <ul>
  *   <li>Additive (GAT): e_ij = LeakyReLU(q_i + k_j) — Veličković et al. 2018, eq. 1 with aᵀ[Wh_i ‖
- *       Wh_j] split into a_lᵀWh_i + a_rᵀWh_j.
+ *       Wh_j] split into a target term a_targetᵀWh_i and a source term a_sourceᵀWh_j.
  *   <li>GATv2: e_ij = aᵀ LeakyReLU(q_i + k_j) — Brody et al. 2022, eq. for GATv2 scoring.
  *   <li>Scaled dot-product: e_ij = q_i·k_j / √d — Vaswani et al. 2017, eq. 1.
  *   <li>α_ij = softmax over the allowed j of row i, computed with the row maximum subtracted

@@ -9,10 +9,12 @@ import java.util.Arrays;
  *
  * <ul>
  *   <li>{@link Additive} (GAT, Veličković et al. 2018, eq. 1): {@code e_ij = LeakyReLU(q_i + k_j)}
- *       where the caller has precomputed {@code q_i = a_lᵀ W h_i} and {@code k_j = a_rᵀ W h_j} (key
- *       width 1), so no n×n×d work is ever formed.
+ *       where the caller has precomputed the target term {@code q_i = a_targetᵀ W h_i} and the
+ *       source term {@code k_j = a_sourceᵀ W h_j} (key width 1; {@code a = [a_target ‖ a_source]}),
+ *       so no n×n×d work is ever formed.
  *   <li>{@link Gatv2} (Brody et al. 2022): {@code e_ij = aᵀ LeakyReLU(q_i + k_j)} with {@code q_i =
- *       W_l h_i}, {@code k_j = W_r h_j} (key width d) and the attention vector {@code a} per head.
+ *       W_target h_i}, {@code k_j = W_source h_j} (key width d) and the attention vector {@code a}
+ *       per head.
  *   <li>{@link ScaledDotProduct} (Vaswani et al. 2017, eq. 1): {@code e_ij = q_i · k_j / √d}.
  * </ul>
  *
@@ -87,7 +89,7 @@ public sealed interface ScoreFunction
             "additive (GAT) scores take one precomputed term per node and head (keyDim = 1), got"
                 + " keyDim = "
                 + shape.keyDim()
-                + "; pass a_l·Wh_i and a_r·Wh_j, not the projected features");
+                + "; pass a_target·Wh_i and a_source·Wh_j, not the projected features");
       }
     }
 

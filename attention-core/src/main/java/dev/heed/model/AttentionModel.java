@@ -2,12 +2,15 @@ package dev.heed.model;
 
 import dev.heed.attention.KernelOptions;
 import dev.heed.graph.AttentionPattern;
+import java.util.HashSet;
 import java.util.List;
 import java.util.Objects;
+import java.util.Set;
 
 /**
  * An immutable stack of layers with its input feature count and class labels, loaded from a model
- * file ({@link ModelFile#read}). {@link #forward} maps an n × {@link #inputFeatureCount()} feature
+ * file ({@link ModelFile#read}) or stacked from layers built in Java ({@link #of}, then {@link
+ * ModelFile#write} saves it). {@link #forward} maps an n × {@link #inputFeatureCount()} feature
  * matrix over a graph to n × {@link #classLabels()}.size() class probabilities.
  *
  * <p>Thread safety: immutable. One model may serve any number of threads at once: a call keeps all
@@ -40,6 +43,99 @@ public final class AttentionModel {
     this.layers = List.copyOf(layers);
     this.kernelOptions = kernelOptions;
     this.kernels = kernels;
+  }
+
+  /**
+   * Stacks layers into a model, with the checks reading a model file applies to the stack. The
+   * input feature count is the first layer's input width. The model's kernels use {@link
+   * KernelOptions#defaults()}.
+   *
+   * <pre>{@code
+   * AttentionModel model = AttentionModel.of(
+   *     List.of(hidden, output, SoftmaxLayer.of("probabilities", 3)),
+   *     List.of("ordinary", "merchant", "mule-ring"),
+   *     featureNames);
+   * ModelFile.write(model, Path.of("payments.heed"));
+   * }</pre>
+   *
+   * @param layers the layers in the order they run: names distinct, each layer's input width the
+   *     previous layer's output width, the last (and only the last) a {@link SoftmaxLayer}
+   * @param classLabels distinct labels, one per output of the last layer
+   * @param featureNames one name per input feature, or an empty list for none
+   * @return the model
+   * @throws IllegalArgumentException if the stack does not fit together (the message names the
+   *     layer) or a label or name count disagrees with it
+   */
+  public static AttentionModel of(
+      List<Layer> layers, List<String> classLabels, List<String> featureNames) {
+    List<Layer> stack = List.copyOf(layers);
+    List<String> labels = List.copyOf(classLabels);
+    List<String> names = List.copyOf(featureNames);
+    if (stack.isEmpty()) {
+      throw new IllegalArgumentException("a model needs at least one layer, the last a softmax");
+    }
+    Set<String> layerNames = new HashSet<>();
+    for (int i = 0; i < stack.size(); i++) {
+      Layer layer = stack.get(i);
+      if (!layerNames.add(layer.name())) {
+        throw new IllegalArgumentException(
+            "layer " + i + ": duplicate layer name '" + layer.name() + "'");
+      }
+      if (i > 0 && layer.inputWidth() != stack.get(i - 1).outputWidth()) {
+        throw new IllegalArgumentException(
+            "layer "
+                + i
+                + " '"
+                + layer.name()
+                + "' reads "
+                + layer.inputWidth()
+                + " features per node but layer "
+                + (i - 1)
+                + " '"
+                + stack.get(i - 1).name()
+                + "' writes "
+                + stack.get(i - 1).outputWidth());
+      }
+      if (layer instanceof SoftmaxLayer && i != stack.size() - 1) {
+        throw new IllegalArgumentException(
+            "layer " + i + " '" + layer.name() + "': a softmax layer must be the last layer");
+      }
+    }
+    Layer last = stack.get(stack.size() - 1);
+    if (!(last instanceof SoftmaxLayer)) {
+      throw new IllegalArgumentException(
+          "the last layer ('"
+              + last.name()
+              + "', "
+              + last.kind()
+              + ") must be a softmax layer, the classification head");
+    }
+    if (labels.isEmpty()) {
+      throw new IllegalArgumentException("at least one class label is needed");
+    }
+    Set<String> seen = new HashSet<>();
+    for (int i = 0; i < labels.size(); i++) {
+      if (!seen.add(labels.get(i))) {
+        throw new IllegalArgumentException(
+            "class label " + i + " repeats '" + labels.get(i) + "'; labels must be distinct");
+      }
+    }
+    if (last.outputWidth() != labels.size()) {
+      throw new IllegalArgumentException(
+          "the model ends with "
+              + last.outputWidth()
+              + " outputs per node but there are "
+              + labels.size()
+              + " class labels");
+    }
+    int inputs = stack.get(0).inputWidth();
+    if (!names.isEmpty() && names.size() != inputs) {
+      throw new IllegalArgumentException(
+          names.size() + " feature names were given but the first layer reads " + inputs);
+    }
+    KernelOptions options = KernelOptions.defaults();
+    return new AttentionModel(
+        inputs, names, labels, stack, options, KernelSource.fromClassPath(options));
   }
 
   /**

@@ -3,22 +3,22 @@ package dev.heed.model;
 import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
-import java.util.LinkedHashMap;
 import java.util.List;
 import java.util.Map;
+import java.util.Objects;
 
 /**
  * Multi-head graph attention over the call's graph, with GAT or GATv2 scores. For each head h
  * (width d), with projected features {@code z_j = W h_j}:
  *
  * <ul>
- *   <li>GAT (Veličković et al. 2018, eqs. 1–4): {@code e_ij = LeakyReLU(a_tᵀ z_i + a_sᵀ z_j)}, the
- *       split form of {@code aᵀ[z_i ‖ z_j]}; values {@code z_j}. Tensors {@code weight} [in, H·d],
- *       {@code attention_target} [H, d] (a_t, the first half of a), {@code attention_source} [H, d]
- *       (a_s, the second half).
- *   <li>GATv2 (Brody et al. 2022): {@code e_ij = aᵀ LeakyReLU(W_t h_i + W_s h_j)}; values {@code
- *       W_s h_j}. Tensors {@code target_weight} [in, H·d], {@code source_weight} [in, H·d], {@code
- *       attention} [H, d].
+ *   <li>GAT (Veličković et al. 2018, eqs. 1–4): {@code e_ij = LeakyReLU(a_targetᵀ z_i + a_sourceᵀ
+ *       z_j)}, the split form of {@code aᵀ[z_i ‖ z_j]}; values {@code z_j}. Tensors {@code weight}
+ *       [in, H·d], {@code attention_target} [H, d] (a_target, the first half of a), {@code
+ *       attention_source} [H, d] (a_source, the second half).
+ *   <li>GATv2 (Brody et al. 2022): {@code e_ij = aᵀ LeakyReLU(W_target h_i + W_source h_j)}; values
+ *       {@code W_source h_j}. Tensors {@code target_weight} [in, H·d], {@code source_weight} [in,
+ *       H·d], {@code attention} [H, d].
  * </ul>
  *
  * <p>Then {@code α_ij} = softmax over the sources j of target i, head outputs {@code Σ_j α_ij v_j},
@@ -27,6 +27,19 @@ import java.util.Map;
  * {@code input · residual_weight}), and finally the activation. The layer adds no self-loops: the
  * paper's N(i) includes i, so build the graph with self-loops (a graph builder policy) to match it.
  * A node with no sources gets zeros from attention (then bias, residual and activation).
+ *
+ * <p>Layers come from model files or from {@link #gat} and {@link #gatv2}:
+ *
+ * <pre>{@code
+ * GraphAttentionLayer hidden =
+ *     GraphAttentionLayer.gat("hidden", 6, 8, 8)      // 6 features in, 8 heads of width 8
+ *         .weight(w)                                  // [6, 64], row-major
+ *         .targetAttention(aTarget)                   // [8, 8]
+ *         .sourceAttention(aSource)                   // [8, 8]
+ *         .bias(b)                                    // [64]
+ *         .activation(Activation.ELU)
+ *         .build();
+ * }</pre>
  *
  * <p>Cost per call: O(n·in·H·d) for the projections plus the kernel's O(E·H·d) (sparse) or
  * O(n²·H·d) (dense).
@@ -38,89 +51,291 @@ public final class GraphAttentionLayer extends Layer {
   /** The kind written in model files. */
   public static final String KIND = "graph_attention";
 
-  /** LeakyReLU slope when a file gives none: 0.2, as in Veličković et al. 2018, §2.1. */
-  public static final double DEFAULT_NEGATIVE_SLOPE = 0.2;
+  /** LeakyReLU slope when none is given: 0.2, as in Veličković et al. 2018, §2.1. */
+  public static final double DEFAULT_LEAKY_RELU_SLOPE = 0.2;
+
+  private static final String WEIGHT = "weight";
+  private static final String TARGET_ATTENTION = "attention_target";
+  private static final String SOURCE_ATTENTION = "attention_source";
+  private static final String TARGET_WEIGHT = "target_weight";
+  private static final String SOURCE_WEIGHT = "source_weight";
+  private static final String ATTENTION = "attention";
+  private static final String BIAS = "bias";
+  private static final String RESIDUAL_WEIGHT = "residual_weight";
 
   private final boolean gatv2;
   private final int heads;
   private final int headWidth;
   private final boolean concat;
-  private final double negativeSlope;
+  private final double leakyReluSlope;
   private final Activation activation;
   private final String residual;
   private final Map<String, Tensor> tensors;
   private final ScoreFunction score;
 
-  private GraphAttentionLayer(
-      String name,
-      int inputWidth,
-      boolean gatv2,
-      int heads,
-      int headWidth,
-      boolean concat,
-      double negativeSlope,
-      Activation activation,
-      String residual,
-      Map<String, Tensor> tensors) {
-    super(name, inputWidth, concat ? heads * headWidth : headWidth);
-    this.gatv2 = gatv2;
-    this.heads = heads;
-    this.headWidth = headWidth;
-    this.concat = concat;
-    this.negativeSlope = negativeSlope;
-    this.activation = activation;
-    this.residual = residual;
+  private GraphAttentionLayer(Builder b, Map<String, Tensor> tensors) {
+    super(b.parts.name, b.inputWidth, b.concat ? b.heads * b.headWidth : b.headWidth);
+    this.gatv2 = b.gatv2;
+    this.heads = b.heads;
+    this.headWidth = b.headWidth;
+    this.concat = b.concat;
+    this.leakyReluSlope = b.leakyReluSlope;
+    this.activation = b.activation;
+    this.residual = b.residual;
     this.tensors = tensors;
     if (gatv2) {
-      this.score = ScoreFunction.gatv2((float) negativeSlope, tensors.get("attention").values());
+      this.score = ScoreFunction.gatv2((float) leakyReluSlope, tensors.get(ATTENTION).values());
     } else {
-      this.score = ScoreFunction.additive((float) negativeSlope);
+      this.score = ScoreFunction.additive((float) leakyReluSlope);
     }
+  }
+
+  /**
+   * Starts a GAT layer (Veličković et al. 2018). Supply {@link Builder#weight}, {@link
+   * Builder#targetAttention} and {@link Builder#sourceAttention}. Defaults: heads concatenated,
+   * LeakyReLU slope {@value #DEFAULT_LEAKY_RELU_SLOPE}, identity activation, no bias, no residual.
+   *
+   * @param name the layer's name, unique within its model, not empty
+   * @param inputWidth features per node the layer reads, at least 1
+   * @param heads number of heads H, at least 1
+   * @param headWidth each head's output width d, at least 1
+   * @return the builder
+   */
+  public static Builder gat(String name, int inputWidth, int heads, int headWidth) {
+    return new Builder(false, name, inputWidth, heads, headWidth);
+  }
+
+  /**
+   * Starts a GATv2 layer (Brody et al. 2022). Supply {@link Builder#targetWeight}, {@link
+   * Builder#sourceWeight} and {@link Builder#attention}. Defaults as for {@link #gat}.
+   *
+   * @param name the layer's name, unique within its model, not empty
+   * @param inputWidth features per node the layer reads, at least 1
+   * @param heads number of heads H, at least 1
+   * @param headWidth each head's output width d, at least 1
+   * @return the builder
+   */
+  public static Builder gatv2(String name, int inputWidth, int heads, int headWidth) {
+    return new Builder(true, name, inputWidth, heads, headWidth);
   }
 
   static GraphAttentionLayer read(LayerReader r) throws ModelFormatException {
     boolean v2 = r.string("score", List.of("gat", "gatv2")).equals("gatv2");
-    int heads = r.integer("heads", 1);
-    int d = r.integer("head_width", 1);
-    if ((long) heads * d > 1 << 20) {
-      throw r.error("heads * head_width = " + ((long) heads * d) + " is too large");
+    Builder b =
+        new Builder(v2, r.name, r.inputWidth, r.integer("heads", 1), r.integer("head_width", 1));
+    b.concat = r.string("combine_heads", List.of("concat", "mean")).equals("concat");
+    b.leakyReluSlope = r.number("leaky_relu_slope", DEFAULT_LEAKY_RELU_SLOPE, 0, 1);
+    b.activation = r.activation("activation", Activation.IDENTITY);
+    b.bias = r.bool("bias", false);
+    b.residual = r.string("residual", "none", List.of("none", "identity", "linear"));
+    return r.build(b.parts, b::build);
+  }
+
+  /**
+   * Builder for {@link GraphAttentionLayer}; start with {@link #gat} or {@link #gatv2}. Tensors are
+   * row-major float arrays, copied when supplied; {@link #build} checks every length and value
+   * against the settings.
+   *
+   * <p>Thread safety: not thread-safe.
+   */
+  public static final class Builder {
+    private final boolean gatv2;
+    private final int inputWidth;
+    private final int heads;
+    private final int headWidth;
+    private final LayerParts parts;
+    private boolean concat = true;
+    private double leakyReluSlope = DEFAULT_LEAKY_RELU_SLOPE;
+    private Activation activation = Activation.IDENTITY;
+    private boolean bias;
+    private String residual = "none";
+
+    private Builder(boolean gatv2, String name, int inputWidth, int heads, int headWidth) {
+      this.gatv2 = gatv2;
+      this.parts = new LayerParts(KIND, name);
+      this.inputWidth = inputWidth;
+      this.heads = heads;
+      this.headWidth = headWidth;
     }
-    boolean concat = r.string("combine_heads", List.of("concat", "mean")).equals("concat");
-    double slope = r.number("negative_slope", DEFAULT_NEGATIVE_SLOPE, 0, 1);
-    Activation act = r.activation("activation", Activation.IDENTITY);
-    boolean bias = r.bool("bias", false);
-    String residual = r.string("residual", "none", List.of("none", "identity", "linear"));
-    int in = r.inputWidth;
-    int hd = heads * d;
-    int out = concat ? hd : d;
-    String proj = "input width " + in + " by heads * head_width = " + heads + " * " + d;
-    String att = "heads by head_width";
-    Map<String, Tensor> t = new LinkedHashMap<>();
-    if (v2) {
-      t.put("target_weight", r.tensor("target_weight", proj, in, hd));
-      t.put("source_weight", r.tensor("source_weight", proj, in, hd));
-      t.put("attention", r.tensor("attention", att, heads, d));
-    } else {
-      t.put("weight", r.tensor("weight", proj, in, hd));
-      t.put("attention_target", r.tensor("attention_target", att, heads, d));
-      t.put("attention_source", r.tensor("attention_source", att, heads, d));
+
+    /**
+     * Sets how heads combine.
+     *
+     * @param concatenate true: concatenate (eq. 5, output width H·d, the default); false: average
+     *     (eq. 6, output width d)
+     * @return this builder
+     */
+    public Builder concatenateHeads(boolean concatenate) {
+      this.concat = concatenate;
+      return this;
     }
-    if (bias) {
-      t.put("bias", r.tensor("bias", "the output width " + out, out));
+
+    /**
+     * Sets the LeakyReLU slope for negative scores.
+     *
+     * @param slope in {@code [0, 1)}
+     * @return this builder
+     */
+    public Builder leakyReluSlope(double slope) {
+      this.leakyReluSlope = slope;
+      return this;
     }
-    if (residual.equals("identity") && in != out) {
-      throw r.error(
-          "residual 'identity' needs input width = output width, got "
-              + in
-              + " and "
-              + out
-              + "; use residual 'linear' with a residual_weight tensor");
+
+    /**
+     * Sets the activation applied last.
+     *
+     * @param act the activation
+     * @return this builder
+     */
+    public Builder activation(Activation act) {
+      this.activation = Objects.requireNonNull(act, "activation");
+      return this;
     }
-    if (residual.equals("linear")) {
-      t.put("residual_weight", r.tensor("residual_weight", "input width by output width", in, out));
+
+    /**
+     * GAT: sets the projection W, shared by targets and sources.
+     *
+     * @param values input, copied: [in, H·d], head h in columns h·d … h·d+d−1
+     * @return this builder
+     */
+    public Builder weight(float[] values) {
+      parts.put(WEIGHT, values);
+      return this;
     }
-    r.finish();
-    return new GraphAttentionLayer(r.name, in, v2, heads, d, concat, slope, act, residual, t);
+
+    /**
+     * GAT: sets a_target, the half of the attention vector applied to the target's features.
+     *
+     * @param values input, copied: [H, d]
+     * @return this builder
+     */
+    public Builder targetAttention(float[] values) {
+      parts.put(TARGET_ATTENTION, values);
+      return this;
+    }
+
+    /**
+     * GAT: sets a_source, the half of the attention vector applied to the source's features.
+     *
+     * @param values input, copied: [H, d]
+     * @return this builder
+     */
+    public Builder sourceAttention(float[] values) {
+      parts.put(SOURCE_ATTENTION, values);
+      return this;
+    }
+
+    /**
+     * GATv2: sets W_target, the projection of the target's features.
+     *
+     * @param values input, copied: [in, H·d]
+     * @return this builder
+     */
+    public Builder targetWeight(float[] values) {
+      parts.put(TARGET_WEIGHT, values);
+      return this;
+    }
+
+    /**
+     * GATv2: sets W_source, the projection of the source's features (also the values).
+     *
+     * @param values input, copied: [in, H·d]
+     * @return this builder
+     */
+    public Builder sourceWeight(float[] values) {
+      parts.put(SOURCE_WEIGHT, values);
+      return this;
+    }
+
+    /**
+     * GATv2: sets the attention vector a of each head.
+     *
+     * @param values input, copied: [H, d]
+     * @return this builder
+     */
+    public Builder attention(float[] values) {
+      parts.put(ATTENTION, values);
+      return this;
+    }
+
+    /**
+     * Adds a bias after the heads are combined.
+     *
+     * @param values input, copied: [output width]
+     * @return this builder
+     */
+    public Builder bias(float[] values) {
+      parts.put(BIAS, values);
+      this.bias = true;
+      return this;
+    }
+
+    /**
+     * Adds the input to the output, before the activation; needs input width = output width.
+     *
+     * @return this builder
+     */
+    public Builder identityResidual() {
+      this.residual = "identity";
+      return this;
+    }
+
+    /**
+     * Adds {@code input · residualWeight} to the output, before the activation.
+     *
+     * @param residualWeight input, copied: [in, output width]
+     * @return this builder
+     */
+    public Builder linearResidual(float[] residualWeight) {
+      parts.put(RESIDUAL_WEIGHT, residualWeight);
+      this.residual = "linear";
+      return this;
+    }
+
+    /**
+     * Checks the settings and tensors and builds the layer.
+     *
+     * @return the layer
+     * @throws IllegalArgumentException if a setting is out of range, a tensor is missing, of the
+     *     wrong length or not finite, or a tensor was supplied that these settings do not use (the
+     *     message names the layer and tensor)
+     */
+    public GraphAttentionLayer build() {
+      int in = inputWidth;
+      parts.checkPositive("input width", in);
+      parts.checkPositive("heads", heads);
+      parts.checkPositive("head_width", headWidth);
+      parts.checkNotTooLarge("heads * head_width", (long) heads * headWidth);
+      parts.checkRange("leaky_relu_slope", leakyReluSlope, 0, 1);
+      int hd = heads * headWidth;
+      int out = concat ? hd : headWidth;
+      if (residual.equals("identity") && in != out) {
+        throw parts.error(
+            "residual 'identity' needs input width = output width, got "
+                + in
+                + " and "
+                + out
+                + "; use residual 'linear' with a residual_weight tensor");
+      }
+      String proj = "input width " + in + " by heads * head_width = " + heads + " * " + headWidth;
+      String att = "heads by head_width";
+      if (gatv2) {
+        parts.take(TARGET_WEIGHT, proj, in, hd);
+        parts.take(SOURCE_WEIGHT, proj, in, hd);
+        parts.take(ATTENTION, att, heads, headWidth);
+      } else {
+        parts.take(WEIGHT, proj, in, hd);
+        parts.take(TARGET_ATTENTION, att, heads, headWidth);
+        parts.take(SOURCE_ATTENTION, att, heads, headWidth);
+      }
+      if (bias) {
+        parts.take(BIAS, "the output width " + out, out);
+      }
+      if (residual.equals("linear")) {
+        parts.take(RESIDUAL_WEIGHT, "input width by output width", in, out);
+      }
+      return new GraphAttentionLayer(this, parts.finish());
+    }
   }
 
   @Override
@@ -180,14 +395,14 @@ public final class GraphAttentionLayer extends Layer {
     float[] value;
     HeadShape shape;
     if (gatv2) {
-      query = ModelMath.project(input, n, in, tensors.get("target_weight").values(), hd, null);
-      value = ModelMath.project(input, n, in, tensors.get("source_weight").values(), hd, null);
+      query = ModelMath.project(input, n, in, tensors.get(TARGET_WEIGHT).values(), hd, null);
+      value = ModelMath.project(input, n, in, tensors.get(SOURCE_WEIGHT).values(), hd, null);
       key = value;
       shape = new HeadShape(heads, headWidth, headWidth);
     } else {
-      value = ModelMath.project(input, n, in, tensors.get("weight").values(), hd, null);
-      query = headDots(value, n, tensors.get("attention_target").values());
-      key = headDots(value, n, tensors.get("attention_source").values());
+      value = ModelMath.project(input, n, in, tensors.get(WEIGHT).values(), hd, null);
+      query = headDots(value, n, tensors.get(TARGET_ATTENTION).values());
+      key = headDots(value, n, tensors.get(SOURCE_ATTENTION).values());
       shape = new HeadShape(heads, 1, headWidth);
     }
     float[] attended = pass.attend(this, pass.graph, score, shape, query, key, value);
@@ -209,7 +424,7 @@ public final class GraphAttentionLayer extends Layer {
         }
       }
     }
-    Tensor bias = tensors.get("bias");
+    Tensor bias = tensors.get(BIAS);
     if (bias != null) {
       ModelMath.addRowBias(out, outputWidth(), bias.values());
     }
@@ -219,13 +434,16 @@ public final class GraphAttentionLayer extends Layer {
       ModelMath.addInPlace(
           out,
           ModelMath.project(
-              input, n, in, tensors.get("residual_weight").values(), outputWidth(), null));
+              input, n, in, tensors.get(RESIDUAL_WEIGHT).values(), outputWidth(), null));
     }
     activation.applyInPlace(out);
     return out;
   }
 
-  /** Per node and head, the dot product of that head's projected features with a[h]. */
+  /**
+   * Per node and head, the dot product of that head's projected features with a_target[h] or
+   * a_source[h].
+   */
   private float[] headDots(float[] projected, int n, float[] a) {
     float[] out = new float[n * heads];
     for (int i = 0; i < n; i++) {
@@ -252,9 +470,9 @@ public final class GraphAttentionLayer extends Layer {
     json.put("heads", heads);
     json.put("head_width", headWidth);
     json.put("combine_heads", concat ? "concat" : "mean");
-    json.put("negative_slope", negativeSlope);
+    json.put("leaky_relu_slope", leakyReluSlope);
     json.put("activation", activation.fileName());
-    json.put("bias", tensors.containsKey("bias"));
+    json.put("bias", tensors.containsKey(BIAS));
     json.put("residual", residual);
   }
 }

@@ -1,12 +1,14 @@
 package dev.heed.model;
 
 import com.fasterxml.jackson.databind.node.ObjectNode;
+import java.util.List;
 import java.util.Map;
 
 /**
  * One layer of an {@link AttentionModel}: maps an n × {@link #inputWidth()} feature matrix to an n
  * × {@link #outputWidth()} one, row i belonging to node i. Layers come from model files ({@link
- * ModelFile}); see {@code docs/model-format.md} for each kind's equations and tensors.
+ * ModelFile}) or from each kind's builder; see {@code docs/model-format.md} for each kind's
+ * equations and tensors.
  *
  * <p>The kinds: {@link GraphAttentionLayer} ({@code graph_attention}), {@link SelfAttentionLayer}
  * ({@code self_attention}), {@link DenseLayer} ({@code dense}) and {@link SoftmaxLayer} ({@code
@@ -89,6 +91,54 @@ public abstract sealed class Layer
 
   /** The layer's tensors by role, in the order the format lists them. */
   abstract Map<String, Tensor> tensors();
+
+  /**
+   * Returns the roles of the layer's weight tensors, in the order the model file lists them (for
+   * example {@code weight}, {@code attention_target}, {@code attention_source}, {@code bias}).
+   *
+   * @return an unmodifiable list, empty for a layer without weights
+   */
+  public final List<String> tensorRoles() {
+    return List.copyOf(tensors().keySet());
+  }
+
+  /**
+   * Returns the shape of one weight tensor.
+   *
+   * @param role one of {@link #tensorRoles()}
+   * @return a new array of dimensions
+   * @throws IllegalArgumentException if the layer has no tensor with that role
+   */
+  public final int[] tensorShape(String role) {
+    return tensor(role).shape().clone();
+  }
+
+  /**
+   * Returns a copy of one weight tensor's values, float32 in row-major order. O(size).
+   *
+   * @param role one of {@link #tensorRoles()}
+   * @return a new array
+   * @throws IllegalArgumentException if the layer has no tensor with that role
+   */
+  public final float[] tensorValues(String role) {
+    return tensor(role).values().clone();
+  }
+
+  private Tensor tensor(String role) {
+    Tensor t = tensors().get(role);
+    if (t == null) {
+      throw new IllegalArgumentException(
+          "layer '"
+              + name
+              + "' ("
+              + kind()
+              + ") has no tensor role '"
+              + role
+              + "'; it has "
+              + tensors().keySet());
+    }
+    return t;
+  }
 
   /** Writes the hyper-parameters (everything but kind, name and tensors) into {@code json}. */
   abstract void writeHyperParameters(ObjectNode json);

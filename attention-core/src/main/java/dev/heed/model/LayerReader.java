@@ -2,16 +2,18 @@ package dev.heed.model;
 
 import com.fasterxml.jackson.databind.JsonNode;
 import dev.heed.npy.NpyArray;
-import java.util.Arrays;
 import java.util.HashSet;
 import java.util.Iterator;
 import java.util.List;
 import java.util.Map;
 import java.util.Set;
+import java.util.function.Supplier;
 
 /**
- * Reads and validates one layer's description and tensors from a model file. Every error names the
- * file, the layer and, where it applies, the tensor. Internal.
+ * Reads one layer's description and tensors from a model file: the keys with their types and
+ * ranges, and the tensors with their types; the layer's builder then checks the tensors against the
+ * settings ({@link LayerParts}), as it does for layers built in Java. Every error names the file,
+ * the layer and, where it applies, the tensor. Internal.
  */
 final class LayerReader {
 
@@ -27,7 +29,6 @@ final class LayerReader {
   private final Map<String, NpyArray> arrays;
   private final Set<String> usedArrays;
   private final Set<String> readKeys = new HashSet<>();
-  private final Set<String> readRoles = new HashSet<>();
 
   LayerReader(
       String file,
@@ -59,15 +60,20 @@ final class LayerReader {
   }
 
   ModelFormatException error(String problem) {
-    return new ModelFormatException(where() + ": " + problem, name, null, null);
+    return fileError(null, null, problem, null);
   }
 
   ModelFormatException tensorError(String role, String tensorName, String problem) {
+    return fileError(role, tensorName, problem, null);
+  }
+
+  private ModelFormatException fileError(
+      String role, String tensorName, String problem, Throwable cause) {
     return new ModelFormatException(
-        where() + ", tensor '" + tensorName + "' (role " + role + "): " + problem,
+        where() + InvalidLayerException.tensorPart(role, tensorName) + ": " + problem,
         name,
         tensorName,
-        null);
+        cause);
   }
 
   /** A required string, one of {@code allowed}. */
@@ -91,7 +97,7 @@ final class LayerReader {
     return v.asText();
   }
 
-  /** A required integer of at least {@code min} (and at most 2^20, far beyond any real width). */
+  /** A required integer of at least {@code min} (and at most {@link LayerParts#MAX_WIDTH}). */
   int integer(String key, int min) throws ModelFormatException {
     readKeys.add(key);
     JsonNode v = json.get(key);
@@ -109,8 +115,9 @@ final class LayerReader {
   }
 
   private int checkInteger(String key, JsonNode v, int min) throws ModelFormatException {
-    if (!v.isIntegralNumber() || !v.canConvertToInt() || v.asInt() < min || v.asInt() > 1 << 20) {
-      throw error("'" + key + "' must be an integer in " + min + ".." + (1 << 20) + ", got " + v);
+    int max = LayerParts.MAX_WIDTH;
+    if (!v.isIntegralNumber() || !v.canConvertToInt() || v.asInt() < min || v.asInt() > max) {
+      throw error("'" + key + "' must be an integer in " + min + ".." + max + ", got " + v);
     }
     return v.asInt();
   }
@@ -150,25 +157,32 @@ final class LayerReader {
   }
 
   /**
-   * A required tensor of the given shape: float32 or float64 (rounded to float32), every value
-   * finite after rounding.
+   * Finishes reading the layer: checks that the description holds no keys that were not read, hands
+   * every tensor listed under "tensors" to {@code parts} (float32 or float64, the latter rounded to
+   * float32), and builds the layer, which checks the tensors against the settings.
    *
-   * @param role the role within the layer, the key under "tensors"
-   * @param why how the expected shape follows from the hyper-parameters, for the message
+   * @param parts the builder's parts, to receive the tensors
+   * @param build the builder's build step
+   * @return the layer
+   * @throws ModelFormatException if a key is unknown, a tensor is absent or not floating point, or
+   *     the build step rejects the settings or a tensor (the message names the layer and tensor)
    */
-  Tensor tensor(String role, String why, int... shape) throws ModelFormatException {
-    readRoles.add(role);
-    JsonNode ref = tensorsJson == null ? null : tensorsJson.get(role);
-    if (ref == null || ref.isNull()) {
-      throw error(
-          "missing tensor role '"
-              + role
-              + "' under \"tensors\" (shape "
-              + Arrays.toString(shape)
-              + ": "
-              + why
-              + ")");
+  <L extends Layer> L build(LayerParts parts, Supplier<L> build) throws ModelFormatException {
+    checkKeys();
+    if (tensorsJson != null) {
+      for (Iterator<String> it = tensorsJson.fieldNames(); it.hasNext(); ) {
+        supply(parts, it.next());
+      }
     }
+    try {
+      return build.get();
+    } catch (InvalidLayerException e) {
+      throw fileError(e.role, e.tensorName, e.problem, e);
+    }
+  }
+
+  private void supply(LayerParts parts, String role) throws ModelFormatException {
+    JsonNode ref = tensorsJson.get(role);
     if (!ref.isTextual()) {
       throw error("tensor role '" + role + "' must name a tensor (a string), got " + ref);
     }
@@ -186,39 +200,12 @@ final class LayerReader {
               + array.dataType().descriptor()
               + "; weights must be '<f4' or '<f8' (float32 or float64)");
     }
-    if (!Arrays.equals(array.shape(), shape)) {
-      throw tensorError(
-          role,
-          tensorName,
-          "shape "
-              + Arrays.toString(array.shape())
-              + ", expected "
-              + Arrays.toString(shape)
-              + " ("
-              + why
-              + ")");
-    }
-    float[] values = array.toFloats();
-    for (int i = 0; i < values.length; i++) {
-      if (!Float.isFinite(values[i])) {
-        throw tensorError(
-            role,
-            tensorName,
-            "holds "
-                + values[i]
-                + (Float.isInfinite(values[i]) && array.dataType().byteWidth() == 8
-                    ? " (a float64 value beyond the float32 range)"
-                    : "")
-                + " at flat index "
-                + i
-                + "; every weight must be finite");
-      }
-    }
-    return new Tensor(tensorName, shape.clone(), values);
+    parts.putRead(
+        role, tensorName, array.shape(), array.toFloats(), array.dataType().byteWidth() == 8);
   }
 
-  /** Checks that the layer holds no keys or tensor roles that were not read. */
-  void finish() throws ModelFormatException {
+  /** Checks that the layer holds no keys that were not read. */
+  private void checkKeys() throws ModelFormatException {
     for (Iterator<String> it = json.fieldNames(); it.hasNext(); ) {
       String key = it.next();
       if (!COMMON_KEYS.contains(key) && !readKeys.contains(key)) {
@@ -229,18 +216,6 @@ final class LayerReader {
                 + kind
                 + " layer reads "
                 + new java.util.TreeSet<>(readKeys));
-      }
-    }
-    if (tensorsJson != null) {
-      for (Iterator<String> it = tensorsJson.fieldNames(); it.hasNext(); ) {
-        String role = it.next();
-        if (!readRoles.contains(role)) {
-          throw error(
-              "tensor role '"
-                  + role
-                  + "' is not used with these hyper-parameters; expected roles "
-                  + new java.util.TreeSet<>(readRoles));
-        }
       }
     }
   }

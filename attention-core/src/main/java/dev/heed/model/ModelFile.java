@@ -47,8 +47,10 @@ import java.util.Set;
  * float32). Tensors not used by any layer are errors too. Weights are held as float32.
  *
  * <p>Writing is deterministic (see {@link Npz}): the description with every hyper-parameter spelled
- * out, then the tensors as float32 in layer order. Read → write → read gives a model with identical
- * weights, and writing it again gives identical bytes.
+ * out, then the tensors as float32 in layer order. This class is the only writer of the format in
+ * Heed: a model built in Java ({@link AttentionModel#of}) or trained by {@code attention-train} is
+ * saved through {@link #write} too. Read → write → read gives a model with identical weights, and
+ * writing it again gives identical bytes.
  *
  * <p>Cost: O(file size). Thread safety: stateless; safe from any thread.
  */
@@ -190,7 +192,8 @@ public final class ModelFile {
 
   /**
    * Builds a model from a description and tensors held in memory, with the same validation as
-   * reading a file: for Java code that produces weights itself (then {@link #write} saves them).
+   * reading a file. Java code that produces weights itself can instead build the layers with each
+   * kind's builder and stack them with {@link AttentionModel#of}; {@link #write} saves either.
    *
    * @param description the {@value #DESCRIPTION_ENTRY} JSON text (see {@code docs/model-format.md})
    * @param tensors input, not modified: the tensors by name
@@ -282,7 +285,6 @@ public final class ModelFile {
       throw top(name, "\"layers\" must be a non-empty array");
     }
     List<Layer> layers = new ArrayList<>();
-    Set<String> names = new HashSet<>();
     Set<String> used = new HashSet<>();
     int width = inputCount;
     for (int index = 0; index < layersJson.size(); index++) {
@@ -295,9 +297,6 @@ public final class ModelFile {
         throw top(name, "layer " + index + " needs a non-empty string \"name\"");
       }
       String layerName = nameNode.asText();
-      if (!names.add(layerName)) {
-        throw top(name, "layer " + index + ": duplicate layer name '" + layerName + "'");
-      }
       JsonNode kindNode = lj.get("kind");
       String kind = kindNode == null ? "null" : kindNode.asText();
       LayerReader r = new LayerReader(name, index, layerName, kind, width, lj, arrays, used);
@@ -318,30 +317,14 @@ public final class ModelFile {
                             DenseLayer.KIND,
                             SoftmaxLayer.KIND));
           };
-      if (layer instanceof SoftmaxLayer && index != layersJson.size() - 1) {
-        throw r.error("a softmax layer must be the last layer");
-      }
       layers.add(layer);
       width = layer.outputWidth();
     }
-    Layer last = layers.get(layers.size() - 1);
-    if (!(last instanceof SoftmaxLayer)) {
-      throw top(
-          name,
-          "the last layer ('"
-              + last.name()
-              + "', "
-              + last.kind()
-              + ") must be a softmax layer, the classification head");
-    }
-    if (last.outputWidth() != labels.size()) {
-      throw top(
-          name,
-          "the model ends with "
-              + last.outputWidth()
-              + " outputs per node but there are "
-              + labels.size()
-              + " class labels");
+    AttentionModel model;
+    try {
+      model = AttentionModel.of(layers, labels, featureNames);
+    } catch (IllegalArgumentException e) {
+      throw new ModelFormatException(name + ": " + e.getMessage(), null, null, e);
     }
     for (String tensor : arrays.keySet()) {
       if (!used.contains(tensor)) {
@@ -349,9 +332,7 @@ public final class ModelFile {
             name + ": tensor '" + tensor + "' is not used by any layer", null, tensor, null);
       }
     }
-    KernelOptions options = KernelOptions.defaults();
-    return new AttentionModel(
-        inputCount, featureNames, labels, layers, options, KernelSource.fromClassPath(options));
+    return model;
   }
 
   private static List<String> strings(String name, JsonNode node, String key, boolean unique)

@@ -23,9 +23,27 @@ public final class SoftmaxLayer extends Layer {
     super(name, width, width);
   }
 
+  /**
+   * Creates the classification head.
+   *
+   * @param name the layer's name, unique within its model, not empty
+   * @param width the number of classes, at least 1
+   * @return the layer
+   * @throws IllegalArgumentException if the name is empty or the width below 1
+   */
+  public static SoftmaxLayer of(String name, int width) {
+    return build(new LayerParts(KIND, name), width);
+  }
+
   static SoftmaxLayer read(LayerReader r) throws ModelFormatException {
-    r.finish();
-    return new SoftmaxLayer(r.name, r.inputWidth);
+    LayerParts parts = new LayerParts(KIND, r.name);
+    return r.build(parts, () -> build(parts, r.inputWidth));
+  }
+
+  private static SoftmaxLayer build(LayerParts parts, int width) {
+    parts.checkPositive("width", width);
+    parts.finish(); // a softmax takes no tensors
+    return new SoftmaxLayer(parts.name, width);
   }
 
   @Override

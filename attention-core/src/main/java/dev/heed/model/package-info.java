@@ -2,7 +2,9 @@
  * Attention models: the layers (graph attention with GAT or GATv2 scores, scaled dot-product
  * self-attention blocks, dense layers and the softmax classification head), the immutable,
  * thread-safe {@link dev.heed.model.AttentionModel} that stacks them, and the open model file
- * format ({@link dev.heed.model.ModelFile}, specified in {@code docs/model-format.md}). Layers run
- * their attention through {@link dev.heed.attention.AttentionKernel}, on either path.
+ * format ({@link dev.heed.model.ModelFile}, specified in {@code docs/model-format.md}). Layers come
+ * from model files or from each kind's typed builder, which applies the same checks; {@link
+ * dev.heed.model.ModelFile#write} is the one writer of the format. Layers run their attention
+ * through {@link dev.heed.attention.AttentionKernel}, on either path.
  */
 package dev.heed.model;

@@ -179,16 +179,16 @@ class LayerEquationsTest {
     ObjectNode l = JSON.createObjectNode();
     l.put("kind", "graph_attention").put("name", "g").put("score", score);
     l.put("heads", heads).put("head_width", d).put("combine_heads", combine);
-    l.put("negative_slope", 0.2).put("activation", act).put("bias", bias);
+    l.put("leaky_relu_slope", 0.2).put("activation", act).put("bias", bias);
     l.put("residual", residual);
     return l;
   }
 
   /**
-   * GAT (v1 and v2) in float64. v1: e_ij = LeakyReLU(aᵀ[Wh_i ‖ Wh_j]) (eq. 1) with a = [a_t ‖ a_s];
-   * v2: e_ij = aᵀ LeakyReLU(W_t h_i + W_s h_j) (Brody et al. 2022). α = softmax over N(i) (eqs.
-   * 2–3); head output Σ α_ij v_j (eq. 4); concat (eq. 5) or mean (eq. 6); then bias, residual and
-   * σ.
+   * GAT (v1 and v2) in float64. v1: e_ij = LeakyReLU(aᵀ[Wh_i ‖ Wh_j]) (eq. 1) with a = [a_target ‖
+   * a_source]; v2: e_ij = aᵀ LeakyReLU(W_target h_i + W_source h_j) (Brody et al. 2022). α =
+   * softmax over N(i) (eqs. 2–3); head output Σ α_ij v_j (eq. 4); concat (eq. 5) or mean (eq. 6);
+   * then bias, residual and σ.
    */
   private double[] gatReference(
       AttentionPattern g,

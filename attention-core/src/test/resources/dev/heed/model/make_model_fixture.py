@@ -75,7 +75,7 @@ def masked_softmax(scores, mask):
 
 def gat(layer, h, mask):
     t = layer["tensors"]
-    heads, d, slope = layer["heads"], layer["head_width"], layer["negative_slope"]
+    heads, d, slope = layer["heads"], layer["head_width"], layer["leaky_relu_slope"]
     outs, weights = [], []
     for k in range(heads):
         cols = slice(k * d, (k + 1) * d)
@@ -151,12 +151,12 @@ def make_layers(rng):
     m = 12
     return [
         {"kind": "graph_attention", "name": "gat1", "score": "gat", "heads": 3, "head_width": 4,
-         "combine_heads": "concat", "negative_slope": 0.2, "activation": "elu", "bias": True,
+         "combine_heads": "concat", "leaky_relu_slope": 0.2, "activation": "elu", "bias": True,
          "residual": "linear",
          "tensors": {"weight": w(F, 12), "attention_target": w(3, 4), "attention_source": w(3, 4),
                      "bias": w(12), "residual_weight": w(F, 12)}},
         {"kind": "graph_attention", "name": "gat2", "score": "gatv2", "heads": 2, "head_width": 6,
-         "combine_heads": "concat", "negative_slope": 0.1, "activation": "relu", "bias": False,
+         "combine_heads": "concat", "leaky_relu_slope": 0.1, "activation": "relu", "bias": False,
          "residual": "identity",
          "tensors": {"target_weight": w(m, 12), "source_weight": w(m, 12), "attention": w(2, 6)}},
         {"kind": "self_attention", "name": "full", "pattern": "complete", "heads": 3, "key_width": 4,
@@ -180,7 +180,7 @@ def make_layers(rng):
                      "feed_forward_norm_scale": 1 + w(m, scale=0.1),
                      "feed_forward_norm_shift": w(m, scale=0.1)}},
         {"kind": "graph_attention", "name": "out", "score": "gat", "heads": 2, "head_width": CLASSES,
-         "combine_heads": "mean", "negative_slope": 0.2, "activation": "identity", "bias": True,
+         "combine_heads": "mean", "leaky_relu_slope": 0.2, "activation": "identity", "bias": True,
          "residual": "none",
          "tensors": {"weight": w(m, 2 * CLASSES), "attention_target": w(2, CLASSES),
                      "attention_source": w(2, CLASSES), "bias": w(CLASSES)}},

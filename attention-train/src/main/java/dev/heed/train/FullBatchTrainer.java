@@ -35,7 +35,7 @@ import org.slf4j.LoggerFactory;
  * <pre>{@code
  * FullBatchTrainer trainer = FullBatchTrainer.withKernel(AttentionKernels.forPath(SPARSE, options));
  * TrainingReport report = trainer.train(network, data, settings, TrainingListener.NONE);
- * TrainedParameters trained = network.export();
+ * ModelFile.write(network.toModel(classLabels, featureNames), Path.of("model.heed"));
  * }</pre>
  *
  * <p>Cost per epoch: two forward passes and one backward pass of the network.
@@ -107,7 +107,8 @@ public final class FullBatchTrainer {
 
   /**
    * Initializes the network from the seed and trains it. On return the network holds the kept
-   * parameters (see the class description); export them with {@link TrainingNetwork#export()}.
+   * parameters (see the class description); {@link TrainingNetwork#toModel} turns them into a
+   * served model.
    *
    * @param network the network; re-initialized by this call
    * @param data graph, features, labels and node sets

@@ -1,28 +1,37 @@
 package dev.heed.train;
 
+import dev.heed.model.AttentionModel;
+import dev.heed.model.Layer;
+import dev.heed.model.ModelFile;
+import dev.heed.model.SoftmaxLayer;
 import dev.heed.train.layer.Parameter;
 import dev.heed.train.layer.PassContext;
 import dev.heed.train.layer.TrainingLayer;
-import dev.heed.train.model.TrainedLayer;
-import dev.heed.train.model.TrainedParameters;
 import java.util.ArrayList;
 import java.util.List;
 import java.util.SplittableRandom;
 
 /**
  * A stack of {@link TrainingLayer}s whose last layer outputs one logit per class. The widths must
- * chain: each layer's input width is the previous layer's output width.
+ * chain: each layer's input width is the previous layer's output width. After training, {@link
+ * #toModel} gives the served model and {@link ModelFile#write} saves it.
  *
  * <pre>{@code
  * TrainingNetwork gat = TrainingNetwork.of(
  *     GraphAttentionTrainingLayer.builder(features, 8, 8).inputDropout(0.6).attentionDropout(0.6).build(),
  *     GraphAttentionTrainingLayer.builder(64, 1, classes).activation(Activation.IDENTITY)
  *         .headMerge(HeadMerge.MEAN).inputDropout(0.6).attentionDropout(0.6).build());
+ * // ... train ...
+ * ModelFile.write(gat.toModel(List.of("ordinary", "merchant", "mule-ring"), featureNames),
+ *     Path.of("payments.heed"));
  * }</pre>
  *
  * <p>Thread safety: mutable (its layers are), not thread-safe.
  */
 public final class TrainingNetwork {
+
+  /** Name of the softmax layer {@link #toModel} appends. */
+  public static final String SOFTMAX_LAYER_NAME = "probabilities";
 
   private final List<TrainingLayer> layers;
   private final List<Parameter> parameters;
@@ -164,15 +173,57 @@ public final class TrainingNetwork {
   }
 
   /**
-   * Exports the current parameters in plain form (values rounded to float32).
+   * Returns the network as a served model (its parameters rounded to float32), without feature
+   * names; see {@link #toModel(List, List)}.
    *
-   * @return the trained parameters
+   * @param classLabels one label per class output, distinct
+   * @return the model
+   * @throws IllegalArgumentException as for {@link #toModel(List, List)}
    */
-  public TrainedParameters export() {
-    List<TrainedLayer> out = new ArrayList<>();
-    for (TrainingLayer layer : layers) {
-      out.add(layer.export());
+  public AttentionModel toModel(List<String> classLabels) {
+    return toModel(classLabels, List.of());
+  }
+
+  /**
+   * Returns the network as a served model: each layer's {@link TrainingLayer#export} (named {@code
+   * layer0}, {@code layer1}, …, tensors {@code <layer>.<role>}), then a softmax layer named {@value
+   * #SOFTMAX_LAYER_NAME}, because the training loss is softmax cross-entropy over the last layer's
+   * outputs. The layers are built through {@code dev.heed.model}'s builders and stacked with {@link
+   * AttentionModel#of}, so the model is checked as a model file would be; {@link ModelFile#write}
+   * saves it. The served probabilities equal this network's evaluation-mode forward pass followed
+   * by a softmax, to float32 rounding.
+   *
+   * @param classLabels one label per class output, distinct, in the order of the outputs
+   * @param featureNames one name per input feature in column order, or empty for none
+   * @return the model, using kernels with the default options
+   * @throws IllegalArgumentException if a layer has no serving form (the message says which and
+   *     why), or the label or feature-name counts disagree with the network
+   */
+  public AttentionModel toModel(List<String> classLabels, List<String> featureNames) {
+    List<String> labels = List.copyOf(classLabels);
+    List<String> names = List.copyOf(featureNames);
+    if (labels.size() != classCount()) {
+      throw new IllegalArgumentException(
+          "the network has "
+              + classCount()
+              + " class outputs but "
+              + labels.size()
+              + " class labels were given: "
+              + labels);
     }
-    return new TrainedParameters(inputWidth(), classCount(), out);
+    if (!names.isEmpty() && names.size() != inputWidth()) {
+      throw new IllegalArgumentException(
+          "the network reads "
+              + inputWidth()
+              + " features but "
+              + names.size()
+              + " feature names were given");
+    }
+    List<Layer> served = new ArrayList<>();
+    for (int i = 0; i < layers.size(); i++) {
+      served.add(layers.get(i).export("layer" + i));
+    }
+    served.add(SoftmaxLayer.of(SOFTMAX_LAYER_NAME, classCount()));
+    return AttentionModel.of(served, labels, names);
   }
 }

@@ -8,17 +8,16 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.attention.ReferenceAttentionKernel;
 import dev.heed.graph.CsrGraph;
+import dev.heed.model.Activation;
+import dev.heed.model.AttentionModel;
+import dev.heed.model.GraphAttentionLayer;
+import dev.heed.model.Layer;
 import dev.heed.train.attention.AttentionScore;
-import dev.heed.train.layer.Activation;
 import dev.heed.train.layer.DenseTrainingLayer;
 import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
 import dev.heed.train.layer.Parameter;
 import dev.heed.train.layer.SelfAttentionTrainingLayer;
-import dev.heed.train.model.NamedTensor;
-import dev.heed.train.model.TrainedLayer;
-import dev.heed.train.model.TrainedParameters;
-import dev.heed.train.model.TrainedParametersWriter;
 import dev.heed.train.support.TestGraphs;
 import java.util.ArrayList;
 import java.util.List;
@@ -53,7 +52,7 @@ class TrainerContractTest {
   }
 
   @Test
-  void listenerSeesEveryEpochAndExportMatchesTheParameters() throws Exception {
+  void listenerSeesEveryEpochAndExportMatchesTheParameters() {
     TrainingData data = smallData(3);
     TrainingNetwork network = smallGat();
     List<EpochProgress> seen = new ArrayList<>();
@@ -72,33 +71,30 @@ class TrainerContractTest {
     assertEquals(12, report.epochs());
     assertFalse(report.stoppedEarly());
 
-    List<TrainedParameters> written = new ArrayList<>();
-    TrainedParametersWriter writer = written::add;
-    writer.write(network.export());
-    TrainedParameters trained = written.get(0);
-    assertEquals(3, trained.inputWidth());
-    assertEquals(2, trained.classCount());
-    TrainedLayer first = trained.layers().get(0);
-    assertEquals(GraphAttentionTrainingLayer.KIND, first.kind());
-    assertEquals("GATV2", first.hyperParameters().get("score"));
-    assertEquals("CONCATENATE", first.hyperParameters().get("headMerge"));
-    assertEquals("MEAN", trained.layers().get(1).hyperParameters().get("headMerge"));
+    AttentionModel trained = network.toModel(List.of("even", "odd"));
+    assertEquals(3, trained.inputFeatureCount());
+    assertEquals(2, trained.classLabels().size());
+    GraphAttentionLayer first = (GraphAttentionLayer) trained.layers().get(0);
+    assertEquals(GraphAttentionLayer.KIND, first.kind());
+    assertEquals("gatv2", first.scoreName());
+    assertTrue(first.concatenatesHeads());
+    assertFalse(((GraphAttentionLayer) trained.layers().get(1)).concatenatesHeads());
     int index = 0;
-    for (TrainedLayer layer : trained.layers()) {
-      for (NamedTensor t : layer.tensors()) {
+    for (Layer layer : trained.layers()) {
+      for (String role : layer.tensorRoles()) {
         Parameter p = network.parameters().get(index++);
-        assertEquals(p.name(), t.name());
-        assertArrayEquals(p.shape(), t.shape());
+        assertEquals(p.name(), role);
+        assertArrayEquals(p.shape(), layer.tensorShape(role));
         float[] expected = new float[p.size()];
         for (int i = 0; i < expected.length; i++) {
           expected[i] = (float) p.value()[i];
         }
-        assertArrayEquals(expected, t.values());
+        assertArrayEquals(expected, layer.tensorValues(role));
       }
     }
     assertEquals(network.parameters().size(), index);
-    assertArrayEquals(new int[] {3, 8}, first.tensor("weightTarget").shape());
-    assertArrayEquals(new int[] {2, 4}, first.tensor("attention").shape());
+    assertArrayEquals(new int[] {3, 8}, first.tensorShape("target_weight"));
+    assertArrayEquals(new int[] {2, 4}, first.tensorShape("attention"));
   }
 
   /**

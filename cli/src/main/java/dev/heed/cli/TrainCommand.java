@@ -10,6 +10,8 @@ import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.EdgeListFileBuilder;
 import dev.heed.graph.EdgeListResult;
 import dev.heed.graph.NodeIndex;
+import dev.heed.model.Activation;
+import dev.heed.model.ModelFile;
 import dev.heed.train.EpochProgress;
 import dev.heed.train.FullBatchTrainer;
 import dev.heed.train.TrainingData;
@@ -19,12 +21,10 @@ import dev.heed.train.TrainingReport;
 import dev.heed.train.TrainingSettings;
 import dev.heed.train.attention.AttentionScore;
 import dev.heed.train.attention.KernelAttentionForward;
-import dev.heed.train.layer.Activation;
 import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
 import dev.heed.train.layer.PassContext;
 import dev.heed.train.layer.TrainingLayer;
-import dev.heed.train.model.ModelFileWriter;
 import java.io.BufferedReader;
 import java.io.IOException;
 import java.io.PrintStream;
@@ -85,16 +85,26 @@ final class TrainCommand implements Callable<Integer> {
       description = "Retrain the bundled payments-network demo model (ignores the file options).")
   boolean demo;
 
-  @Option(names = "--out", required = true, description = "Model file to write.", paramLabel = "F")
+  @Option(
+      names = "--out",
+      required = true,
+      paramLabel = "FILE",
+      description = "Model file to write.")
   Path out;
 
-  @Option(names = "--graph", description = "Edge-list file (source,target per line).")
+  @Option(
+      names = "--graph",
+      paramLabel = "FILE",
+      description = "Edge-list file (source,target per line).")
   Path graph;
 
-  @Option(names = "--features", description = "Features: .npy [n, f] or CSV id,f1,...")
+  @Option(
+      names = "--features",
+      paramLabel = "FILE",
+      description = "Features: .npy [n, f] or CSV id,f1,...")
   Path features;
 
-  @Option(names = "--labels", description = "Labels CSV: id,label[,split].")
+  @Option(names = "--labels", paramLabel = "FILE", description = "Labels CSV: id,label[,split].")
   Path labels;
 
   @Option(
@@ -113,60 +123,72 @@ final class TrainCommand implements Callable<Integer> {
   @Option(
       names = "--score",
       defaultValue = "gat",
-      description = "gat or gatv2 (default: ${DEFAULT-VALUE}).")
+      paramLabel = "gat|gatv2",
+      description = "Score function (default: ${DEFAULT-VALUE}).")
   String score;
 
   @Option(
       names = "--layers",
       defaultValue = "2",
+      paramLabel = "N",
       description = "Graph-attention layers, at least 1 (default: ${DEFAULT-VALUE}).")
   int layers;
 
   @Option(
       names = "--heads",
       defaultValue = "8",
+      paramLabel = "N",
       description = "Heads of each hidden layer (default: ${DEFAULT-VALUE}).")
   int heads;
 
   @Option(
-      names = "--hidden",
+      names = "--head-width",
       defaultValue = "8",
-      description = "Width of each hidden head (default: ${DEFAULT-VALUE}).")
-  int hidden;
+      paramLabel = "N",
+      description =
+          "Output width of each head of a hidden layer; the model file's head_width (default:"
+              + " ${DEFAULT-VALUE}).")
+  int headWidth;
 
   @Option(
       names = "--output-heads",
       defaultValue = "1",
+      paramLabel = "N",
       description = "Heads of the output layer, averaged (default: ${DEFAULT-VALUE}).")
   int outputHeads;
 
   @Option(
       names = "--epochs",
       defaultValue = "200",
+      paramLabel = "N",
       description = "Most epochs (default: ${DEFAULT-VALUE}).")
   int epochs;
 
   @Option(
       names = "--patience",
       defaultValue = "100",
+      paramLabel = "N",
       description = "Early-stopping patience in epochs (default: ${DEFAULT-VALUE}).")
   int patience;
 
   @Option(
-      names = "--lr",
+      names = "--learning-rate",
       defaultValue = "0.005",
-      description = "Learning rate (default: ${DEFAULT-VALUE}).")
+      paramLabel = "RATE",
+      description = "Adam learning rate (default: ${DEFAULT-VALUE}).")
   double learningRate;
 
   @Option(
       names = "--weight-decay",
       defaultValue = "5e-4",
+      paramLabel = "RATE",
       description = "L2 weight decay (default: ${DEFAULT-VALUE}).")
   double weightDecay;
 
   @Option(
       names = "--dropout",
       defaultValue = "0.6",
+      paramLabel = "RATE",
       description = "Dropout on inputs and attention weights (default: ${DEFAULT-VALUE}).")
   double dropout;
 
@@ -175,7 +197,11 @@ final class TrainCommand implements Callable<Integer> {
       description = "Weigh classes by inverse training frequency (for rare classes).")
   boolean balanced;
 
-  @Option(names = "--seed", defaultValue = "42", description = "Seed (default: ${DEFAULT-VALUE}).")
+  @Option(
+      names = "--seed",
+      defaultValue = "42",
+      paramLabel = "N",
+      description = "Seed (default: ${DEFAULT-VALUE}).")
   long seed;
 
   @Option(names = "--no-progress", description = "No progress bar.")
@@ -274,9 +300,7 @@ final class TrainCommand implements Callable<Integer> {
     try (Progress progress = new Progress(epochs)) {
       report = FullBatchTrainer.withKernel(kernel).train(network, data, settings, progress);
     }
-    ModelFileWriter.to(this.out, labelTable.classes)
-        .featureNames(table.names)
-        .write(network.export());
+    ModelFile.write(network.toModel(labelTable.classes, table.names), this.out);
     out.println("training: " + describe(report));
     if (labelTable.test.length > 0) {
       double[] logits =
@@ -294,14 +318,14 @@ final class TrainCommand implements Callable<Integer> {
   }
 
   private void checkSettings() {
-    if (layers < 1 || heads < 1 || hidden < 1 || outputHeads < 1) {
+    if (layers < 1 || heads < 1 || headWidth < 1 || outputHeads < 1) {
       throw new CliException(
-          "--layers, --heads, --hidden and --output-heads must each be at least 1, got "
+          "--layers, --heads, --head-width and --output-heads must each be at least 1, got "
               + layers
               + ", "
               + heads
               + ", "
-              + hidden
+              + headWidth
               + ", "
               + outputHeads,
           HeedCli.EXIT_USER_ERROR);
@@ -312,7 +336,9 @@ final class TrainCommand implements Callable<Integer> {
     }
   }
 
-  /** Hidden layers: heads x hidden, ELU, concatenated; output: averaged heads, one per class. */
+  /**
+   * Hidden layers: heads x head width, ELU, concatenated; output: averaged heads, one per class.
+   */
   private TrainingNetwork network(int featureCount, int classes) {
     AttentionScore.Kind kind =
         score.equals("gatv2") ? AttentionScore.Kind.GATV2 : AttentionScore.Kind.ADDITIVE;
@@ -320,13 +346,13 @@ final class TrainCommand implements Callable<Integer> {
     int width = featureCount;
     for (int l = 0; l < layers - 1; l++) {
       list.add(
-          GraphAttentionTrainingLayer.builder(width, heads, hidden)
+          GraphAttentionTrainingLayer.builder(width, heads, headWidth)
               .score(kind)
               .activation(Activation.ELU)
               .inputDropout(dropout)
               .attentionDropout(dropout)
               .build());
-      width = heads * hidden;
+      width = heads * headWidth;
     }
     list.add(
         GraphAttentionTrainingLayer.builder(width, outputHeads, classes)

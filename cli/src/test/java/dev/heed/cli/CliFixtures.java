@@ -130,7 +130,7 @@ final class CliFixtures {
          "feature_names": [%s], "class_labels": [%s],
          "layers": [
           {"kind": "graph_attention", "name": "gat", "score": "gat", "heads": 2, "head_width": 3,
-           "combine_heads": "mean", "negative_slope": 0.2, "activation": "identity",
+           "combine_heads": "mean", "leaky_relu_slope": 0.2, "activation": "identity",
            "bias": true, "residual": "none",
            "tensors": {"weight": "gat.weight", "attention_target": "gat.attention_target",
                        "attention_source": "gat.attention_source", "bias": "gat.bias"}},

@@ -83,7 +83,7 @@ class TrainCommandIT {
             "30",
             "--heads",
             "2",
-            "--hidden",
+            "--head-width",
             "4",
             "--seed",
             "7",
@@ -114,6 +114,16 @@ class TrainCommandIT {
     long predictions =
         classify.stdout().lines().filter(line -> line.matches("n\\d+,(left|right),.*")).count();
     assertEquals(NODES, predictions, classify.toString());
+  }
+
+  @Test
+  void helpNamesEveryValueWithoutFieldNames() throws Exception {
+    CliProcess.Result help = CliProcess.run(dir, "train", "--help");
+    assertEquals(0, help.exitCode(), help.toString());
+    assertTrue(help.stdout().contains("--head-width=N"), help.toString());
+    assertTrue(help.stdout().contains("--learning-rate=RATE"), help.toString());
+    // picocli's default labels are the Java field names in angle brackets
+    assertFalse(help.stdout().contains("=<"), help.toString());
   }
 
   @Test

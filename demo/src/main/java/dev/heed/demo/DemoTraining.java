@@ -1,6 +1,9 @@
 package dev.heed.demo;
 
 import dev.heed.graph.CsrGraph;
+import dev.heed.model.Activation;
+import dev.heed.model.AttentionModel;
+import dev.heed.model.ModelFile;
 import dev.heed.train.FullBatchTrainer;
 import dev.heed.train.TrainingData;
 import dev.heed.train.TrainingListener;
@@ -8,13 +11,10 @@ import dev.heed.train.TrainingNetwork;
 import dev.heed.train.TrainingReport;
 import dev.heed.train.TrainingSettings;
 import dev.heed.train.attention.KernelAttentionForward;
-import dev.heed.train.layer.Activation;
 import dev.heed.train.layer.DenseTrainingLayer;
 import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
 import dev.heed.train.layer.PassContext;
-import dev.heed.train.model.ModelFileWriter;
-import dev.heed.train.model.TrainedParameters;
 import java.io.IOException;
 import java.nio.file.Path;
 import java.util.Objects;
@@ -76,22 +76,21 @@ public final class DemoTraining {
   /**
    * What a training run produced.
    *
-   * @param trained the trained parameters (float32)
+   * @param model the trained network as a served model (float32), with the demo's feature names and
+   *     role labels
    * @param report the trainer's report (epochs, best epoch, train / validation figures, seconds)
    * @param test held-out score on the TEST split, from the trainer's evaluation-mode forward pass
    */
-  public record Outcome(TrainedParameters trained, TrainingReport report, HeldOutScore test) {
+  public record Outcome(AttentionModel model, TrainingReport report, HeldOutScore test) {
 
     /**
-     * Writes the trained model as a Heed model file with the demo's feature names and role labels.
+     * Writes the trained model as a Heed model file.
      *
      * @param file the destination, replaced if present
      * @throws IOException if writing fails
      */
     public void writeModel(Path file) throws IOException {
-      ModelFileWriter.to(file, PaymentsNetwork.ROLES)
-          .featureNames(PaymentsNetworkGenerator.FEATURE_NAMES)
-          .write(trained);
+      ModelFile.write(model, file);
     }
   }
 
@@ -204,7 +203,9 @@ public final class DemoTraining {
       predicted[i] = best;
     }
     return new Outcome(
-        network.export(), report, HeldOutScore.of(predicted, payments, PaymentsNetwork.Split.TEST));
+        network.toModel(PaymentsNetwork.ROLES, payments.featureNames()),
+        report,
+        HeldOutScore.of(predicted, payments, PaymentsNetwork.Split.TEST));
   }
 
   private static int[] nodesOf(PaymentsNetwork.Split[] splits, PaymentsNetwork.Split split) {

@@ -1,17 +1,15 @@
 package dev.heed.train.layer;
 
-import dev.heed.train.model.NamedTensor;
-import dev.heed.train.model.TrainedLayer;
-import java.util.ArrayList;
-import java.util.LinkedHashMap;
+import dev.heed.model.Activation;
+import dev.heed.model.DenseLayer;
 import java.util.List;
-import java.util.Map;
 import java.util.SplittableRandom;
 
 /**
  * A dense (fully connected) layer under training, applied to every node alone: {@code y = act(x̃ W
  * + b)} with {@code x̃ = dropout(x)}. Parameters: {@code weight [in, out]}, then {@code bias [out]}
  * if enabled. It ignores the graph, so a stack of dense layers is the features-only baseline.
+ * {@link #export} gives the serving {@link DenseLayer}.
  *
  * <pre>{@code
  * DenseTrainingLayer layer = DenseTrainingLayer.builder(64, 7).activation(Activation.IDENTITY).build();
@@ -23,7 +21,7 @@ import java.util.SplittableRandom;
  */
 public final class DenseTrainingLayer implements TrainingLayer {
 
-  /** Kind written by {@link #export()}. */
+  /** Name of this layer kind in messages. */
   public static final String KIND = "dense";
 
   private final int inputWidth;
@@ -199,17 +197,15 @@ public final class DenseTrainingLayer implements TrainingLayer {
   }
 
   @Override
-  public TrainedLayer export() {
-    Map<String, String> hyper = new LinkedHashMap<>();
-    hyper.put("activation", activation.name());
-    hyper.put("bias", Boolean.toString(bias != null));
-    hyper.put("inputWidth", Integer.toString(inputWidth));
-    hyper.put("outputWidth", Integer.toString(outputWidth));
-    List<NamedTensor> tensors = new ArrayList<>();
-    for (Parameter p : parameters) {
-      tensors.add(LayerMath.export(p));
+  public DenseLayer export(String name) {
+    DenseLayer.Builder b =
+        DenseLayer.builder(name, inputWidth, outputWidth)
+            .weight(LayerMath.rounded(weight))
+            .activation(activation);
+    if (bias != null) {
+      b.bias(LayerMath.rounded(bias));
     }
-    return new TrainedLayer(KIND, hyper, tensors);
+    return b.build();
   }
 
   @Override

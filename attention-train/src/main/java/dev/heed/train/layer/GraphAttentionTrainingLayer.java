@@ -3,14 +3,12 @@ package dev.heed.train.layer;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
+import dev.heed.model.Activation;
+import dev.heed.model.GraphAttentionLayer;
 import dev.heed.train.attention.AttentionBackward;
 import dev.heed.train.attention.AttentionScore;
-import dev.heed.train.model.NamedTensor;
-import dev.heed.train.model.TrainedLayer;
 import java.util.ArrayList;
-import java.util.LinkedHashMap;
 import java.util.List;
-import java.util.Map;
 import java.util.SplittableRandom;
 
 /**
@@ -27,10 +25,12 @@ import java.util.SplittableRandom;
  *                                                             when the widths differ)
  * </pre>
  *
- * <p>Parameters (row-major): GAT {@code weight [in, H·F]}, {@code attentionTarget [H, F]}, {@code
- * attentionSource [H, F]}; GATv2 {@code weightTarget [in, H·F]}, {@code weightSource [in, H·F]},
- * {@code attention [H, F]}; then {@code bias [out]} if enabled, {@code residualWeight [in, out]} if
- * a residual is enabled and {@code in != out}. Build with {@link #builder}:
+ * <p>Parameters (row-major), named by their roles in the model file: GAT {@code weight [in, H·F]},
+ * {@code attention_target [H, F]} (a_target), {@code attention_source [H, F]} (a_source); GATv2
+ * {@code target_weight [in, H·F]} (W_target), {@code source_weight [in, H·F]} (W_source), {@code
+ * attention [H, F]}; then {@code bias [out]} if enabled, {@code residual_weight [in, out]} if a
+ * residual is enabled and {@code in != out}. {@link #export} turns the layer into the serving
+ * {@link GraphAttentionLayer} of the same equations. Build with {@link #builder}:
  *
  * <pre>{@code
  * GraphAttentionTrainingLayer hidden =
@@ -47,7 +47,7 @@ import java.util.SplittableRandom;
  */
 public final class GraphAttentionTrainingLayer implements TrainingLayer {
 
-  /** Kind written by {@link #export()}. */
+  /** Name of this layer kind in messages. */
   public static final String KIND = "graph-attention";
 
   private final int inputWidth;
@@ -56,15 +56,15 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
   private final AttentionScore.Kind scoreKind;
   private final HeadMerge merge;
   private final Activation activation;
-  private final double negativeSlope;
+  private final double leakyReluSlope;
   private final double inputDropout;
   private final double attentionDropout;
   private final int outputWidth;
 
-  private final Parameter weightTarget; // GAT: the shared weight W
-  private final Parameter weightSource; // GATv2 only
-  private final Parameter attentionTarget; // GAT only
-  private final Parameter attentionSource; // GAT: a_source; GATv2: a
+  private final Parameter targetWeight; // GAT: the one projection W ("weight"); GATv2: W_target
+  private final Parameter sourceWeight; // GATv2 only: W_source
+  private final Parameter targetAttention; // GAT only: a_target
+  private final Parameter sourceAttention; // GAT: a_source; GATv2: the attention vector a
   private final Parameter bias;
   private final Parameter residualWeight;
   private final boolean residual;
@@ -91,7 +91,7 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     this.scoreKind = b.scoreKind;
     this.merge = b.merge;
     this.activation = b.activation;
-    this.negativeSlope = b.negativeSlope;
+    this.leakyReluSlope = b.leakyReluSlope;
     this.inputDropout = b.inputDropout;
     this.attentionDropout = b.attentionDropout;
     this.outputWidth = merge.outputWidth(heads, headWidth);
@@ -99,20 +99,20 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     int hf = heads * headWidth;
     List<Parameter> list = new ArrayList<>();
     if (scoreKind == AttentionScore.Kind.ADDITIVE) {
-      weightTarget = add(list, new Parameter("weight", true, inputWidth, hf));
-      weightSource = null;
-      attentionTarget = add(list, new Parameter("attentionTarget", true, heads, headWidth));
-      attentionSource = add(list, new Parameter("attentionSource", true, heads, headWidth));
+      targetWeight = add(list, new Parameter("weight", true, inputWidth, hf));
+      sourceWeight = null;
+      targetAttention = add(list, new Parameter("attention_target", true, heads, headWidth));
+      sourceAttention = add(list, new Parameter("attention_source", true, heads, headWidth));
     } else {
-      weightTarget = add(list, new Parameter("weightTarget", true, inputWidth, hf));
-      weightSource = add(list, new Parameter("weightSource", true, inputWidth, hf));
-      attentionTarget = null;
-      attentionSource = add(list, new Parameter("attention", true, heads, headWidth));
+      targetWeight = add(list, new Parameter("target_weight", true, inputWidth, hf));
+      sourceWeight = add(list, new Parameter("source_weight", true, inputWidth, hf));
+      targetAttention = null;
+      sourceAttention = add(list, new Parameter("attention", true, heads, headWidth));
     }
     bias = b.bias ? add(list, new Parameter("bias", false, outputWidth)) : null;
     residualWeight =
         b.residual && inputWidth != outputWidth
-            ? add(list, new Parameter("residualWeight", true, inputWidth, outputWidth))
+            ? add(list, new Parameter("residual_weight", true, inputWidth, outputWidth))
             : null;
     this.parameters = List.copyOf(list);
   }
@@ -147,7 +147,7 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     private AttentionScore.Kind scoreKind = AttentionScore.Kind.ADDITIVE;
     private HeadMerge merge = HeadMerge.CONCATENATE;
     private Activation activation = Activation.ELU;
-    private double negativeSlope = ScoreFunction.GAT_NEGATIVE_SLOPE;
+    private double leakyReluSlope = ScoreFunction.GAT_NEGATIVE_SLOPE;
     private boolean bias = true;
     private boolean residual;
     private double inputDropout;
@@ -193,13 +193,13 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     }
 
     /**
-     * Sets the LeakyReLU negative slope of the scores.
+     * Sets the LeakyReLU slope of the scores for negative inputs.
      *
      * @param slope in {@code [0, 1)}
      * @return this builder
      */
-    public Builder negativeSlope(double slope) {
-      this.negativeSlope = slope;
+    public Builder leakyReluSlope(double slope) {
+      this.leakyReluSlope = slope;
       return this;
     }
 
@@ -265,7 +265,7 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
       }
       java.util.Objects.requireNonNull(merge, "headMerge");
       java.util.Objects.requireNonNull(activation, "activation");
-      AttentionScore.additive(negativeSlope); // validates the slope
+      AttentionScore.additive(leakyReluSlope); // validates the slope
       LayerMath.checkRate("inputDropout", inputDropout);
       LayerMath.checkRate("attentionDropout", attentionDropout);
       if ((long) heads * headWidth > 1 << 24) {
@@ -289,14 +289,14 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
   @Override
   public void initialize(SplittableRandom random) {
     int hf = heads * headWidth;
-    LayerMath.glorotUniform(weightTarget, inputWidth, hf, random);
-    if (weightSource != null) {
-      LayerMath.glorotUniform(weightSource, inputWidth, hf, random);
+    LayerMath.glorotUniform(targetWeight, inputWidth, hf, random);
+    if (sourceWeight != null) {
+      LayerMath.glorotUniform(sourceWeight, inputWidth, hf, random);
     }
-    if (attentionTarget != null) {
-      LayerMath.glorotUniform(attentionTarget, headWidth, 1, random);
+    if (targetAttention != null) {
+      LayerMath.glorotUniform(targetAttention, headWidth, 1, random);
     }
-    LayerMath.glorotUniform(attentionSource, headWidth, 1, random);
+    LayerMath.glorotUniform(sourceAttention, headWidth, 1, random);
     if (bias != null) {
       java.util.Arrays.fill(bias.value(), 0.0);
     }
@@ -321,12 +321,12 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     x = LayerMath.masked(input, inputMask);
     double[] value;
     if (scoreKind == AttentionScore.Kind.ADDITIVE) {
-      projectedTarget = LayerMath.multiply(x, n, inputWidth, weightTarget.value(), hf);
+      projectedTarget = LayerMath.multiply(x, n, inputWidth, targetWeight.value(), hf);
       projectedSource = null;
       query = new double[n * heads];
       key = new double[n * heads];
-      double[] aT = attentionTarget.value();
-      double[] aS = attentionSource.value();
+      double[] aT = targetAttention.value();
+      double[] aS = sourceAttention.value();
       for (int i = 0; i < n; i++) {
         for (int h = 0; h < heads; h++) {
           int zAt = i * hf + h * headWidth;
@@ -342,15 +342,15 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
       }
       value = projectedTarget;
       shape = new HeadShape(heads, 1, headWidth);
-      score = AttentionScore.additive(negativeSlope);
+      score = AttentionScore.additive(leakyReluSlope);
     } else {
-      projectedTarget = LayerMath.multiply(x, n, inputWidth, weightTarget.value(), hf);
-      projectedSource = LayerMath.multiply(x, n, inputWidth, weightSource.value(), hf);
+      projectedTarget = LayerMath.multiply(x, n, inputWidth, targetWeight.value(), hf);
+      projectedSource = LayerMath.multiply(x, n, inputWidth, sourceWeight.value(), hf);
       query = projectedTarget;
       key = projectedSource;
       value = projectedSource;
       shape = new HeadShape(heads, headWidth, headWidth);
-      score = AttentionScore.gatv2(negativeSlope, attentionSource.value());
+      score = AttentionScore.gatv2(leakyReluSlope, sourceAttention.value());
     }
     double[] aggregated = new double[n * hf];
     weights = new double[(int) weightCount];
@@ -467,10 +467,10 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
           dKey,
           dValue,
           null);
-      double[] aT = attentionTarget.value();
-      double[] aS = attentionSource.value();
-      double[] daT = attentionTarget.gradient();
-      double[] daS = attentionSource.gradient();
+      double[] aT = targetAttention.value();
+      double[] aS = sourceAttention.value();
+      double[] daT = targetAttention.gradient();
+      double[] daS = sourceAttention.gradient();
       double[] dz = dValue;
       for (int i = 0; i < n; i++) {
         for (int h = 0; h < heads; h++) {
@@ -485,8 +485,8 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
           }
         }
       }
-      LayerMath.addTransposedTimes(x, n, inputWidth, dz, hf, weightTarget.gradient());
-      LayerMath.addTimesTransposed(dz, n, hf, weightTarget.value(), inputWidth, dx);
+      LayerMath.addTransposedTimes(x, n, inputWidth, dz, hf, targetWeight.gradient());
+      LayerMath.addTimesTransposed(dz, n, hf, targetWeight.value(), inputWidth, dx);
     } else {
       AttentionBackward.backward(
           pattern,
@@ -501,14 +501,14 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
           dQuery,
           dKey,
           dValue,
-          attentionSource.gradient());
+          sourceAttention.gradient());
       for (int i = 0; i < dKey.length; i++) {
         dKey[i] += dValue[i];
       }
-      LayerMath.addTransposedTimes(x, n, inputWidth, dQuery, hf, weightTarget.gradient());
-      LayerMath.addTimesTransposed(dQuery, n, hf, weightTarget.value(), inputWidth, dx);
-      LayerMath.addTransposedTimes(x, n, inputWidth, dKey, hf, weightSource.gradient());
-      LayerMath.addTimesTransposed(dKey, n, hf, weightSource.value(), inputWidth, dx);
+      LayerMath.addTransposedTimes(x, n, inputWidth, dQuery, hf, targetWeight.gradient());
+      LayerMath.addTimesTransposed(dQuery, n, hf, targetWeight.value(), inputWidth, dx);
+      LayerMath.addTransposedTimes(x, n, inputWidth, dKey, hf, sourceWeight.gradient());
+      LayerMath.addTimesTransposed(dKey, n, hf, sourceWeight.value(), inputWidth, dx);
     }
     if (inputMask != null && dx != null) {
       for (int i = 0; i < dx.length; i++) {
@@ -523,24 +523,41 @@ public final class GraphAttentionTrainingLayer implements TrainingLayer {
     return parameters;
   }
 
+  /**
+   * {@inheritDoc}
+   *
+   * <p>The same equations in the serving layer: GAT or GATv2 with this layer's heads, head
+   * combination, LeakyReLU slope, activation and bias; a residual becomes {@code identity} when the
+   * input and output widths agree and {@code linear} ({@code residual_weight}) otherwise.
+   */
   @Override
-  public TrainedLayer export() {
-    Map<String, String> hyper = new LinkedHashMap<>();
-    hyper.put("score", scoreKind.name());
-    hyper.put("heads", Integer.toString(heads));
-    hyper.put("headWidth", Integer.toString(headWidth));
-    hyper.put("headMerge", merge.name());
-    hyper.put("activation", activation.name());
-    hyper.put("negativeSlope", Double.toString(negativeSlope));
-    hyper.put("bias", Boolean.toString(bias != null));
-    hyper.put("residual", Boolean.toString(residual));
-    hyper.put("inputWidth", Integer.toString(inputWidth));
-    hyper.put("outputWidth", Integer.toString(outputWidth));
-    List<NamedTensor> tensors = new ArrayList<>();
-    for (Parameter p : parameters) {
-      tensors.add(LayerMath.export(p));
+  public GraphAttentionLayer export(String name) {
+    GraphAttentionLayer.Builder b;
+    if (scoreKind == AttentionScore.Kind.ADDITIVE) {
+      b =
+          GraphAttentionLayer.gat(name, inputWidth, heads, headWidth)
+              .weight(LayerMath.rounded(targetWeight))
+              .targetAttention(LayerMath.rounded(targetAttention))
+              .sourceAttention(LayerMath.rounded(sourceAttention));
+    } else {
+      b =
+          GraphAttentionLayer.gatv2(name, inputWidth, heads, headWidth)
+              .targetWeight(LayerMath.rounded(targetWeight))
+              .sourceWeight(LayerMath.rounded(sourceWeight))
+              .attention(LayerMath.rounded(sourceAttention));
     }
-    return new TrainedLayer(KIND, hyper, tensors);
+    b.concatenateHeads(merge == HeadMerge.CONCATENATE)
+        .leakyReluSlope(leakyReluSlope)
+        .activation(activation);
+    if (bias != null) {
+      b.bias(LayerMath.rounded(bias));
+    }
+    if (residualWeight != null) {
+      b.linearResidual(LayerMath.rounded(residualWeight));
+    } else if (residual) {
+      b.identityResidual();
+    }
+    return b.build();
   }
 
   @Override

@@ -144,7 +144,8 @@ final class LayerMath {
     return f;
   }
 
-  static dev.heed.train.model.NamedTensor export(Parameter p) {
-    return new dev.heed.train.model.NamedTensor(p.name(), p.shape(), toFloat(p.value()));
+  /** A parameter's values rounded to float32, as a served model holds them. */
+  static float[] rounded(Parameter p) {
+    return toFloat(p.value());
   }
 }

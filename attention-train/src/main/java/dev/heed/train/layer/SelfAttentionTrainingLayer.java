@@ -2,14 +2,12 @@ package dev.heed.train.layer;
 
 import dev.heed.attention.HeadShape;
 import dev.heed.graph.AttentionPattern;
+import dev.heed.model.Activation;
+import dev.heed.model.SelfAttentionLayer;
 import dev.heed.train.attention.AttentionBackward;
 import dev.heed.train.attention.AttentionScore;
-import dev.heed.train.model.NamedTensor;
-import dev.heed.train.model.TrainedLayer;
 import java.util.ArrayList;
-import java.util.LinkedHashMap;
 import java.util.List;
-import java.util.Map;
 import java.util.SplittableRandom;
 
 /**
@@ -22,9 +20,17 @@ import java.util.SplittableRandom;
  *   y = act(concat_h(o) W_output + bias + residual)      (residual: x̃, or x̃ W_residual)
  * </pre>
  *
- * <p>Parameters: {@code queryWeight [in, H·keyDim]}, {@code keyWeight [in, H·keyDim]}, {@code
- * valueWeight [in, H·valueDim]}, {@code outputWeight [H·valueDim, out]}, then {@code bias [out]} if
- * enabled, {@code residualWeight [in, out]} if a residual is enabled and {@code in != out}.
+ * <p>Parameters (named by their roles in the model file): {@code query_weight [in, H·keyDim]},
+ * {@code key_weight [in, H·keyDim]}, {@code value_weight [in, H·valueDim]}, {@code output_weight
+ * [H·valueDim, out]}, then {@code bias [out]} if enabled, {@code residual_weight [in, out]} if a
+ * residual is enabled and {@code in != out}.
+ *
+ * <p>{@link #export} gives the serving {@link SelfAttentionLayer} along the pattern given at
+ * inference ({@code pattern "graph"}; pass a complete pattern there for full self-attention), with
+ * no normalisation and no feed-forward. That block has biases on every projection, a residual that
+ * is the identity and no activation, so only layers with output width = input width, identity
+ * activation, and residual off or identity map exactly; the query, key and value biases are written
+ * as zeros and {@code bias} becomes {@code output_bias}.
  *
  * <pre>{@code
  * SelfAttentionTrainingLayer layer =
@@ -37,7 +43,7 @@ import java.util.SplittableRandom;
  */
 public final class SelfAttentionTrainingLayer implements TrainingLayer {
 
-  /** Kind written by {@link #export()}. */
+  /** Name of this layer kind in messages. */
   public static final String KIND = "self-attention";
 
   private final int inputWidth;
@@ -82,10 +88,10 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
     this.residual = b.residual;
     this.shape = new HeadShape(heads, keyDim, valueDim);
     List<Parameter> list = new ArrayList<>();
-    queryWeight = new Parameter("queryWeight", true, inputWidth, heads * keyDim);
-    keyWeight = new Parameter("keyWeight", true, inputWidth, heads * keyDim);
-    valueWeight = new Parameter("valueWeight", true, inputWidth, heads * valueDim);
-    outputWeight = new Parameter("outputWeight", true, heads * valueDim, outputWidth);
+    queryWeight = new Parameter("query_weight", true, inputWidth, heads * keyDim);
+    keyWeight = new Parameter("key_weight", true, inputWidth, heads * keyDim);
+    valueWeight = new Parameter("value_weight", true, inputWidth, heads * valueDim);
+    outputWeight = new Parameter("output_weight", true, heads * valueDim, outputWidth);
     list.add(queryWeight);
     list.add(keyWeight);
     list.add(valueWeight);
@@ -96,7 +102,7 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
     }
     residualWeight =
         residual && inputWidth != outputWidth
-            ? new Parameter("residualWeight", true, inputWidth, outputWidth)
+            ? new Parameter("residual_weight", true, inputWidth, outputWidth)
             : null;
     if (residualWeight != null) {
       list.add(residualWeight);
@@ -366,21 +372,39 @@ public final class SelfAttentionTrainingLayer implements TrainingLayer {
   }
 
   @Override
-  public TrainedLayer export() {
-    Map<String, String> hyper = new LinkedHashMap<>();
-    hyper.put("heads", Integer.toString(heads));
-    hyper.put("keyDim", Integer.toString(keyDim));
-    hyper.put("valueDim", Integer.toString(valueDim));
-    hyper.put("activation", activation.name());
-    hyper.put("bias", Boolean.toString(bias != null));
-    hyper.put("residual", Boolean.toString(residual));
-    hyper.put("inputWidth", Integer.toString(inputWidth));
-    hyper.put("outputWidth", Integer.toString(outputWidth));
-    List<NamedTensor> tensors = new ArrayList<>();
-    for (Parameter p : parameters) {
-      tensors.add(LayerMath.export(p));
+  public SelfAttentionLayer export(String name) {
+    if (inputWidth != outputWidth || activation != Activation.IDENTITY) {
+      throw new IllegalArgumentException(
+          KIND
+              + " layer '"
+              + name
+              + "' ("
+              + inputWidth
+              + " -> "
+              + outputWidth
+              + ", "
+              + activation
+              + "): the model file's self_attention block keeps the width and has no activation;"
+              + " train it with output width = input width ("
+              + inputWidth
+              + ") and activation IDENTITY, and add a dense layer for other widths or"
+              + " activations");
     }
-    return new TrainedLayer(KIND, hyper, tensors);
+    SelfAttentionLayer.Builder b =
+        SelfAttentionLayer.builder(name, inputWidth, heads, keyDim, valueDim)
+            .queryWeight(LayerMath.rounded(queryWeight))
+            .keyWeight(LayerMath.rounded(keyWeight))
+            .valueWeight(LayerMath.rounded(valueWeight))
+            .outputWeight(LayerMath.rounded(outputWeight))
+            .residual(residual);
+    if (bias != null) {
+      // the training block biases only its output; the served block biases every projection
+      b.queryBias(new float[heads * keyDim])
+          .keyBias(new float[heads * keyDim])
+          .valueBias(new float[heads * valueDim])
+          .outputBias(LayerMath.rounded(bias));
+    }
+    return b.build();
   }
 
   @Override

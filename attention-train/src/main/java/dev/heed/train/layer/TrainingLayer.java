@@ -1,6 +1,6 @@
 package dev.heed.train.layer;
 
-import dev.heed.train.model.TrainedLayer;
+import dev.heed.model.Layer;
 import java.util.List;
 import java.util.SplittableRandom;
 
@@ -83,9 +83,15 @@ public interface TrainingLayer {
   List<Parameter> parameters();
 
   /**
-   * Exports the layer: hyper-parameters and parameter values rounded to float32.
+   * Exports the layer as the serving layer of the same equations (see {@code
+   * docs/model-format.md}), its parameters rounded to float32. Its tensors are named {@code
+   * <name>.<role>}.
    *
-   * @return a plain, immutable description of the trained layer
+   * @param name the serving layer's name, unique within its model
+   * @return an immutable serving layer, built through the layer kind's builder in {@code
+   *     dev.heed.model}
+   * @throws IllegalArgumentException if the layer has no exact serving form (the message says why
+   *     and how to train one that has)
    */
-  TrainedLayer export();
+  Layer export(String name);
 }

@@ -7,6 +7,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import dev.heed.attention.ReferenceAttentionKernel;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
+import dev.heed.model.Activation;
 import dev.heed.train.TrainingNetwork;
 import dev.heed.train.attention.AttentionScore;
 import dev.heed.train.attention.Float64AttentionForward;

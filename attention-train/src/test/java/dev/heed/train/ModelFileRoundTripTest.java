@@ -1,4 +1,4 @@
-package dev.heed.train.model;
+package dev.heed.train;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertThrows;
@@ -12,16 +12,12 @@ import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
+import dev.heed.model.Activation;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.ModelFile;
 import dev.heed.model.PathChoice;
-import dev.heed.train.FullBatchTrainer;
-import dev.heed.train.TrainingData;
-import dev.heed.train.TrainingNetwork;
-import dev.heed.train.TrainingSettings;
 import dev.heed.train.attention.AttentionScore;
 import dev.heed.train.attention.KernelAttentionForward;
-import dev.heed.train.layer.Activation;
 import dev.heed.train.layer.DenseTrainingLayer;
 import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
@@ -42,14 +38,15 @@ import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
 
 /**
- * Train → write a Heed model file → {@link ModelFile#read} → {@link NodeClassifier}: the served
- * probabilities must equal the trainer's evaluation-mode forward pass (no dropout) followed by a
- * softmax, to 1e-5 norm-wise relative error, on both real kernels. This is what binds the training
- * layers' conventions to the serving layers' (docs/model-format.md): GAT eqs. 1–6 of Veličković et
- * al. 2018 with a = [a_target ‖ a_source], GATv2 (Brody et al. 2022) with values W_source h_j, bias
- * after the head merge, residual before the activation, ELU with α = 1 (Clevert et al. 2016), and
- * Vaswani et al. 2017 eq. 1 for self-attention. A mismatch in any of them moves the probabilities
- * by far more than float32 rounding (about 1e-7 relative, IEEE 754).
+ * Train → {@link TrainingNetwork#toModel} (the serving layers' builders) → {@link ModelFile#write}
+ * → {@link ModelFile#read} → {@link NodeClassifier}: the served probabilities must equal the
+ * trainer's evaluation-mode forward pass (no dropout) followed by a softmax, to 1e-5 norm-wise
+ * relative error, on both real kernels. This is what binds the training layers' conventions to the
+ * serving layers' (docs/model-format.md): GAT eqs. 1–6 of Veličković et al. 2018 with a = [a_target
+ * ‖ a_source], GATv2 (Brody et al. 2022) with values W_source h_j, bias after the head merge,
+ * residual before the activation, ELU with α = 1 (Clevert et al. 2016), and Vaswani et al. 2017 eq.
+ * 1 for self-attention. A mismatch in any of them moves the probabilities by far more than float32
+ * rounding (about 1e-7 relative, IEEE 754).
  */
 class ModelFileRoundTripTest {
 
@@ -155,7 +152,7 @@ class ModelFileRoundTripTest {
       double[] expected = softmax(logits, CLASSES);
 
       Path file = dir.resolve("network" + k + "-" + path + ".heed");
-      ModelFileWriter.to(file, LABELS).featureNames(featureNames()).write(network.export());
+      ModelFile.write(network.toModel(LABELS, featureNames()), file);
       AttentionModel model = ModelFile.read(file);
       assertEquals(LABELS, model.classLabels(), where);
       assertEquals(featureNames(), model.featureNames(), where);
@@ -191,8 +188,8 @@ class ModelFileRoundTripTest {
         .train(network, data, TrainingSettings.builder().maxEpochs(3).seed(5).build(), p -> {});
     Path a = dir.resolve("a.heed");
     Path b = dir.resolve("b.heed");
-    ModelFileWriter.to(a, LABELS).write(network.export());
-    ModelFileWriter.to(b, LABELS).write(network.export());
+    ModelFile.write(network.toModel(LABELS), a);
+    ModelFile.write(network.toModel(LABELS), b);
     assertTrue(
         java.util.Arrays.equals(
             java.nio.file.Files.readAllBytes(a), java.nio.file.Files.readAllBytes(b)));
@@ -205,20 +202,15 @@ class ModelFileRoundTripTest {
             SelfAttentionTrainingLayer.builder(FEATURES, 2, 4, 4, 6).build(),
             DenseTrainingLayer.builder(6, CLASSES).build());
     IllegalArgumentException e =
-        assertThrows(
-            IllegalArgumentException.class,
-            () -> ModelFileWriter.toModel(widening.export(), LABELS, List.of()));
+        assertThrows(IllegalArgumentException.class, () -> widening.toModel(LABELS, List.of()));
     assertTrue(e.getMessage().contains("output width = input width"), e.getMessage());
     TrainingNetwork ok = NETWORKS.get(0).apply(FEATURES);
     e =
         assertThrows(
             IllegalArgumentException.class,
-            () -> ModelFileWriter.toModel(ok.export(), List.of("only-one", "x", "y"), List.of()));
+            () -> ok.toModel(List.of("only-one", "x", "y"), List.of()));
     assertTrue(e.getMessage().contains("2 class outputs but 3 class labels"), e.getMessage());
-    e =
-        assertThrows(
-            IllegalArgumentException.class,
-            () -> ModelFileWriter.to(dir.resolve("x"), List.of("same", "same")));
+    e = assertThrows(IllegalArgumentException.class, () -> ok.toModel(List.of("same", "same")));
     assertTrue(e.getMessage().contains("repeats 'same'"), e.getMessage());
   }
 
