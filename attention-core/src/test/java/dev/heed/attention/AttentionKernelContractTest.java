@@ -582,7 +582,8 @@ public abstract class AttentionKernelContractTest {
     }
   }
 
-  // Multithreaded results must equal single-threaded ones (EJML practice, STYLE.md), bit for bit.
+  // Multithreaded results must equal single-threaded ones (common practice, as in EJML's tests),
+  // bit for bit.
   @ParameterizedTest
   @EnumSource(ScoreKind.class)
   void oneAndFourThreadsGiveIdenticalBits(ScoreKind kind) {

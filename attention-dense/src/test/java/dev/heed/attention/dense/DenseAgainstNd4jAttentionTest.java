@@ -23,8 +23,8 @@ import org.nd4j.linalg.factory.Nd4j;
 import org.nd4j.linalg.indexing.NDArrayIndex;
 
 /**
- * The dense path against ND4J's own attention operations, a general-purpose outside reference
- * (REFERENCES.md, "Reference implementations"; layouts measured in ND4J-NOTES.md).
+ * The dense path against ND4J's own attention operations, a general-purpose outside reference (a
+ * general-purpose reference library; its layouts were checked by experiment).
  *
  * <p>Layout mapping. Heed arrays are node-major and head-contiguous: element (node i, head h, k) at
  * {@code (i·H + h)·d + k}. ND4J's dot-product attention takes q {@code [B, d, Nq]}, k {@code [B, d,
@@ -37,7 +37,7 @@ import org.nd4j.linalg.indexing.NDArrayIndex;
  */
 class DenseAgainstNd4jAttentionTest {
 
-  /** ND4J's op agrees with a float64 loop to about 4e-7 (ND4J-NOTES.md); both are float32. */
+  /** ND4J's op agrees with a float64 loop to about 4e-7, measured; both are float32. */
   static final double TOLERANCE = 1e-5;
 
   static final AttentionKernel DENSE =
@@ -103,7 +103,8 @@ class DenseAgainstNd4jAttentionTest {
   @Test
   void maskedRowsMatchNd4jWithOneQueryPerBatchItem() {
     // ND4J's mask is one value per key, so a graph mask is expressed by making each (query, head)
-    // its own batch item whose key mask is that query's CSR row (ND4J-NOTES.md).
+    // its own batch item whose key mask is that query's CSR row (measured: the op applies the mask
+    // per batch item).
     int n = 24;
     int heads = 2;
     int d = 6;

@@ -371,7 +371,8 @@ class DenseAttentionKernelTest {
 
   @Test
   void gatv2ScoreThreadsGiveBitIdenticalResults() {
-    // Multithreaded results are compared with single-threaded ones (EJML habit, STYLE.md).
+    // Multithreaded results are compared with single-threaded ones (common practice, as in EJML's
+    // tests).
     Random random = new Random(21);
     int n = 300;
     HeadShape shape = new HeadShape(2, 8, 8);
@@ -394,7 +395,7 @@ class DenseAttentionKernelTest {
   void softmaxThreadsGiveBitIdenticalResultsAndMatchFloat64(Kind kind) {
     // n = 1100: a block's rows·n passes the threshold for splitting the Java softmax over threads,
     // and 3 threads leave a short last range. Multithreaded results are compared with
-    // single-threaded ones (EJML habit, STYLE.md) and with the float64 reference
+    // single-threaded ones (common practice, as in EJML's tests) and with the float64 reference
     // (ReferenceAttention).
     Random random = new Random(22 + kind.ordinal());
     int n = 1100;
@@ -476,7 +477,7 @@ class DenseAttentionKernelTest {
   void repeatedCallsDoNotGrowOffHeapMemory() {
     // Each call allocates about 4 MB of ND4J scratch (n = 1024: a 1024 × 1024 score block) and
     // closes it; without close() the scratch would stay until a garbage collection
-    // (ND4J-NOTES.md), and 60 calls would add about 250 MB of resident memory.
+    // (measured), and 60 calls would add about 250 MB of resident memory.
     int n = 1024;
     HeadShape shape = new HeadShape(1, 8, 8);
     Random random = new Random(61);
@@ -522,7 +523,7 @@ class DenseAttentionKernelTest {
 
   @Test
   void completeCsrMaskEqualsTheCompletePattern() {
-    // Self-attention is graph attention over the complete graph (REFERENCES.md, common
+    // Self-attention is graph attention over the complete graph (common
     // practice): the masked route over an all-ones CSR graph must give the unmasked result, and
     // its CSR entry order is the complete pattern's row-major order, so the weights match too.
     int n = 37;
@@ -547,7 +548,7 @@ class DenseAttentionKernelTest {
 
   @Test
   void renumberingNodesRenumbersOutputs() {
-    // Attention is permutation-equivariant (REFERENCES.md, common practice): node p(i) of the
+    // Attention is permutation-equivariant (common practice): node p(i) of the
     // permuted input gets node i's output.
     int n = 45;
     Random random = new Random(81);
