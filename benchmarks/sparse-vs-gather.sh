@@ -11,9 +11,9 @@
 #   benchmarks/target/sparse-vs-gather-<UTC time>; copy a run into benchmarks/results/raw/ only when
 #   a published figure rests on it (DEVELOPERS.md, "Benchmarks").
 #   HEED_BENCH_JVM_ARGS, if set, replaces the benchmark's fork JVM options (JMH -jvmArgsAppend);
-#   for example, the defaults with the Vector API warm-up off (DEVELOPERS.md, "Vector API lessons"):
-#   HEED_BENCH_JVM_ARGS="--add-modules jdk.incubator.vector -Xms4g -Xmx4g \
-#     -XX:+UseTransparentHugePages -Dheed.vector.warmup=false"
+#   for example, the defaults with a larger heap:
+#   HEED_BENCH_JVM_ARGS="--add-modules jdk.incubator.vector -Xms8g -Xmx8g \
+#     -XX:+UseTransparentHugePages"
 set -euo pipefail
 rounds=${1:-3}
 here=$(cd "$(dirname "$0")" && pwd)

@@ -13,12 +13,6 @@ import org.slf4j.LoggerFactory;
  */
 public final class FiniteScans {
 
-  /**
-   * System property that, set to {@code false}, keeps the check on the plain loop even when the
-   * Vector API is readable (for comparisons). Read once, on first use.
-   */
-  public static final String VECTOR_PROPERTY = "heed.check.vector";
-
   private static final String VECTOR_CLASS = "dev.heed.attention.simd.VectorFiniteScan";
   private static final Logger LOG = LoggerFactory.getLogger(FiniteScans.class);
 
@@ -59,7 +53,7 @@ public final class FiniteScans {
         VectorApiLoader.load(
             FiniteScan.class,
             VECTOR_CLASS,
-            VECTOR_PROPERTY,
+            null,
             "inputs are checked for NaN with the slower plain loop",
             LOG);
     return vector != null ? vector : PLAIN;

@@ -21,9 +21,6 @@ public final class VectorApiLoader {
   /** The warm-up of the Vector API's profiles, run before the first implementation is created. */
   static final String WARMUP_CLASS = "dev.heed.attention.simd.VectorProfileWarmup";
 
-  /** {@code -Dheed.vector.warmup=false} skips the warm-up, for measurements. */
-  static final String WARMUP_PROPERTY = "heed.vector.warmup";
-
   private VectorApiLoader() {}
 
   /**
@@ -34,7 +31,8 @@ public final class VectorApiLoader {
    * @param type the interface the implementation provides
    * @param className the implementation, with a public static {@code create()} method that returns
    *     it or throws {@link UnsupportedOperationException} with a reason
-   * @param switchProperty system property that, set to {@code false}, selects the fallback
+   * @param switchProperty system property that, set to {@code false}, selects the fallback, or null
+   *     for none
    * @param fallback what runs instead, completing "so ..." (for example "CSR attention runs its
    *     slower scalar loops")
    * @param log the caller's logger
@@ -43,7 +41,7 @@ public final class VectorApiLoader {
    */
   public static <T> T load(
       Class<T> type, String className, String switchProperty, String fallback, Logger log) {
-    if ("false".equalsIgnoreCase(System.getProperty(switchProperty))) {
+    if (switchProperty != null && "false".equalsIgnoreCase(System.getProperty(switchProperty))) {
       log.info(
           "The Vector API implementation was switched off with -D{}=false, so {}",
           switchProperty,
@@ -103,10 +101,6 @@ public final class VectorApiLoader {
         return;
       }
       attempted = true;
-      if ("false".equalsIgnoreCase(System.getProperty(WARMUP_PROPERTY))) {
-        log.debug("The Vector API warm-up was switched off with -D{}=false", WARMUP_PROPERTY);
-        return;
-      }
       long start = System.nanoTime();
       try {
         Class.forName(WARMUP_CLASS).getMethod("run").invoke(null);

@@ -28,7 +28,7 @@ import jdk.incubator.vector.VectorSpecies;
  * none (LogCompilation: 20 class-check traps and {@code ccount='120'} without, 0 traps with). The
  * cost is about 25 ms once per JVM (see {@link #ROUNDS}). Code that uses the Vector API before Heed
  * is loaded can still leave such traps behind; {@code -XX:PerMethodTrapLimit=10000} remains the
- * remedy there. {@code -Dheed.vector.warmup=false} skips the warm-up (for measurements).
+ * remedy there.
  *
  * <p>Thread safety: stateless; {@link #run} may be called from any thread, any number of times.
  */

@@ -16,12 +16,6 @@ import org.slf4j.LoggerFactory;
  */
 final class RowSoftmaxes {
 
-  /**
-   * System property that, set to {@code false}, keeps the dense kernel on ND4J's exponential even
-   * when the Vector API is readable (for comparisons and benchmarks). Read once, on first use.
-   */
-  static final String VECTOR_PROPERTY = "heed.dense.vector";
-
   private static final String VECTOR_CLASS = "dev.heed.attention.dense.simd.VectorRowSoftmax";
   private static final Logger LOG = LoggerFactory.getLogger(RowSoftmaxes.class);
 
@@ -45,7 +39,7 @@ final class RowSoftmaxes {
         VectorApiLoader.load(
             RowSoftmax.class,
             VECTOR_CLASS,
-            VECTOR_PROPERTY,
+            null, // tests reach the ND4J route through the kernel's constructor
             "dense attention takes its exponentials with ND4J's slower op",
             LOG);
     if (vector != null) {

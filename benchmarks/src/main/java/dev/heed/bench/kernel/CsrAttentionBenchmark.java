@@ -55,8 +55,7 @@ import org.openjdk.jmh.annotations.Warmup;
  * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
  * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine). On JDK 17 a
  * fork can compile the kernel 2-3x slower unless Heed's Vector API warm-up runs first
- * (docs/design/vector-api.md). To compare with the warm-up off, add {@code -jvmArgsPrepend
- * -Dheed.vector.warmup=false}.
+ * (docs/design/vector-api.md).
  */
 @State(Scope.Benchmark)
 @BenchmarkMode(Mode.AverageTime)
