@@ -2,9 +2,11 @@ package dev.heed.model;
 
 import dev.heed.attention.KernelOptions;
 import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.GraphConventions;
 import java.util.HashSet;
 import java.util.List;
 import java.util.Objects;
+import java.util.Optional;
 import java.util.Set;
 
 /**
@@ -29,6 +31,7 @@ public final class AttentionModel {
   private final List<Layer> layers;
   private final KernelOptions kernelOptions;
   private final KernelSource kernels;
+  private final GraphConventions graphConventions; // null: not recorded
 
   AttentionModel(
       int inputFeatureCount,
@@ -37,12 +40,24 @@ public final class AttentionModel {
       List<Layer> layers,
       KernelOptions kernelOptions,
       KernelSource kernels) {
+    this(inputFeatureCount, featureNames, classLabels, layers, kernelOptions, kernels, null);
+  }
+
+  private AttentionModel(
+      int inputFeatureCount,
+      List<String> featureNames,
+      List<String> classLabels,
+      List<Layer> layers,
+      KernelOptions kernelOptions,
+      KernelSource kernels,
+      GraphConventions graphConventions) {
     this.inputFeatureCount = inputFeatureCount;
     this.featureNames = List.copyOf(featureNames);
     this.classLabels = List.copyOf(classLabels);
     this.layers = List.copyOf(layers);
     this.kernelOptions = kernelOptions;
     this.kernels = kernels;
+    this.graphConventions = graphConventions;
   }
 
   /**
@@ -175,6 +190,30 @@ public final class AttentionModel {
   }
 
   /**
+   * Returns how the model's training graph was built from its edge list, if the model records it.
+   * Classify with a graph built the same way: the command line does so by default and refuses other
+   * conventions unless told to override them.
+   *
+   * @return the recorded conventions, or empty for a model that does not record them
+   */
+  public Optional<GraphConventions> graphConventions() {
+    return Optional.ofNullable(graphConventions);
+  }
+
+  /**
+   * Returns the same model recording how its training graph was built. The weights are shared, not
+   * copied.
+   *
+   * @param conventions the training graph's direction, self-loop and duplicate policies
+   * @return a new model
+   */
+  public AttentionModel withGraphConventions(GraphConventions conventions) {
+    Objects.requireNonNull(conventions, "conventions");
+    return new AttentionModel(
+        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, kernels, conventions);
+  }
+
+  /**
    * Returns the options the model's kernels are created with.
    *
    * @return the options
@@ -198,13 +237,20 @@ public final class AttentionModel {
         classLabels,
         layers,
         options,
-        KernelSource.fromClassPath(options));
+        KernelSource.fromClassPath(options),
+        graphConventions);
   }
 
   /** The same model with kernels from {@code source}; for tests. */
   AttentionModel withKernelSource(KernelSource source) {
     return new AttentionModel(
-        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, source);
+        inputFeatureCount,
+        featureNames,
+        classLabels,
+        layers,
+        kernelOptions,
+        source,
+        graphConventions);
   }
 
   /**

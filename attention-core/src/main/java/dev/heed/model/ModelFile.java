@@ -11,6 +11,10 @@ import com.fasterxml.jackson.databind.json.JsonMapper;
 import com.fasterxml.jackson.databind.node.ArrayNode;
 import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.heed.attention.KernelOptions;
+import dev.heed.graph.DirectionPolicy;
+import dev.heed.graph.DuplicatePolicy;
+import dev.heed.graph.GraphConventions;
+import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.npy.NpyArray;
 import dev.heed.npy.NpyFormatException;
 import dev.heed.npy.NpyLimits;
@@ -69,7 +73,13 @@ public final class ModelFile {
 
   private static final Set<String> TOP_LEVEL_KEYS =
       Set.of(
-          "format", "format_version", "input_features", "feature_names", "class_labels", "layers");
+          "format",
+          "format_version",
+          "input_features",
+          "feature_names",
+          "class_labels",
+          "graph",
+          "layers");
 
   private static final ObjectMapper JSON =
       JsonMapper.builder(
@@ -332,7 +342,42 @@ public final class ModelFile {
             name + ": tensor '" + tensor + "' is not used by any layer", null, tensor, null);
       }
     }
+    if (root.has("graph")) {
+      model = model.withGraphConventions(graphConventions(name, root.get("graph")));
+    }
     return model;
+  }
+
+  private static final Set<String> GRAPH_KEYS = Set.of("direction", "self_loops", "duplicates");
+
+  private static GraphConventions graphConventions(String name, JsonNode graph)
+      throws ModelFormatException {
+    if (!graph.isObject()) {
+      throw top(name, "\"graph\" must be an object with keys " + GRAPH_KEYS);
+    }
+    for (Iterator<String> it = graph.fieldNames(); it.hasNext(); ) {
+      String key = it.next();
+      if (!GRAPH_KEYS.contains(key)) {
+        throw top(name, "unknown key '" + key + "' in \"graph\"; expected " + GRAPH_KEYS);
+      }
+    }
+    return new GraphConventions(
+        graphPolicy(name, graph, "direction", DirectionPolicy.class),
+        graphPolicy(name, graph, "self_loops", SelfLoopPolicy.class),
+        graphPolicy(name, graph, "duplicates", DuplicatePolicy.class));
+  }
+
+  private static <E extends Enum<E>> E graphPolicy(
+      String name, JsonNode graph, String key, Class<E> type) throws ModelFormatException {
+    JsonNode value = graph.get(key);
+    if (value == null || !value.isTextual()) {
+      throw top(name, "\"graph\" needs a string \"" + key + "\", got " + value);
+    }
+    try {
+      return GraphConventions.policy(type, value.asText());
+    } catch (IllegalArgumentException e) {
+      throw top(name, "\"graph\".\"" + key + "\": " + e.getMessage());
+    }
   }
 
   private static List<String> strings(String name, JsonNode node, String key, boolean unique)
@@ -373,6 +418,15 @@ public final class ModelFile {
     }
     ArrayNode labels = root.putArray("class_labels");
     model.classLabels().forEach(labels::add);
+    model
+        .graphConventions()
+        .ifPresent(
+            c -> {
+              ObjectNode graph = root.putObject("graph");
+              graph.put("direction", GraphConventions.word(c.direction()));
+              graph.put("self_loops", GraphConventions.word(c.selfLoops()));
+              graph.put("duplicates", GraphConventions.word(c.duplicates()));
+            });
     ArrayNode layers = root.putArray("layers");
     Map<String, NpyArray> arrays = new LinkedHashMap<>();
     for (Layer layer : model.layers()) {

@@ -8,6 +8,10 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import com.fasterxml.jackson.databind.ObjectMapper;
 import com.fasterxml.jackson.databind.node.ArrayNode;
 import com.fasterxml.jackson.databind.node.ObjectNode;
+import dev.heed.graph.DirectionPolicy;
+import dev.heed.graph.DuplicatePolicy;
+import dev.heed.graph.GraphConventions;
+import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.npy.Npy;
 import dev.heed.npy.NpyArray;
 import dev.heed.npy.NpyLimits;
@@ -21,7 +25,9 @@ import java.nio.ByteOrder;
 import java.nio.charset.StandardCharsets;
 import java.util.Arrays;
 import java.util.LinkedHashMap;
+import java.util.List;
 import java.util.Map;
+import java.util.Optional;
 import java.util.function.Consumer;
 import java.util.zip.CRC32;
 import java.util.zip.ZipEntry;
@@ -53,6 +59,64 @@ class ModelFileTest {
     assertEquals(a.arrays(), b.arrays());
     assertEquals(first.classLabels(), second.classLabels());
     assertEquals(first.featureNames(), second.featureNames());
+  }
+
+  @Test
+  void graphConventionsRoundTripAndAreOptional() throws IOException {
+    AttentionModel plain = TestModels.load(TestModels.resource("mixed.heed"));
+    GraphConventions directed =
+        new GraphConventions(DirectionPolicy.KEEP, SelfLoopPolicy.AS_GIVEN, DuplicatePolicy.REJECT);
+    AttentionModel recorded = plain.withGraphConventions(directed);
+    AttentionModel back = TestModels.load(ModelFile.toBytes(recorded));
+    assertEquals(Optional.of(directed), back.graphConventions());
+    String json =
+        new String(
+            Npz.read(
+                    new ByteArrayInputStream(ModelFile.toBytes(recorded)),
+                    "m",
+                    NpyLimits.defaults())
+                .otherEntry(ModelFile.DESCRIPTION_ENTRY)
+                .orElseThrow(),
+            java.nio.charset.StandardCharsets.UTF_8);
+    assertEquals(
+        "{\"direction\":\"keep\",\"self_loops\":\"as-given\",\"duplicates\":\"reject\"}",
+        JSON.readTree(json).get("graph").toString());
+    ObjectNode d = description();
+    d.remove("graph");
+    AttentionModel none =
+        TestModels.load(TestModels.modelBytes(JSON.writeValueAsBytes(d), fixtureArrays()));
+    assertEquals(Optional.empty(), none.graphConventions());
+    assertEquals(
+        List.of("direction: keep instead of symmetrise", "duplicates: reject instead of merge"),
+        GraphConventions.UNDIRECTED_WITH_SELF_LOOPS.differences(
+            new GraphConventions(
+                DirectionPolicy.KEEP, SelfLoopPolicy.ADD, DuplicatePolicy.REJECT)));
+  }
+
+  @Test
+  void malformedGraphConventionsAreNamed() throws IOException {
+    assertMentions(
+        broken(d -> d.put("graph", "symmetrise"), SAME_ARRAYS), "\"graph\" must be an object");
+    assertMentions(
+        broken(d -> graph(d).put("direction", "both"), SAME_ARRAYS),
+        "\"graph\".\"direction\"",
+        "'both' is not one of [keep, symmetrise]");
+    assertMentions(
+        broken(d -> graph(d).remove("self_loops"), SAME_ARRAYS), "needs a string \"self_loops\"");
+    assertMentions(
+        broken(d -> graph(d).put("selfloops", "add"), SAME_ARRAYS), "unknown key 'selfloops'");
+  }
+
+  private static ObjectNode graph(ObjectNode description) {
+    ObjectNode g = description.putObject("graph");
+    g.put("direction", "symmetrise");
+    g.put("self_loops", "add");
+    g.put("duplicates", "merge");
+    return g;
+  }
+
+  private static Map<String, NpyArray> fixtureArrays() throws IOException {
+    return new LinkedHashMap<>(TestModels.fixtureContents().arrays());
   }
 
   private static ObjectNode description() throws IOException {

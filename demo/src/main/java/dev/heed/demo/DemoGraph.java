@@ -4,6 +4,7 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
+import dev.heed.graph.GraphConventions;
 import dev.heed.graph.SelfLoopPolicy;
 import java.util.Objects;
 
@@ -35,6 +36,10 @@ public final class DemoGraph {
 
   /** Duplicate policy of the demo graph: merge repeated ties. */
   public static final DuplicatePolicy DUPLICATES = DuplicatePolicy.MERGE;
+
+  /** The three policies together, as the demo model file records them. */
+  public static final GraphConventions CONVENTIONS =
+      new GraphConventions(DIRECTION, SELF_LOOPS, DUPLICATES);
 
   private DemoGraph() {}
 

@@ -203,7 +203,9 @@ public final class DemoTraining {
       predicted[i] = best;
     }
     return new Outcome(
-        network.toModel(PaymentsNetwork.ROLES, payments.featureNames()),
+        network
+            .toModel(PaymentsNetwork.ROLES, payments.featureNames())
+            .withGraphConventions(DemoGraph.CONVENTIONS),
         report,
         HeldOutScore.of(predicted, payments, PaymentsNetwork.Split.TEST));
   }
