@@ -57,6 +57,9 @@ final class RowMaths {
   }
 
   private static RowMath choose() {
+    // On the module path this module reads the Vector API only once it says so here.
+    VectorApiLoader.vectorModule()
+        .ifPresent(vectorModule -> RowMaths.class.getModule().addReads(vectorModule));
     RowMath vector =
         VectorApiLoader.load(
             RowMath.class,

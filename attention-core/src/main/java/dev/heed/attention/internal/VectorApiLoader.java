@@ -1,6 +1,7 @@
 package dev.heed.attention.internal;
 
 import java.lang.reflect.InvocationTargetException;
+import java.util.Optional;
 import org.slf4j.Logger;
 
 /**
@@ -24,13 +25,30 @@ public final class VectorApiLoader {
   private VectorApiLoader() {}
 
   /**
+   * Returns the Vector API module if the JVM reads it (started with {@link #VECTOR_FLAG}).
+   *
+   * <p>Heed's module descriptors do not name {@code jdk.incubator.vector} (javac on JDK 17 warns
+   * about every incubator module it resolves, which would fail the warnings-as-errors pass), so on
+   * the module path a kernel module reads it only after calling {@code getModule().addReads(...)}
+   * with this module, from its own code ({@link Module#addReads} only works for the caller's
+   * module), before {@link #load}. On the class path that call does nothing.
+   *
+   * @return the module, or empty when the JVM does not read it
+   */
+  public static Optional<Module> vectorModule() {
+    return ModuleLayer.boot().findModule(VECTOR_MODULE);
+  }
+
+  /**
    * Returns the vector implementation, or null for the fallback; logs once which was chosen and why
    * (INFO when switched off, WARN naming {@link #VECTOR_FLAG} when the module is missing or the
    * class cannot be used, DEBUG on success).
    *
    * @param type the interface the implementation provides
    * @param className the implementation, with a public static {@code create()} method that returns
-   *     it or throws {@link UnsupportedOperationException} with a reason
+   *     it or throws {@link UnsupportedOperationException} with a reason; in a named module its
+   *     package must be exported to {@code dev.heed.core}, and the module must read the Vector API
+   *     already (see {@link #vectorModule()})
    * @param switchProperty system property that, set to {@code false}, selects the fallback, or null
    *     for none
    * @param fallback what runs instead, completing "so ..." (for example "CSR attention runs its
@@ -48,7 +66,8 @@ public final class VectorApiLoader {
           fallback);
       return null;
     }
-    if (ModuleLayer.boot().findModule(VECTOR_MODULE).isEmpty()) {
+    Optional<Module> vectorModule = vectorModule();
+    if (vectorModule.isEmpty()) {
       log.warn(
           "The Java Vector API is not enabled, so {}. Start the JVM with {} to use the vector"
               + " implementation.",
@@ -56,6 +75,8 @@ public final class VectorApiLoader {
           VECTOR_FLAG);
       return null;
     }
+    // The core's own vector classes (the warm-up, the exponential) link against the module.
+    VectorApiLoader.class.getModule().addReads(vectorModule.get());
     ProfileWarmup.ensureRun(log);
     try {
       T vector = type.cast(Class.forName(className).getMethod("create").invoke(null));
