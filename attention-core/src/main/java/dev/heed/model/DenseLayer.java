@@ -60,7 +60,7 @@ public final class DenseLayer extends Layer {
     float[] y =
         ModelMath.project(
             input,
-            pass.nodeCount,
+            pass.rowsOut,
             inputWidth(),
             tensors.get("weight").values(),
             outputWidth(),

@@ -171,20 +171,29 @@ public final class SelfAttentionLayer extends Layer {
   }
 
   @Override
+  Reach reach() {
+    return complete ? Reach.EVERY_NODE : Reach.IN_NEIGHBOURS;
+  }
+
+  @Override
   float[] forward(float[] x, ForwardPass pass) {
-    int n = pass.nodeCount;
+    int n = pass.rowsIn;
+    int rows = pass.rowsOut;
     int m = inputWidth();
     boolean pre = normalization.equals("pre");
     boolean post = normalization.equals("post");
     float[] a = pre ? norm(x, "attention") : x;
     float[] q =
-        ModelMath.project(a, n, m, values("query_weight"), heads * keyWidth, values("query_bias"));
+        ModelMath.padTo(
+            ModelMath.project(
+                a, rows, m, values("query_weight"), heads * keyWidth, values("query_bias")),
+            n * heads * keyWidth);
     float[] k =
         ModelMath.project(a, n, m, values("key_weight"), heads * keyWidth, values("key_bias"));
     float[] v =
         ModelMath.project(
             a, n, m, values("value_weight"), heads * valueWidth, values("value_bias"));
-    AttentionPattern pattern = complete ? CompletePattern.of(n) : pass.graph;
+    AttentionPattern pattern = complete ? CompletePattern.of(n) : pass.pattern;
     float[] attended =
         pass.attend(
             this,
@@ -196,7 +205,7 @@ public final class SelfAttentionLayer extends Layer {
             v);
     float[] y =
         ModelMath.project(
-            attended, n, heads * valueWidth, values("output_weight"), m, values("output_bias"));
+            attended, rows, heads * valueWidth, values("output_weight"), m, values("output_bias"));
     if (residual) {
       ModelMath.addInPlace(y, x);
     }
@@ -208,7 +217,7 @@ public final class SelfAttentionLayer extends Layer {
       float[] hidden =
           ModelMath.project(
               b,
-              n,
+              rows,
               m,
               values("feed_forward_weight1"),
               feedForwardWidth,
@@ -217,7 +226,7 @@ public final class SelfAttentionLayer extends Layer {
       float[] z =
           ModelMath.project(
               hidden,
-              n,
+              rows,
               feedForwardWidth,
               values("feed_forward_weight2"),
               m,

@@ -3,6 +3,9 @@
  * self-attention blocks, dense layers and the softmax classification head), the immutable,
  * thread-safe {@link dev.heed.model.AttentionModel} that stacks them, and the open model file
  * format ({@link dev.heed.model.ModelFile}, specified in {@code docs/model-format.md}). Layers run
- * their attention through {@link dev.heed.attention.AttentionKernel}, on either path.
+ * their attention through {@link dev.heed.attention.AttentionKernel}, on either path, over the
+ * whole graph or over the {@link dev.heed.model.ReceptiveField} of chosen target nodes (the rows
+ * their outputs depend on, with small local CSR patterns), bounded by a {@link
+ * dev.heed.model.FieldCap}.
  */
 package dev.heed.model;
