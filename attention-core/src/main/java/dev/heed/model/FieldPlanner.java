@@ -309,10 +309,14 @@ final class FieldPlanner {
     if (written != degree) {
       throw rowMismatch(global, degree, written);
     }
+    // Ids numbered while mapping this row are increasing and above every older id, so the sorted
+    // row is the older ids, sorted, then the new ones in the order met: only the older ids (moved
+    // into the row buffer, behind the read position) need sorting.
     int origin = s.origins[v];
+    int threshold = size;
+    int older = 0;
+    int fresh = 0;
     int previous = -1;
-    int previousLocal = -1;
-    boolean sorted = true;
     for (int k = 0; k < degree; k++) {
       int source = s.row[k];
       if (source <= previous || source >= nodeCount) {
@@ -324,12 +328,16 @@ final class FieldPlanner {
         local = size;
         add(source, origin);
       }
-      sorted &= local > previousLocal;
-      previousLocal = local;
-      s.columns[base + k] = local;
+      if (local < threshold) {
+        s.row[older++] = local;
+      } else {
+        s.columns[base + fresh++] = local;
+      }
     }
-    if (!sorted) {
-      Arrays.sort(s.columns, base, base + degree);
+    if (older > 0) {
+      Arrays.sort(s.row, 0, older);
+      System.arraycopy(s.columns, base, s.columns, base + older, fresh);
+      System.arraycopy(s.row, 0, s.columns, base, older);
     }
     s.offsets[v + 1] = base + degree;
   }

@@ -75,7 +75,7 @@ final class FieldScratch {
   }
 
   private long retainedInts() {
-    return 3L * ids.capacity()
+    return 5L * ids.capacity() / 2
         + globalIds.length
         + origins.length
         + offsets.length

@@ -3,44 +3,49 @@ package dev.heed.model;
 import java.util.Arrays;
 
 /**
- * A map from global node ids (non-negative ints) to local ids, by open addressing with linear
- * probing. Clearing is O(1): each slot carries the epoch it was written in, and {@link #clear()}
- * starts a new epoch, so one map can be reused for call after call at a cost proportional to what
- * each call inserts, never to the graph's size (common practice for reused visited-marks).
+ * A map from global node ids (non-negative ints) to local ids (non-negative ints), by open
+ * addressing with linear probing, each entry packed in one {@code long} so that a probe touches one
+ * cache line. {@link #clear()} empties only the slots the last use filled (it keeps their indices),
+ * so one map serves call after call at a cost proportional to what each call inserts, never to the
+ * largest call's capacity or to the graph's size.
  *
  * <p>Thread safety: not thread safe; confined to one call at a time (see {@link FieldScratch}).
  */
 final class LocalIdMap {
 
-  private int[] keys;
-  private int[] values;
-  private int[] stamps;
-  private int epoch = 1;
+  private static final long EMPTY = -1L;
+
+  private long[] slots; // (long) key << 32 | value, or EMPTY
+  private int[] used; // the slot of each entry, in insertion order
   private int size;
 
   LocalIdMap(int expected) {
-    allocate(capacityFor(expected));
+    int capacity = 16;
+    while (capacity < 2L * expected && capacity < 1 << 30) {
+      capacity <<= 1;
+    }
+    slots = new long[capacity];
+    Arrays.fill(slots, EMPTY);
+    used = new int[capacity / 2 + 1];
   }
 
-  /** Forgets every entry in O(1) (O(capacity) once every 2^32 clears, when the epoch wraps). */
+  /** Forgets every entry, in O(entries). */
   void clear() {
-    size = 0;
-    epoch++;
-    if (epoch == 0) {
-      Arrays.fill(stamps, 0);
-      epoch = 1;
+    for (int i = 0; i < size; i++) {
+      slots[used[i]] = EMPTY;
     }
+    size = 0;
   }
 
   /** Returns the number of slots, for the scratch pool's retention rule. */
   int capacity() {
-    return keys.length;
+    return slots.length;
   }
 
   /** Returns the local id of {@code key}, or -1 if absent. */
   int get(int key) {
-    int slot = probe(key);
-    return stamps[slot] == epoch ? values[slot] : -1;
+    long entry = slots[probe(key)];
+    return entry == EMPTY ? -1 : (int) entry;
   }
 
   /**
@@ -51,14 +56,13 @@ final class LocalIdMap {
    */
   int putIfAbsent(int key, int value) {
     int slot = probe(key);
-    if (stamps[slot] == epoch) {
-      return values[slot];
+    long entry = slots[slot];
+    if (entry != EMPTY) {
+      return (int) entry;
     }
-    keys[slot] = key;
-    values[slot] = value;
-    stamps[slot] = epoch;
-    size++;
-    if (2 * size > keys.length) {
+    slots[slot] = ((long) key << 32) | value;
+    used[size++] = slot;
+    if (2 * size > slots.length) {
       grow();
     }
     return -1;
@@ -66,47 +70,30 @@ final class LocalIdMap {
 
   /** The slot that holds {@code key}, or the empty slot where it would go. */
   private int probe(int key) {
-    int mask = keys.length - 1;
+    int mask = slots.length - 1;
     int slot = spread(key) & mask;
-    while (stamps[slot] == epoch && keys[slot] != key) {
+    long entry;
+    while ((entry = slots[slot]) != EMPTY && (int) (entry >>> 32) != key) {
       slot = (slot + 1) & mask;
     }
     return slot;
   }
 
   private void grow() {
-    int[] oldKeys = keys;
-    int[] oldValues = values;
-    int[] oldStamps = stamps;
-    int live = epoch;
-    allocate(oldKeys.length * 2);
-    epoch = 1;
-    int mask = keys.length - 1;
-    for (int s = 0; s < oldKeys.length; s++) {
-      if (oldStamps[s] == live) {
-        int slot = spread(oldKeys[s]) & mask;
-        while (stamps[slot] == epoch) {
-          slot = (slot + 1) & mask;
-        }
-        keys[slot] = oldKeys[s];
-        values[slot] = oldValues[s];
-        stamps[slot] = epoch;
+    long[] old = slots;
+    slots = new long[old.length * 2];
+    Arrays.fill(slots, EMPTY);
+    used = Arrays.copyOf(used, slots.length / 2 + 1);
+    int mask = slots.length - 1;
+    for (int i = 0; i < size; i++) {
+      long entry = old[used[i]];
+      int slot = spread((int) (entry >>> 32)) & mask;
+      while (slots[slot] != EMPTY) {
+        slot = (slot + 1) & mask;
       }
+      slots[slot] = entry;
+      used[i] = slot;
     }
-  }
-
-  private void allocate(int capacity) {
-    keys = new int[capacity];
-    values = new int[capacity];
-    stamps = new int[capacity];
-  }
-
-  private static int capacityFor(int expected) {
-    int capacity = 16;
-    while (capacity < 2L * expected && capacity < 1 << 30) {
-      capacity <<= 1;
-    }
-    return capacity;
   }
 
   /** Fibonacci hashing: multiply by 2^32/φ and fold the high bits down (common practice). */
