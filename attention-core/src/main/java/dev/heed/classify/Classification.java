@@ -1,5 +1,6 @@
 package dev.heed.classify;
 
+import dev.heed.model.FieldSize;
 import dev.heed.model.LayerRun;
 import dev.heed.model.ModelOutput;
 import java.util.List;
@@ -16,12 +17,17 @@ public final class Classification {
   private final List<String> classLabels;
   private final List<NodePrediction> predictions;
   private final List<LayerRun> layerRuns;
+  private final FieldSize fieldSize;
 
   Classification(
-      List<String> classLabels, List<NodePrediction> predictions, List<LayerRun> layerRuns) {
+      List<String> classLabels,
+      List<NodePrediction> predictions,
+      List<LayerRun> layerRuns,
+      FieldSize fieldSize) {
     this.classLabels = List.copyOf(classLabels);
     this.predictions = List.copyOf(predictions);
     this.layerRuns = List.copyOf(layerRuns);
+    this.fieldSize = fieldSize;
   }
 
   /**
@@ -43,8 +49,30 @@ public final class Classification {
   }
 
   /**
-   * Returns how each model layer ran in this call: the attention path it took and its wall-clock
-   * time (see {@link ModelOutput#layerRuns()}).
+   * Returns the size of the receptive field this call computed over: distinct targets, nodes read,
+   * attention entries touched, and whether it ran over the whole graph (per layer: {@link
+   * #layerRuns()}).
+   *
+   * @return the size
+   */
+  public FieldSize fieldSize() {
+    return fieldSize;
+  }
+
+  /**
+   * Returns whether this call ran every layer over every node of the graph: every node was
+   * classified, the graph was a complete pattern, or the model has a layer that attends over every
+   * node (full self-attention), so no smaller field gives the same outputs.
+   *
+   * @return true for a whole-graph call
+   */
+  public boolean wholeGraph() {
+    return fieldSize.wholeGraph();
+  }
+
+  /**
+   * Returns how each model layer ran in this call: the attention path it took, its wall-clock time,
+   * and the rows and attention entries it computed (see {@link ModelOutput#layerRuns()}).
    *
    * @return an unmodifiable list, one entry per model layer in order
    */

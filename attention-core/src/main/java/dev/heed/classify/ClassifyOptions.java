@@ -1,5 +1,6 @@
 package dev.heed.classify;
 
+import dev.heed.model.FieldCap;
 import dev.heed.model.PathChoice;
 import java.util.Objects;
 
@@ -15,9 +16,13 @@ import java.util.Objects;
  *     attention layer during the call)
  * @param explainNeighbours how many neighbours an explanation lists per layer (and per head); at
  *     least 1
+ * @param fieldCap bounds on the receptive field one call may compute over (nodes read, attention
+ *     entries touched); a call whose field passes it fails with {@link
+ *     dev.heed.model.ReceptiveFieldTooLargeException} before any layer runs. The bounds apply to
+ *     whole-graph calls too (classifying every node: n nodes). Default {@link FieldCap#NONE}
  */
 public record ClassifyOptions(
-    PathChoice path, int topLabels, boolean explain, int explainNeighbours) {
+    PathChoice path, int topLabels, boolean explain, int explainNeighbours, FieldCap fieldCap) {
 
   /** Default number of labels per prediction: 3. */
   public static final int DEFAULT_TOP_LABELS = 3;
@@ -32,10 +37,12 @@ public record ClassifyOptions(
    * @param topLabels labels per prediction, at least 1
    * @param explain whether to explain predictions
    * @param explainNeighbours neighbours per explained layer, at least 1
+   * @param fieldCap bounds on each call's receptive field
    * @throws IllegalArgumentException if a count is below 1
    */
   public ClassifyOptions {
     Objects.requireNonNull(path, "path");
+    Objects.requireNonNull(fieldCap, "fieldCap");
     if (topLabels < 1) {
       throw new IllegalArgumentException("topLabels must be at least 1, got " + topLabels);
     }
@@ -46,13 +53,27 @@ public record ClassifyOptions(
   }
 
   /**
-   * Returns the defaults: {@link PathChoice#AUTO}, 3 labels, no explanations, 5 neighbours.
+   * Creates options without a field cap ({@link FieldCap#NONE}).
+   *
+   * @param path which attention kernel to use
+   * @param topLabels labels per prediction, at least 1
+   * @param explain whether to explain predictions
+   * @param explainNeighbours neighbours per explained layer, at least 1
+   * @throws IllegalArgumentException if a count is below 1
+   */
+  public ClassifyOptions(PathChoice path, int topLabels, boolean explain, int explainNeighbours) {
+    this(path, topLabels, explain, explainNeighbours, FieldCap.NONE);
+  }
+
+  /**
+   * Returns the defaults: {@link PathChoice#AUTO}, 3 labels, no explanations, 5 neighbours, no
+   * field cap.
    *
    * @return the defaults
    */
   public static ClassifyOptions defaults() {
     return new ClassifyOptions(
-        PathChoice.AUTO, DEFAULT_TOP_LABELS, false, DEFAULT_EXPLAIN_NEIGHBOURS);
+        PathChoice.AUTO, DEFAULT_TOP_LABELS, false, DEFAULT_EXPLAIN_NEIGHBOURS, FieldCap.NONE);
   }
 
   /**
@@ -62,7 +83,7 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withPath(PathChoice newPath) {
-    return new ClassifyOptions(newPath, topLabels, explain, explainNeighbours);
+    return new ClassifyOptions(newPath, topLabels, explain, explainNeighbours, fieldCap);
   }
 
   /**
@@ -72,7 +93,7 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withTopLabels(int k) {
-    return new ClassifyOptions(path, k, explain, explainNeighbours);
+    return new ClassifyOptions(path, k, explain, explainNeighbours, fieldCap);
   }
 
   /**
@@ -82,7 +103,7 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withExplanations(int k) {
-    return new ClassifyOptions(path, topLabels, true, k);
+    return new ClassifyOptions(path, topLabels, true, k, fieldCap);
   }
 
   /**
@@ -91,6 +112,17 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withoutExplanations() {
-    return new ClassifyOptions(path, topLabels, false, explainNeighbours);
+    return new ClassifyOptions(path, topLabels, false, explainNeighbours, fieldCap);
+  }
+
+  /**
+   * Returns a copy with another receptive-field cap, for example {@code
+   * withFieldCap(FieldCap.NONE.withMaxNodes(100_000))}.
+   *
+   * @param cap the bounds ({@link FieldCap#NONE} for none)
+   * @return new options
+   */
+  public ClassifyOptions withFieldCap(FieldCap cap) {
+    return new ClassifyOptions(path, topLabels, explain, explainNeighbours, cap);
   }
 }

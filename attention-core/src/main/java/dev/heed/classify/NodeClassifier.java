@@ -1,9 +1,12 @@
 package dev.heed.classify;
 
 import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CsrGraph;
+import dev.heed.graph.NeighbourRows;
 import dev.heed.model.AttentionModel;
+import dev.heed.model.FieldOutput;
 import dev.heed.model.LayerAttention;
-import dev.heed.model.ModelOutput;
+import dev.heed.model.ReceptiveField;
 import java.util.ArrayList;
 import java.util.Comparator;
 import java.util.List;
@@ -18,17 +21,34 @@ import java.util.PriorityQueue;
  * AttentionModel model = ModelFile.read(Path.of("model.heed"));
  * NodeClassifier classifier =
  *     NodeClassifier.of(model, ClassifyOptions.defaults().withExplanations(5));
- * Classification result = classifier.classify(graph, NodeFeatures.readNpy(Path.of("x.npy")));
+ * Classification result = classifier.classify(graph, features, 42, 7);
  * NodePrediction p = result.forNode(42);
  * String label = p.label();
  * List<NeighbourWeight> why = p.explanation().orElseThrow().get(0).topNeighbours();
+ * FieldSize touched = result.fieldSize(); // nodes read and attention entries computed
  * }</pre>
  *
- * <p>Cost: one model forward pass over the whole graph per call (also when only some nodes are
- * requested), plus O(k·deg·heads) per explained node and attention layer.
+ * <p><b>Chosen nodes are scored over their receptive field only.</b> An L-layer attention model's
+ * output at node v depends only on v's L-hop in-neighbourhood, so {@link
+ * #classify(AttentionPattern, NodeFeatures, int...)} on a {@link CsrGraph} and {@link
+ * #classifyFromRows} plan that field ({@link AttentionModel#receptiveField}), read the features of
+ * its nodes only, and run each layer over the rows later layers need; many targets in one call
+ * share the union of their fields. The results equal a whole-graph pass's up to float rounding
+ * (each row's sources reach the kernel in another order), explanations included. A model with a
+ * layer that attends over every node (full self-attention) needs the whole graph for any target;
+ * the call then runs over the whole graph, says so in {@link Classification#wholeGraph()} and logs
+ * it at debug level. {@link ClassifyOptions#fieldCap()} bounds what one call may compute over.
  *
- * <p>Thread safety: immutable; one classifier (and its model) may serve many threads at once, each
- * call using only its own scratch.
+ * <p>Cost: classifying chosen nodes costs O(Σ deg) over the rows read to plan the field, plus the
+ * layers' work over the field's nodes and entries, never O(n) (except for a whole-graph call: one
+ * model pass over the graph). Classifying every node costs one model pass. Explanations add
+ * O(k·deg·heads) per explained node and attention layer.
+ *
+ * <p>Thread safety: immutable; one classifier (and its model) may serve many threads at once.
+ * Planning a field borrows reusable scratch (the global-to-local id map and row buffers) from a
+ * shared pool and gives it back before the layers run, so no two calls share scratch (see {@code
+ * FieldScratch} for why a pool rather than per-thread copies); the arrays a call computes with are
+ * sized to its field and its own.
  */
 public final class NodeClassifier {
 
@@ -54,7 +74,7 @@ public final class NodeClassifier {
    * Returns a classifier.
    *
    * @param model the model
-   * @param options path, top labels, explanations
+   * @param options path, top labels, explanations, field cap
    * @return the classifier
    */
   public static NodeClassifier of(AttentionModel model, ClassifyOptions options) {
@@ -81,55 +101,77 @@ public final class NodeClassifier {
   }
 
   /**
-   * Classifies every node.
+   * Classifies every node: one model pass over the whole graph.
    *
    * @param graph the graph (target i attends to the sources in row i); n nodes
    * @param features n × the model's input feature count, not modified
    * @return one prediction per node, in node order
    * @throws IllegalArgumentException if the feature matrix does not have n rows and the model's
    *     feature count as columns
+   * @throws dev.heed.model.ReceptiveFieldTooLargeException if the whole graph passes the field cap
    * @throws IllegalStateException if the chosen path's kernel is not on the class path
    */
   public Classification classify(AttentionPattern graph, NodeFeatures features) {
     Objects.requireNonNull(graph, "graph");
-    int[] all = new int[graph.nodeCount()];
-    for (int i = 0; i < all.length; i++) {
-      all[i] = i;
-    }
-    return run(graph, features, all);
+    checkFeatures(features, graph.nodeCount());
+    return run(model.wholeGraphField(graph, null, options.fieldCap()), features, null);
   }
 
   /**
-   * Classifies chosen nodes. The model still runs over the whole graph.
+   * Classifies chosen nodes. On a {@link CsrGraph} only their receptive field is computed (see the
+   * class comment); on the {@link dev.heed.graph.CompletePattern}, or with a model that attends
+   * over every node, the whole graph is ({@link Classification#wholeGraph()}).
    *
    * @param graph the graph; n nodes
    * @param features n × the model's input feature count, not modified
    * @param nodes input, not modified: node ids in {@code 0..n-1}, in the order wanted (repeats
    *     allowed)
-   * @return one prediction per requested node, in request order
+   * @return one prediction per requested node, in request order, with the field's size
    * @throws IllegalArgumentException if a node id is out of range (the message gives its position)
    *     or the features do not fit
+   * @throws dev.heed.model.ReceptiveFieldTooLargeException if the field passes the field cap
+   *     (before any layer runs; the message names the target, the size and the cap)
    * @throws IllegalStateException if the chosen path's kernel is not on the class path
    */
   public Classification classify(AttentionPattern graph, NodeFeatures features, int... nodes) {
     Objects.requireNonNull(graph, "graph");
     Objects.requireNonNull(nodes, "nodes");
-    int n = graph.nodeCount();
-    for (int p = 0; p < nodes.length; p++) {
-      if (nodes[p] < 0 || nodes[p] >= n) {
-        throw new IllegalArgumentException(
-            "node id "
-                + nodes[p]
-                + " at position "
-                + p
-                + " is out of range; the graph has nodes 0.."
-                + (n - 1));
-      }
-    }
-    return run(graph, features, nodes.clone());
+    checkFeatures(features, graph.nodeCount());
+    int[] requested = nodes.clone();
+    ReceptiveField field =
+        graph instanceof CsrGraph csr
+            ? model.receptiveField(csr, requested, options.fieldCap())
+            : model.wholeGraphField(graph, requested, options.fieldCap());
+    return run(field, features, requested);
   }
 
-  private Classification run(AttentionPattern graph, NodeFeatures features, int[] nodes) {
+  /**
+   * Classifies chosen nodes of a graph and features read one row at a time, such as one version of
+   * a graph store that changes over time: only the targets' receptive field is read and computed
+   * (see the class comment). The two sources must describe the same version, and keep answering for
+   * it during the call.
+   *
+   * @param graph input, not modified: in-neighbour rows (sorted), n nodes
+   * @param features input, not modified: n nodes' features, the model's input feature count each
+   * @param nodes input, not modified: node ids in {@code 0..n-1}, in the order wanted (repeats
+   *     allowed)
+   * @return one prediction per requested node, in request order, with the field's size
+   * @throws IllegalArgumentException if a node id is out of range, the features do not fit (count,
+   *     or a value that is not finite), or a row read is not strictly increasing or holds an id out
+   *     of range
+   * @throws dev.heed.model.ReceptiveFieldTooLargeException if the field passes the field cap
+   *     (before any layer runs)
+   * @throws IllegalStateException if the chosen path's kernel is not on the class path
+   */
+  public Classification classifyFromRows(NeighbourRows graph, FeatureRows features, int... nodes) {
+    Objects.requireNonNull(graph, "graph");
+    Objects.requireNonNull(nodes, "nodes");
+    checkFeatures(features, graph.nodeCount());
+    int[] requested = nodes.clone();
+    return run(model.receptiveField(graph, requested, options.fieldCap()), features, requested);
+  }
+
+  private void checkFeatures(FeatureRows features, int graphNodes) {
     Objects.requireNonNull(features, "features");
     if (features.featureCount() != model.inputFeatureCount()) {
       throw new IllegalArgumentException(
@@ -140,25 +182,57 @@ public final class NodeClassifier {
               + " features per node"
               + (model.featureNames().isEmpty() ? "" : " " + model.featureNames()));
     }
-    if (features.nodeCount() != graph.nodeCount()) {
+    if (features.nodeCount() != graphNodes) {
       throw new IllegalArgumentException(
           "features have "
               + features.nodeCount()
               + " rows but the graph has "
-              + graph.nodeCount()
+              + graphNodes
               + " nodes; pass one row per node, in node id order");
     }
-    ModelOutput out = model.forward(graph, features.shared(), options.path(), options.explain());
+  }
+
+  /**
+   * Runs the model over the field and builds the predictions, for {@code nodes} in order (every
+   * node when null).
+   */
+  private Classification run(ReceptiveField field, FeatureRows features, int[] nodes) {
+    FieldOutput out =
+        model.forward(field, fieldFeatures(field, features), options.path(), options.explain());
     List<String> labels = model.classLabels();
     int k = Math.min(options.topLabels(), labels.size());
-    List<NodePrediction> predictions = new ArrayList<>(nodes.length);
-    for (int node : nodes) {
+    int count = nodes == null ? field.graphNodeCount() : nodes.length;
+    List<NodePrediction> predictions = new ArrayList<>(count);
+    for (int i = 0; i < count; i++) {
+      int node = nodes == null ? i : nodes[i];
       float[] p = out.row(node);
       List<LabelScore> top = topLabels(p, labels, k);
       List<LayerExplanation> explanation = options.explain() ? explain(out, node) : null;
       predictions.add(new NodePrediction(node, p, top, explanation));
     }
-    return new Classification(labels, predictions, out.layerRuns());
+    return new Classification(labels, predictions, out.layerRuns(), field.size());
+  }
+
+  /** The feature rows of the field's nodes, in its local order (shared for a whole graph). */
+  private static float[] fieldFeatures(ReceptiveField field, FeatureRows features) {
+    if (field.wholeGraph() && features instanceof NodeFeatures all) {
+      return all.shared();
+    }
+    int f = features.featureCount();
+    int rows = field.nodeCount();
+    if ((long) rows * f > Integer.MAX_VALUE - 8) {
+      throw new IllegalArgumentException(
+          "the receptive field's "
+              + rows
+              + " nodes × "
+              + f
+              + " features exceed one Java array; classify fewer nodes per call");
+    }
+    float[] x = new float[rows * f];
+    for (int local = 0; local < rows; local++) {
+      features.copyRow(field.nodeId(local), x, local * f);
+    }
+    return x;
   }
 
   private static List<LabelScore> topLabels(float[] p, List<String> labels, int k) {
@@ -172,7 +246,7 @@ public final class NodeClassifier {
     return all.subList(0, k);
   }
 
-  private List<LayerExplanation> explain(ModelOutput out, int node) {
+  private List<LayerExplanation> explain(FieldOutput out, int node) {
     int k = options.explainNeighbours();
     List<LayerExplanation> layers = new ArrayList<>();
     for (LayerAttention a : out.attention()) {

@@ -2,7 +2,10 @@ package dev.heed.model;
 
 import dev.heed.attention.KernelOptions;
 import dev.heed.graph.AttentionPattern;
+import dev.heed.graph.CompletePattern;
+import dev.heed.graph.CsrGraph;
 import dev.heed.graph.GraphConventions;
+import dev.heed.graph.NeighbourRows;
 import java.util.HashSet;
 import java.util.List;
 import java.util.Objects;
@@ -254,6 +257,22 @@ public final class AttentionModel {
   }
 
   /**
+   * Returns whether some layer attends over every node (full self-attention over the complete
+   * pattern), so that every node's output depends on every node and a {@link ReceptiveField} is
+   * always the whole graph.
+   *
+   * @return true if a layer attends over the complete pattern
+   */
+  public boolean needsEveryNode() {
+    for (Layer layer : layers) {
+      if (layer.reach() == Layer.Reach.EVERY_NODE) {
+        return true;
+      }
+    }
+    return false;
+  }
+
+  /**
    * Runs every layer over {@code graph}.
    *
    * @param graph the graph; its node count n is the number of feature rows. Graph-attention and
@@ -277,11 +296,153 @@ public final class AttentionModel {
     Objects.requireNonNull(features, "features");
     Objects.requireNonNull(path, "path");
     int n = graph.nodeCount();
-    long expected = (long) n * inputFeatureCount;
-    if (features.length != expected) {
+    checkFeatures(features, n, null);
+    checkRowWidths(n);
+    ForwardPass pass = new ForwardPass(graph, path, kernels, keepAttention);
+    float[] x = runLayers(pass, features);
+    return new ModelOutput(n, classLabels.size(), x, pass.attention(), pass.layerRuns());
+  }
+
+  /**
+   * Plans the receptive field of some target nodes: what each layer must compute so that the
+   * targets' outputs equal those of a pass over the whole graph. Reads only the rows of the nodes
+   * whose outputs are needed, walking outward from the targets (see {@link ReceptiveField}); if a
+   * layer attends over every node ({@link #needsEveryNode()}), plans a whole-graph field instead
+   * and logs that at debug level.
+   *
+   * <p>Cost: O(Σ deg) over the nodes whose rows are read plus sorting each local row, independent
+   * of the graph's node count (a whole-graph field: O(n + E), nothing if {@code graph} is a {@link
+   * CsrGraph}). Stops at the cap before reading further.
+   *
+   * @param graph input, not modified: in-neighbour rows; n nodes
+   * @param targets input, not modified: node ids in {@code 0..n-1}, in any order, repeats allowed
+   * @param cap bounds on the field's nodes and entries ({@link FieldCap#NONE} for none)
+   * @return the field
+   * @throws IllegalArgumentException if a target is out of range (the message gives its position),
+   *     or a row of {@code graph} is not strictly increasing or holds an id out of range
+   * @throws ReceptiveFieldTooLargeException if the field passes the cap
+   * @throws NullPointerException if an argument is null
+   */
+  public ReceptiveField receptiveField(NeighbourRows graph, int[] targets, FieldCap cap) {
+    Objects.requireNonNull(graph, "graph");
+    Objects.requireNonNull(targets, "targets");
+    Objects.requireNonNull(cap, "cap");
+    checkTargets(targets, graph.nodeCount());
+    return FieldPlanner.plan(layers, graph, targets, cap);
+  }
+
+  /**
+   * Plans a whole-graph field: every layer over every node of {@code graph}, as {@link
+   * #forward(AttentionPattern, float[], PathChoice, boolean)} runs, with its size checked against
+   * the cap. For classifying every node, or a graph that is the complete pattern.
+   *
+   * @param graph input, not modified: the graph; n nodes
+   * @param targets input, not modified: the nodes whose outputs are wanted, each in {@code 0..n-1};
+   *     or null for every node
+   * @param cap bounds on the field's nodes and entries
+   * @return the field
+   * @throws IllegalArgumentException if a target is out of range
+   * @throws ReceptiveFieldTooLargeException if the whole graph passes the cap
+   * @throws NullPointerException if {@code graph} or {@code cap} is null
+   */
+  public ReceptiveField wholeGraphField(AttentionPattern graph, int[] targets, FieldCap cap) {
+    Objects.requireNonNull(graph, "graph");
+    Objects.requireNonNull(cap, "cap");
+    if (targets != null) {
+      checkTargets(targets, graph.nodeCount());
+    }
+    String reason;
+    if (targets == null) {
+      reason = "every node was requested";
+    } else if (graph instanceof CompletePattern) {
+      reason = "the graph is the complete pattern";
+    } else {
+      reason = everyNodeReason();
+    }
+    return FieldPlanner.whole(layers, graph, targets, cap, reason);
+  }
+
+  private String everyNodeReason() {
+    for (Layer layer : layers) {
+      if (layer.reach() == Layer.Reach.EVERY_NODE) {
+        return "layer '" + layer.name() + "' attends over every node (full self-attention)";
+      }
+    }
+    return "a whole-graph pass was asked for";
+  }
+
+  /**
+   * Runs every layer over a planned field and returns the targets' outputs: equal to a whole-graph
+   * pass's at those nodes up to float rounding (the kernels see each row's sources in the field's
+   * local order).
+   *
+   * @param field a field planned by this model (or by one sharing its layers, such as {@link
+   *     #withKernelOptions})
+   * @param features input, not modified: {@code field.nodeCount()} × {@link #inputFeatureCount()}
+   *     values, row-major, row r holding the features of node {@code field.nodeId(r)}; all finite
+   * @param path which kernel to use; AUTO decides on each layer's local pattern
+   * @param keepAttention whether to keep each attention layer's weights (4 bytes per entry and
+   *     head)
+   * @return the targets' outputs, each layer's run (rows, entries, path, time) and, if asked, the
+   *     attention weights
+   * @throws IllegalArgumentException if the field was planned for another model, or the features do
+   *     not fit it (length, or a value that is NaN or infinite: the message names the node)
+   * @throws IllegalStateException if the path's kernel is not on the class path
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the dense path would exceed its
+   *     budget
+   */
+  public FieldOutput forward(
+      ReceptiveField field, float[] features, PathChoice path, boolean keepAttention) {
+    Objects.requireNonNull(field, "field");
+    Objects.requireNonNull(features, "features");
+    Objects.requireNonNull(path, "path");
+    if (field.layers() != layers) {
       throw new IllegalArgumentException(
-          "features must hold nodeCount * inputFeatureCount = "
-              + n
+          "the receptive field was planned for another model; plan it with this model's"
+              + " receptiveField(...)");
+    }
+    checkFeatures(features, field.nodeCount(), field);
+    checkRowWidths(field.nodeCount());
+    ForwardPass pass = new ForwardPass(field, path, kernels, keepAttention);
+    float[] x = runLayers(pass, features);
+    return new FieldOutput(field, classLabels.size(), x, pass.attention(), pass.layerRuns());
+  }
+
+  private float[] runLayers(ForwardPass pass, float[] features) {
+    float[] x = features;
+    for (int index = 0; index < layers.size(); index++) {
+      pass.startLayer(index);
+      long start = System.nanoTime();
+      x = layers.get(index).forward(x, pass);
+      pass.endLayer(layers.get(index), Math.max(0, System.nanoTime() - start));
+    }
+    return x;
+  }
+
+  private static void checkTargets(int[] targets, int n) {
+    for (int p = 0; p < targets.length; p++) {
+      if (targets[p] < 0 || targets[p] >= n) {
+        throw new IllegalArgumentException(
+            "node id "
+                + targets[p]
+                + " at position "
+                + p
+                + " is out of range; the graph has nodes 0.."
+                + (n - 1));
+      }
+    }
+  }
+
+  /** Checks the feature matrix's length and that every value is finite. */
+  private void checkFeatures(float[] features, int rows, ReceptiveField field) {
+    long expected = (long) rows * inputFeatureCount;
+    if (features.length != expected) {
+      String what = field == null ? "nodeCount" : "the field's nodeCount";
+      throw new IllegalArgumentException(
+          "features must hold "
+              + what
+              + " * inputFeatureCount = "
+              + rows
               + " * "
               + inputFeatureCount
               + " = "
@@ -289,21 +450,30 @@ public final class AttentionModel {
               + " values (row-major), got "
               + features.length
               + (features.length % Math.max(1, inputFeatureCount) == 0
-                  ? " (" + features.length / inputFeatureCount + " rows: does the graph match?)"
+                  ? " ("
+                      + features.length / inputFeatureCount
+                      + " rows: does the "
+                      + (field == null ? "graph" : "field")
+                      + " match?)"
                   : ""));
     }
     for (int i = 0; i < features.length; i++) {
       if (!Float.isFinite(features[i])) {
+        int row = i / inputFeatureCount;
         throw new IllegalArgumentException(
             "feature "
                 + i % inputFeatureCount
                 + " of node "
-                + i / inputFeatureCount
+                + (field == null ? row : field.nodeId(row) + " (field row " + row + ")")
                 + " is "
                 + features[i]
                 + "; features must be finite");
       }
     }
+  }
+
+  /** Checks that {@code n} rows of every layer's widest row fit in one Java array. */
+  private void checkRowWidths(int n) {
     for (Layer layer : layers) {
       if ((long) n * layer.widestRow() > Integer.MAX_VALUE - 8) {
         throw new IllegalArgumentException(
@@ -316,15 +486,6 @@ public final class AttentionModel {
                 + " values exceed one Java array; split the graph");
       }
     }
-    ForwardPass pass = new ForwardPass(graph, path, kernels, keepAttention);
-    float[] x = features;
-    for (int index = 0; index < layers.size(); index++) {
-      pass.startLayer(index);
-      long start = System.nanoTime();
-      x = layers.get(index).forward(x, pass);
-      pass.endLayer(layers.get(index), Math.max(0, System.nanoTime() - start));
-    }
-    return new ModelOutput(n, classLabels.size(), x, pass.attention(), pass.layerRuns());
   }
 
   @Override

@@ -144,7 +144,7 @@ public final class DenseLayer extends Layer {
     float[] y =
         ModelMath.project(
             input,
-            pass.nodeCount,
+            pass.rowsOut,
             inputWidth(),
             tensors.get(WEIGHT).values(),
             outputWidth(),

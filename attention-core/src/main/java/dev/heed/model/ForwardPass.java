@@ -12,16 +12,28 @@ import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
 
 /**
- * The state of one model call: the graph, the kernel choice and the attention weights recorded so
- * far. Created per call and confined to the calling thread.
+ * The state of one model call: the rows and pattern of the current layer, the kernel choice and the
+ * attention weights recorded so far. A whole-graph pass runs every layer over all n rows of its
+ * graph; a receptive-field pass takes each layer's rows and local pattern from its {@link
+ * ReceptiveField}. Created per call and confined to the calling thread.
  */
 final class ForwardPass {
 
   private static final Logger LOG = LoggerFactory.getLogger(ForwardPass.class);
   private static final AtomicBoolean WARNED_FALLBACK = new AtomicBoolean();
 
-  final AttentionPattern graph;
-  final int nodeCount;
+  /** The field of a receptive-field pass (or a whole-graph one), or null for a plain pass. */
+  private final ReceptiveField field;
+
+  /** Input rows of the current layer. */
+  int rowsIn;
+
+  /** Output rows of the current layer: the first {@code rowsOut} of its input rows. */
+  int rowsOut;
+
+  /** The pattern the current layer's graph attention runs over: square over {@code rowsIn}. */
+  AttentionPattern pattern;
+
   private final PathChoice choice;
   private final KernelSource kernels;
   private final boolean keepAttention;
@@ -29,24 +41,60 @@ final class ForwardPass {
   private final List<LayerRun> layerRuns = new ArrayList<>();
   private int layerIndex;
   private ComputePath layerPath;
+  private long layerEntries;
 
+  /** A pass over every node of {@code graph}. */
   ForwardPass(
       AttentionPattern graph, PathChoice choice, KernelSource kernels, boolean keepAttention) {
-    this.graph = graph;
-    this.nodeCount = graph.nodeCount();
+    this(null, graph, choice, kernels, keepAttention);
+  }
+
+  /** A pass over {@code field}'s rows. */
+  ForwardPass(
+      ReceptiveField field, PathChoice choice, KernelSource kernels, boolean keepAttention) {
+    this(field, field.wholePattern(), choice, kernels, keepAttention);
+  }
+
+  private ForwardPass(
+      ReceptiveField field,
+      AttentionPattern graph,
+      PathChoice choice,
+      KernelSource kernels,
+      boolean keepAttention) {
+    this.field = field;
     this.choice = choice;
     this.kernels = kernels;
     this.keepAttention = keepAttention;
+    if (graph != null) {
+      this.rowsIn = graph.nodeCount();
+      this.rowsOut = graph.nodeCount();
+      this.pattern = graph;
+    }
   }
 
   void startLayer(int index) {
     this.layerIndex = index;
     this.layerPath = null;
+    this.layerEntries = 0;
+    if (field != null && field.wholePattern() == null) {
+      rowsIn = field.rowsRead(index);
+      rowsOut = field.rowsComputed(index);
+      pattern = field.pattern(index);
+    }
   }
 
   /** Records how the current layer ran; call after {@link Layer#forward}. */
   void endLayer(Layer layer, long nanos) {
-    layerRuns.add(new LayerRun(layerIndex, layer.name(), layer.kind(), layerPath, nanos));
+    layerRuns.add(
+        new LayerRun(
+            layerIndex,
+            layer.name(),
+            layer.kind(),
+            layerPath,
+            nanos,
+            rowsIn,
+            rowsOut,
+            layerEntries));
   }
 
   List<LayerRun> layerRuns() {
@@ -58,8 +106,8 @@ final class ForwardPass {
   }
 
   /**
-   * Runs the kernel for one attention call and records its weights if asked to. Returns a new n ×
-   * valueWidth output array.
+   * Runs the kernel for one attention call and records its weights if asked to. Returns a new
+   * {@code pattern.nodeCount()} × valueWidth output array.
    */
   float[] attend(
       Layer layer,
@@ -71,7 +119,8 @@ final class ForwardPass {
       float[] value) {
     AttentionKernel kernel = kernelFor(pattern, score);
     layerPath = kernel.path();
-    float[] out = new float[nodeCount * shape.valueWidth()];
+    layerEntries += pattern.entryCount();
+    float[] out = new float[pattern.nodeCount() * shape.valueWidth()];
     float[] weights = null;
     if (keepAttention) {
       long size = pattern.entryCount() * shape.heads();
@@ -89,7 +138,14 @@ final class ForwardPass {
     }
     kernel.attend(pattern, score, shape, query, key, value, out, weights);
     if (weights != null) {
-      attention.add(new LayerAttention(layerIndex, layer.name(), pattern, shape.heads(), weights));
+      attention.add(
+          new LayerAttention(
+              layerIndex,
+              layer.name(),
+              pattern,
+              shape.heads(),
+              weights,
+              field == null || field.wholePattern() != null ? null : field));
     }
     return out;
   }

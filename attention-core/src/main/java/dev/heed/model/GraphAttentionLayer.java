@@ -3,6 +3,7 @@ package dev.heed.model;
 import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
+import java.util.Arrays;
 import java.util.List;
 import java.util.Map;
 import java.util.Objects;
@@ -386,8 +387,14 @@ public final class GraphAttentionLayer extends Layer {
   }
 
   @Override
+  Reach reach() {
+    return Reach.IN_NEIGHBOURS;
+  }
+
+  @Override
   float[] forward(float[] input, ForwardPass pass) {
-    int n = pass.nodeCount;
+    int n = pass.rowsIn;
+    int m = pass.rowsOut;
     int in = inputWidth();
     int hd = heads * headWidth;
     float[] query;
@@ -395,24 +402,27 @@ public final class GraphAttentionLayer extends Layer {
     float[] value;
     HeadShape shape;
     if (gatv2) {
-      query = ModelMath.project(input, n, in, tensors.get(TARGET_WEIGHT).values(), hd, null);
+      query =
+          ModelMath.padTo(
+              ModelMath.project(input, m, in, tensors.get(TARGET_WEIGHT).values(), hd, null),
+              n * hd);
       value = ModelMath.project(input, n, in, tensors.get(SOURCE_WEIGHT).values(), hd, null);
       key = value;
       shape = new HeadShape(heads, headWidth, headWidth);
     } else {
       value = ModelMath.project(input, n, in, tensors.get(WEIGHT).values(), hd, null);
-      query = headDots(value, n, tensors.get(TARGET_ATTENTION).values());
-      key = headDots(value, n, tensors.get(SOURCE_ATTENTION).values());
+      query = headDots(value, m, n, tensors.get(TARGET_ATTENTION).values());
+      key = headDots(value, n, n, tensors.get(SOURCE_ATTENTION).values());
       shape = new HeadShape(heads, 1, headWidth);
     }
-    float[] attended = pass.attend(this, pass.graph, score, shape, query, key, value);
+    float[] attended = pass.attend(this, pass.pattern, score, shape, query, key, value);
     float[] out;
     if (concat) {
-      out = attended;
+      out = attended.length == m * hd ? attended : Arrays.copyOf(attended, m * hd);
     } else {
-      out = new float[n * headWidth];
+      out = new float[m * headWidth];
       float inv = 1f / heads;
-      for (int i = 0; i < n; i++) {
+      for (int i = 0; i < m; i++) {
         for (int h = 0; h < heads; h++) {
           int base = (i * heads + h) * headWidth;
           for (int k = 0; k < headWidth; k++) {
@@ -434,7 +444,7 @@ public final class GraphAttentionLayer extends Layer {
       ModelMath.addInPlace(
           out,
           ModelMath.project(
-              input, n, in, tensors.get(RESIDUAL_WEIGHT).values(), outputWidth(), null));
+              input, m, in, tensors.get(RESIDUAL_WEIGHT).values(), outputWidth(), null));
     }
     activation.applyInPlace(out);
     return out;
@@ -442,11 +452,11 @@ public final class GraphAttentionLayer extends Layer {
 
   /**
    * Per node and head, the dot product of that head's projected features with a_target[h] or
-   * a_source[h].
+   * a_source[h], for the first {@code rows} of the {@code n} nodes (the rest stay zero).
    */
-  private float[] headDots(float[] projected, int n, float[] a) {
+  private float[] headDots(float[] projected, int rows, int n, float[] a) {
     float[] out = new float[n * heads];
-    for (int i = 0; i < n; i++) {
+    for (int i = 0; i < rows; i++) {
       for (int h = 0; h < heads; h++) {
         int base = (i * heads + h) * headWidth;
         float s = 0f;

@@ -80,12 +80,29 @@ public abstract sealed class Layer
     return Math.max(inputWidth, outputWidth);
   }
 
+  /** How far one output row of a layer reaches into its input rows. */
+  enum Reach {
+    /** Row i reads input row i only (dense, softmax). */
+    SELF,
+    /** Row i reads input rows i and its in-neighbours in the graph (graph attention). */
+    IN_NEIGHBOURS,
+    /** Row i reads every input row (full self-attention over the complete pattern). */
+    EVERY_NODE
+  }
+
+  /** Returns which input rows one output row reads; the receptive-field planner walks by it. */
+  Reach reach() {
+    return Reach.SELF;
+  }
+
   /**
-   * Runs the layer.
+   * Runs the layer over the pass's current rows: {@code pass.rowsIn} input rows, of which the first
+   * {@code pass.rowsOut} are computed (all of them in a whole-graph pass; in a receptive-field
+   * pass, the rows later layers need, which come first in the field's local order).
    *
-   * @param input n × inputWidth, row-major, not modified
-   * @param pass the call's graph, kernels and attention record
-   * @return a new n × outputWidth array
+   * @param input rowsIn × inputWidth, row-major, not modified
+   * @param pass the call's rows, pattern, kernels and attention record
+   * @return a new rowsOut × outputWidth array
    */
   abstract float[] forward(float[] input, ForwardPass pass);
 

@@ -6,9 +6,11 @@ import java.util.Optional;
 
 /**
  * How one layer ran in one {@link AttentionModel#forward} call: which attention path it took (for
- * {@link PathChoice#AUTO}, after any fallback) and how long it took on the wall clock. For reports
- * and diagnostics, such as the command-line tool's per-layer summary; not a benchmark (use JMH for
- * that).
+ * {@link PathChoice#AUTO}, after any fallback), how long it took on the wall clock, and how much it
+ * computed: the rows it read and computed and the attention entries it touched (all n rows in a
+ * whole-graph pass; the layer's share of the receptive field in a {@link ReceptiveField} pass). For
+ * reports and diagnostics, such as the command-line tool's per-layer summary; not a benchmark (use
+ * JMH for that).
  *
  * <p>Thread safety: immutable.
  */
@@ -19,13 +21,27 @@ public final class LayerRun {
   private final String kind;
   private final ComputePath path;
   private final long nanos;
+  private final int rowsRead;
+  private final int rowsComputed;
+  private final long entries;
 
-  LayerRun(int layerIndex, String layerName, String kind, ComputePath path, long nanos) {
+  LayerRun(
+      int layerIndex,
+      String layerName,
+      String kind,
+      ComputePath path,
+      long nanos,
+      int rowsRead,
+      int rowsComputed,
+      long entries) {
     this.layerIndex = layerIndex;
     this.layerName = Objects.requireNonNull(layerName, "layerName");
     this.kind = Objects.requireNonNull(kind, "kind");
     this.path = path;
     this.nanos = nanos;
+    this.rowsRead = rowsRead;
+    this.rowsComputed = rowsComputed;
+    this.entries = entries;
   }
 
   /**
@@ -72,6 +88,33 @@ public final class LayerRun {
    */
   public long nanos() {
     return nanos;
+  }
+
+  /**
+   * Returns how many input rows (nodes) the layer read.
+   *
+   * @return the rows read; n in a whole-graph pass
+   */
+  public int rowsRead() {
+    return rowsRead;
+  }
+
+  /**
+   * Returns how many output rows (nodes) the layer computed.
+   *
+   * @return the rows computed, at most {@link #rowsRead()}; n in a whole-graph pass
+   */
+  public int rowsComputed() {
+    return rowsComputed;
+  }
+
+  /**
+   * Returns how many attention entries (target, source pairs) the layer's kernel ran over.
+   *
+   * @return the entries; 0 for a layer that does not attend, n² for the complete pattern
+   */
+  public long entries() {
+    return entries;
   }
 
   @Override

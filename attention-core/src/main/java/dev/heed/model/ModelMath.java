@@ -1,6 +1,7 @@
 package dev.heed.model;
 
 import dev.heed.attention.internal.MatrixProduct;
+import java.util.Arrays;
 import java.util.ServiceLoader;
 import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
@@ -24,9 +25,9 @@ final class ModelMath {
   private ModelMath() {}
 
   /**
-   * {@code y = x · w (+ bias)}: x is n × in, w is in × out, y is n × out, all row-major.
-   * O(n·in·out). Large products use the plugged-in {@link MatrixProduct} if there is one, small
-   * ones (and all, without one) {@link #projectInJava}.
+   * {@code y = x · w (+ bias)}: x is n × in (x may hold more rows; only the first n are read), w is
+   * in × out, y is n × out, all row-major. O(n·in·out). Large products use the plugged-in {@link
+   * MatrixProduct} if there is one, small ones (and all, without one) {@link #projectInJava}.
    */
   static float[] project(float[] x, int n, int in, float[] w, int out, float[] bias) {
     MatrixProduct fast = LargeProducts.PLUGGED_IN;
@@ -39,7 +40,8 @@ final class ModelMath {
   /** The product with a plugged-in implementation, then the bias. */
   static float[] projectWith(
       MatrixProduct product, float[] x, int n, int in, float[] w, int out, float[] bias) {
-    float[] y = product.multiply(x, n, in, w, out);
+    float[] rows = x.length == n * in ? x : Arrays.copyOf(x, n * in);
+    float[] y = product.multiply(rows, n, in, w, out);
     assert y.length == n * out;
     if (bias != null) {
       addRowBias(y, out, bias);
@@ -69,7 +71,7 @@ final class ModelMath {
    * vectorises, and zero inputs are skipped (sparse features cost less).
    */
   static float[] projectInJava(float[] x, int n, int in, float[] w, int out, float[] bias) {
-    assert x.length == (long) n * in && w.length == (long) in * out;
+    assert x.length >= (long) n * in && w.length == (long) in * out;
     float[] y = new float[n * out];
     for (int i = 0; i < n; i++) {
       int yRow = i * out;
@@ -91,12 +93,17 @@ final class ModelMath {
     return y;
   }
 
-  /** {@code a += b}, element-wise. */
+  /** {@code a += b}, element-wise over a's length (b may be longer: its leading rows are added). */
   static void addInPlace(float[] a, float[] b) {
-    assert a.length == b.length;
+    assert a.length <= b.length;
     for (int i = 0; i < a.length; i++) {
       a[i] += b[i];
     }
+  }
+
+  /** Returns {@code x} if it has {@code length} elements, else a copy zero-padded to it. */
+  static float[] padTo(float[] x, int length) {
+    return x.length == length ? x : Arrays.copyOf(x, length);
   }
 
   /** Adds {@code bias} (length width) to every row of the n × width array {@code a}. */

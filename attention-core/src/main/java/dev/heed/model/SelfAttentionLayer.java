@@ -473,18 +473,27 @@ public final class SelfAttentionLayer extends Layer {
   }
 
   @Override
+  Reach reach() {
+    return complete ? Reach.EVERY_NODE : Reach.IN_NEIGHBOURS;
+  }
+
+  @Override
   float[] forward(float[] x, ForwardPass pass) {
-    int n = pass.nodeCount;
+    int n = pass.rowsIn;
+    int rows = pass.rowsOut;
     int m = inputWidth();
     boolean pre = normalization == Normalization.PRE;
     boolean post = normalization == Normalization.POST;
     float[] a = pre ? norm(x, ATTENTION_NORM) : x;
     float[] q =
-        ModelMath.project(a, n, m, values(QUERY_WEIGHT), heads * keyWidth, values(QUERY_BIAS));
+        ModelMath.padTo(
+            ModelMath.project(
+                a, rows, m, values(QUERY_WEIGHT), heads * keyWidth, values(QUERY_BIAS)),
+            n * heads * keyWidth);
     float[] k = ModelMath.project(a, n, m, values(KEY_WEIGHT), heads * keyWidth, values(KEY_BIAS));
     float[] v =
         ModelMath.project(a, n, m, values(VALUE_WEIGHT), heads * valueWidth, values(VALUE_BIAS));
-    AttentionPattern pattern = complete ? CompletePattern.of(n) : pass.graph;
+    AttentionPattern pattern = complete ? CompletePattern.of(n) : pass.pattern;
     float[] attended =
         pass.attend(
             this,
@@ -496,7 +505,7 @@ public final class SelfAttentionLayer extends Layer {
             v);
     float[] y =
         ModelMath.project(
-            attended, n, heads * valueWidth, values(OUTPUT_WEIGHT), m, values(OUTPUT_BIAS));
+            attended, rows, heads * valueWidth, values(OUTPUT_WEIGHT), m, values(OUTPUT_BIAS));
     if (residual) {
       ModelMath.addInPlace(y, x);
     }
@@ -507,12 +516,17 @@ public final class SelfAttentionLayer extends Layer {
       float[] b = pre ? norm(y, FEED_FORWARD_NORM) : y;
       float[] hidden =
           ModelMath.project(
-              b, n, m, values(FEED_FORWARD_WEIGHT1), feedForwardWidth, values(FEED_FORWARD_BIAS1));
+              b,
+              rows,
+              m,
+              values(FEED_FORWARD_WEIGHT1),
+              feedForwardWidth,
+              values(FEED_FORWARD_BIAS1));
       feedForwardActivation.applyInPlace(hidden);
       float[] z =
           ModelMath.project(
               hidden,
-              n,
+              rows,
               feedForwardWidth,
               values(FEED_FORWARD_WEIGHT2),
               m,

@@ -160,7 +160,8 @@ class NodeClassifierTest {
     }
   }
 
-  private static void assertSame(Classification a, Classification b, String where) {
+  /** Asserts equal predictions, top labels and explanations (bit for bit). */
+  static void assertSame(Classification a, Classification b, String where) {
     assertEquals(a.predictions().size(), b.predictions().size(), where);
     for (int i = 0; i < a.predictions().size(); i++) {
       NodePrediction p = a.predictions().get(i);

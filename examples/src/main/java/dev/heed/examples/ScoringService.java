@@ -65,13 +65,13 @@ import org.slf4j.LoggerFactory;
  * <h2>Design</h2>
  *
  * <p><b>Precomputed by default.</b> A graph attention model's answer for one node depends on its
- * neighbourhood, and {@link NodeClassifier} runs the model over the whole graph on every call, also
- * when asked for one node. With a graph and features that are fixed while the service runs, the
- * cheapest correct design is one forward pass at start-up (with explanations) and answers from
- * memory afterwards: each request then costs a hash lookup and some JSON. <b>On-demand</b> ({@code
+ * neighbourhood. With a graph and features that are fixed while the service runs, the cheapest
+ * correct design is one forward pass at start-up (with explanations) and answers from memory
+ * afterwards: each request then costs a hash lookup and some JSON. <b>On-demand</b> ({@code
  * fresh=true}) runs the model for that request; it shows the path a service would take when
  * features change between requests (then pass the current features instead of the start-up ones).
- * It costs one forward pass over the whole graph per request.
+ * {@link NodeClassifier} then computes only the node's receptive field (its in-neighbourhood of as
+ * many hops as the model has attention layers), not the whole graph.
  *
  * <p><b>Concurrency.</b> The model, the classifier, the graph and the features are immutable and
  * thread safe; each classify call uses its own scratch. Requests run on a fixed pool of {@code
