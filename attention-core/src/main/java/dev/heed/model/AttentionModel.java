@@ -5,6 +5,7 @@ import dev.heed.graph.AttentionPattern;
 import java.util.HashSet;
 import java.util.List;
 import java.util.Objects;
+import java.util.Optional;
 import java.util.Set;
 
 /**
@@ -29,6 +30,7 @@ public final class AttentionModel {
   private final List<Layer> layers;
   private final KernelOptions kernelOptions;
   private final KernelSource kernels;
+  private final CheckVectors checks; // null: none
 
   AttentionModel(
       int inputFeatureCount,
@@ -36,13 +38,15 @@ public final class AttentionModel {
       List<String> classLabels,
       List<Layer> layers,
       KernelOptions kernelOptions,
-      KernelSource kernels) {
+      KernelSource kernels,
+      CheckVectors checks) {
     this.inputFeatureCount = inputFeatureCount;
     this.featureNames = List.copyOf(featureNames);
     this.classLabels = List.copyOf(classLabels);
     this.layers = List.copyOf(layers);
     this.kernelOptions = kernelOptions;
     this.kernels = kernels;
+    this.checks = checks;
   }
 
   /**
@@ -135,7 +139,7 @@ public final class AttentionModel {
     }
     KernelOptions options = KernelOptions.defaults();
     return new AttentionModel(
-        inputs, names, labels, stack, options, KernelSource.fromClassPath(options));
+        inputs, names, labels, stack, options, KernelSource.fromClassPath(options), null);
   }
 
   /**
@@ -198,13 +202,61 @@ public final class AttentionModel {
         classLabels,
         layers,
         options,
-        KernelSource.fromClassPath(options));
+        KernelSource.fromClassPath(options),
+        checks);
   }
 
-  /** The same model with kernels from {@code source}; for tests. */
+  /** The same model with kernels from {@code source}; for tests and the reference check. */
   AttentionModel withKernelSource(KernelSource source) {
     return new AttentionModel(
-        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, source);
+        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, source, checks);
+  }
+
+  /**
+   * Returns the check vectors the model carries: inputs and the probabilities its exporter computed
+   * for them. {@link ModelFile#read} has compared them; {@link ModelFile#write} saves them.
+   *
+   * @return the check vectors, or empty if the model has none
+   */
+  public Optional<CheckVectors> checks() {
+    return Optional.ofNullable(checks);
+  }
+
+  /**
+   * Returns the same model carrying check vectors, which {@link ModelFile#write} then saves. They
+   * are not compared here (see {@link CheckVectors#compareWithReference}). The weights are shared,
+   * not copied.
+   *
+   * @param checks check vectors with this model's feature and class counts
+   * @return a new model
+   * @throws IllegalArgumentException if the counts differ from the model's
+   */
+  public AttentionModel withChecks(CheckVectors checks) {
+    Objects.requireNonNull(checks, "checks");
+    if (checks.featureCount() != inputFeatureCount || checks.classCount() != classLabels.size()) {
+      throw new IllegalArgumentException(
+          "check vectors of "
+              + checks.featureCount()
+              + " features and "
+              + checks.classCount()
+              + " classes do not fit a model of "
+              + inputFeatureCount
+              + " features and "
+              + classLabels.size()
+              + " classes");
+    }
+    return new AttentionModel(
+        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, kernels, checks);
+  }
+
+  /**
+   * Returns the same model without check vectors. The weights are shared, not copied.
+   *
+   * @return a new model
+   */
+  public AttentionModel withoutChecks() {
+    return new AttentionModel(
+        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, kernels, null);
   }
 
   /**
