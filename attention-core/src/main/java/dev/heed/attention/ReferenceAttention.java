@@ -145,6 +145,58 @@ public final class ReferenceAttention {
   }
 
   /**
+   * Returns the reference as an {@link AttentionKernel}: {@link #attend} after {@link
+   * AttentionKernels#checkCall}, its outputs and weights rounded to float32. Its {@link
+   * AttentionKernel#path()} says {@link ComputePath#SPARSE}, since it reads only the allowed pairs'
+   * scores into each row's softmax. For small inputs: O(n² · H · d) per call whatever the pattern.
+   * Model check vectors are compared on it (see {@code dev.heed.model.CheckVectors}).
+   *
+   * @return a stateless kernel, safe from any thread
+   */
+  public static AttentionKernel kernel() {
+    return RoundedKernel.INSTANCE;
+  }
+
+  /** {@link #attend} rounded into a kernel's float32 arrays. */
+  private enum RoundedKernel implements AttentionKernel {
+    INSTANCE;
+
+    @Override
+    public ComputePath path() {
+      return ComputePath.SPARSE;
+    }
+
+    @Override
+    public String describe() {
+      return "float64 reference attention";
+    }
+
+    @Override
+    public void attend(
+        AttentionPattern pattern,
+        ScoreFunction score,
+        HeadShape shape,
+        float[] query,
+        float[] key,
+        float[] value,
+        float[] out,
+        float[] weights) {
+      AttentionKernels.checkCall(pattern, score, shape, query, key, value, out, weights);
+      Result r = ReferenceAttention.attend(pattern, score, shape, query, key, value);
+      round(r.out(), out);
+      if (weights != null) {
+        round(r.weights(), weights);
+      }
+    }
+
+    private static void round(double[] from, float[] to) {
+      for (int i = 0; i < to.length; i++) {
+        to[i] = (float) from[i];
+      }
+    }
+  }
+
+  /**
    * Returns the largest absolute difference divided by the largest absolute reference value (a
    * norm-wise relative error; element-wise relative error is meaningless near zero).
    *

@@ -35,6 +35,7 @@ public final class AttentionModel {
   private final KernelOptions kernelOptions;
   private final KernelSource kernels;
   private final GraphConventions graphConventions; // null: not recorded
+  private final CheckVectors checks; // null: none
 
   AttentionModel(
       int inputFeatureCount,
@@ -42,18 +43,9 @@ public final class AttentionModel {
       List<String> classLabels,
       List<Layer> layers,
       KernelOptions kernelOptions,
-      KernelSource kernels) {
-    this(inputFeatureCount, featureNames, classLabels, layers, kernelOptions, kernels, null);
-  }
-
-  private AttentionModel(
-      int inputFeatureCount,
-      List<String> featureNames,
-      List<String> classLabels,
-      List<Layer> layers,
-      KernelOptions kernelOptions,
       KernelSource kernels,
-      GraphConventions graphConventions) {
+      GraphConventions graphConventions,
+      CheckVectors checks) {
     this.inputFeatureCount = inputFeatureCount;
     this.featureNames = List.copyOf(featureNames);
     this.classLabels = List.copyOf(classLabels);
@@ -61,6 +53,7 @@ public final class AttentionModel {
     this.kernelOptions = kernelOptions;
     this.kernels = kernels;
     this.graphConventions = graphConventions;
+    this.checks = checks;
   }
 
   /**
@@ -153,7 +146,7 @@ public final class AttentionModel {
     }
     KernelOptions options = KernelOptions.defaults();
     return new AttentionModel(
-        inputs, names, labels, stack, options, KernelSource.fromClassPath(options));
+        inputs, names, labels, stack, options, KernelSource.fromClassPath(options), null, null);
   }
 
   /**
@@ -213,7 +206,14 @@ public final class AttentionModel {
   public AttentionModel withGraphConventions(GraphConventions conventions) {
     Objects.requireNonNull(conventions, "conventions");
     return new AttentionModel(
-        inputFeatureCount, featureNames, classLabels, layers, kernelOptions, kernels, conventions);
+        inputFeatureCount,
+        featureNames,
+        classLabels,
+        layers,
+        kernelOptions,
+        kernels,
+        conventions,
+        checks);
   }
 
   /**
@@ -241,10 +241,11 @@ public final class AttentionModel {
         layers,
         options,
         KernelSource.fromClassPath(options),
-        graphConventions);
+        graphConventions,
+        checks);
   }
 
-  /** The same model with kernels from {@code source}; for tests. */
+  /** The same model with kernels from {@code source}; for tests and the reference check. */
   AttentionModel withKernelSource(KernelSource source) {
     return new AttentionModel(
         inputFeatureCount,
@@ -253,7 +254,8 @@ public final class AttentionModel {
         layers,
         kernelOptions,
         source,
-        graphConventions);
+        graphConventions,
+        checks);
   }
 
   /**
@@ -270,6 +272,67 @@ public final class AttentionModel {
       }
     }
     return false;
+  }
+
+  /**
+   * Returns the check vectors the model carries: inputs and the probabilities its exporter computed
+   * for them. {@link ModelFile#read} has compared them; {@link ModelFile#write} saves them.
+   *
+   * @return the check vectors, or empty if the model has none
+   */
+  public Optional<CheckVectors> checks() {
+    return Optional.ofNullable(checks);
+  }
+
+  /**
+   * Returns the same model carrying check vectors, which {@link ModelFile#write} then saves. They
+   * are not compared here (see {@link CheckVectors#compareWithReference}). The weights are shared,
+   * not copied.
+   *
+   * @param checks check vectors with this model's feature and class counts
+   * @return a new model
+   * @throws IllegalArgumentException if the counts differ from the model's
+   */
+  public AttentionModel withChecks(CheckVectors checks) {
+    Objects.requireNonNull(checks, "checks");
+    if (checks.featureCount() != inputFeatureCount || checks.classCount() != classLabels.size()) {
+      throw new IllegalArgumentException(
+          "check vectors of "
+              + checks.featureCount()
+              + " features and "
+              + checks.classCount()
+              + " classes do not fit a model of "
+              + inputFeatureCount
+              + " features and "
+              + classLabels.size()
+              + " classes");
+    }
+    return new AttentionModel(
+        inputFeatureCount,
+        featureNames,
+        classLabels,
+        layers,
+        kernelOptions,
+        kernels,
+        graphConventions,
+        checks);
+  }
+
+  /**
+   * Returns the same model without check vectors. The weights are shared, not copied.
+   *
+   * @return a new model
+   */
+  public AttentionModel withoutChecks() {
+    return new AttentionModel(
+        inputFeatureCount,
+        featureNames,
+        classLabels,
+        layers,
+        kernelOptions,
+        kernels,
+        graphConventions,
+        null);
   }
 
   /**

@@ -48,13 +48,18 @@ import java.util.Set;
  * version are rejected with a message saying so), every key (unknown keys are errors, catching
  * typos), each layer kind, the width chain from the input features to the class count, and every
  * tensor's type, shape (against the hyper-parameters) and values (finite after rounding to
- * float32). Tensors not used by any layer are errors too. Weights are held as float32.
+ * float32). Tensors not used by any layer (or by the check vectors) are errors too. Weights are
+ * held as float32. A file with {@link CheckVectors} (optional) is then run over them, and a
+ * probability that deviates from the expected one by more than their tolerance is an error naming
+ * the deviation, the row and the class: this catches weights in the wrong layout, such as a square
+ * weight stored transposed, which pass every shape check.
  *
  * <p>Writing is deterministic (see {@link Npz}): the description with every hyper-parameter spelled
- * out, then the tensors as float32 in layer order. This class is the only writer of the format in
- * Heed: a model built in Java ({@link AttentionModel#of}) or trained by {@code attention-train} is
- * saved through {@link #write} too. Read → write → read gives a model with identical weights, and
- * writing it again gives identical bytes.
+ * out, then the tensors as float32 in layer order, then the check vectors' tensors if the model has
+ * them. This class is the only writer of the format in Heed: a model built in Java ({@link
+ * AttentionModel#of}) or trained by {@code attention-train} is saved through {@link #write} too.
+ * Read → write → read gives a model with identical weights, and writing it again gives identical
+ * bytes.
  *
  * <p>Cost: O(file size). Thread safety: stateless; safe from any thread.
  */
@@ -79,7 +84,8 @@ public final class ModelFile {
           "feature_names",
           "class_labels",
           "graph",
-          "layers");
+          "layers",
+          CheckEntries.KEY);
 
   private static final ObjectMapper JSON =
       JsonMapper.builder(
@@ -105,7 +111,7 @@ public final class ModelFile {
    * @param file the model file
    * @return the validated model, using kernels with {@link KernelOptions#defaults()}
    * @throws ModelFormatException if the file is malformed or inconsistent (the message names the
-   *     layer and tensor at fault)
+   *     layer and tensor at fault), or the model does not reproduce its check vectors
    * @throws IOException if the file cannot be read
    */
   public static AttentionModel read(Path file) throws IOException {
@@ -118,13 +124,35 @@ public final class ModelFile {
    * @param file the model file
    * @param limits size limits for the archive
    * @return the validated model
-   * @throws ModelFormatException if the file is malformed, inconsistent or over a limit
+   * @throws ModelFormatException if the file is malformed, inconsistent or over a limit, or the
+   *     model does not reproduce its check vectors
    * @throws IOException if the file cannot be read
    */
   public static AttentionModel read(Path file, NpyLimits limits) throws IOException {
+    return read(file, limits, true);
+  }
+
+  /**
+   * Reads a model file like {@link #read(Path, NpyLimits)} but does not run the model over its
+   * check vectors: they are validated and kept ({@link AttentionModel#checks()}), and the caller
+   * compares them itself ({@link CheckVectors#compareWithReference}). For tools that report the
+   * deviation rather than fail, such as {@code heed check-model}.
+   *
+   * @param file the model file
+   * @param limits size limits for the archive
+   * @return the validated model, its check vectors not yet compared
+   * @throws ModelFormatException if the file is malformed, inconsistent or over a limit
+   * @throws IOException if the file cannot be read
+   */
+  public static AttentionModel readUnverified(Path file, NpyLimits limits) throws IOException {
+    return read(file, limits, false);
+  }
+
+  private static AttentionModel read(Path file, NpyLimits limits, boolean verify)
+      throws IOException {
     Objects.requireNonNull(file, "file");
     try (InputStream in = new BufferedInputStream(Files.newInputStream(file))) {
-      return read(in, file.getFileName().toString(), limits);
+      return read(in, file.getFileName().toString(), limits, verify);
     }
   }
 
@@ -135,10 +163,16 @@ public final class ModelFile {
    * @param name a name for the input, used in error messages
    * @param limits size limits for the archive
    * @return the validated model
-   * @throws ModelFormatException if the input is malformed, inconsistent or over a limit
+   * @throws ModelFormatException if the input is malformed, inconsistent or over a limit, or the
+   *     model does not reproduce its check vectors
    * @throws IOException if the stream fails
    */
   public static AttentionModel read(InputStream in, String name, NpyLimits limits)
+      throws IOException {
+    return read(in, name, limits, true);
+  }
+
+  private static AttentionModel read(InputStream in, String name, NpyLimits limits, boolean verify)
       throws IOException {
     Objects.requireNonNull(in, "in");
     Objects.requireNonNull(name, "name");
@@ -197,7 +231,7 @@ public final class ModelFile {
           null,
           e);
     }
-    return parse(name, root, contents.arrays());
+    return parse(name, root, contents.arrays(), verify);
   }
 
   /**
@@ -209,7 +243,7 @@ public final class ModelFile {
    * @param tensors input, not modified: the tensors by name
    * @return the validated model
    * @throws ModelFormatException if the description or a tensor is invalid (the message names the
-   *     layer and tensor)
+   *     layer and tensor), or the model does not reproduce its check vectors
    */
   public static AttentionModel fromParts(String description, Map<String, NpyArray> tensors)
       throws ModelFormatException {
@@ -222,7 +256,7 @@ public final class ModelFile {
       throw new ModelFormatException(
           "description: not valid JSON: " + e.getOriginalMessage(), null, null, e);
     }
-    return parse("description", root, Map.copyOf(tensors));
+    return parse("description", root, Map.copyOf(tensors), true);
   }
 
   private static String tensorOf(String entry) {
@@ -235,7 +269,8 @@ public final class ModelFile {
     return new ModelFormatException(name + ": " + problem, null, null, null);
   }
 
-  private static AttentionModel parse(String name, JsonNode root, Map<String, NpyArray> arrays)
+  private static AttentionModel parse(
+      String name, JsonNode root, Map<String, NpyArray> arrays, boolean verifyChecks)
       throws ModelFormatException {
     if (root == null || !root.isObject()) {
       throw top(name, DESCRIPTION_ENTRY + " must hold a JSON object");
@@ -336,6 +371,11 @@ public final class ModelFile {
     } catch (IllegalArgumentException e) {
       throw new ModelFormatException(name + ": " + e.getMessage(), null, null, e);
     }
+    if (root.has(CheckEntries.KEY)) {
+      model =
+          model.withChecks(
+              CheckEntries.read(name, root.get(CheckEntries.KEY), arrays, used, model));
+    }
     for (String tensor : arrays.keySet()) {
       if (!used.contains(tensor)) {
         throw new ModelFormatException(
@@ -344,6 +384,9 @@ public final class ModelFile {
     }
     if (root.has("graph")) {
       model = model.withGraphConventions(graphConventions(name, root.get("graph")));
+    }
+    if (verifyChecks && model.checks().isPresent()) {
+      CheckEntries.verify(name, model);
     }
     return model;
   }
@@ -441,6 +484,7 @@ public final class ModelFile {
         arrays.putIfAbsent(t.name(), NpyArray.ofFloats(t.values(), t.shape()));
       }
     }
+    model.checks().ifPresent(checks -> CheckEntries.write(root, arrays, checks));
     byte[] description;
     try {
       description = (JSON.writeValueAsString(root) + "\n").getBytes(StandardCharsets.UTF_8);

@@ -3,10 +3,13 @@ package dev.heed.attention;
 import dev.heed.graph.AttentionPattern;
 
 /**
- * The float64 reference wrapped as an {@link AttentionKernel}, rounding to float32 at the end. For
- * tests of code that needs some kernel (layers, models) without depending on a fast one.
+ * The float64 reference wrapped as an {@link AttentionKernel} ({@link
+ * ReferenceAttention#kernel()}), rounding to float32 at the end. For tests of code that needs some
+ * kernel (layers, models) without depending on a fast one.
  */
 public final class ReferenceAttentionKernel implements AttentionKernel {
+
+  private final AttentionKernel reference = ReferenceAttention.kernel();
 
   @Override
   public ComputePath path() {
@@ -28,16 +31,6 @@ public final class ReferenceAttentionKernel implements AttentionKernel {
       float[] value,
       float[] out,
       float[] weights) {
-    AttentionKernels.checkCall(pattern, score, shape, query, key, value, out, weights);
-    ReferenceAttention.Result r =
-        ReferenceAttention.attend(pattern, score, shape, query, key, value);
-    for (int i = 0; i < out.length; i++) {
-      out[i] = (float) r.out()[i];
-    }
-    if (weights != null) {
-      for (int i = 0; i < weights.length; i++) {
-        weights[i] = (float) r.weights()[i];
-      }
-    }
+    reference.attend(pattern, score, shape, query, key, value, out, weights);
   }
 }

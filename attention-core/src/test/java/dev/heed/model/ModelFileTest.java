@@ -290,6 +290,144 @@ class ModelFileTest {
         assertThrows(ModelFormatException.class, () -> TestModels.load(notJson)), "not valid JSON");
   }
 
+  /**
+   * The check vectors catch what no shape check can: each square weight of the fixture ([12, 12])
+   * stored transposed, as a stack that keeps linear weights as [out, in] would write it. The
+   * expected probabilities come from docs/export_model.py's NumPy forward pass, an evaluation of
+   * the equations in docs/model-format.md (Veličković et al. 2018, Brody et al. 2022, Vaswani et
+   * al. 2017) written independently of Heed.
+   */
+  @Test
+  void transposedSquareWeightFailsTheCheckVectors() throws IOException {
+    for (String tensor :
+        new String[] {
+          "gat2.target_weight", "gat2.source_weight", "full.query_weight", "full.output_weight"
+        }) {
+      NpyArray weight = TestModels.fixtureContents().arrays().get(tensor);
+      ModelFormatException e = broken(SAME, a -> a.put(tensor, TestModels.transposed(weight)));
+      assertMentions(
+          e,
+          "test.heed: the model does not reproduce its check vectors",
+          "largest deviation",
+          "at check row",
+          ", class '",
+          "tolerance 1.0e-04",
+          "docs/export_model.py",
+          "[in, out]",
+          "write W.T instead");
+      assertTrue(e.layer().isEmpty() && e.tensor().isEmpty(), tensor);
+    }
+  }
+
+  @Test
+  void aModelWithoutCheckVectorsStillLoads() throws IOException {
+    AttentionModel stripped =
+        TestModels.load(
+            TestModels.modelBytes(
+                JSON.writeValueAsBytes(description().without(CheckEntries.KEY)),
+                withoutChecks(TestModels.fixtureContents().arrays())));
+    assertTrue(stripped.checks().isEmpty());
+    byte[] written = ModelFile.toBytes(stripped);
+    assertTrue(
+        !new String(written, StandardCharsets.ISO_8859_1).contains("checks/"),
+        "no check entries are written for a model without them");
+    assertTrue(TestModels.load(written).checks().isEmpty());
+  }
+
+  private static Map<String, NpyArray> withoutChecks(Map<String, NpyArray> arrays) {
+    Map<String, NpyArray> out = new LinkedHashMap<>(arrays);
+    out.keySet().removeIf(k -> k.startsWith(CheckEntries.TENSOR_PREFIX));
+    return out;
+  }
+
+  private static ObjectNode checks(ObjectNode description) {
+    return (ObjectNode) description.get(CheckEntries.KEY);
+  }
+
+  @Test
+  void malformedCheckEntriesNameTheTensor() throws IOException {
+    Map<String, NpyArray> fixture = TestModels.fixtureContents().arrays();
+    ModelFormatException shape =
+        broken(SAME, a -> a.put("checks/features", NpyArray.ofFloats(new float[8 * 4], 8, 4)));
+    assertMentions(
+        shape,
+        "test.heed: checks: tensor 'checks/features' (role features)",
+        "shape [8, 4], expected [8, 5] (nodes × input_features)");
+    assertEquals("checks/features", shape.tensor().orElseThrow());
+
+    assertMentions(
+        broken(
+            SAME, a -> a.put("checks/probabilities", NpyArray.ofDoubles(new double[8 * 2], 8, 2))),
+        "role probabilities",
+        "expected [8, 3] (nodes × classes)");
+
+    double[] p = fixture.get("checks/probabilities").toDoubles();
+    p[3 * 3 + 1] = Double.NaN;
+    ModelFormatException nan =
+        broken(SAME, a -> a.put("checks/probabilities", NpyArray.ofDoubles(p, 8, 3)));
+    assertMentions(nan, "tensor 'checks/probabilities'", "NaN at row 3, column 1");
+    assertEquals("checks/probabilities", nan.tensor().orElseThrow());
+
+    float[] x = fixture.get("checks/features").toFloats();
+    x[2 * 5 + 4] = Float.POSITIVE_INFINITY;
+    assertMentions(
+        broken(SAME, a -> a.put("checks/features", NpyArray.ofFloats(x, 8, 5))),
+        "tensor 'checks/features'",
+        "Infinity at row 2, column 4");
+
+    double[] scores = fixture.get("checks/probabilities").toDoubles();
+    scores[0] = 0.9;
+    scores[1] = 0.9;
+    assertMentions(
+        broken(SAME, a -> a.put("checks/probabilities", NpyArray.ofDoubles(scores, 8, 3))),
+        "row 0 sums to",
+        "not scores");
+
+    assertMentions(
+        broken(SAME, a -> a.put("checks/row_offsets", NpyArray.ofFloats(new float[9], 9))),
+        "tensor 'checks/row_offsets' (role row_offsets)",
+        "type <f4; expected '<i4' or '<i8'");
+    int[] columns = fixture.get("checks/columns").toInts();
+    columns[columns.length - 1] = 8;
+    assertMentions(
+        broken(SAME, a -> a.put("checks/columns", NpyArray.ofInts(columns, columns.length))),
+        "not a CSR graph",
+        "column index out of range in row 7");
+    assertMentions(
+        broken(SAME, a -> a.put("checks/row_offsets", NpyArray.ofInts(new int[300], 300))),
+        "a check graph needs 1..256 nodes, got 299");
+    assertMentions(broken(SAME, a -> a.remove("checks/columns")), "no entry 'checks/columns.npy'");
+    assertMentions(
+        broken(d -> ((ObjectNode) checks(d).get("tensors")).remove("columns"), SAME_ARRAYS),
+        "tensor role 'columns' must name a tensor");
+    assertMentions(
+        broken(
+            d -> ((ObjectNode) checks(d).get("tensors")).put("features", "gat1.weight"),
+            a -> a.remove("checks/features")),
+        "tensor 'gat1.weight' (role features) is used elsewhere too");
+    assertMentions(
+        broken(d -> checks(d).put("tolerence", 1e-4), SAME_ARRAYS),
+        "checks: unknown key 'tolerence'");
+    assertMentions(
+        broken(d -> checks(d).put("tolerance", 0.5), SAME_ARRAYS),
+        "tolerance must be a number in (0, 0.01], got 0.5");
+    assertMentions(
+        broken(d -> d.remove(CheckEntries.KEY), SAME_ARRAYS),
+        "tensor 'checks/row_offsets' is not used by any layer");
+  }
+
+  /** Moving one expected probability by 6 × the tolerance is caught, at that row and class. */
+  @Test
+  void aDeviationIsReportedAtItsRowAndClass() throws IOException {
+    double[] p = TestModels.fixtureContents().arrays().get("checks/probabilities").toDoubles();
+    p[5 * 3] -= 3e-4;
+    p[5 * 3 + 1] += 6e-4;
+    p[5 * 3 + 2] -= 3e-4;
+    ModelFormatException e =
+        broken(SAME, a -> a.put("checks/probabilities", NpyArray.ofDoubles(p, 8, 3)));
+    assertMentions(e, "largest deviation 6.0", "at check row 5, class 'beta'");
+  }
+
   @Test
   void buildsFromPartsInMemoryWithTheSameValidation() throws IOException {
     NpzContents contents = TestModels.fixtureContents();

@@ -66,6 +66,34 @@ public final class TestModels {
         new ByteArrayInputStream(resource("mixed.heed")), "mixed.heed", NpyLimits.defaults());
   }
 
+  /**
+   * Returns a square [n, n] tensor with rows and columns swapped, as float32: a weight as a stack
+   * that keeps linear weights as [out, in] would store it.
+   */
+  public static NpyArray transposed(NpyArray square) {
+    int n = square.dimension(0);
+    if (square.rank() != 2 || square.dimension(1) != n) {
+      throw new IllegalArgumentException("not a square matrix: " + square);
+    }
+    float[] w = square.toFloats();
+    float[] t = new float[w.length];
+    for (int r = 0; r < n; r++) {
+      for (int c = 0; c < n; c++) {
+        t[c * n + r] = w[r * n + c];
+      }
+    }
+    return NpyArray.ofFloats(t, n, n);
+  }
+
+  /** Returns model-file bytes with one square tensor transposed (see {@link #transposed}). */
+  public static byte[] withTransposed(byte[] modelFile, String tensor) throws IOException {
+    NpzContents contents =
+        Npz.read(new ByteArrayInputStream(modelFile), "model", NpyLimits.defaults());
+    Map<String, NpyArray> arrays = new java.util.LinkedHashMap<>(contents.arrays());
+    arrays.put(tensor, transposed(arrays.get(tensor)));
+    return modelBytes(contents.otherEntry(ModelFile.DESCRIPTION_ENTRY).orElseThrow(), arrays);
+  }
+
   /** Builds model-file bytes from a description and arrays. */
   public static byte[] modelBytes(byte[] description, Map<String, NpyArray> arrays) {
     return Npz.toBytes(Map.of(ModelFile.DESCRIPTION_ENTRY, description), arrays);

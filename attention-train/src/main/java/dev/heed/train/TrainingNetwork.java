@@ -1,9 +1,12 @@
 package dev.heed.train;
 
+import dev.heed.graph.CsrGraph;
 import dev.heed.model.AttentionModel;
+import dev.heed.model.CheckVectors;
 import dev.heed.model.Layer;
 import dev.heed.model.ModelFile;
 import dev.heed.model.SoftmaxLayer;
+import dev.heed.train.attention.Float64AttentionForward;
 import dev.heed.train.layer.Parameter;
 import dev.heed.train.layer.PassContext;
 import dev.heed.train.layer.TrainingLayer;
@@ -32,6 +35,10 @@ public final class TrainingNetwork {
 
   /** Name of the softmax layer {@link #toModel} appends. */
   public static final String SOFTMAX_LAYER_NAME = "probabilities";
+
+  /** What the check vectors of {@link #toModel} say computed them. */
+  public static final String CHECKS_COMPUTED_BY =
+      "attention-train TrainingNetwork (float64 evaluation pass, Float64AttentionForward)";
 
   private final List<TrainingLayer> layers;
   private final List<Parameter> parameters;
@@ -193,9 +200,18 @@ public final class TrainingNetwork {
    * saves it. The served probabilities equal this network's evaluation-mode forward pass followed
    * by a softmax, to float32 rounding.
    *
+   * <p>The model carries check vectors ({@link CheckVectors}, {@code docs/model-format.md}): the
+   * probabilities of this network's own evaluation pass, in float64 with the parameters rounded to
+   * float32 as the model holds them and float64 attention ({@link Float64AttentionForward}, not a
+   * serving kernel), over {@link CheckVectors#sampleGraph()} and {@link
+   * CheckVectors#sampleFeatures}, with {@link CheckVectors#DEFAULT_TOLERANCE}. {@link ModelFile}
+   * writes them and compares them on every read. Computing them runs one evaluation pass over those
+   * 8 nodes, which replaces what the layers keep for {@link #backward}: call this after training,
+   * not between a forward pass and its backward pass. The parameters are left as they were.
+   *
    * @param classLabels one label per class output, distinct, in the order of the outputs
    * @param featureNames one name per input feature in column order, or empty for none
-   * @return the model, using kernels with the default options
+   * @return the model with its check vectors, using kernels with the default options
    * @throws IllegalArgumentException if a layer has no serving form (the message says which and
    *     why), or the label or feature-name counts disagree with the network
    */
@@ -224,6 +240,57 @@ public final class TrainingNetwork {
       served.add(layers.get(i).export("layer" + i));
     }
     served.add(SoftmaxLayer.of(SOFTMAX_LAYER_NAME, classCount()));
-    return AttentionModel.of(served, labels, names);
+    return AttentionModel.of(served, labels, names).withChecks(checkVectors());
+  }
+
+  /** The check vectors of {@link #toModel}; see there. */
+  private CheckVectors checkVectors() {
+    CsrGraph graph = CheckVectors.sampleGraph();
+    float[] features = CheckVectors.sampleFeatures(inputWidth());
+    double[] input = new double[features.length];
+    for (int i = 0; i < input.length; i++) {
+      input[i] = features[i];
+    }
+    List<double[]> trained = new ArrayList<>(parameters.size());
+    for (Parameter p : parameters) {
+      double[] v = p.value();
+      trained.add(v.clone());
+      for (int i = 0; i < v.length; i++) {
+        v[i] = (float) v[i];
+      }
+    }
+    double[] logits;
+    try {
+      logits = forward(input, PassContext.evaluation(graph, new Float64AttentionForward()));
+    } finally {
+      for (int k = 0; k < parameters.size(); k++) {
+        double[] v = trained.get(k);
+        System.arraycopy(v, 0, parameters.get(k).value(), 0, v.length);
+      }
+    }
+    int classes = classCount();
+    double[] probabilities = new double[logits.length];
+    for (int row = 0; row < logits.length / classes; row++) {
+      double max = Double.NEGATIVE_INFINITY;
+      for (int c = 0; c < classes; c++) {
+        max = Math.max(max, logits[row * classes + c]);
+      }
+      double sum = 0;
+      for (int c = 0; c < classes; c++) {
+        probabilities[row * classes + c] = StrictMath.exp(logits[row * classes + c] - max);
+        sum += probabilities[row * classes + c];
+      }
+      for (int c = 0; c < classes; c++) {
+        probabilities[row * classes + c] /= sum;
+      }
+    }
+    return CheckVectors.of(
+        graph,
+        features,
+        inputWidth(),
+        probabilities,
+        classes,
+        CheckVectors.DEFAULT_TOLERANCE,
+        CHECKS_COMPUTED_BY);
   }
 }

@@ -1,5 +1,6 @@
 package dev.heed.train;
 
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
@@ -14,8 +15,11 @@ import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
 import dev.heed.model.Activation;
 import dev.heed.model.AttentionModel;
+import dev.heed.model.CheckVectors;
 import dev.heed.model.ModelFile;
+import dev.heed.model.ModelFormatException;
 import dev.heed.model.PathChoice;
+import dev.heed.model.TestModels;
 import dev.heed.train.attention.AttentionScore;
 import dev.heed.train.attention.KernelAttentionForward;
 import dev.heed.train.layer.DenseTrainingLayer;
@@ -153,7 +157,16 @@ class ModelFileRoundTripTest {
 
       Path file = dir.resolve("network" + k + "-" + path + ".heed");
       ModelFile.write(network.toModel(LABELS, featureNames()), file);
-      AttentionModel model = ModelFile.read(file);
+      AttentionModel model = ModelFile.read(file); // compares the trainer's check vectors
+      assertEquals(
+          TrainingNetwork.CHECKS_COMPUTED_BY, model.checks().orElseThrow().computedBy(), where);
+      CheckVectors.Deviation served =
+          model
+              .checks()
+              .orElseThrow()
+              .compare(model, path == ComputePath.DENSE ? PathChoice.DENSE : PathChoice.SPARSE);
+      LOG.info("{}: check vectors on the serving kernel, {}", where, served.describe("-"));
+      assertTrue(served.withinTolerance(), where + ": " + served.describe("-"));
       assertEquals(LABELS, model.classLabels(), where);
       assertEquals(featureNames(), model.featureNames(), where);
       NodeClassifier classifier =
@@ -179,6 +192,46 @@ class ModelFileRoundTripTest {
       LOG.info("{}: served vs trainer probabilities, relative error {}", where, relative);
       assertTrue(relative < 1e-5, where + ": relative error " + relative);
     }
+  }
+
+  /**
+   * A square weight stored transposed (the [out, in] layout of many stacks) has a valid shape, so
+   * only the check vectors can catch it: the trainer's float64 evaluation pass (its own layers and
+   * {@code Float64AttentionForward}, the equations of Brody et al. 2022 and Veličković et al. 2018
+   * written apart from the serving code) computed them before the weight was transposed.
+   */
+  @Test
+  void aTransposedSquareWeightFailsTheTrainersCheckVectors() throws IOException {
+    TrainingNetwork network = NETWORKS.get(1).apply(FEATURES); // GATv2 12 -> 3 x 4, then GAT
+    FullBatchTrainer.withKernel(kernel(ComputePath.SPARSE))
+        .train(network, data, TrainingSettings.builder().maxEpochs(5).seed(9).build(), p -> {});
+    byte[] file = ModelFile.toBytes(network.toModel(LABELS));
+    AttentionModel good = TestModels.load(file);
+    assertTrue(good.checks().isPresent());
+    for (String tensor : List.of("layer0.target_weight", "layer0.source_weight", "layer1.weight")) {
+      assertArrayEquals(
+          new int[] {FEATURES, FEATURES}, shapeOf(good, tensor), tensor + " is square");
+      ModelFormatException e =
+          assertThrows(
+              ModelFormatException.class,
+              () -> TestModels.load(TestModels.withTransposed(file, tensor)),
+              tensor);
+      LOG.info("{} transposed: {}", tensor, e.getMessage());
+      assertTrue(e.getMessage().contains("does not reproduce its check vectors"), e.getMessage());
+      assertTrue(e.getMessage().contains("largest deviation"), e.getMessage());
+      assertTrue(e.getMessage().contains("at check row"), e.getMessage());
+      assertTrue(e.getMessage().contains(TrainingNetwork.CHECKS_COMPUTED_BY), e.getMessage());
+    }
+  }
+
+  private static int[] shapeOf(AttentionModel model, String tensor) {
+    int dot = tensor.indexOf('.');
+    for (dev.heed.model.Layer layer : model.layers()) {
+      if (layer.name().equals(tensor.substring(0, dot))) {
+        return layer.tensorShape(tensor.substring(dot + 1));
+      }
+    }
+    throw new AssertionError("no tensor " + tensor);
   }
 
   @Test

@@ -16,6 +16,7 @@ import picocli.CommandLine.Command;
     subcommands = {
       ClassifyCommand.class,
       InspectCommand.class,
+      CheckModelCommand.class,
       TrainCommand.class,
       VerifyCommand.class,
       BenchCommand.class
@@ -28,7 +29,7 @@ public final class HeedCli implements Runnable {
   /** Exit code for a command-line usage error (picocli's convention). */
   public static final int EXIT_USAGE = 2;
 
-  /** Exit code when {@code verify} finds an error above tolerance. */
+  /** Exit code when {@code verify} or {@code check-model} finds an error above tolerance. */
   public static final int EXIT_VERIFY_FAILED = 3;
 
   /** Exit code for an unexpected internal error. */

@@ -25,16 +25,17 @@ import picocli.CommandLine.Option;
 import picocli.CommandLine.Spec;
 
 /**
- * {@code heed inspect}: validates a model file (the full reader runs first) and prints its format
- * version, input features, class labels and layers with their tensors' shapes and parameter counts.
+ * {@code heed inspect}: validates a model file (the full reader runs first, check vectors included)
+ * and prints its format version, input features, class labels, layers with their tensors' shapes
+ * and parameter counts, and whether it carries check vectors.
  */
 @Command(
     name = "inspect",
     mixinStandardHelpOptions = true,
     versionProvider = HeedCli.Version.class,
     description =
-        "Describe a model file: format version, features, labels, layers, tensor shapes and"
-            + " parameter counts. The file is fully validated first.")
+        "Describe a model file: format version, features, labels, layers, tensor shapes,"
+            + " parameter counts and check vectors. The file is fully validated first.")
 final class InspectCommand implements Callable<Integer> {
 
   @Spec CommandSpec spec;
@@ -101,6 +102,16 @@ final class InspectCommand implements Callable<Integer> {
       }
     }
     out.printf(Locale.ROOT, "parameters: %,d (float32, %,d bytes)%n", total, 4 * total);
+    out.println(
+        m.checks()
+            .map(
+                c ->
+                    CheckModelCommand.describe(c)
+                        + String.format(
+                            Locale.ROOT,
+                            "; largest deviation %.2e on the float64 reference",
+                            c.compareWithReference(m).largest()))
+            .orElse("check vectors: none"));
     out.flush();
     return 0;
   }

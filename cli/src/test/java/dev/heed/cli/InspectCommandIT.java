@@ -40,6 +40,8 @@ class InspectCommandIT {
         out.lines().anyMatch(l -> l.contains("probabilities") && l.contains("softmax")), out);
     // Sum of the fixture's tensor sizes (the .npy entries of mixed.heed).
     assertTrue(out.contains("parameters: 2,395 (float32, 9,580 bytes)"), out);
+    // the check vectors docs/export_model.py wrote (its 8-node sample graph)
+    assertTrue(out.contains("check vectors: 8 nodes, 23 entries, tolerance 1.0e-04"), out);
   }
 
   @Test

@@ -1,5 +1,6 @@
 package dev.heed.demo;
 
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertNotNull;
 import static org.junit.jupiter.api.Assertions.assertTrue;
@@ -10,9 +11,14 @@ import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
 import dev.heed.graph.CsrGraph;
 import dev.heed.model.AttentionModel;
+import dev.heed.model.CheckVectors;
+import dev.heed.model.Layer;
 import dev.heed.model.ModelFile;
 import dev.heed.model.PathChoice;
 import dev.heed.npy.NpyLimits;
+import dev.heed.train.TrainingNetwork;
+import dev.heed.train.layer.Parameter;
+import java.io.ByteArrayInputStream;
 import java.io.IOException;
 import java.io.InputStream;
 import java.util.List;
@@ -37,6 +43,43 @@ class BundledDemoModelTest {
 
   /** Floor on TEST recall of mule-ring accounts (recorded figure in demo/README.md). */
   static final double MULE_RECALL_FLOOR = 0.85;
+
+  /**
+   * The committed file is what the trainer's export writes for its weights, check vectors included:
+   * the demo network ({@link DemoTraining#gat}) given the committed weights and exported through
+   * {@link TrainingNetwork#toModel} gives the committed bytes. So retraining reproduces the file
+   * byte for byte, and its check vectors are the trainer's own float64 evaluation pass, which
+   * loading the file compares with the serving layers.
+   */
+  @Test
+  void committedFileIsTheTrainersExportOfItsWeights() throws IOException {
+    byte[] committed;
+    try (InputStream in = BundledDemoModelTest.class.getResourceAsStream("payments-demo.heed")) {
+      committed = in.readAllBytes();
+    }
+    AttentionModel model =
+        ModelFile.read(
+            new ByteArrayInputStream(committed), "payments-demo.heed", NpyLimits.defaults());
+    CheckVectors checks = model.checks().orElseThrow();
+    assertEquals(TrainingNetwork.CHECKS_COMPUTED_BY, checks.computedBy());
+    LOG.info(
+        "committed demo model, check vectors on the sparse path: {}",
+        checks.compare(model, PathChoice.SPARSE).describe("-"));
+    TrainingNetwork network = DemoTraining.gat(PaymentsNetworkGenerator.FEATURE_NAMES.size());
+    for (int i = 0; i < network.layers().size(); i++) {
+      Layer served = model.layers().get(i);
+      for (Parameter p : network.layers().get(i).parameters()) {
+        float[] stored = served.tensorValues(p.name());
+        for (int k = 0; k < stored.length; k++) {
+          p.value()[k] = stored[k];
+        }
+      }
+    }
+    assertArrayEquals(
+        committed,
+        ModelFile.toBytes(
+            network.toModel(PaymentsNetwork.ROLES, PaymentsNetworkGenerator.FEATURE_NAMES)));
+  }
 
   @Test
   void committedModelKeepsItsHeldOutAccuracy() throws IOException {

@@ -9,8 +9,9 @@ import dev.heed.graph.AttentionPattern;
  * entry-major, CSR entry order or row-major {@code i * n + j} for the complete pattern).
  *
  * <p>The production implementation is {@link KernelAttentionForward}, which runs the serving
- * kernel, so training and serving share one forward pass. Tests may plug in a float64 evaluation of
- * the same equations to check gradients against finite differences.
+ * kernel, so training and serving share one forward pass. {@link Float64AttentionForward} evaluates
+ * the same equations in float64 without a kernel: gradient checks against finite differences use
+ * it, and so do the check vectors of exported models.
  *
  * <p>Thread safety: implementations state their own; {@link KernelAttentionForward} is immutable
  * and may be shared.

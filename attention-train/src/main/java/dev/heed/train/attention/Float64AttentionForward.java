@@ -4,11 +4,18 @@ import dev.heed.attention.HeadShape;
 import dev.heed.graph.AttentionPattern;
 
 /**
- * A plain float64 evaluation of the attention equations, for gradient checks only: finite
- * differences need a forward pass without float32 rounding. Same equations as the float64 reference
- * of attention-core ({@code ReferenceAttention}): additive (Veličković et al. 2018, eq. 1), GATv2
- * (Brody et al. 2022), scaled dot-product (Vaswani et al. 2017, eq. 1), softmax with the row
- * maximum subtracted (common practice). Weights entry-major in the pattern's entry order.
+ * A plain float64 evaluation of the attention equations, independent of the serving kernels: for
+ * gradient checks (finite differences need a forward pass without float32 rounding) and for the
+ * check vectors {@link dev.heed.train.TrainingNetwork#toModel} attaches to exported models. Same
+ * equations as the float64 reference of attention-core ({@code ReferenceAttention}), written
+ * separately: additive (Veličković et al. 2018, eq. 1), GATv2 (Brody et al. 2022), scaled
+ * dot-product (Vaswani et al. 2017, eq. 1), softmax with the row maximum subtracted (common
+ * practice); a row with no sources gives zeros. Weights entry-major in the pattern's entry order.
+ * Exponentials use {@link StrictMath}, so results are the same bits on every JVM.
+ *
+ * <p>Cost: O(n² + E·H·d) per call (every pair's {@code allows} is asked): for small graphs only.
+ *
+ * <p>Thread safety: stateless; safe from any thread.
  */
 public final class Float64AttentionForward implements AttentionForward {
 
@@ -27,6 +34,11 @@ public final class Float64AttentionForward implements AttentionForward {
     int heads = shape.heads();
     int dk = shape.keyDim();
     int dv = shape.valueDim();
+    checkLength("query", query.length, (long) n * shape.keyWidth());
+    checkLength("key", key.length, (long) n * shape.keyWidth());
+    checkLength("value", value.length, (long) n * shape.valueWidth());
+    checkLength("out", out.length, (long) n * shape.valueWidth());
+    checkLength("weights", weights.length, pattern.entryCount() * heads);
     java.util.Arrays.fill(out, 0.0);
     int entry = 0;
     int[] sources = new int[n];
@@ -50,7 +62,7 @@ public final class Float64AttentionForward implements AttentionForward {
         }
         double sum = 0;
         for (int t = 0; t < deg; t++) {
-          e[t] = Math.exp(e[t] - max);
+          e[t] = StrictMath.exp(e[t] - max);
           sum += e[t];
         }
         for (int t = 0; t < deg; t++) {
@@ -64,6 +76,13 @@ public final class Float64AttentionForward implements AttentionForward {
         }
       }
       entry += deg;
+    }
+  }
+
+  private static void checkLength(String what, int length, long expected) {
+    if (length != expected) {
+      throw new IllegalArgumentException(
+          what + " must have length " + expected + " for this pattern and shape, got " + length);
     }
   }
 
