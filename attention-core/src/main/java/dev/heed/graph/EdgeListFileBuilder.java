@@ -715,7 +715,6 @@ public final class EdgeListFileBuilder<V> {
           problem = "expected two fields separated by " + delimiterName() + ", found one";
           char other = otherDelimiterIn(b, s, e);
           if (other != 0) {
-            problem += ", but the line holds " + describe(other) + ": is that the delimiter?";
             remedy = EdgeListFormatException.Remedy.DELIMITER;
             remedyValue = other == '\t' ? "\\t" : String.valueOf(other);
           } else {

@@ -73,7 +73,7 @@ public final class EdgeListFormatException extends IOException {
   private static String describe(Remedy remedy, String value) {
     return switch (remedy) {
       case NONE -> "";
-      case DELIMITER -> "; set delimiter('" + value + "')";
+      case DELIMITER -> "; the line holds '" + value + "': set delimiter('" + value + "')";
       case HEADER -> "; if it is a header line, set header(true)";
       case EXTRA_COLUMNS ->
           "; choose the id columns (sourceColumn, targetColumn) or pass over the others"

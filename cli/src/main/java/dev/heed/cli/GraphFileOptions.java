@@ -4,9 +4,11 @@ import dev.heed.demo.DemoGraph;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.EdgeListFileBuilder;
+import dev.heed.graph.EdgeListFormatException;
 import dev.heed.graph.EdgeListResult;
 import dev.heed.graph.SelfLoopPolicy;
 import java.io.IOException;
+import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.List;
 import java.util.Locale;
@@ -14,9 +16,10 @@ import java.util.Set;
 import picocli.CommandLine.Option;
 
 /**
- * How {@code heed classify} reads an edge-list file into a graph. The defaults are the demo's
- * policy ({@link DemoGraph}): edges {@code source -> target}, made undirected (symmetrised), a
- * self-loop added to every node, repeated edges merged.
+ * How {@code heed classify} and {@code heed train} read an edge-list file into a graph: one option
+ * group, the same names and defaults in both. The defaults are the demo's policy ({@link
+ * DemoGraph}): edges {@code source -> target}, made undirected (symmetrised), a self-loop added to
+ * every node, repeated edges merged.
  */
 final class GraphFileOptions {
 
@@ -44,7 +47,7 @@ final class GraphFileOptions {
       paramLabel = "D",
       defaultValue = "auto",
       description =
-          "Field delimiter of the graph and features files: auto (by extension: .tsv tab, .csv"
+          "Field delimiter of the graph, features and labels files: auto (by extension: .tsv tab, .csv"
               + " comma; otherwise sniffed from the first line), comma, tab, space, ';' or '|'."
               + " Default: ${DEFAULT-VALUE}.")
   String delimiter;
@@ -56,9 +59,32 @@ final class GraphFileOptions {
       description =
           "Whether the graph file's first line is a header. auto: yes when a field of the first"
               + " line is a usual column name (source, target, src, dst, from, to, sender,"
-              + " receiver, node, u, v). Lines starting with # are comments. Default:"
-              + " ${DEFAULT-VALUE}.")
+              + " receiver, node, u, v) or a column is chosen by name. Lines starting with # are"
+              + " comments; fields may be quoted (RFC 4180). Default: ${DEFAULT-VALUE}.")
   String edgeHeader;
+
+  @Option(
+      names = "--source-column",
+      paramLabel = "NAME|N",
+      description =
+          "The column holding the source ids: a header name, or a column number from 1 (default:"
+              + " the first column). Choosing a column passes over the file's other columns.")
+  String sourceColumn;
+
+  @Option(
+      names = "--target-column",
+      paramLabel = "NAME|N",
+      description =
+          "The column holding the target ids: a header name, or a column number from 1 (default:"
+              + " the second column).")
+  String targetColumn;
+
+  @Option(
+      names = "--ignore-extra-columns",
+      description =
+          "Pass over columns after the two ids (weights, timestamps); without it such a line is"
+              + " an error, so a file of another shape is noticed.")
+  boolean ignoreExtraColumns;
 
   @Option(
       names = "--direction",
@@ -66,7 +92,8 @@ final class GraphFileOptions {
       defaultValue = "symmetrise",
       description =
           "symmetrise: every edge counts both ways; keep: a line 's,t' makes t attend to s only."
-              + " Default: ${DEFAULT-VALUE}.")
+              + " Default: ${DEFAULT-VALUE}, for classify and train alike (the demo model's"
+              + " convention, as are the self-loop and duplicate defaults).")
   String direction;
 
   @Option(
@@ -137,18 +164,103 @@ final class GraphFileOptions {
     if (!List.of("auto", "yes", "no").contains(edgeHeader.toLowerCase(Locale.ROOT))) {
       throw usage("--edge-header", edgeHeader, "auto, yes or no");
     }
+    for (String column : new String[] {sourceColumn, targetColumn}) {
+      if (column != null) {
+        if (column.isBlank()) {
+          throw new CliException("a column name must not be empty", HeedCli.EXIT_USAGE);
+        }
+        columnNumber(column);
+      }
+    }
+    if (isName(sourceColumn) || isName(targetColumn)) {
+      if (edgeHeader.equalsIgnoreCase("no")) {
+        throw new CliException(
+            "--source-column and --target-column name header columns, but --edge-header is no;"
+                + " give column numbers (from 1) instead, or let the header be read",
+            HeedCli.EXIT_USAGE);
+      }
+    }
   }
 
-  /** Reads the graph; ids are text, numbered in order of first appearance. */
-  EdgeListResult<String> read(Path file) throws IOException {
+  /**
+   * Reads the graph; ids are text, numbered in order of first appearance. A line the reader cannot
+   * take fails with the option that would read it.
+   */
+  EdgeListResult<String> read(Path file, ProgressDisplay progress) throws IOException {
     char d = TextFields.delimiterOf(file, delimiterSetting());
-    return EdgeListFileBuilder.stringIds(file)
-        .delimiter(d)
-        .header(hasHeader(file, d))
-        .direction(directionPolicy())
-        .selfLoops(selfLoopPolicy())
-        .duplicates(duplicatePolicy())
-        .build();
+    boolean header = hasHeader(file, d);
+    headerUsed = header;
+    EdgeListFileBuilder<String> builder =
+        EdgeListFileBuilder.stringIds(file)
+            .delimiter(d)
+            .header(header)
+            .ignoreExtraColumns(ignoreExtraColumns)
+            .direction(directionPolicy())
+            .selfLoops(selfLoopPolicy())
+            .duplicates(duplicatePolicy());
+    if (sourceColumn != null) {
+      int n = columnNumber(sourceColumn);
+      if (n >= 0) {
+        builder.sourceColumn(n);
+      } else {
+        builder.sourceColumn(sourceColumn);
+      }
+    }
+    if (targetColumn != null) {
+      int n = columnNumber(targetColumn);
+      if (n >= 0) {
+        builder.targetColumn(n);
+      } else {
+        builder.targetColumn(targetColumn);
+      }
+    }
+    try (ProgressDisplay.Bar bar = progress.bytes("read graph", 2 * Files.size(file))) {
+      long size = Files.size(file);
+      builder.progress((pass, passes, done, total) -> bar.stepTo((pass - 1) * size + done));
+      return builder.build();
+    } catch (EdgeListFormatException e) {
+      throw new CliException(
+          e.file() + ", line " + e.lineNumber() + ": " + e.reason() + remedy(e),
+          HeedCli.EXIT_USER_ERROR);
+    }
+  }
+
+  /** Whether the graph file's first line was taken as a header by the last {@link #read}. */
+  boolean headerUsed() {
+    return headerUsed;
+  }
+
+  private boolean headerUsed;
+
+  /** The option that reads a line the reader rejected, as a clause to append. */
+  private static String remedy(EdgeListFormatException e) {
+    return switch (e.remedy()) {
+      case NONE -> "";
+      case DELIMITER ->
+          "; the line holds '" + e.remedyValue() + "': use --delimiter '" + e.remedyValue() + "'";
+      case HEADER -> "; if it is a header line, add --edge-header yes";
+      case EXTRA_COLUMNS ->
+          "; choose the id columns with --source-column and --target-column, or add"
+              + " --ignore-extra-columns";
+    };
+  }
+
+  /** A column given as a number from 1, as a 0-based index; -1 for a name. */
+  private static int columnNumber(String value) {
+    if (!value.matches("[0-9]+")) {
+      return -1;
+    }
+    int n;
+    try {
+      n = Integer.parseInt(value);
+    } catch (NumberFormatException e) {
+      n = 0;
+    }
+    if (n < 1) {
+      throw new CliException(
+          "a column number counts from 1, got '" + value + "'", HeedCli.EXIT_USAGE);
+    }
+    return n - 1;
   }
 
   /** Describes the policies for the summary. */
@@ -167,17 +279,24 @@ final class GraphFileOptions {
       case "no":
         return false;
       default:
-        String first = TextFields.firstDataLine(file);
+        if (isName(sourceColumn) || isName(targetColumn)) {
+          return true;
+        }
+        List<String> first = TextFields.firstRow(file, d);
         if (first == null) {
           return false;
         }
-        for (String field : TextFields.split(first, d)) {
+        for (String field : first) {
           if (HEADER_NAMES.contains(field.toLowerCase(Locale.ROOT))) {
             return true;
           }
         }
         return false;
     }
+  }
+
+  private static boolean isName(String column) {
+    return column != null && columnNumber(column) < 0;
   }
 
   private static CliException usage(String option, String value, String expected) {
