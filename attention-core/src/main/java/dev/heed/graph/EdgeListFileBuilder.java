@@ -548,7 +548,7 @@ public final class EdgeListFileBuilder<V> {
               }
             }
             if (atFileStart && (length >= UTF8_BOM.length || eof)) {
-              atFileStart = false;
+              atFileStart = false; // nothing was consumed yet: buf starts at the file's start
               if (startsWithBom(buf, length)) {
                 pos = UTF8_BOM.length;
               }
@@ -556,6 +556,7 @@ public final class EdgeListFileBuilder<V> {
             continue;
           }
           int next = end < length ? end + 1 : length;
+          atFileStart = false;
           line++;
           long recordLine = line;
           line += recordNewlines;

@@ -48,7 +48,12 @@ final class FeatureFiles {
   record Read(FeatureTable<String> table, List<String> names, String description) {}
 
   static Read read(
-      Path file, Path idsFile, char delimiterSetting, NodeIndex<String> nodes, Expected expected)
+      Path file,
+      Path idsFile,
+      char delimiterSetting,
+      NodeIndex<String> nodes,
+      Expected expected,
+      ProgressDisplay progress)
       throws IOException {
     String name = file.getFileName().toString().toLowerCase(Locale.ROOT);
     Read read;
@@ -74,7 +79,9 @@ final class FeatureFiles {
                 + " column",
             HeedCli.EXIT_USAGE);
       }
-      read = readText(file, TextFields.delimiterOf(file, delimiterSetting), expected);
+      try (ProgressDisplay.Bar bar = progress.bytes("read features", Files.size(file))) {
+        read = readText(file, TextFields.delimiterOf(file, delimiterSetting), expected, bar);
+      }
     }
     checkWidth(file, read.table().rows().featureCount(), expected);
     return read;
@@ -146,7 +153,8 @@ final class FeatureFiles {
     return v < n;
   }
 
-  private static Read readText(Path file, char delimiter, Expected expected) throws IOException {
+  private static Read readText(
+      Path file, char delimiter, Expected expected, ProgressDisplay.Bar bar) throws IOException {
     List<String> ids = new ArrayList<>();
     List<float[]> rows = new ArrayList<>();
     Map<String, Long> lineOf = new HashMap<>();
@@ -155,6 +163,7 @@ final class FeatureFiles {
     TextFields.readRows(
         file,
         delimiter,
+        bar,
         row -> {
           List<String> fields = row.fields();
           long line = row.line();
@@ -185,7 +194,8 @@ final class FeatureFiles {
                     + Math.max(f, 1)
                     + " numbers, separated by "
                     + TextFields.describe(delimiter)
-                    + ")",
+                    + ")"
+                    + delimiterHint(fields, delimiter),
                 HeedCli.EXIT_USER_ERROR);
           }
           String id = fields.get(0);
@@ -216,6 +226,20 @@ final class FeatureFiles {
         FeatureTable.of(ids, NodeFeatures.of(rows.toArray(new float[0][]))),
         List.copyOf(names),
         "ids in its first column");
+  }
+
+  /** For a line read as one field: the usual delimiter it holds, as the option that reads it. */
+  static String delimiterHint(List<String> fields, char delimiter) {
+    if (fields.size() != 1) {
+      return "";
+    }
+    for (char c : new char[] {'\t', ';', '|', ','}) {
+      if (c != delimiter && fields.get(0).indexOf(c) >= 0) {
+        String value = c == '\t' ? "tab" : "'" + c + "'";
+        return "; the line holds " + value + ": use --delimiter " + value;
+      }
+    }
+    return "";
   }
 
   /** The features aligned to {@code nodes}, which must hold every id of the table. */

@@ -55,7 +55,7 @@ record GraphInputs(
     long graphDone = System.nanoTime();
     FeatureFiles.Read rows =
         FeatureFiles.read(
-            featuresFile, featureIds, options.delimiterSetting(), read.nodes(), expected);
+            featuresFile, featureIds, options.delimiterSetting(), read.nodes(), expected, progress);
     List<String> extra;
     try {
       extra = rows.table().idsNotIn(read.nodes());

@@ -1,7 +1,9 @@
 package dev.heed.cli;
 
 import java.io.BufferedReader;
+import java.io.FilterReader;
 import java.io.IOException;
+import java.io.Reader;
 import java.io.UncheckedIOException;
 import java.nio.charset.CharacterCodingException;
 import java.nio.charset.StandardCharsets;
@@ -100,9 +102,15 @@ final class TextFields {
    * fields. Errors become {@link CliException}s naming the file and line.
    */
   static void readRows(Path file, char delimiter, RowHandler handler) throws IOException {
+    readRows(file, delimiter, ProgressDisplay.Bar.NONE, handler);
+  }
+
+  /** {@link #readRows(Path, char, RowHandler)}, moving {@code bar} by the characters read. */
+  static void readRows(Path file, char delimiter, ProgressDisplay.Bar bar, RowHandler handler)
+      throws IOException {
     long line = 0;
     try (BufferedReader in = open(file);
-        CSVParser parser = format(delimiter).parse(in)) {
+        CSVParser parser = format(delimiter).parse(new CountingReader(in, bar))) {
       Iterator<CSVRecord> records = parser.iterator();
       while (true) {
         CSVRecord record;
@@ -112,7 +120,7 @@ final class TextFields {
           }
           record = records.next();
         } catch (UncheckedIOException e) {
-          throw unreadable(file, parser.getCurrentLineNumber() + 1, e.getCause());
+          throw unreadable(file, parser.getCurrentLineNumber(), e.getCause());
         }
         line = parser.getCurrentLineNumber();
         List<String> fields = new ArrayList<>(record.size());
@@ -129,21 +137,52 @@ final class TextFields {
     }
   }
 
-  private static CliException unreadable(Path file, long line, IOException cause) {
+  private static CliException unreadable(Path file, long linesRead, IOException cause) {
     if (cause instanceof CharacterCodingException) {
       return new CliException(
-          file + ", line " + line + ": not valid UTF-8 text", HeedCli.EXIT_USER_ERROR);
+          file + ", line " + (linesRead + 1) + ": not valid UTF-8 text", HeedCli.EXIT_USER_ERROR);
     }
     String message = cause == null ? "unreadable" : String.valueOf(cause.getMessage());
+    // Commons CSV names the line itself; the message leads with it instead.
+    message = message.replaceAll(" ?(at )?\\(?line:? \\d+\\)?,? ?(position: \\d+)?", "").strip();
+    if (!message.isEmpty()) {
+      message = Character.toLowerCase(message.charAt(0)) + message.substring(1);
+    }
     return new CliException(
         file
             + ", line "
-            + line
+            + linesRead
             + ": "
             + message
             + " (a field in double quotes ends at the next lone quote; a quote inside one is"
             + " written \"\")",
         HeedCli.EXIT_USER_ERROR);
+  }
+
+  /** Tells a progress bar how many characters have been read (about one per byte). */
+  private static final class CountingReader extends FilterReader {
+    private static final long STEP = 1 << 22;
+    private final ProgressDisplay.Bar bar;
+    private long count;
+    private long reported;
+
+    CountingReader(Reader in, ProgressDisplay.Bar bar) {
+      super(in);
+      this.bar = bar;
+    }
+
+    @Override
+    public int read(char[] buffer, int offset, int length) throws IOException {
+      int n = super.read(buffer, offset, length);
+      if (n > 0) {
+        count += n;
+        if (count - reported >= STEP) {
+          reported = count;
+          bar.stepTo(count);
+        }
+      }
+      return n;
+    }
   }
 
   /** The first record that is neither blank nor a comment, parsed as CSV, or null. */

@@ -269,14 +269,14 @@ final class TrainCommand implements Callable<Integer> {
         labelTable.train.length,
         labelTable.validation.length,
         labelTable.test.length);
+    if (labelTable.header != null) {
+      out.println("labels: line 1 read as a header " + labelTable.header);
+    }
     out.flush();
     var kernel = FullBatchTrainer.defaultKernel();
     TrainingReport report;
     try (Progress progress = new Progress(epochs)) {
       report = FullBatchTrainer.withKernel(kernel).train(network, data, settings, progress);
-    }
-    if (labelTable.header != null) {
-      out.println("labels: line 1 read as a header " + labelTable.header);
     }
     ModelFileWriter.to(this.out, labelTable.classes)
         .featureNames(g.featureNames())
@@ -372,7 +372,8 @@ final class TrainCommand implements Callable<Integer> {
                 row.line(),
                 f.size()
                     + " fields, expected id,label[,split] separated by "
-                    + TextFields.describe(delimiter));
+                    + TextFields.describe(delimiter)
+                    + FeatureFiles.delimiterHint(f, delimiter));
           }
           rows.add(row);
         });
