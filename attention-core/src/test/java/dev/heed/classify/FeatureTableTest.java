@@ -174,6 +174,33 @@ class FeatureTableTest {
   }
 
   @Test
+  void textIdsInAnNpzSayWhereTextIdsGo() throws IOException {
+    // numpy.savez(f, features=x, node_ids=numpy.array(["a", "b"])) stores node_ids as '<U1'
+    String dict = "{'descr': '<U1', 'fortran_order': False, 'shape': (2,), }";
+    int headerLength = 128 - 10;
+    StringBuilder header = new StringBuilder(dict);
+    while (header.length() < headerLength - 1) {
+      header.append(' ');
+    }
+    header.append('\n');
+    java.io.ByteArrayOutputStream npy = new java.io.ByteArrayOutputStream();
+    npy.write(new byte[] {(byte) 0x93, 'N', 'U', 'M', 'P', 'Y', 1, 0, (byte) headerLength, 0});
+    npy.write(header.toString().getBytes(StandardCharsets.ISO_8859_1));
+    npy.write(new byte[] {'a', 0, 0, 0, 'b', 0, 0, 0});
+    Path file = dir.resolve("text.npz");
+    try (java.util.zip.ZipOutputStream zip =
+        new java.util.zip.ZipOutputStream(Files.newOutputStream(file))) {
+      zip.putNextEntry(new java.util.zip.ZipEntry("node_ids.npy"));
+      zip.write(npy.toByteArray());
+      zip.closeEntry();
+    }
+    NpyFormatException ex =
+        assertThrows(NpyFormatException.class, () -> FeatureTable.readNpz(file));
+    assertTrue(ex.getMessage().contains("'<U1'"), ex.getMessage());
+    assertTrue(ex.getMessage().contains("save the features as .npy and the ids"), ex.getMessage());
+  }
+
+  @Test
   void positionalRowsAreIdsZeroToNMinusOne() {
     FeatureTable<Long> t = FeatureTable.positional(rowsFor(List.of(0L, 1L, 2L), 2));
     assertEquals(List.of(0L, 1L, 2L), t.ids());
