@@ -1,18 +1,22 @@
 package dev.heed.classify;
 
+import dev.heed.graph.NodeIndex;
 import dev.heed.npy.Npy;
 import dev.heed.npy.NpyArray;
 import dev.heed.npy.NpyLimits;
 import java.io.IOException;
 import java.nio.file.Path;
 import java.util.Arrays;
+import java.util.List;
 import java.util.Objects;
 
 /**
  * An immutable n × f matrix of node features (row i = node i), float32, every value finite. Created
  * from {@code float[][]}, row-major values, or a {@code .npy} file read with Heed's safe reader
  * (from an ND4J array: {@code dev.heed.attention.dense.Nd4jFeatures} in {@code attention-dense}).
- * All factories copy their input.
+ * All factories copy their input. Rows are matched to nodes by position; rows that come with their
+ * node ids are put in a graph's node order by {@link #byId(NodeIndex, List, NodeFeatures)} or
+ * {@link FeatureTable}.
  *
  * <p>Memory: 4·n·f bytes. Thread safety: immutable.
  */
@@ -114,16 +118,50 @@ public final class NodeFeatures implements FeatureRows {
    * @throws IOException if the file cannot be read
    */
   public static NodeFeatures readNpy(Path file, NpyLimits limits) throws IOException {
-    NpyArray array = Npy.read(file, limits);
+    return fromArray(Npy.read(file, limits), file.toString());
+  }
+
+  /**
+   * Features from a 2-D float array read by Heed's reader; {@code name} names it in errors.
+   *
+   * @throws dev.heed.npy.NpyFormatException if the array is not 2-D float with a column
+   */
+  static NodeFeatures fromArray(NpyArray array, String name)
+      throws dev.heed.npy.NpyFormatException {
     if (array.rank() != 2 || !array.dataType().isFloatingPoint() || array.dimension(1) < 1) {
       throw new dev.heed.npy.NpyFormatException(
-          file.toString(),
+          name,
           "features must be a 2-D float32 or float64 array [nodes, features], got "
               + array.dataType().descriptor()
               + " of shape "
               + Arrays.toString(array.shape()));
     }
     return ofRowMajor(array.toFloats(), array.dimension(0), array.dimension(1));
+  }
+
+  /**
+   * Puts rows that come with node ids into a graph's node order: row i of the result is the row
+   * whose id is {@code nodes.idOf(i)}, so the rows may come in any order. The same as {@code
+   * FeatureTable.of(ids, rows).alignTo(nodes)}; see {@link FeatureTable} for reading such rows from
+   * files. O(n·f).
+   *
+   * @param nodes the graph's node index (for example {@code EdgeListResult.nodes()} or {@code
+   *     IndexedGraph.nodes()})
+   * @param ids input, not modified: the id of each row of {@code rows}, in row order
+   * @param rows the rows, one per id, not modified
+   * @param <K> the id type
+   * @return the features in node order
+   * @throws IllegalArgumentException naming how many and which ids (up to five) when nodes have no
+   *     row, rows have no node, an id has two rows, or the counts of ids and rows differ
+   */
+  public static <K> NodeFeatures byId(
+      NodeIndex<K> nodes, List<? extends K> ids, NodeFeatures rows) {
+    return FeatureTable.<K>of(ids, rows).alignTo(nodes);
+  }
+
+  /** Wraps values this package just made; no copy, no check. */
+  static NodeFeatures adopt(float[] values, int nodeCount, int featureCount) {
+    return new NodeFeatures(nodeCount, featureCount, values);
   }
 
   /**

@@ -11,6 +11,7 @@ import java.nio.file.Files;
 import java.nio.file.Path;
 import java.nio.file.attribute.FileTime;
 import java.util.ArrayList;
+import java.util.Arrays;
 import java.util.List;
 import java.util.Objects;
 import org.slf4j.Logger;
@@ -33,15 +34,20 @@ import org.slf4j.LoggerFactory;
  * int bob = read.nodes().requireIndexOf("bob"); // bob attends to alice, carol and himself
  * }</pre>
  *
- * <p><b>Lines.</b> Line numbers count every line from 1. Blank lines and lines starting with the
- * comment prefix (after leading spaces; default {@value #DEFAULT_COMMENT_PREFIX}) carry no edge and
- * are passed over. With {@link #header(boolean) header(true)} the first other line is a header and
- * is passed over. Every other line must have exactly two non-empty fields; spaces around fields are
- * removed. There is no quoting: a field is taken as it stands, so ids cannot contain the delimiter.
- * A line that breaks these rules fails the build with an {@link EdgeListFormatException} naming the
- * file, the line number and the fault; in {@link #lenient(boolean) lenient} mode it is skipped
- * instead and reported in {@link EdgeListResult#skipped()} (a count plus the first {@value
- * SkippedLines#MAX_REPORTED} line numbers and reasons). Nothing is skipped silently.
+ * <p><b>Lines.</b> Line numbers count every line from 1. A UTF-8 byte order mark at the start is
+ * passed over, and lines may end in CRLF. Blank lines and lines starting with the comment prefix
+ * (after leading spaces; default {@value #DEFAULT_COMMENT_PREFIX}) carry no edge and are passed
+ * over. With {@link #header(boolean) header(true)}, or when a column is chosen by name, the first
+ * other line is a header. Fields follow RFC 4180: a field that starts with {@code "} runs to the
+ * matching quote and may hold the delimiter, line breaks and quotes written {@code ""}; spaces
+ * around fields are removed. Every other line must have exactly two non-empty fields, the source id
+ * then the target id, unless columns are chosen ({@link #sourceColumn(String)}, {@link
+ * #sourceColumn(int)} and the target twins) or {@link #ignoreExtraColumns(boolean) extra columns
+ * are passed over}. A line that breaks these rules fails the build with an {@link
+ * EdgeListFormatException} naming the file, the line number, the fault and, where one setting would
+ * fix it (another delimiter, a header, extra columns), which; in {@link #lenient(boolean) lenient}
+ * mode it is skipped instead and reported in {@link EdgeListResult#skipped()} (a count plus the
+ * first {@value SkippedLines#MAX_REPORTED} line numbers and reasons). Nothing is skipped silently.
  *
  * <p><b>Ids.</b> Three entry points choose how ids become node indices:
  *
@@ -65,8 +71,9 @@ import org.slf4j.LoggerFactory;
  * between the passes is detected (by size, modification time and a checksum of the edges) and fails
  * the build.
  *
- * <p>Defaults: {@link #DEFAULT_DELIMITER}, {@link #DEFAULT_COMMENT_PREFIX}, no header, strict (not
- * lenient), {@link #DEFAULT_SELF_LOOPS}, {@link #DEFAULT_DIRECTION}, {@link #DEFAULT_DUPLICATES}.
+ * <p>Defaults: {@link #DEFAULT_DELIMITER}, {@link #DEFAULT_COMMENT_PREFIX}, no header, source in
+ * column 0 and target in column 1 with no other columns, strict (not lenient), {@link
+ * #DEFAULT_SELF_LOOPS}, {@link #DEFAULT_DIRECTION}, {@link #DEFAULT_DUPLICATES}.
  *
  * <p>Thread safety: not thread safe; use one builder per thread.
  *
@@ -93,6 +100,8 @@ public final class EdgeListFileBuilder<V> {
 
   private static final int BUFFER_BYTES = 1 << 16;
   private static final int EXCERPT_CHARS = 60;
+  private static final long PROGRESS_STEP_BYTES = 1 << 22;
+  private static final byte[] UTF8_BOM = {(byte) 0xEF, (byte) 0xBB, (byte) 0xBF};
 
   private enum IdKind {
     STRING,
@@ -110,6 +119,13 @@ public final class EdgeListFileBuilder<V> {
   private SelfLoopPolicy selfLoops = DEFAULT_SELF_LOOPS;
   private DirectionPolicy direction = DEFAULT_DIRECTION;
   private DuplicatePolicy duplicates = DEFAULT_DUPLICATES;
+  private int sourceColumn = 0;
+  private int targetColumn = 1;
+  private String sourceName;
+  private String targetName;
+  private boolean columnsChosen;
+  private boolean ignoreExtraColumns;
+  private ReadProgress progress;
 
   private EdgeListFileBuilder(Path file, IdKind idKind) {
     this.file = Objects.requireNonNull(file, "file");
@@ -228,6 +244,105 @@ public final class EdgeListFileBuilder<V> {
   }
 
   /**
+   * Reads the source id from column {@code index} (0-based) instead of column 0. Choosing a column
+   * lets lines have other columns, which are passed over.
+   *
+   * @param index the column, at least 0
+   * @return this builder
+   * @throws IllegalArgumentException if {@code index} is negative
+   */
+  public EdgeListFileBuilder<V> sourceColumn(int index) {
+    this.sourceColumn = checkColumn(index, "source");
+    this.sourceName = null;
+    this.columnsChosen = true;
+    return this;
+  }
+
+  /**
+   * Reads the target id from column {@code index} (0-based) instead of column 1. Choosing a column
+   * lets lines have other columns, which are passed over.
+   *
+   * @param index the column, at least 0
+   * @return this builder
+   * @throws IllegalArgumentException if {@code index} is negative
+   */
+  public EdgeListFileBuilder<V> targetColumn(int index) {
+    this.targetColumn = checkColumn(index, "target");
+    this.targetName = null;
+    this.columnsChosen = true;
+    return this;
+  }
+
+  /**
+   * Reads the source id from the column the header names {@code name} (matched exactly, else
+   * ignoring case if that finds one column). The file then has a header line, whatever {@link
+   * #header(boolean)} says; other columns are passed over.
+   *
+   * @param name the column name, not empty
+   * @return this builder
+   * @throws IllegalArgumentException if {@code name} is empty
+   */
+  public EdgeListFileBuilder<V> sourceColumn(String name) {
+    this.sourceName = checkName(name, "source");
+    this.columnsChosen = true;
+    return this;
+  }
+
+  /**
+   * Reads the target id from the column the header names {@code name}; see {@link
+   * #sourceColumn(String)}.
+   *
+   * @param name the column name, not empty
+   * @return this builder
+   * @throws IllegalArgumentException if {@code name} is empty
+   */
+  public EdgeListFileBuilder<V> targetColumn(String name) {
+    this.targetName = checkName(name, "target");
+    this.columnsChosen = true;
+    return this;
+  }
+
+  /**
+   * Sets whether columns after the two ids (weights, timestamps) are passed over. Off by default,
+   * so that a file of another shape is noticed; choosing a column by {@link #sourceColumn(int)
+   * index} or {@link #sourceColumn(String) name} also passes over the others.
+   *
+   * @param ignore true to pass over extra columns; default false
+   * @return this builder
+   */
+  public EdgeListFileBuilder<V> ignoreExtraColumns(boolean ignore) {
+    this.ignoreExtraColumns = ignore;
+    return this;
+  }
+
+  /**
+   * Sets a listener told how far each of the two passes has read, about every 4 MiB and at the end
+   * of each pass, on the thread that calls {@link #build()}.
+   *
+   * @param listener the listener, or null for none
+   * @return this builder
+   */
+  public EdgeListFileBuilder<V> progress(ReadProgress listener) {
+    this.progress = listener;
+    return this;
+  }
+
+  private static int checkColumn(int index, String role) {
+    if (index < 0) {
+      throw new IllegalArgumentException(
+          "the " + role + " column must be at least 0 (columns count from 0), got " + index);
+    }
+    return index;
+  }
+
+  private static String checkName(String name, String role) {
+    if (Objects.requireNonNull(name, role + " column name").isEmpty()) {
+      throw new IllegalArgumentException("the " + role + " column name must not be empty");
+    }
+    return name;
+  }
+
+  /**
    * Sets the self-loop policy.
    *
    * @param policy the policy, not null
@@ -276,6 +391,10 @@ public final class EdgeListFileBuilder<V> {
       throw new IllegalArgumentException(
           "the comment prefix '" + commentPrefix + "' starts with the delimiter; choose another");
     }
+    if (sourceName == null && targetName == null && sourceColumn == targetColumn) {
+      throw new IllegalArgumentException(
+          "the source and target columns are the same (column " + sourceColumn + ")");
+    }
     FileSource source = new FileSource();
     CsrGraph graph;
     try {
@@ -321,15 +440,30 @@ public final class EdgeListFileBuilder<V> {
     long edgeLines;
     private int passes;
     private int maxIndex = -1;
+    private int sourceIndex = sourceColumn;
+    private int targetIndex = targetColumn;
     private long size;
     private FileTime modified;
 
-    // Per-line parse results.
+    // Per-record parse results.
+    private int[] fieldStarts = new int[4];
+    private int[] fieldEnds = new int[4];
+    private boolean[] fieldEscaped = new boolean[4];
+    private int fieldCount;
     private int fieldStart0;
     private int fieldEnd0;
+    private boolean escaped0;
     private int fieldStart1;
     private int fieldEnd1;
+    private boolean escaped1;
+    private int recordStart;
+    private int recordEndIndex;
+    private int recordNewlines;
+    private boolean dataSeen;
+    private boolean notInteger;
     private String problem;
+    private EdgeListFormatException.Remedy remedy = EdgeListFormatException.Remedy.NONE;
+    private String remedyValue = "";
 
     @Override
     public void forEachEdge(Visitor visitor) {
@@ -376,26 +510,22 @@ public final class EdgeListFileBuilder<V> {
       }
       byte[] buf = new byte[BUFFER_BYTES];
       int length = 0; // valid bytes in buf
-      int pos = 0; // start of the current line
-      long line = 0;
-      boolean headerPending = header;
+      int pos = 0; // start of the current record
+      long line = 0; // physical lines before the current record
+      long bytesRead = 0;
+      long reportedAt = 0;
+      boolean headerPending = hasHeader();
+      boolean atFileStart = true;
+      dataSeen = false;
       boolean eof = false;
       try (InputStream in = Files.newInputStream(file)) {
         while (true) {
-          int newline = -1;
-          for (int i = pos; i < length; i++) {
-            if (buf[i] == '\n') {
-              newline = i;
+          int end = pos < length ? recordEnd(buf, pos, length, eof) : -1;
+          if (end < 0) {
+            if (eof) {
               break;
             }
-          }
-          int end;
-          int next;
-          if (newline >= 0) {
-            end = newline;
-            next = newline + 1;
-          } else if (!eof) {
-            // Move the partial line to the front, grow if it fills the buffer, read more.
+            // Move the partial record to the front, grow if it fills the buffer, read more.
             int rest = length - pos;
             if (rest == buf.length) {
               byte[] bigger = new byte[buf.length * 2];
@@ -411,33 +541,132 @@ public final class EdgeListFileBuilder<V> {
               eof = true;
             } else {
               length += read;
+              bytesRead += read;
+              if (progress != null && bytesRead - reportedAt >= PROGRESS_STEP_BYTES) {
+                reportedAt = bytesRead;
+                progress.onProgress(passes, 2, bytesRead, size);
+              }
+            }
+            if (atFileStart && (length >= UTF8_BOM.length || eof)) {
+              atFileStart = false; // nothing was consumed yet: buf starts at the file's start
+              if (startsWithBom(buf, length)) {
+                pos = UTF8_BOM.length;
+              }
             }
             continue;
-          } else if (pos < length) {
-            end = length;
-            next = length;
-          } else {
-            break;
           }
+          int next = end < length ? end + 1 : length;
+          atFileStart = false;
           line++;
+          long recordLine = line;
+          line += recordNewlines;
           if (end > pos && buf[end - 1] == '\r') {
             end--;
           }
-          int kind = classify(buf, pos, end, headerPending);
+          int kind = classify(buf, pos, end, headerPending, recordLine);
           if (kind == LINE_HEADER) {
             headerPending = false;
           } else if (kind == LINE_EDGE) {
-            edge(visitor, buf, line, first);
+            edge(visitor, buf, recordLine, first);
+            dataSeen = true;
           } else if (kind == LINE_MALFORMED) {
-            malformed(buf, pos, end, line, first);
+            malformed(buf, pos, end, recordLine, first);
+            dataSeen = true;
           }
           pos = next;
         }
+      }
+      if (progress != null) {
+        progress.onProgress(passes, 2, bytesRead, size);
       }
       if (!first
           && (Files.size(file) != size || !Files.getLastModifiedTime(file).equals(modified))) {
         throw changed();
       }
+    }
+
+    private boolean startsWithBom(byte[] b, int length) {
+      if (length < UTF8_BOM.length) {
+        return false;
+      }
+      for (int i = 0; i < UTF8_BOM.length; i++) {
+        if (b[i] != UTF8_BOM[i]) {
+          return false;
+        }
+      }
+      return true;
+    }
+
+    /**
+     * Finds the end of the record that starts at {@code from}: the index of its closing {@code
+     * '\n'}, {@code length} when the data ends inside it at the end of the file, or -1 when more
+     * data is needed. A line break inside a quoted field (RFC 4180) does not end the record; {@link
+     * #recordNewlines} counts those.
+     */
+    private int recordEnd(byte[] b, int from, int length, boolean eof) {
+      recordNewlines = 0;
+      int i = from;
+      while (i < length) {
+        byte c = b[i];
+        if (c == '\n') {
+          return i;
+        }
+        if (c == '"') {
+          break;
+        }
+        i++;
+      }
+      if (i == length) {
+        return eof ? length : -1;
+      }
+      // A quote: scan again from the start, minding quoted fields. Comment lines have none.
+      int s = skipBlanks(b, from, length);
+      if (!commentPrefix.isEmpty() && !eof && s + commentPrefix.length() > length) {
+        return -1;
+      }
+      if (!commentPrefix.isEmpty() && startsWith(b, s, length, commentPrefix)) {
+        for (int j = i; j < length; j++) {
+          if (b[j] == '\n') {
+            return j;
+          }
+        }
+        return eof ? length : -1;
+      }
+      boolean fieldStart = true;
+      boolean quoted = false;
+      int newlines = 0;
+      for (i = from; i < length; i++) {
+        byte c = b[i];
+        if (quoted) {
+          if (c == '"') {
+            if (i + 1 == length && !eof) {
+              return -1;
+            }
+            if (i + 1 < length && b[i + 1] == '"') {
+              i++;
+            } else {
+              quoted = false;
+            }
+          } else if (c == '\n') {
+            newlines++;
+          }
+        } else if (c == '\n') {
+          recordNewlines = newlines;
+          return i;
+        } else if (c == '"' && fieldStart) {
+          quoted = true;
+          fieldStart = false;
+        } else if (isDelimiter(c)) {
+          fieldStart = true;
+        } else if (!isBlank(c)) {
+          fieldStart = false;
+        }
+      }
+      if (eof) {
+        recordNewlines = newlines;
+        return length;
+      }
+      return -1;
     }
 
     private IOException changed() {
@@ -448,13 +677,22 @@ public final class EdgeListFileBuilder<V> {
               + " a file that is not being written");
     }
 
+    private boolean hasHeader() {
+      return header || sourceName != null || targetName != null;
+    }
+
+    private boolean extraColumnsAllowed() {
+      return ignoreExtraColumns || columnsChosen;
+    }
+
     private static final int LINE_SKIP = 0;
     private static final int LINE_HEADER = 1;
     private static final int LINE_EDGE = 2;
     private static final int LINE_MALFORMED = 3;
 
-    /** Splits a line into two trimmed fields, or says why it is not an edge line. */
-    private int classify(byte[] b, int start, int end, boolean headerPending) {
+    /** Splits a record into fields and picks the two ids, or says why it is not an edge. */
+    private int classify(byte[] b, int start, int end, boolean headerPending, long line)
+        throws EdgeListFormatException {
       int s = skipBlanks(b, start, end);
       if (s == end) {
         return LINE_SKIP;
@@ -462,49 +700,235 @@ public final class EdgeListFileBuilder<V> {
       if (!commentPrefix.isEmpty() && startsWith(b, s, end, commentPrefix)) {
         return LINE_SKIP;
       }
+      int e = trimEnd(b, s, end);
       if (headerPending) {
+        if (sourceName != null || targetName != null) {
+          resolveColumnNames(b, s, e, line);
+        }
         return LINE_HEADER;
       }
-      int e = trimEnd(b, s, end);
-      int split = findDelimiter(b, s, e);
-      if (split < 0) {
+      if (!split(b, s, e)) {
+        return LINE_MALFORMED;
+      }
+      int needed = Math.max(sourceIndex, targetIndex) + 1;
+      if (fieldCount < needed) {
+        if (fieldCount == 1) {
+          problem = "expected two fields separated by " + delimiterName() + ", found one";
+          char other = otherDelimiterIn(b, s, e);
+          if (other != 0) {
+            remedy = EdgeListFormatException.Remedy.DELIMITER;
+            remedyValue = other == '\t' ? "\\t" : String.valueOf(other);
+          } else {
+            problem += "; is the delimiter right?";
+          }
+        } else {
+          problem =
+              "expected at least "
+                  + needed
+                  + " fields (source id in column "
+                  + (sourceIndex + 1)
+                  + ", target id in column "
+                  + (targetIndex + 1)
+                  + "), found "
+                  + fieldCount;
+        }
+        return LINE_MALFORMED;
+      }
+      if (fieldCount > 2 && !extraColumnsAllowed()) {
         problem =
             "expected two fields separated by "
                 + delimiterName()
-                + ", found one; is the delimiter right?";
+                + ", found more ("
+                + fieldCount
+                + "); extra columns are read only when asked";
+        remedy = EdgeListFormatException.Remedy.EXTRA_COLUMNS;
         return LINE_MALFORMED;
       }
-      fieldStart0 = s;
-      fieldEnd0 = trimEnd(b, s, split);
-      int afterDelimiter = delimiter == ' ' ? skipBlanks(b, split, e) : split + 1;
-      fieldStart1 = skipBlanks(b, afterDelimiter, e);
-      fieldEnd1 = e;
-      int extra = findDelimiter(b, fieldStart1, fieldEnd1);
-      if (extra >= 0) {
-        problem =
-            "expected two fields separated by "
-                + delimiterName()
-                + ", found more; extra columns (weights, labels) are not read";
-        return LINE_MALFORMED;
-      }
+      fieldStart0 = fieldStarts[sourceIndex];
+      fieldEnd0 = fieldEnds[sourceIndex];
+      escaped0 = fieldEscaped[sourceIndex];
+      fieldStart1 = fieldStarts[targetIndex];
+      fieldEnd1 = fieldEnds[targetIndex];
+      escaped1 = fieldEscaped[targetIndex];
       if (fieldEnd0 == fieldStart0) {
-        problem = "the source id (field 1) is empty";
+        problem = "the source id (field " + (sourceIndex + 1) + ") is empty";
         return LINE_MALFORMED;
       }
       if (fieldEnd1 == fieldStart1) {
-        problem = "the target id (field 2) is empty";
+        problem = "the target id (field " + (targetIndex + 1) + ") is empty";
         return LINE_MALFORMED;
       }
+      recordStart = s;
+      recordEndIndex = e;
       return LINE_EDGE;
     }
 
+    /**
+     * Splits a trimmed record into fields (RFC 4180: a field that starts with {@code '"'} runs to
+     * the matching quote, {@code ""} inside it stands for one quote); false with {@link #problem}
+     * set if a quoted field is not closed or is followed by other text.
+     */
+    private boolean split(byte[] b, int s, int e) {
+      fieldCount = 0;
+      int i = s;
+      while (true) {
+        i = skipBlanks(b, i, e);
+        int start;
+        int stop;
+        boolean escaped = false;
+        if (i < e && b[i] == '"') {
+          int j = i + 1;
+          while (true) {
+            if (j >= e) {
+              problem = "the quoted field " + (fieldCount + 1) + " has no closing quote";
+              return false;
+            }
+            if (b[j] == '"') {
+              if (j + 1 < e && b[j + 1] == '"') {
+                escaped = true;
+                j += 2;
+                continue;
+              }
+              break;
+            }
+            j++;
+          }
+          start = i + 1;
+          stop = j;
+          i = skipBlanks(b, j + 1, e);
+          if (i < e && !isDelimiter(b[i])) {
+            problem =
+                "text after the closing quote of field "
+                    + (fieldCount + 1)
+                    + " (a quote inside a quoted field is written \"\")";
+            return false;
+          }
+        } else {
+          int j = i;
+          while (j < e && !isDelimiter(b[j])) {
+            j++;
+          }
+          start = i;
+          stop = trimEnd(b, i, j);
+          i = j;
+        }
+        addField(start, stop, escaped);
+        if (i >= e) {
+          return true;
+        }
+        i++; // the delimiter; for spaces, skipBlanks passes over the rest of the run
+        if (delimiter == ' ') {
+          i = skipBlanks(b, i, e);
+          if (i >= e) {
+            return true;
+          }
+        } else if (i == e) {
+          addField(e, e, false); // an empty last field after a trailing delimiter
+          return true;
+        }
+      }
+    }
+
+    private void addField(int start, int stop, boolean escaped) {
+      if (fieldCount == fieldStarts.length) {
+        fieldStarts = Arrays.copyOf(fieldStarts, fieldCount * 2);
+        fieldEnds = Arrays.copyOf(fieldEnds, fieldCount * 2);
+        fieldEscaped = Arrays.copyOf(fieldEscaped, fieldCount * 2);
+      }
+      fieldStarts[fieldCount] = start;
+      fieldEnds[fieldCount] = stop;
+      fieldEscaped[fieldCount] = escaped;
+      fieldCount++;
+    }
+
+    /** Finds the columns named by the builder in the header record. */
+    private void resolveColumnNames(byte[] b, int s, int e, long line)
+        throws EdgeListFormatException {
+      if (!split(b, s, e)) {
+        throw new EdgeListFormatException(file, line, "header: " + problem);
+      }
+      List<String> names = new ArrayList<>(fieldCount);
+      for (int k = 0; k < fieldCount; k++) {
+        String name = text(b, fieldStarts[k], fieldEnds[k], fieldEscaped[k]);
+        names.add(name == null ? "" : name);
+      }
+      problem = null;
+      if (sourceName != null) {
+        sourceIndex = columnOf(names, sourceName, "source", line);
+      }
+      if (targetName != null) {
+        targetIndex = columnOf(names, targetName, "target", line);
+      }
+      if (sourceIndex == targetIndex) {
+        throw new EdgeListFormatException(
+            file,
+            line,
+            "the source and target columns are the same (column " + (sourceIndex + 1) + ")");
+      }
+    }
+
+    private int columnOf(List<String> names, String name, String role, long line)
+        throws EdgeListFormatException {
+      int exact = names.indexOf(name);
+      if (exact >= 0) {
+        return exact;
+      }
+      int found = -1;
+      for (int k = 0; k < names.size(); k++) {
+        if (names.get(k).equalsIgnoreCase(name)) {
+          if (found >= 0) {
+            found = -2;
+            break;
+          }
+          found = k;
+        }
+      }
+      if (found >= 0) {
+        return found;
+      }
+      throw new EdgeListFormatException(
+          file,
+          line,
+          "the header has no "
+              + (found == -2 ? "single " : "")
+              + "column named '"
+              + name
+              + "' for the "
+              + role
+              + " id; its columns are "
+              + names);
+    }
+
+    /** The first usual delimiter other than the current one found in the record, or 0. */
+    private char otherDelimiterIn(byte[] b, int s, int e) {
+      for (char c : new char[] {'\t', ';', '|', ',', ' '}) {
+        if (c == delimiter || (c == '\t' && delimiter == ' ')) {
+          continue;
+        }
+        for (int i = s; i < e; i++) {
+          if (b[i] == c) {
+            return c;
+          }
+        }
+      }
+      return 0;
+    }
+
     private String delimiterName() {
-      return switch (delimiter) {
+      return describe(delimiter);
+    }
+
+    private String describe(char d) {
+      return switch (d) {
         case ',' -> "',' (CSV)";
         case '\t' -> "a tab (TSV)";
         case ' ' -> "spaces";
-        default -> "'" + delimiter + "'";
+        default -> "'" + d + "'";
       };
+    }
+
+    private boolean isDelimiter(byte c) {
+      return c == delimiter || (delimiter == ' ' && c == '\t');
     }
 
     private boolean isBlank(byte c) {
@@ -525,16 +949,6 @@ public final class EdgeListFileBuilder<V> {
       return end;
     }
 
-    private int findDelimiter(byte[] b, int from, int end) {
-      for (int i = from; i < end; i++) {
-        byte c = b[i];
-        if (c == delimiter || (delimiter == ' ' && c == '\t')) {
-          return i;
-        }
-      }
-      return -1;
-    }
-
     private boolean startsWith(byte[] b, int from, int end, String prefix) {
       if (end - from < prefix.length()) {
         return false;
@@ -552,10 +966,10 @@ public final class EdgeListFileBuilder<V> {
       int t;
       switch (idKind) {
         case STRING -> {
-          String a = text(b, fieldStart0, fieldEnd0);
-          String c = a == null ? null : text(b, fieldStart1, fieldEnd1);
+          String a = text(b, fieldStart0, fieldEnd0, escaped0);
+          String c = a == null ? null : text(b, fieldStart1, fieldEnd1, escaped1);
           if (c == null) {
-            malformed(b, fieldStart0, fieldEnd1, line, first);
+            malformed(b, recordStart, recordEndIndex, line, first);
             return;
           }
           s = first ? strings.indexOrAdd(a) : strings.indexOf(a);
@@ -565,7 +979,7 @@ public final class EdgeListFileBuilder<V> {
           long a = parseLong(b, fieldStart0, fieldEnd0, "source");
           long c = problem == null ? parseLong(b, fieldStart1, fieldEnd1, "target") : 0;
           if (problem != null) {
-            malformed(b, fieldStart0, fieldEnd1, line, first);
+            malformedId(b, line, first);
             return;
           }
           s = first ? longs.indexOrAdd(a) : longs.indexOf(a);
@@ -575,7 +989,7 @@ public final class EdgeListFileBuilder<V> {
           s = parseIndex(b, fieldStart0, fieldEnd0, "source");
           t = problem == null ? parseIndex(b, fieldStart1, fieldEnd1, "target") : 0;
           if (problem != null) {
-            malformed(b, fieldStart0, fieldEnd1, line, first);
+            malformedId(b, line, first);
             return;
           }
           maxIndex = Math.max(maxIndex, Math.max(s, t));
@@ -591,15 +1005,28 @@ public final class EdgeListFileBuilder<V> {
       visitor.edge(line, s, t);
     }
 
+    /** An integer id that does not parse; on the first data line, perhaps an unexpected header. */
+    private void malformedId(byte[] b, long line, boolean first) throws EdgeListFormatException {
+      if (notInteger && !dataSeen && !hasHeader()) {
+        remedy = EdgeListFormatException.Remedy.HEADER;
+      }
+      notInteger = false;
+      malformed(b, recordStart, recordEndIndex, line, first);
+    }
+
     private void malformed(byte[] b, int start, int end, long line, boolean first)
         throws EdgeListFormatException {
       String reason = problem + ": '" + excerpt(b, start, end) + "'";
+      EdgeListFormatException.Remedy fix = remedy;
+      String fixValue = remedyValue;
       problem = null;
+      remedy = EdgeListFormatException.Remedy.NONE;
+      remedyValue = "";
       if (!first) {
         return; // reported in the first pass
       }
       if (!lenient) {
-        throw new EdgeListFormatException(file, line, reason);
+        throw new EdgeListFormatException(file, line, reason, fix, fixValue);
       }
       skippedCount++;
       if (skippedFirst.size() < SkippedLines.MAX_REPORTED) {
@@ -612,8 +1039,16 @@ public final class EdgeListFileBuilder<V> {
       return s.length() <= EXCERPT_CHARS ? s : s.substring(0, EXCERPT_CHARS) + "...";
     }
 
-    /** Decodes a field as UTF-8, strictly; null (with {@link #problem} set) if invalid. */
-    private String text(byte[] b, int start, int end) {
+    /**
+     * Decodes a field as UTF-8, strictly, with {@code ""} read as one quote when {@code escaped};
+     * null (with {@link #problem} set) if invalid.
+     */
+    private String text(byte[] b, int start, int end, boolean escaped) {
+      String raw = decode(b, start, end);
+      return raw == null || !escaped ? raw : raw.replace("\"\"", "\"");
+    }
+
+    private String decode(byte[] b, int start, int end) {
       boolean ascii = true;
       for (int i = start; i < end; i++) {
         if (b[i] < 0) {
@@ -647,6 +1082,7 @@ public final class EdgeListFileBuilder<V> {
       }
       if (i == end) {
         problem = "the " + role + " id is not an integer";
+        notInteger = true;
         return 0;
       }
       long value = 0; // accumulated negatively to reach Long.MIN_VALUE
@@ -658,6 +1094,7 @@ public final class EdgeListFileBuilder<V> {
                   + role
                   + " id is not an integer"
                   + (idKind == IdKind.INDEX ? "" : "; use stringIds for text ids");
+          notInteger = true;
           return 0;
         }
         if (value < Long.MIN_VALUE / 10) {

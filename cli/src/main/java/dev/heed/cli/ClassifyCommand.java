@@ -33,10 +33,12 @@ import picocli.CommandLine.Spec;
     description = {
       "Classify the nodes of a graph with a model: predictions as CSV (stdout or --out), a"
           + " summary on stderr.",
-      "The graph is an edge-list file (CSV/TSV, header optional, one 'source,target' per line);"
-          + " features are a CSV with an id column (optional header checked against the model's"
-          + " feature names) or a .npy float32 [n, f] in the graph's node order (order of first"
-          + " appearance in the edge list).",
+      "The graph is an edge-list file (CSV/TSV, RFC 4180 quoting, header optional, one"
+          + " 'source,target' per line). Features are matched to nodes by id: a CSV with an id"
+          + " column (optional header checked against the model's feature names), an .npz with"
+          + " 'features' [n, f] and 'node_ids' [n], or a .npy [n, f] with its ids one per line"
+          + " (--feature-ids, or X.ids beside X.npy); a .npy without ids is read as row i = node"
+          + " id i, for graphs whose ids are 0..n-1.",
       "With --demo: generate the invented payments network on first use and classify it with"
           + " the bundled demo model (or --model), reporting accuracy on held-out accounts."
     })
@@ -52,11 +54,22 @@ final class ClassifyCommand implements Callable<Integer> {
   @Option(names = "--graph", paramLabel = "FILE", description = "Edge-list file.")
   Path graph;
 
+  @Mixin FeatureFileOptions featureOptions;
+
   @Option(
-      names = "--features",
+      names = "--node-order",
       paramLabel = "FILE",
-      description = "Node features: .npy [n, f] in node order, or CSV 'id,f1,...,fn'.")
-  Path features;
+      description =
+          "Also write the node ids in the order classify used (graph order, then nodes only in"
+              + " the features file), one per line: the row order a positional .npy would need.")
+  Path nodeOrder;
+
+  @Option(
+      names = "--no-progress",
+      description =
+          "No progress bars (they show on a terminal only, for large inputs, never when output"
+              + " is piped).")
+  boolean noProgress;
 
   @Option(
       names = "--nodes",
@@ -97,6 +110,14 @@ final class ClassifyCommand implements Callable<Integer> {
   @Mixin GraphFileOptions graphOptions;
 
   @Option(
+      names = "--override-graph-conventions",
+      description =
+          "Build the graph with the --direction, --self-loops and --duplicates given even where"
+              + " they differ from what the model file records about its training graph"
+              + " (predictions then differ from what the model was trained for).")
+  boolean overrideGraphConventions;
+
+  @Option(
       names = "--demo",
       description =
           "Run the bundled demo: invented payments network, demo model (or --model), accuracy on"
@@ -120,9 +141,13 @@ final class ClassifyCommand implements Callable<Integer> {
     }
     PrintWriter err = spec.commandLine().getErr();
     if (demo) {
-      if (graph != null || features != null || nodes != null) {
+      if (graph != null
+          || featureOptions.features != null
+          || nodes != null
+          || featureOptions.featureIds != null) {
         throw new CliException(
-            "--demo reads its own graph and features; leave out --graph, --features and --nodes",
+            "--demo reads its own graph and features; leave out --graph, --features,"
+                + " --feature-ids and --nodes",
             HeedCli.EXIT_USAGE);
       }
       return new DemoRun(spec.commandLine().getOut(), err)
@@ -131,15 +156,28 @@ final class ClassifyCommand implements Callable<Integer> {
     if (demoDir != null) {
       throw new CliException("--demo-dir needs --demo", HeedCli.EXIT_USAGE);
     }
-    if (model == null || graph == null || features == null) {
+    if (model == null || graph == null || featureOptions.features == null) {
       throw new CliException(
           "classify needs --model, --graph and --features (or --demo); see heed classify --help",
           HeedCli.EXIT_USAGE);
     }
     ClassifyRun.requireFile(model, "--model");
     AttentionModel m = ModelFile.read(model);
+    graphOptions.followModel(m.graphConventions(), overrideGraphConventions, err);
     ClassifyRun run =
-        ClassifyRun.load(m, model.getFileName().toString(), graph, features, graphOptions, threads);
+        ClassifyRun.load(
+            m,
+            model.getFileName().toString(),
+            graph,
+            featureOptions.features,
+            featureOptions.featureIds,
+            graphOptions,
+            threads,
+            ProgressDisplay.forTerminal(noProgress));
+    if (nodeOrder != null) {
+      requireDirectoryOf(nodeOrder, "--node-order");
+      run.writeNodeOrder(nodeOrder);
+    }
     int[] chosen = nodes == null ? null : run.indicesOf(nodes);
     warnIfDenseIsCostly(pathChoice, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();
@@ -158,15 +196,19 @@ final class ClassifyCommand implements Callable<Integer> {
       run.writeCsv(result, explain, stdout);
       return;
     }
-    Path parent = file.toAbsolutePath().getParent();
-    if (parent != null && !Files.isDirectory(parent)) {
-      throw new CliException(
-          "--out: the directory " + parent + " does not exist", HeedCli.EXIT_USER_ERROR);
-    }
+    requireDirectoryOf(file, "--out");
     try (Writer w =
         new BufferedWriter(
             new OutputStreamWriter(Files.newOutputStream(file), StandardCharsets.UTF_8), 1 << 16)) {
       run.writeCsv(result, explain, w);
+    }
+  }
+
+  static void requireDirectoryOf(Path file, String option) {
+    Path parent = file.toAbsolutePath().getParent();
+    if (parent != null && !Files.isDirectory(parent)) {
+      throw new CliException(
+          option + ": the directory " + parent + " does not exist", HeedCli.EXIT_USER_ERROR);
     }
   }
 

@@ -9,7 +9,6 @@ import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
 import dev.heed.graph.CsrGraph;
-import dev.heed.graph.EdgeListResult;
 import dev.heed.graph.NodeIndex;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.LayerRun;
@@ -33,13 +32,11 @@ final class ClassifyRun {
   private final Path graphFile;
   private final Path featuresFile;
   private final GraphFileOptions graphOptions;
+  private final GraphInputs inputs;
   private final CsrGraph graph;
   private final NodeIndex<String> nodes;
-  private final long edgeLines;
-  private final int edgeless;
   private final NodeFeatures features;
-  private final double graphSeconds;
-  private final double featureSeconds;
+  private final ProgressDisplay progress;
 
   private ClassifyRun(
       AttentionModel model,
@@ -47,65 +44,46 @@ final class ClassifyRun {
       Path graphFile,
       Path featuresFile,
       GraphFileOptions graphOptions,
-      EdgeListResult<String> read,
-      FeatureFiles.Read features,
-      double graphSeconds,
-      double featureSeconds) {
+      GraphInputs inputs,
+      ProgressDisplay progress) {
     this.model = model;
     this.modelName = modelName;
     this.graphFile = graphFile;
     this.featuresFile = featuresFile;
     this.graphOptions = graphOptions;
-    List<String> extra = features.edgeless();
-    this.graph =
-        EdgelessNodes.extend(
-            read.graph(),
-            extra.size(),
-            graphOptions.selfLoopPolicy() == dev.heed.graph.SelfLoopPolicy.ADD);
-    this.nodes = EdgelessNodes.extend(read.nodes(), extra);
-    this.edgeLines = read.edgeLines();
-    this.edgeless = extra.size();
-    this.features = features.features();
-    this.graphSeconds = graphSeconds;
-    this.featureSeconds = featureSeconds;
+    this.inputs = inputs;
+    this.graph = inputs.graph();
+    this.nodes = inputs.nodes();
+    this.features = inputs.features();
+    this.progress = progress;
   }
 
-  /** Reads graph and features for a model; threads null means the kernels' default. */
+  /**
+   * Reads graph and features for a model; threads null means the kernels' default; featureIds is
+   * the {@code --feature-ids} file or null.
+   */
   static ClassifyRun load(
       AttentionModel model,
       String modelName,
       Path graphFile,
       Path featuresFile,
+      Path featureIds,
       GraphFileOptions graphOptions,
-      Integer threads)
+      Integer threads,
+      ProgressDisplay progress)
       throws IOException {
-    requireFile(graphFile, "--graph");
-    requireFile(featuresFile, "--features");
     if (threads != null) {
       if (threads < 1) {
         throw new CliException("--threads must be at least 1, got " + threads, HeedCli.EXIT_USAGE);
       }
       model = model.withKernelOptions(KernelOptions.defaults().withThreads(threads));
     }
-    long start = System.nanoTime();
-    EdgeListResult<String> graph = graphOptions.read(graphFile);
-    if (graph.graph().nodeCount() == 0) {
-      throw new CliException(graphFile + ": no edges in the file", HeedCli.EXIT_USER_ERROR);
-    }
-    long read = System.nanoTime();
-    FeatureFiles.Read features =
-        FeatureFiles.read(featuresFile, graphOptions.delimiterSetting(), graph.nodes(), model);
-    long done = System.nanoTime();
+    FeatureFiles.Expected expected =
+        new FeatureFiles.Expected(model.inputFeatureCount(), model.featureNames(), "model");
+    GraphInputs inputs =
+        GraphInputs.read(graphFile, featuresFile, featureIds, graphOptions, expected, progress);
     return new ClassifyRun(
-        model,
-        modelName,
-        graphFile,
-        featuresFile,
-        graphOptions,
-        graph,
-        features,
-        (read - start) / 1e9,
-        (done - read) / 1e9);
+        model, modelName, graphFile, featuresFile, graphOptions, inputs, progress);
   }
 
   static void requireFile(Path file, String option) {
@@ -129,7 +107,23 @@ final class ClassifyRun {
 
   /** The number of edge lines read from the graph file. */
   long edgeLines() {
-    return edgeLines;
+    return inputs.edgeLines();
+  }
+
+  /** Writes the node ids in node order, one per line: the order of the rows classify used. */
+  void writeNodeOrder(Path file) throws IOException {
+    StringBuilder text = new StringBuilder();
+    for (int i = 0; i < nodes.size(); i++) {
+      String id = nodes.idOf(i);
+      if (id.indexOf('\n') >= 0 || id.indexOf('\r') >= 0) {
+        throw new CliException(
+            "--node-order: id '" + id + "' holds a line break; the file has one id per line",
+            HeedCli.EXIT_USER_ERROR);
+      }
+      text.append(id.startsWith("\"") || !id.equals(id.strip()) ? TextFields.quoted(id) : id)
+          .append('\n');
+    }
+    java.nio.file.Files.writeString(file, text, java.nio.charset.StandardCharsets.UTF_8);
   }
 
   AttentionModel model() {
@@ -170,9 +164,14 @@ final class ClassifyRun {
       options = options.withExplanations(explainK);
     }
     NodeClassifier classifier = NodeClassifier.of(model, options);
-    return nodeIndices == null
-        ? classifier.classify(graph, features)
-        : classifier.classify(graph, features, nodeIndices);
+    ProgressDisplay.Bar bar = progress.open("classify", graph.nodeCount());
+    try {
+      return nodeIndices == null
+          ? classifier.classify(graph, features)
+          : classifier.classify(graph, features, nodeIndices);
+    } finally {
+      bar.close();
+    }
   }
 
   /**
@@ -225,14 +224,14 @@ final class ClassifyRun {
         "heed classify: %,d nodes, %,d edges (attention entries; %,d lines of %s, %s)%n",
         graph.nodeCount(),
         graph.entryCount(),
-        edgeLines,
+        inputs.edgeLines(),
         graphFile.getFileName(),
         graphOptions.describePolicies());
-    if (edgeless > 0) {
+    if (inputs.edgeless() > 0) {
       err.printf(
           Locale.ROOT,
           "  %,d of the nodes appear only in %s (no edges): they attend to %s%n",
-          edgeless,
+          inputs.edgeless(),
           featuresFile.getFileName(),
           graphOptions.selfLoopPolicy() == dev.heed.graph.SelfLoopPolicy.ADD
               ? "themselves only"
@@ -240,9 +239,10 @@ final class ClassifyRun {
     }
     err.printf(
         Locale.ROOT,
-        "  features: %d per node from %s; model %s, %d threads%n",
+        "  features: %d per node from %s (%s); model %s, %d threads%n",
         features.featureCount(),
         featuresFile.getFileName(),
+        inputs.featuresHow(),
         modelName,
         model.kernelOptions().threads());
     err.printf(
@@ -263,8 +263,8 @@ final class ClassifyRun {
         Locale.ROOT,
         "  total %.3f s: read graph %.3f, read features %.3f, layers %.3f, classify call %.3f%n",
         totalSeconds,
-        graphSeconds,
-        featureSeconds,
+        inputs.graphSeconds(),
+        inputs.featureSeconds(),
         layerTotal,
         classifySeconds);
     err.flush();

@@ -86,8 +86,10 @@ final class DemoRun {
             modelName,
             files.transfers(),
             files.features(),
+            null,
             GraphFileOptions.demo(),
-            threads);
+            threads,
+            ProgressDisplay.off());
     ClassifyCommand.warnIfDenseIsCostly(path, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();
     Classification all = run.classify(null, path, 0);

@@ -1,183 +1,269 @@
 package dev.heed.cli;
 
+import dev.heed.classify.FeatureTable;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.graph.NodeIndex;
-import dev.heed.model.AttentionModel;
-import java.io.BufferedReader;
 import java.io.IOException;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
-import java.util.LinkedHashMap;
+import java.util.HashMap;
 import java.util.List;
 import java.util.Locale;
 import java.util.Map;
 
 /**
- * Reads node features for {@code heed classify}, lined up with the graph's nodes.
+ * Reads node features for {@code heed classify} and {@code heed train}, matched to the graph's
+ * nodes by id (never by position alone, unless the ids are the row numbers):
  *
  * <ul>
- *   <li>{@code .npy}: a float32 or float64 array [n, f], row i for node i in the graph's node order
- *       (the order in which ids first appear in the edge-list file, source before target on each
- *       line);
- *   <li>anything else: delimited text, one line per node: the node id, then f numbers. An optional
- *       header line (recognised by a field in the number columns that is not a number) names the
- *       columns; if the model has feature names, the header's must equal them, in order. Blank
- *       lines and lines starting with # are passed over; there is no quoting.
+ *   <li>delimited text (CSV, TSV): one record per node, the node id then f numbers; an optional
+ *       header (recognised by a field in the number columns that is not a number) names the
+ *       features; RFC 4180 quoting;
+ *   <li>{@code .npz}: the arrays {@value FeatureTable#NPZ_FEATURES} (float [n, f]) and {@value
+ *       FeatureTable#NPZ_NODE_IDS} (int64 [n]);
+ *   <li>{@code .npy}: a float array [n, f] with its ids in a text file, one per line in row order:
+ *       {@code --feature-ids FILE}, or {@code X.ids} beside {@code X.npy}. Without ids, row i is
+ *       the node with id i, which needs every id of the graph to be an integer in {@code 0..n-1}.
  * </ul>
  *
- * Every graph node needs a row. With a text file, an id that is not in the graph is a node without
- * edges: it is added after the graph's nodes (see {@link ClassifyRun}).
+ * An id that is not in the graph is a node without edges: it is added after the graph's nodes (see
+ * {@link GraphInputs}). Every graph node needs a row.
  */
 final class FeatureFiles {
+
+  /** Suffix of the ids file found beside a {@code .npy} file: {@code X.npy} → {@code X.ids}. */
+  static final String IDS_SUFFIX = ".ids";
 
   private static final int MAX_LISTED = 5;
 
   private FeatureFiles() {}
 
-  /**
-   * Features for the graph's n nodes (rows 0..n-1) followed by one row per id of the features file
-   * that is not in the graph (a node without edges), in file order; {@code edgeless} lists those.
-   */
-  record Read(NodeFeatures features, List<String> edgeless) {}
+  /** What a command expects: a feature count and names (from the model), or anything (-1). */
+  record Expected(int featureCount, List<String> names, String source) {
+    static final Expected ANY = new Expected(-1, List.of(), "");
+  }
 
-  static Read read(Path file, char delimiterSetting, NodeIndex<String> nodes, AttentionModel model)
+  /** The rows with their ids, and the feature names a header gave (empty if none). */
+  record Read(FeatureTable<String> table, List<String> names, String description) {}
+
+  static Read read(
+      Path file,
+      Path idsFile,
+      char delimiterSetting,
+      NodeIndex<String> nodes,
+      Expected expected,
+      ProgressDisplay progress)
       throws IOException {
-    int f = model.inputFeatureCount();
-    if (file.getFileName().toString().toLowerCase(Locale.ROOT).endsWith(".npy")) {
-      NodeFeatures features = NodeFeatures.readNpy(file);
-      if (features.featureCount() != f) {
+    String name = file.getFileName().toString().toLowerCase(Locale.ROOT);
+    Read read;
+    if (name.endsWith(".npz")) {
+      if (idsFile != null) {
         throw new CliException(
-            file
-                + ": "
-                + features.featureCount()
-                + " feature columns, but the model reads "
-                + f
-                + " features per node"
-                + names(model),
-            HeedCli.EXIT_USER_ERROR);
+            "--feature-ids is for .npy features; an .npz carries its ids as '"
+                + FeatureTable.NPZ_NODE_IDS
+                + "'",
+            HeedCli.EXIT_USAGE);
       }
-      if (features.nodeCount() != nodes.size()) {
+      read =
+          new Read(
+              FeatureTable.readNpz(file).mapIds(String::valueOf),
+              List.of(),
+              "ids from its '" + FeatureTable.NPZ_NODE_IDS + "'");
+    } else if (name.endsWith(".npy")) {
+      read = readNpy(file, idsFile, nodes);
+    } else {
+      if (idsFile != null) {
         throw new CliException(
-            file
-                + ": "
-                + features.nodeCount()
-                + " rows, but the graph has "
-                + nodes.size()
-                + " nodes; a .npy file needs one row per node in the graph's node order (order"
-                + " of first appearance in the edge list), or use a CSV file with an id column",
-            HeedCli.EXIT_USER_ERROR);
+            "--feature-ids is for .npy features; a text features file has the ids in its first"
+                + " column",
+            HeedCli.EXIT_USAGE);
       }
-      return new Read(features, List.of());
+      try (ProgressDisplay.Bar bar = progress.bytes("read features", Files.size(file))) {
+        read = readText(file, TextFields.delimiterOf(file, delimiterSetting), expected, bar);
+      }
     }
-    return readText(file, TextFields.delimiterOf(file, delimiterSetting), nodes, model);
+    checkWidth(file, read.table().rows().featureCount(), expected);
+    return read;
+  }
+
+  private static Read readNpy(Path file, Path idsFile, NodeIndex<String> nodes) throws IOException {
+    Path ids = idsFile;
+    if (ids == null) {
+      String base = file.getFileName().toString();
+      Path beside = file.resolveSibling(base.substring(0, base.length() - 4) + IDS_SUFFIX);
+      ids = Files.isRegularFile(beside) ? beside : null;
+    } else {
+      ClassifyRun.requireFile(ids, "--feature-ids");
+    }
+    if (ids != null) {
+      return new Read(FeatureTable.readNpy(file, ids), List.of(), "ids from " + ids.getFileName());
+    }
+    NodeFeatures rows = NodeFeatures.readNpy(file);
+    int n = rows.nodeCount();
+    List<String> notRowNumbers = new ArrayList<>();
+    int count = 0;
+    for (int i = 0; i < nodes.size(); i++) {
+      String id = nodes.idOf(i);
+      if (!isRowNumber(id, n) && count++ < MAX_LISTED) {
+        notRowNumbers.add("'" + id + "'");
+      }
+    }
+    if (count > 0) {
+      throw new CliException(
+          file
+              + ": "
+              + n
+              + " rows without node ids, so row i can only be the node with id i, but "
+              + count
+              + " of the graph's "
+              + nodes.size()
+              + " node ids are not row numbers 0.."
+              + (n - 1)
+              + " ("
+              + String.join(", ", notRowNumbers)
+              + (count > MAX_LISTED ? ", ..." : "")
+              + "); give the ids of the rows: --feature-ids FILE (one id per line, in row order),"
+              + " a file "
+              + file.getFileName().toString().replaceFirst("(?i)\\.npy$", IDS_SUFFIX)
+              + " beside it, or an .npz with '"
+              + FeatureTable.NPZ_FEATURES
+              + "' and '"
+              + FeatureTable.NPZ_NODE_IDS
+              + "'",
+          HeedCli.EXIT_USER_ERROR);
+    }
+    return new Read(
+        FeatureTable.positional(rows).mapIds(String::valueOf), List.of(), "row i = node id i");
+  }
+
+  /** Whether an id is a row number in {@code 0..n-1}, written the canonical way ("7", not "07"). */
+  private static boolean isRowNumber(String id, int n) {
+    if (id.isEmpty() || id.length() > 10 || (id.length() > 1 && id.charAt(0) == '0')) {
+      return false;
+    }
+    long v = 0;
+    for (int i = 0; i < id.length(); i++) {
+      char c = id.charAt(i);
+      if (c < '0' || c > '9') {
+        return false;
+      }
+      v = v * 10 + (c - '0');
+    }
+    return v < n;
   }
 
   private static Read readText(
-      Path file, char delimiter, NodeIndex<String> nodes, AttentionModel model) throws IOException {
-    int n = nodes.size();
-    int f = model.inputFeatureCount();
-    float[] values = new float[Math.multiplyExact(n, f)];
-    long[] lineOf = new long[n];
-    long line = 0;
-    boolean first = true;
-    Map<String, Long> edgelessLines = new LinkedHashMap<>();
-    List<float[]> edgelessRows = new ArrayList<>();
-    try (BufferedReader in = Files.newBufferedReader(file, StandardCharsets.UTF_8)) {
-      for (String text = in.readLine(); text != null; text = in.readLine()) {
-        line++;
-        if (TextFields.isBlankOrComment(text)) {
-          continue;
-        }
-        List<String> fields = TextFields.split(text, delimiter);
-        if (first) {
-          first = false;
-          if (isHeader(fields)) {
-            checkHeader(file, line, fields, model);
-            continue;
+      Path file, char delimiter, Expected expected, ProgressDisplay.Bar bar) throws IOException {
+    List<String> ids = new ArrayList<>();
+    List<float[]> rows = new ArrayList<>();
+    Map<String, Long> lineOf = new HashMap<>();
+    List<String> names = new ArrayList<>();
+    int[] width = {expected.featureCount()};
+    TextFields.readRows(
+        file,
+        delimiter,
+        bar,
+        row -> {
+          List<String> fields = row.fields();
+          long line = row.line();
+          if (ids.isEmpty() && names.isEmpty() && isHeader(fields)) {
+            checkHeader(file, line, fields, expected);
+            names.addAll(fields.subList(1, fields.size()));
+            if (width[0] < 0) {
+              width[0] = names.size();
+            }
+            return;
           }
-        }
-        if (fields.size() != f + 1) {
-          throw new CliException(
-              file
-                  + ", line "
-                  + line
-                  + ": "
-                  + (fields.size() - 1)
-                  + " feature values, but the model reads "
-                  + f
-                  + " features per node"
-                  + names(model)
-                  + " (expected: id, then "
-                  + f
-                  + " numbers, separated by "
-                  + TextFields.describe(delimiter)
-                  + ")",
-              HeedCli.EXIT_USER_ERROR);
-        }
-        String id = fields.get(0);
-        if (id.isEmpty()) {
-          throw new CliException(
-              file + ", line " + line + ": the node id (field 1) is empty",
-              HeedCli.EXIT_USER_ERROR);
-        }
-        int node = nodes.indexOf(id);
-        long earlier = node >= 0 ? lineOf[node] : edgelessLines.getOrDefault(id, 0L);
-        if (earlier != 0) {
-          throw new CliException(
-              file
-                  + ", line "
-                  + line
-                  + ": node '"
-                  + id
-                  + "' already has features on line "
-                  + earlier,
-              HeedCli.EXIT_USER_ERROR);
-        }
-        float[] row = parseRow(file, line, id, fields, f);
-        if (node < 0) {
-          edgelessLines.put(id, line);
-          edgelessRows.add(row);
-          continue;
-        }
-        System.arraycopy(row, 0, values, node * f, f);
-        lineOf[node] = line;
-      }
-    } catch (java.nio.charset.MalformedInputException e) {
-      throw new CliException(
-          file + ", line " + (line + 1) + ": not valid UTF-8 text", HeedCli.EXIT_USER_ERROR);
+          if (width[0] < 0) {
+            width[0] = fields.size() - 1;
+          }
+          int f = width[0];
+          if (fields.size() != f + 1 || f < 1) {
+            throw new CliException(
+                file
+                    + ", line "
+                    + line
+                    + ": "
+                    + (fields.size() - 1)
+                    + " feature values, but "
+                    + (expected.featureCount() >= 0
+                        ? "the model reads " + f + " features per node" + names(expected)
+                        : (names.isEmpty() ? "the first line has " : "the header names ") + f)
+                    + " (expected: id, then "
+                    + Math.max(f, 1)
+                    + " numbers, separated by "
+                    + TextFields.describe(delimiter)
+                    + ")"
+                    + delimiterHint(fields, delimiter),
+                HeedCli.EXIT_USER_ERROR);
+          }
+          String id = fields.get(0);
+          if (id.isEmpty()) {
+            throw new CliException(
+                file + ", line " + line + ": the node id (field 1) is empty",
+                HeedCli.EXIT_USER_ERROR);
+          }
+          Long earlier = lineOf.putIfAbsent(id, line);
+          if (earlier != null) {
+            throw new CliException(
+                file
+                    + ", line "
+                    + line
+                    + ": node '"
+                    + id
+                    + "' already has features on line "
+                    + earlier,
+                HeedCli.EXIT_USER_ERROR);
+          }
+          ids.add(id);
+          rows.add(parseRow(file, line, id, fields, f));
+        });
+    if (rows.isEmpty()) {
+      throw new CliException(file + ": no feature rows in the file", HeedCli.EXIT_USER_ERROR);
     }
-    List<String> missing = new ArrayList<>();
-    long missingCount = 0;
-    for (int i = 0; i < n; i++) {
-      if (lineOf[i] == 0) {
-        if (missingCount++ < MAX_LISTED) {
-          missing.add("'" + nodes.idOf(i) + "'");
-        }
+    return new Read(
+        FeatureTable.of(ids, NodeFeatures.of(rows.toArray(new float[0][]))),
+        List.copyOf(names),
+        "ids in its first column");
+  }
+
+  /** For a line read as one field: the usual delimiter it holds, as the option that reads it. */
+  static String delimiterHint(List<String> fields, char delimiter) {
+    if (fields.size() != 1) {
+      return "";
+    }
+    for (char c : new char[] {'\t', ';', '|', ','}) {
+      if (c != delimiter && fields.get(0).indexOf(c) >= 0) {
+        String value = c == '\t' ? "tab" : "'" + c + "'";
+        return "; the line holds " + value + ": use --delimiter " + value;
       }
     }
-    if (missingCount > 0) {
+    return "";
+  }
+
+  /** The features aligned to {@code nodes}, which must hold every id of the table. */
+  static NodeFeatures align(
+      Path file, FeatureTable<String> table, NodeIndex<String> nodes, String hint) {
+    try {
+      return table.alignTo(nodes);
+    } catch (IllegalArgumentException e) {
+      throw new CliException(file + ": " + e.getMessage() + hint, HeedCli.EXIT_USER_ERROR);
+    }
+  }
+
+  private static void checkWidth(Path file, int width, Expected expected) {
+    if (expected.featureCount() >= 0 && width != expected.featureCount()) {
       throw new CliException(
           file
-              + ": no features for "
-              + missingCount
-              + " of the graph's "
-              + n
-              + " nodes, for example "
-              + String.join(", ", missing)
-              + "; every node in the graph needs a line",
+              + ": "
+              + width
+              + " feature columns, but the model reads "
+              + expected.featureCount()
+              + " features per node"
+              + names(expected),
           HeedCli.EXIT_USER_ERROR);
     }
-    int k = edgelessRows.size();
-    float[] all = values;
-    if (k > 0) {
-      all = java.util.Arrays.copyOf(values, Math.multiplyExact(n + k, f));
-      for (int i = 0; i < k; i++) {
-        System.arraycopy(edgelessRows.get(i), 0, all, (n + i) * f, f);
-      }
-    }
-    return new Read(NodeFeatures.ofRowMajor(all, n + k, f), List.copyOf(edgelessLines.keySet()));
   }
 
   private static float[] parseRow(Path file, long line, String id, List<String> fields, int f) {
@@ -221,10 +307,17 @@ final class FeatureFiles {
     return false;
   }
 
-  private static void checkHeader(Path file, long line, List<String> fields, AttentionModel model) {
+  private static void checkHeader(Path file, long line, List<String> fields, Expected expected) {
     List<String> given = fields.subList(1, fields.size());
-    List<String> expected = model.featureNames();
-    if (given.size() != model.inputFeatureCount()) {
+    if (given.isEmpty()) {
+      throw new CliException(
+          file + ", line " + line + ": the header names no features after the id column",
+          HeedCli.EXIT_USER_ERROR);
+    }
+    if (expected.featureCount() < 0) {
+      return;
+    }
+    if (given.size() != expected.featureCount()) {
       throw new CliException(
           file
               + ", line "
@@ -234,11 +327,11 @@ final class FeatureFiles {
               + " features "
               + given
               + ", but the model reads "
-              + model.inputFeatureCount()
-              + names(model),
+              + expected.featureCount()
+              + names(expected),
           HeedCli.EXIT_USER_ERROR);
     }
-    if (!expected.isEmpty() && !expected.equals(given)) {
+    if (!expected.names().isEmpty() && !expected.names().equals(given)) {
       throw new CliException(
           file
               + ", line "
@@ -246,13 +339,13 @@ final class FeatureFiles {
               + ": the header's feature names "
               + given
               + " do not match the model's "
-              + expected
+              + expected.names()
               + " (same names, same order)",
           HeedCli.EXIT_USER_ERROR);
     }
   }
 
-  private static String names(AttentionModel model) {
-    return model.featureNames().isEmpty() ? "" : " " + model.featureNames();
+  private static String names(Expected expected) {
+    return expected.names().isEmpty() ? "" : " " + expected.names();
   }
 }

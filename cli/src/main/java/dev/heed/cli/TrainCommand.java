@@ -1,14 +1,10 @@
 package dev.heed.cli;
 
-import dev.heed.classify.NodeFeatures;
 import dev.heed.demo.DemoGraph;
 import dev.heed.demo.DemoTraining;
 import dev.heed.demo.PaymentsNetwork;
 import dev.heed.demo.PaymentsNetworkGenerator;
 import dev.heed.graph.CsrGraph;
-import dev.heed.graph.DirectionPolicy;
-import dev.heed.graph.EdgeListFileBuilder;
-import dev.heed.graph.EdgeListResult;
 import dev.heed.graph.NodeIndex;
 import dev.heed.model.Activation;
 import dev.heed.model.ModelFile;
@@ -25,11 +21,9 @@ import dev.heed.train.layer.GraphAttentionTrainingLayer;
 import dev.heed.train.layer.HeadMerge;
 import dev.heed.train.layer.PassContext;
 import dev.heed.train.layer.TrainingLayer;
-import java.io.BufferedReader;
 import java.io.IOException;
 import java.io.PrintStream;
 import java.io.PrintWriter;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
@@ -39,8 +33,6 @@ import java.util.Locale;
 import java.util.SplittableRandom;
 import java.util.TreeSet;
 import java.util.concurrent.Callable;
-import java.util.function.IntFunction;
-import java.util.function.ToIntFunction;
 import me.tongfei.progressbar.ConsoleProgressBarConsumer;
 import me.tongfei.progressbar.ProgressBar;
 import me.tongfei.progressbar.ProgressBarBuilder;
@@ -56,14 +48,13 @@ import picocli.CommandLine.Spec;
  * {@code --graph}, {@code --features} and {@code --labels} files. A progress bar runs on stderr;
  * the final report goes to stdout.
  *
- * <p>File formats: the graph is an edge list read by {@link EdgeListFileBuilder} (one {@code
- * source,target} per line; the target attends to the source). Features are either a {@code .npy}
- * float32/float64 array {@code [n, f]} whose row i is node i (then the edge list's ids must be the
- * row numbers {@code 0..n-1}: {@code --index-ids}), or a CSV with a header {@code id,name1,...} and
- * one row per node. Labels are a CSV {@code id,label[,split]} (a first line whose second field is
- * {@code label} is a header); split is {@code train}, {@code validation} or {@code test}. Without a
- * split column, labelled nodes are split {@value #VALIDATION_PERCENT} % validation, the rest
- * training, by the seed.
+ * <p>File formats: the graph and features are read exactly as {@code heed classify} reads them
+ * ({@link GraphInputs}: the shared {@link GraphFileOptions}, features matched to nodes by id).
+ * Labels are a CSV (or TSV) {@code id,label[,split]}, RFC 4180 quoting; a first line whose id is
+ * not a node of the graph is a header, whatever it names its columns (say {@code
+ * account,role,split}), and the report says so. Split is {@code train}, {@code validation} or
+ * {@code test}. Without a split column, labelled nodes are split {@value #VALIDATION_PERCENT} %
+ * validation, the rest training, by the seed.
  */
 @Command(
     name = "train",
@@ -95,30 +86,19 @@ final class TrainCommand implements Callable<Integer> {
   @Option(
       names = "--graph",
       paramLabel = "FILE",
-      description = "Edge-list file (source,target per line).")
+      description = "Edge-list file (source,target per line); read as classify reads it.")
   Path graph;
 
-  @Option(
-      names = "--features",
-      paramLabel = "FILE",
-      description = "Features: .npy [n, f] or CSV id,f1,...")
-  Path features;
+  @Mixin FeatureFileOptions featureOptions;
 
-  @Option(names = "--labels", paramLabel = "FILE", description = "Labels CSV: id,label[,split].")
+  @Option(
+      names = "--labels",
+      paramLabel = "FILE",
+      description =
+          "Labels CSV: id,label[,split] (split: train, validation or test); header allowed.")
   Path labels;
 
-  @Option(
-      names = "--index-ids",
-      description = "Ids in the files are node indices 0..n-1 (needed for .npy features).")
-  boolean indexIds;
-
-  @Option(names = "--header", description = "The edge list starts with a header line.")
-  boolean header;
-
-  @Option(
-      names = "--symmetrise",
-      description = "Treat edges as undirected (each end attends to the other).")
-  boolean symmetrise;
+  @Mixin GraphFileOptions graphOptions;
 
   @Option(
       names = "--score",
@@ -213,7 +193,7 @@ final class TrainCommand implements Callable<Integer> {
     if (demo) {
       return trainDemo(out);
     }
-    if (graph == null || features == null || labels == null) {
+    if (graph == null || featureOptions.features == null || labels == null) {
       throw new CliException(
           "train needs --graph, --features and --labels (or --demo to retrain the demo model)",
           HeedCli.EXIT_USER_ERROR);
@@ -253,10 +233,22 @@ final class TrainCommand implements Callable<Integer> {
   private int trainFiles(PrintWriter out) throws IOException {
     long started = System.nanoTime();
     checkSettings();
-    Graph g = readGraph();
-    int n = g.graph.nodeCount();
-    FeatureTable table = readFeatures(g, n);
-    LabelTable labelTable = readLabels(g, n);
+    graphOptions.validate();
+    GraphInputs g =
+        GraphInputs.read(
+            graph,
+            featureOptions.features,
+            featureOptions.featureIds,
+            graphOptions,
+            FeatureFiles.Expected.ANY,
+            ProgressDisplay.forTerminal(noProgress));
+    int n = g.graph().nodeCount();
+    int width = g.features().featureCount();
+    float[] values = new float[Math.multiplyExact(n, width)];
+    for (int i = 0; i < n; i++) {
+      g.features().copyRow(i, values, i * width);
+    }
+    LabelTable labelTable = readLabels(g.nodes(), n);
     int classes = labelTable.classes.size();
     if (classes < 2) {
       throw new CliException(
@@ -265,9 +257,9 @@ final class TrainCommand implements Callable<Integer> {
     }
     TrainingData data =
         TrainingData.of(
-            g.graph,
-            table.width,
-            table.values,
+            g.graph(),
+            width,
+            values,
             classes,
             labelTable.label,
             labelTable.train,
@@ -275,7 +267,7 @@ final class TrainCommand implements Callable<Integer> {
     if (balanced) {
       data = data.withBalancedClassWeights();
     }
-    TrainingNetwork network = network(table.width, classes);
+    TrainingNetwork network = network(width, classes);
     TrainingSettings settings =
         TrainingSettings.builder()
             .learningRate(learningRate)
@@ -286,26 +278,37 @@ final class TrainCommand implements Callable<Integer> {
             .build();
     out.printf(
         Locale.ROOT,
-        "graph %d nodes, %d entries; %d features; classes %s; %d train, %d validation, %d test%n",
+        "graph %d nodes, %d entries (%s); %d features (%s); classes %s; %d train, %d validation,"
+            + " %d test%n",
         n,
-        g.graph.entryCount(),
-        table.width,
+        g.graph().entryCount(),
+        graphOptions.describePolicies(),
+        width,
+        g.featuresHow(),
         labelTable.classes,
         labelTable.train.length,
         labelTable.validation.length,
         labelTable.test.length);
+    if (labelTable.header != null) {
+      out.println("labels: line 1 read as a header " + labelTable.header);
+    }
     out.flush();
     var kernel = FullBatchTrainer.defaultKernel();
     TrainingReport report;
     try (Progress progress = new Progress(epochs)) {
       report = FullBatchTrainer.withKernel(kernel).train(network, data, settings, progress);
     }
-    ModelFile.write(network.toModel(labelTable.classes, table.names), this.out);
+    ModelFile.write(
+        network
+            .toModel(labelTable.classes, g.featureNames())
+            .withGraphConventions(graphOptions.conventions()),
+        this.out);
     out.println("training: " + describe(report));
     if (labelTable.test.length > 0) {
       double[] logits =
           network.forward(
-              data.features(), PassContext.evaluation(g.graph, new KernelAttentionForward(kernel)));
+              data.features(),
+              PassContext.evaluation(g.graph(), new KernelAttentionForward(kernel)));
       out.println("held out: " + testScore(logits, classes, labelTable));
     }
     out.printf(
@@ -365,153 +368,42 @@ final class TrainCommand implements Callable<Integer> {
     return TrainingNetwork.of(list);
   }
 
-  /** The graph and how ids in the other files find its nodes (-1: not in the graph). */
-  private record Graph(CsrGraph graph, ToIntFunction<String> lookup, IntFunction<String> idOf) {}
-
-  private Graph readGraph() throws IOException {
-    DirectionPolicy direction = symmetrise ? DirectionPolicy.SYMMETRISE : DirectionPolicy.KEEP;
-    if (indexIds) {
-      EdgeListResult<Long> r =
-          EdgeListFileBuilder.indexIds(graph).header(header).direction(direction).build();
-      NodeIndex<Long> nodes = r.nodes();
-      return new Graph(
-          r.graph(),
-          token -> {
-            try {
-              return nodes.indexOf(Long.parseLong(token));
-            } catch (NumberFormatException e) {
-              return -1;
-            }
-          },
-          i -> String.valueOf(nodes.idOf(i)));
-    }
-    EdgeListResult<String> r =
-        EdgeListFileBuilder.stringIds(graph).header(header).direction(direction).build();
-    NodeIndex<String> nodes = r.nodes();
-    return new Graph(r.graph(), nodes::indexOf, nodes::idOf);
-  }
-
-  private static int nodeOf(Graph g, String token) {
-    return g.lookup.applyAsInt(token);
-  }
-
-  private record FeatureTable(int width, float[] values, List<String> names) {}
-
-  private FeatureTable readFeatures(Graph g, int n) throws IOException {
-    if (features.getFileName().toString().endsWith(".npy")) {
-      if (!indexIds) {
-        throw new CliException(
-            features
-                + ": .npy features are matched to nodes by row number, so the edge list's ids must"
-                + " be row numbers: add --index-ids, or give the features as CSV id,f1,...",
-            HeedCli.EXIT_USER_ERROR);
-      }
-      NodeFeatures f = NodeFeatures.readNpy(features);
-      if (f.nodeCount() != n) {
-        throw new CliException(
-            features + ": has " + f.nodeCount() + " rows but the graph has " + n + " nodes",
-            HeedCli.EXIT_USER_ERROR);
-      }
-      float[] values = new float[n * f.featureCount()];
-      for (int i = 0; i < n; i++) {
-        for (int k = 0; k < f.featureCount(); k++) {
-          values[i * f.featureCount() + k] = f.value(i, k);
-        }
-      }
-      return new FeatureTable(f.featureCount(), values, List.of());
-    }
-    try (BufferedReader in = Files.newBufferedReader(features, StandardCharsets.UTF_8)) {
-      String head = in.readLine();
-      if (head == null) {
-        throw userError(features, 1, "empty file; expected a header id,name1,...");
-      }
-      String[] names = head.split(",", -1);
-      int width = names.length - 1;
-      if (width < 1) {
-        throw userError(features, 1, "the header needs an id column and at least one feature");
-      }
-      float[] values = new float[n * width];
-      boolean[] seen = new boolean[n];
-      String line;
-      int lineNo = 1;
-      while ((line = in.readLine()) != null) {
-        lineNo++;
-        if (line.isBlank() || line.startsWith("#")) {
-          continue;
-        }
-        String[] f = line.split(",", -1);
-        if (f.length != width + 1) {
-          throw userError(features, lineNo, f.length + " fields, expected " + (width + 1));
-        }
-        int node = nodeOf(g, f[0].trim());
-        if (node < 0) {
-          throw userError(features, lineNo, "id '" + f[0].trim() + "' is not in the graph");
-        }
-        if (seen[node]) {
-          throw userError(features, lineNo, "id '" + f[0].trim() + "' appears twice");
-        }
-        seen[node] = true;
-        for (int k = 0; k < width; k++) {
-          try {
-            values[node * width + k] = Float.parseFloat(f[k + 1].trim());
-          } catch (NumberFormatException e) {
-            throw userError(
-                features,
-                lineNo,
-                "feature '" + names[k + 1] + "' is '" + f[k + 1] + "', not a number");
-          }
-        }
-      }
-      for (int i = 0; i < n; i++) {
-        if (!seen[i]) {
-          throw new CliException(
-              features + ": no features for node '" + g.idOf.apply(i) + "' of the graph",
-              HeedCli.EXIT_USER_ERROR);
-        }
-      }
-      List<String> featureNames = new ArrayList<>();
-      for (int k = 1; k < names.length; k++) {
-        featureNames.add(names[k].trim());
-      }
-      return new FeatureTable(width, values, featureNames);
-    }
-  }
-
   private record LabelTable(
-      List<String> classes, int[] label, int[] train, int[] validation, int[] test) {}
+      List<String> classes,
+      int[] label,
+      int[] train,
+      int[] validation,
+      int[] test,
+      List<String> header) {}
 
-  private LabelTable readLabels(Graph g, int n) throws IOException {
-    List<String[]> rows = new ArrayList<>();
-    List<Integer> lines = new ArrayList<>();
-    try (BufferedReader in = Files.newBufferedReader(labels, StandardCharsets.UTF_8)) {
-      String line;
-      int lineNo = 0;
-      while ((line = in.readLine()) != null) {
-        lineNo++;
-        if (line.isBlank() || line.startsWith("#")) {
-          continue;
-        }
-        String[] f = line.split(",", -1);
-        if (rows.isEmpty()
-            && lines.isEmpty()
-            && f.length >= 2
-            && f[1].trim().equalsIgnoreCase("label")) {
-          lines.add(-lineNo); // header
-          continue;
-        }
-        if (f.length != 2 && f.length != 3) {
-          throw userError(labels, lineNo, f.length + " fields, expected id,label[,split]");
-        }
-        rows.add(f);
-        lines.add(lineNo);
-      }
-    }
-    if (!lines.isEmpty() && lines.get(0) < 0) {
-      lines.remove(0);
-    }
+  private LabelTable readLabels(NodeIndex<String> nodes, int n) throws IOException {
+    ClassifyRun.requireFile(labels, "--labels");
+    char delimiter = TextFields.delimiterOf(labels, graphOptions.delimiterSetting());
+    List<TextFields.Row> rows = new ArrayList<>();
+    List<List<String>> header = new ArrayList<>();
+    TextFields.readRows(
+        labels,
+        delimiter,
+        row -> {
+          List<String> f = row.fields();
+          if (rows.isEmpty() && header.isEmpty() && !f.isEmpty() && nodes.indexOf(f.get(0)) < 0) {
+            header.add(f); // the first id is not a node: a header, whatever its names
+            return;
+          }
+          if (f.size() != 2 && f.size() != 3) {
+            throw userError(
+                labels,
+                row.line(),
+                f.size()
+                    + " fields, expected id,label[,split] separated by "
+                    + TextFields.describe(delimiter)
+                    + FeatureFiles.delimiterHint(f, delimiter));
+          }
+          rows.add(row);
+        });
     TreeSet<String> classSet = new TreeSet<>();
-    for (String[] f : rows) {
-      classSet.add(f[1].trim());
+    for (TextFields.Row r : rows) {
+      classSet.add(r.fields().get(1));
     }
     List<String> classes = List.copyOf(classSet);
     int[] label = new int[n];
@@ -520,18 +412,20 @@ final class TrainCommand implements Callable<Integer> {
     List<Integer> validation = new ArrayList<>();
     List<Integer> test = new ArrayList<>();
     List<Integer> unsplit = new ArrayList<>();
-    for (int r = 0; r < rows.size(); r++) {
-      String[] f = rows.get(r);
-      int lineNo = lines.get(r);
-      int node = nodeOf(g, f[0].trim());
+    for (TextFields.Row r : rows) {
+      List<String> f = r.fields();
+      int node = nodes.indexOf(f.get(0));
       if (node < 0) {
-        throw userError(labels, lineNo, "id '" + f[0].trim() + "' is not in the graph");
+        throw userError(labels, r.line(), "id '" + f.get(0) + "' is not in the graph");
       }
       if (label[node] >= 0) {
-        throw userError(labels, lineNo, "id '" + f[0].trim() + "' is labelled twice");
+        throw userError(labels, r.line(), "id '" + f.get(0) + "' is labelled twice");
       }
-      label[node] = classes.indexOf(f[1].trim());
-      String split = f.length == 3 ? f[2].trim().toLowerCase(Locale.ROOT) : "";
+      if (f.get(1).isEmpty()) {
+        throw userError(labels, r.line(), "the label of '" + f.get(0) + "' is empty");
+      }
+      label[node] = classes.indexOf(f.get(1));
+      String split = f.size() == 3 ? f.get(2).toLowerCase(Locale.ROOT) : "";
       switch (split) {
         case "train" -> train.add(node);
         case "validation" -> validation.add(node);
@@ -539,7 +433,7 @@ final class TrainCommand implements Callable<Integer> {
         case "" -> unsplit.add(node);
         default ->
             throw userError(
-                labels, lineNo, "split '" + f[2].trim() + "'; expected train, validation or test");
+                labels, r.line(), "split '" + f.get(2) + "'; expected train, validation or test");
       }
     }
     // labelled nodes without a split: VALIDATION_PERCENT % validation, the rest training, by seed
@@ -550,7 +444,13 @@ final class TrainCommand implements Callable<Integer> {
     if (train.isEmpty()) {
       throw new CliException(labels + ": no training nodes", HeedCli.EXIT_USER_ERROR);
     }
-    return new LabelTable(classes, label, ints(train), ints(validation), ints(test));
+    return new LabelTable(
+        classes,
+        label,
+        ints(train),
+        ints(validation),
+        ints(test),
+        header.isEmpty() ? null : header.get(0));
   }
 
   private static int[] ints(List<Integer> list) {
@@ -611,8 +511,8 @@ final class TrainCommand implements Callable<Integer> {
         r.seconds());
   }
 
-  private static CliException userError(Path file, int line, String problem) {
-    return new CliException(file + ":" + line + ": " + problem, HeedCli.EXIT_USER_ERROR);
+  private static CliException userError(Path file, long line, String problem) {
+    return new CliException(file + ", line " + line + ": " + problem, HeedCli.EXIT_USER_ERROR);
   }
 
   /** The progress bar on stderr, fed by the trainer's listener. */

@@ -341,10 +341,11 @@ class ClassifyCommandIT {
         "--features",
         renamed.toString());
 
-    Path npy = CliFixtures.randomData(41, 60, 5, SEED).writeFeaturesNpy(dir.resolve("x41.npy"));
+    Path npy =
+        CliFixtures.randomData(41, 60, 5, SEED).writeFeaturesNpyWithoutIds(dir.resolve("x41.npy"));
     expectError(
         1,
-        "41 rows, but the graph has 40 nodes",
+        "x41.npy: 41 rows without node ids, so row i can only be the node with id i",
         "classify",
         "--model",
         m,
@@ -370,7 +371,7 @@ class ClassifyCommandIT {
         Files.readAllLines(features).stream().filter(l -> !l.startsWith("acct-017,")).toList());
     expectError(
         1,
-        "no features for 1 of the graph's 40 nodes, for example 'acct-017'",
+        "1 of the 40 nodes have no row ('acct-017')",
         "classify",
         "--model",
         m,

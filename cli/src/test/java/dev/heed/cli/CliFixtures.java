@@ -81,8 +81,19 @@ final class CliFixtures {
       return Files.writeString(file, s, StandardCharsets.UTF_8);
     }
 
-    /** Writes a .npy [n, f] float32 in the graph's node order. */
+    /** Writes a .npy [n, f] float32 in the graph's node order, and its ids as X.ids beside it. */
     Path writeFeaturesNpy(Path file) throws IOException {
+      writeFeaturesNpyWithoutIds(file);
+      String name = file.getFileName().toString();
+      Files.write(
+          file.resolveSibling(name.substring(0, name.length() - 4) + ".ids"),
+          nodeOrder(),
+          StandardCharsets.UTF_8);
+      return file;
+    }
+
+    /** Writes a .npy [n, f] float32 in the graph's node order, without ids. */
+    Path writeFeaturesNpyWithoutIds(Path file) throws IOException {
       List<String> order = nodeOrder();
       int f = features[0].length;
       float[] values = new float[order.size() * f];

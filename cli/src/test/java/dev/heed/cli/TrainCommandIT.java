@@ -73,8 +73,10 @@ class TrainCommandIT {
             "train",
             "--graph",
             graph.toString(),
-            "--header",
-            "--symmetrise",
+            "--edge-header",
+            "yes",
+            "--direction",
+            "symmetrise",
             "--features",
             features.toString(),
             "--labels",
@@ -127,6 +129,39 @@ class TrainCommandIT {
   }
 
   @Test
+  void labelsHeaderWithItsOwnColumnNamesAndTheSharedGraphDefaults() throws Exception {
+    Path named =
+        Files.writeString(
+            dir.resolve("roles.csv"),
+            Files.readString(labels).replace("id,label,split\n", "account,role,split\r\n"));
+    Path model = dir.resolve("model.heed");
+    CliProcess.Result r =
+        CliProcess.run(
+            dir,
+            "train",
+            "--graph",
+            graph.toString(),
+            "--features",
+            features.toString(),
+            "--labels",
+            named.toString(),
+            "--epochs",
+            "3",
+            "--no-progress",
+            "--out",
+            model.toString());
+    assertEquals(0, r.exitCode(), r.toString());
+    assertTrue(
+        r.stdout().contains("labels: line 1 read as a header [account, role, split]"),
+        r.toString());
+    // classify's defaults, stated in the report: symmetrised, self-loops added, merged
+    assertTrue(
+        r.stdout().contains("graph 40 nodes")
+            && r.stdout().contains("(symmetrised, self-loops added, duplicates merged)"),
+        r.toString());
+  }
+
+  @Test
   void missingGraphFileIsOneLineError() throws Exception {
     CliProcess.Result r =
         CliProcess.run(
@@ -157,7 +192,10 @@ class TrainCommandIT {
             "train",
             "--graph",
             graph.toString(),
-            "--header",
+            "--edge-header",
+            "yes",
+            "--direction",
+            "keep",
             "--features",
             features.toString(),
             "--labels",
