@@ -56,7 +56,8 @@ final class DemoRun {
       PathChoice path,
       Integer threads,
       int explainK,
-      Path csvOut,
+      Path predictionsOut,
+      ClassifyOutputOptions output,
       long start)
       throws IOException {
     AttentionModel model;
@@ -92,8 +93,8 @@ final class DemoRun {
     long classifyStart = System.nanoTime();
     Classification all = run.classify(null, path, 0);
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;
-    if (csvOut != null) {
-      ClassifyCommand.writeCsv(run, all, 0, csvOut, out);
+    if (predictionsOut != null) {
+      output.writePredictions(run, all, 0, predictionsOut, out);
     }
     run.printSummary(all, classifySeconds, (System.nanoTime() - start) / 1e9, err);
 
