@@ -27,7 +27,8 @@ import picocli.CommandLine.Spec;
     sortOptions = false,
     description = {
       "Classify the nodes of a graph with a model: predictions as CSV or JSON Lines (stdout or"
-          + " --out), a summary on stderr.",
+          + " --out), optionally an HTML report of explained predictions (--report), a summary"
+          + " on stderr.",
       "The graph is an edge-list file (CSV/TSV, header optional, one 'source,target' per line);"
           + " features are a CSV with an id column (optional header checked against the model's"
           + " feature names) or a .npy float32 [n, f] in the graph's node order (order of first"
@@ -116,7 +117,7 @@ final class ClassifyCommand implements Callable<Integer> {
     if (explain < 0) {
       throw new CliException("--explain must be at least 0, got " + explain, HeedCli.EXIT_USAGE);
     }
-    output.validate(out);
+    output.validate(nodes != null, out);
     PrintWriter err = spec.commandLine().getErr();
     if (demo) {
       if (graph != null || features != null || nodes != null) {
@@ -137,6 +138,7 @@ final class ClassifyCommand implements Callable<Integer> {
     }
     ClassifyRun.requireFile(model, "--model");
     AttentionModel m = ModelFile.read(model);
+    output.checkReportClass(m.classLabels());
     ClassifyRun run =
         ClassifyRun.load(m, model.getFileName().toString(), graph, features, graphOptions, threads);
     int[] chosen = nodes == null ? null : run.indicesOf(nodes);
@@ -146,6 +148,14 @@ final class ClassifyCommand implements Callable<Integer> {
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;
     output.writePredictions(run, result, explain, out, spec.commandLine().getOut());
     run.printSummary(result, classifySeconds, (System.nanoTime() - start) / 1e9, err);
+    output.writeReport(
+        run,
+        result,
+        chosen,
+        pathChoice,
+        model.getFileName().toString(),
+        graph.getFileName().toString(),
+        err);
     return 0;
   }
 

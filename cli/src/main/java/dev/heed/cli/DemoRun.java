@@ -70,6 +70,7 @@ final class DemoRun {
       model = bundledModel();
       modelName = "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1);
     }
+    output.checkReportClass(model.classLabels());
     Path dir = directory != null ? directory : DemoFiles.defaultDirectory();
     long prepareStart = System.nanoTime();
     DemoFiles files;
@@ -97,6 +98,8 @@ final class DemoRun {
       output.writePredictions(run, all, 0, predictionsOut, out);
     }
     run.printSummary(all, classifySeconds, (System.nanoTime() - start) / 1e9, err);
+    output.writeReport(
+        run, all, null, path, modelName, files.transfers().getFileName().toString(), err);
 
     List<String> labels = run.model().classLabels();
     int n = run.graph().nodeCount();

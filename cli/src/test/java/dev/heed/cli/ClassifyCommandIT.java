@@ -410,8 +410,31 @@ class ClassifyCommandIT {
             CliFixtures.mixedModel(dir),
             data.writeEdges(dir.resolve("g.csv"), ",", true),
             data.writeFeaturesCsv(dir.resolve("x.csv"), null));
+    String report = dir.resolve("r.html").toString();
 
     expectError(2, "--format must be auto, csv or jsonl, got 'xml'", in.args("--format", "xml"));
+    expectError(2, "--report-top needs --report FILE", in.args("--report-top", "5"));
+    expectError(2, "--report-class needs --report FILE", in.args("--report-class", "beta"));
+    expectError(
+        2,
+        "--report-top chooses the report's nodes by score; with --nodes",
+        in.args("--report", report, "--nodes", "acct-001", "--report-top", "3"));
+    expectError(
+        2,
+        "--report-neighbours must be between 1 and 40, got 0",
+        in.args("--report", report, "--report-neighbours", "0"));
+    expectError(
+        2,
+        "--report-top must be between 1 and 500, got 501",
+        in.args("--report", report, "--report-top", "501"));
+    expectError(
+        1,
+        "--report-class: 'delta' is not one of the model's class labels [alpha, beta, gamma]",
+        in.args("--report", report, "--report-class", "delta"));
+    expectError(
+        1,
+        "--report: the directory " + dir.resolve("nowhere") + " does not exist",
+        in.args("--report", dir.resolve("nowhere").resolve("r.html").toString()));
     expectError(
         1,
         "--out: the directory " + dir.resolve("nowhere") + " does not exist",

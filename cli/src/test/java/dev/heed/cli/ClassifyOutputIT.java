@@ -10,19 +10,26 @@ import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
+import java.util.Comparator;
 import java.util.List;
+import java.util.regex.Matcher;
+import java.util.regex.Pattern;
 import org.junit.jupiter.api.Test;
 import org.junit.jupiter.api.io.TempDir;
 
 /**
  * What {@code heed classify} writes, through the real jar: the per-label probability columns, JSON
- * Lines against CSV, and labels that need CSV quoting.
+ * Lines against CSV, labels that need CSV quoting, and the HTML report's choice of nodes. (The
+ * report's rendering is checked in a browser by {@link ReportBrowserIT}.)
  */
 class ClassifyOutputIT {
 
   private static final long SEED = 20261203L;
 
   private static final ObjectMapper JSON = new ObjectMapper();
+
+  private static final Pattern CARD =
+      Pattern.compile("<section class=\"card\" id=\"card-(\\d+)\" data-id=\"([^\"]*)\"");
 
   @TempDir Path dir;
 
@@ -124,6 +131,65 @@ class ClassifyOutputIT {
       assertEquals(labels, iterable(o.get("probabilities").fieldNames()), line);
       assertTrue(labels.contains(o.get("label").asText()), line);
     }
+  }
+
+  /** The report's nodes: by default the 20 with the highest probability of the last label. */
+  @Test
+  void reportShowsTheNodesScoredHighestForTheChosenClass() throws Exception {
+    CliFixtures.ClassifyInputs inputs = inputs(CliFixtures.mixedModel(dir));
+    Path report = dir.resolve("report.html");
+    Path predictions = dir.resolve("p.csv");
+    CliProcess.Result r =
+        run(inputs, "--report", report.toString(), "--out", predictions.toString());
+    assertTrue(r.stderr().contains("report: 20 explained nodes in " + report), r.toString());
+    List<String[]> rows =
+        CliFixtures.csvRows(Files.readString(predictions)).subList(1, 41).stream()
+            .sorted(Comparator.comparingDouble((String[] row) -> -Double.parseDouble(row[5])))
+            .toList();
+    List<String> cards = cardIds(report);
+    assertEquals(20, cards.size());
+    for (int i = 0; i < 20; i++) {
+      // Printed with 6 decimals, so compare the probabilities, not the order of near ties.
+      String id = cards.get(i);
+      String[] row = rows.stream().filter(x -> x[0].equals(id)).findFirst().orElseThrow();
+      assertTrue(
+          Double.parseDouble(row[5]) >= Double.parseDouble(rows.get(20)[5]) - 1e-6,
+          "card " + cards.get(i) + " is among the 20 highest p_gamma");
+    }
+    assertEquals(rows.get(0)[0], cards.get(0), "the highest p_gamma first");
+
+    run(
+        inputs,
+        "--report",
+        report.toString(),
+        "--report-class",
+        "alpha",
+        "--report-top",
+        "3",
+        "--report-neighbours",
+        "2");
+    List<String> byAlpha =
+        CliFixtures.csvRows(Files.readString(predictions)).subList(1, 41).stream()
+            .sorted(Comparator.comparingDouble((String[] row) -> -Double.parseDouble(row[3])))
+            .map(row -> row[0])
+            .limit(3)
+            .toList();
+    assertEquals(byAlpha, cardIds(report));
+    String html = Files.readString(report);
+    assertTrue(html.contains("P(alpha)"), "the ranked class is named");
+
+    run(inputs, "--report", report.toString(), "--nodes", "acct-009,acct-002,acct-009");
+    assertEquals(List.of("acct-009", "acct-002"), cardIds(report), "named nodes, once each");
+  }
+
+  private static List<String> cardIds(Path report) throws Exception {
+    Matcher m = CARD.matcher(Files.readString(report, StandardCharsets.UTF_8));
+    List<String> ids = new ArrayList<>();
+    while (m.find()) {
+      assertEquals(ids.size() + 1, Integer.parseInt(m.group(1)));
+      ids.add(m.group(2));
+    }
+    return ids;
   }
 
   private static List<String> iterable(java.util.Iterator<String> names) {
