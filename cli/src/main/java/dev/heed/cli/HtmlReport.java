@@ -99,8 +99,8 @@ final class HtmlReport {
       h.append("Each node sits in the centre. Around it, clockwise from the top and heaviest")
           .append(" first, are the nodes that its last attention layer, <b>")
           .append(escape(r.layerName()))
-          .append("</b>, weighted most (mean over ")
-          .append(count(r.layerHeads(), "head"))
+          .append("</b>, weighted most (")
+          .append(r.layerHeads() == 1 ? "its one head" : "mean over " + r.layerHeads() + " heads")
           .append("). A line&rsquo;s width is proportional to its weight; the ring around the")
           .append(" centre is the weight the node gave itself; dashed lines are graph edges")
           .append(" between the drawn nodes. Hover a node or a table row to pair them.");
@@ -219,7 +219,7 @@ final class HtmlReport {
           .append(escape(nb.id()))
           .append("</td>");
       weightCell(nb.weight(), h);
-      h.append("<td>");
+      h.append("<td class=\"pred\">");
       chip(r, nb.labelIndex(), h);
       h.append(' ').append(decimal(nb.probability())).append("</td></tr>\n");
     }
@@ -522,7 +522,8 @@ final class HtmlReport {
       .side { flex: 1 1 340px; min-width: 300px; }
       svg.hood { max-width: 100%; height: auto; background: #fbf8f1; border-radius: 8px; }
       .orbit { fill: none; stroke: #ebe4d6; stroke-width: 1; }
-      .link { stroke: #b3aa9a; stroke-width: 1.2; stroke-dasharray: 4 4; }
+      .link { stroke: #c4bba9; stroke-width: 1; stroke-dasharray: 3 4; }
+      td.pred { white-space: nowrap; }
       .edge { stroke: var(--edge); stroke-opacity: 0.55; stroke-linecap: round; }
       .node { stroke: #fffdf8; stroke-width: 2; }
       .ring { fill: none; stroke: var(--edge); stroke-opacity: 0.55; }
