@@ -4,13 +4,8 @@ import dev.heed.classify.Classification;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.ModelFile;
 import dev.heed.model.PathChoice;
-import java.io.BufferedWriter;
 import java.io.IOException;
-import java.io.OutputStreamWriter;
 import java.io.PrintWriter;
-import java.io.Writer;
-import java.nio.charset.StandardCharsets;
-import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.List;
 import java.util.Locale;
@@ -31,8 +26,9 @@ import picocli.CommandLine.Spec;
     versionProvider = HeedCli.Version.class,
     sortOptions = false,
     description = {
-      "Classify the nodes of a graph with a model: predictions as CSV (stdout or --out), a"
-          + " summary on stderr.",
+      "Classify the nodes of a graph with a model: predictions as CSV or JSON Lines (stdout or"
+          + " --out), optionally an HTML report of explained predictions (--report), a summary"
+          + " on stderr.",
       "The graph is an edge-list file (CSV/TSV, RFC 4180 quoting, header optional, one"
           + " 'source,target' per line). Features are matched to nodes by id: a CSV with an id"
           + " column (optional header checked against the model's feature names), an .npz with"
@@ -97,15 +93,18 @@ final class ClassifyCommand implements Callable<Integer> {
       paramLabel = "K",
       defaultValue = "0",
       description =
-          "Add the K neighbours with the most attention in the model's last attention layer"
-              + " (weights averaged over heads): columns neighbour_1,weight_1,...")
+          "Add the K neighbours with the most attention (weights averaged over heads): in CSV"
+              + " those of the model's last attention layer, columns neighbour_1,weight_1,...;"
+              + " in JSON Lines those of every attention layer.")
   int explain;
 
   @Option(
       names = "--out",
       paramLabel = "FILE",
-      description = "Write the CSV here instead of stdout.")
+      description = "Write the predictions here instead of stdout.")
   Path out;
+
+  @Mixin ClassifyOutputOptions output;
 
   @Mixin GraphFileOptions graphOptions;
 
@@ -139,6 +138,7 @@ final class ClassifyCommand implements Callable<Integer> {
     if (explain < 0) {
       throw new CliException("--explain must be at least 0, got " + explain, HeedCli.EXIT_USAGE);
     }
+    output.validate(nodes != null, out);
     PrintWriter err = spec.commandLine().getErr();
     if (demo) {
       if (graph != null
@@ -151,7 +151,7 @@ final class ClassifyCommand implements Callable<Integer> {
             HeedCli.EXIT_USAGE);
       }
       return new DemoRun(spec.commandLine().getOut(), err)
-          .run(demoDir, model, pathChoice, threads, explain == 0 ? 5 : explain, out, start);
+          .run(demoDir, model, pathChoice, threads, explain == 0 ? 5 : explain, out, output, start);
     }
     if (demoDir != null) {
       throw new CliException("--demo-dir needs --demo", HeedCli.EXIT_USAGE);
@@ -164,6 +164,7 @@ final class ClassifyCommand implements Callable<Integer> {
     ClassifyRun.requireFile(model, "--model");
     AttentionModel m = ModelFile.read(model);
     graphOptions.followModel(m.graphConventions(), overrideGraphConventions, err);
+    output.checkReportClass(m.classLabels());
     ClassifyRun run =
         ClassifyRun.load(
             m,
@@ -175,7 +176,7 @@ final class ClassifyCommand implements Callable<Integer> {
             threads,
             ProgressDisplay.forTerminal(noProgress));
     if (nodeOrder != null) {
-      requireDirectoryOf(nodeOrder, "--node-order");
+      ClassifyOutputOptions.requireDirectoryOf(nodeOrder, "--node-order");
       run.writeNodeOrder(nodeOrder);
     }
     int[] chosen = nodes == null ? null : run.indicesOf(nodes);
@@ -183,33 +184,17 @@ final class ClassifyCommand implements Callable<Integer> {
     long classifyStart = System.nanoTime();
     Classification result = run.classify(chosen, pathChoice, explain);
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;
-    writeCsv(run, result, explain, out, spec.commandLine().getOut());
+    output.writePredictions(run, result, explain, out, spec.commandLine().getOut());
     run.printSummary(result, classifySeconds, (System.nanoTime() - start) / 1e9, err);
+    output.writeReport(
+        run,
+        result,
+        chosen,
+        pathChoice,
+        model.getFileName().toString(),
+        graph.getFileName().toString(),
+        err);
     return 0;
-  }
-
-  /** Writes the CSV to {@code file}, or to {@code stdout} when file is null. */
-  static void writeCsv(
-      ClassifyRun run, Classification result, int explain, Path file, PrintWriter stdout)
-      throws IOException {
-    if (file == null) {
-      run.writeCsv(result, explain, stdout);
-      return;
-    }
-    requireDirectoryOf(file, "--out");
-    try (Writer w =
-        new BufferedWriter(
-            new OutputStreamWriter(Files.newOutputStream(file), StandardCharsets.UTF_8), 1 << 16)) {
-      run.writeCsv(result, explain, w);
-    }
-  }
-
-  static void requireDirectoryOf(Path file, String option) {
-    Path parent = file.toAbsolutePath().getParent();
-    if (parent != null && !Files.isDirectory(parent)) {
-      throw new CliException(
-          option + ": the directory " + parent + " does not exist", HeedCli.EXIT_USER_ERROR);
-    }
   }
 
   /** An explicit dense path over a large graph works in n² per head; say so before it starts. */

@@ -15,7 +15,6 @@ import dev.heed.model.LayerRun;
 import dev.heed.model.PathChoice;
 import java.io.IOException;
 import java.io.PrintWriter;
-import java.io.Writer;
 import java.nio.file.Path;
 import java.util.ArrayList;
 import java.util.List;
@@ -23,7 +22,8 @@ import java.util.Locale;
 
 /**
  * The classify code path shared by {@code heed classify} and {@code heed classify --demo}: reads
- * the graph and features once, runs the model, writes predictions as CSV and a summary.
+ * the graph and features once, runs the model and prints a summary (the predictions are written by
+ * a {@link PredictionWriter}).
  */
 final class ClassifyRun {
 
@@ -172,42 +172,6 @@ final class ClassifyRun {
     } finally {
       bar.close();
     }
-  }
-
-  /**
-   * Writes predictions as CSV: node, label, probability, then with explanations K pairs
-   * neighbour_k, weight_k from the last attention layer (weights averaged over heads; empty fields
-   * where a node has fewer than K neighbours).
-   */
-  void writeCsv(Classification result, int explainK, Writer out) throws IOException {
-    StringBuilder line = new StringBuilder("node,label,probability");
-    for (int k = 1; k <= explainK; k++) {
-      line.append(",neighbour_").append(k).append(",weight_").append(k);
-    }
-    out.write(line.append('\n').toString());
-    for (NodePrediction p : result.predictions()) {
-      line.setLength(0);
-      line.append(TextFields.csv(nodes.idOf(p.node())))
-          .append(',')
-          .append(TextFields.csv(p.label()))
-          .append(',')
-          .append(String.format(Locale.ROOT, "%.6f", p.probability()));
-      if (explainK > 0) {
-        List<NeighbourWeight> top = lastLayerNeighbours(p);
-        for (int k = 0; k < explainK; k++) {
-          if (k < top.size()) {
-            line.append(',')
-                .append(TextFields.csv(nodes.idOf(top.get(k).node())))
-                .append(',')
-                .append(String.format(Locale.ROOT, "%.6f", top.get(k).weight()));
-          } else {
-            line.append(",,");
-          }
-        }
-      }
-      out.write(line.append('\n').toString());
-    }
-    out.flush();
   }
 
   /** The top neighbours of the last attention layer, averaged over heads; empty if none. */

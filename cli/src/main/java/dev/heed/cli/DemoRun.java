@@ -56,7 +56,8 @@ final class DemoRun {
       PathChoice path,
       Integer threads,
       int explainK,
-      Path csvOut,
+      Path predictionsOut,
+      ClassifyOutputOptions output,
       long start)
       throws IOException {
     AttentionModel model;
@@ -69,6 +70,7 @@ final class DemoRun {
       model = bundledModel();
       modelName = "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1);
     }
+    output.checkReportClass(model.classLabels());
     Path dir = directory != null ? directory : DemoFiles.defaultDirectory();
     long prepareStart = System.nanoTime();
     DemoFiles files;
@@ -94,10 +96,12 @@ final class DemoRun {
     long classifyStart = System.nanoTime();
     Classification all = run.classify(null, path, 0);
     double classifySeconds = (System.nanoTime() - classifyStart) / 1e9;
-    if (csvOut != null) {
-      ClassifyCommand.writeCsv(run, all, 0, csvOut, out);
+    if (predictionsOut != null) {
+      output.writePredictions(run, all, 0, predictionsOut, out);
     }
     run.printSummary(all, classifySeconds, (System.nanoTime() - start) / 1e9, err);
+    output.writeReport(
+        run, all, null, path, modelName, files.transfers().getFileName().toString(), err);
 
     List<String> labels = run.model().classLabels();
     int n = run.graph().nodeCount();

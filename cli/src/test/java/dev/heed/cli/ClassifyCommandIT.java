@@ -63,7 +63,10 @@ class ClassifyCommandIT {
             "2");
     assertEquals(0, r.exitCode(), r.toString());
     List<String[]> rows = CliFixtures.csvRows(r.stdout());
-    assertEquals("node,label,probability", String.join(",", rows.get(0)), r.toString());
+    assertEquals(
+        "node,label,probability,p_alpha,p_beta,p_gamma",
+        String.join(",", rows.get(0)),
+        r.toString());
     assertEquals(41, rows.size(), r.toString());
 
     // The same files through the library, in this JVM (seed in the messages).
@@ -86,6 +89,10 @@ class ClassifyCommandIT {
       assertEquals(read.nodes().idOf(i), row[0], "row order = node order, seed " + SEED);
       assertEquals(p.label(), row[1], "seed " + SEED + ", node " + row[0]);
       assertEquals(p.probability(), Float.parseFloat(row[2]), 1e-6, "seed " + SEED);
+      float[] every = p.probabilities();
+      for (int c = 0; c < every.length; c++) {
+        assertEquals(every[c], Float.parseFloat(row[3 + c]), 1e-6, "seed " + SEED + ", p_" + c);
+      }
     }
 
     String err = r.stderr();
@@ -142,7 +149,8 @@ class ClassifyCommandIT {
     assertEquals("", r.stdout(), "with --out, nothing on stdout");
     List<String[]> rows = CliFixtures.csvRows(Files.readString(out, StandardCharsets.UTF_8));
     assertEquals(
-        "node,label,probability,neighbour_1,weight_1,neighbour_2,weight_2,neighbour_3,weight_3",
+        "node,label,probability,p_alpha,p_beta,p_gamma,"
+            + "neighbour_1,weight_1,neighbour_2,weight_2,neighbour_3,weight_3",
         String.join(",", rows.get(0)));
     assertEquals(4, rows.size());
     assertEquals(
@@ -155,18 +163,18 @@ class ClassifyCommandIT {
               .filter(x -> x[0].equals(row[0]))
               .findFirst()
               .orElseThrow();
-      assertEquals(List.of(same).subList(0, 3), List.of(row).subList(0, 3), "seed " + SEED);
+      assertEquals(List.of(same).subList(0, 6), List.of(row).subList(0, 6), "seed " + SEED);
       // Explanations: neighbours in the (symmetrised, self-looped) neighbourhood, weights
       // descending.
       Set<String> neighbourhood = neighbourhood(data, row[0]);
       float previous = Float.POSITIVE_INFINITY;
       for (int k = 0; k < 3; k++) {
-        String neighbour = row[3 + 2 * k];
+        String neighbour = row[6 + 2 * k];
         if (neighbour.isEmpty()) {
           continue;
         }
         assertTrue(neighbourhood.contains(neighbour), neighbour + " not a neighbour of " + row[0]);
-        float w = Float.parseFloat(row[4 + 2 * k]);
+        float w = Float.parseFloat(row[7 + 2 * k]);
         assertTrue(
             w >= 0 && w <= 1 && w <= previous,
             "weights in [0,1], descending: " + String.join(",", row));
@@ -246,7 +254,7 @@ class ClassifyCommandIT {
     assertEquals(42, rows.size(), r.toString());
     String[] loner = rows.get(41);
     // With self-loops added, a node without edges attends to itself alone, with weight 1.
-    assertEquals(List.of("loner", "1.000000", "", ""), List.of(loner).subList(3, 7), r.toString());
+    assertEquals(List.of("loner", "1.000000", "", ""), List.of(loner).subList(6, 10), r.toString());
     assertTrue(r.stderr().contains("41 nodes"), r.toString());
     assertTrue(r.stderr().contains("1 of the nodes appear only in x.csv"), r.toString());
   }
@@ -393,6 +401,45 @@ class ClassifyCommandIT {
         "--path",
         "fastest");
     expectError(2, "classify needs --model, --graph and --features", "classify", "--graph", g);
+  }
+
+  @Test
+  void outputOptionErrorsAreOneLineWithTheRightExitCode() throws Exception {
+    CliFixtures.Data data = data();
+    CliFixtures.ClassifyInputs in =
+        new CliFixtures.ClassifyInputs(
+            CliFixtures.mixedModel(dir),
+            data.writeEdges(dir.resolve("g.csv"), ",", true),
+            data.writeFeaturesCsv(dir.resolve("x.csv"), null));
+    String report = dir.resolve("r.html").toString();
+
+    expectError(2, "--format must be auto, csv or jsonl, got 'xml'", in.args("--format", "xml"));
+    expectError(2, "--report-top needs --report FILE", in.args("--report-top", "5"));
+    expectError(2, "--report-class needs --report FILE", in.args("--report-class", "beta"));
+    expectError(
+        2,
+        "--report-top chooses the report's nodes by score; with --nodes",
+        in.args("--report", report, "--nodes", "acct-001", "--report-top", "3"));
+    expectError(
+        2,
+        "--report-neighbours must be between 1 and 40, got 0",
+        in.args("--report", report, "--report-neighbours", "0"));
+    expectError(
+        2,
+        "--report-top must be between 1 and 500, got 501",
+        in.args("--report", report, "--report-top", "501"));
+    expectError(
+        1,
+        "--report-class: 'delta' is not one of the model's class labels [alpha, beta, gamma]",
+        in.args("--report", report, "--report-class", "delta"));
+    expectError(
+        1,
+        "--report: the directory " + dir.resolve("nowhere") + " does not exist",
+        in.args("--report", dir.resolve("nowhere").resolve("r.html").toString()));
+    expectError(
+        1,
+        "--out: the directory " + dir.resolve("nowhere") + " does not exist",
+        in.args("--out", dir.resolve("nowhere").resolve("p.jsonl").toString()));
   }
 
   private void expectError(int exit, String message, String... args) throws Exception {

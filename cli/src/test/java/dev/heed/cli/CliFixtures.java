@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import com.fasterxml.jackson.databind.ObjectMapper;
 import dev.heed.model.ModelFile;
 import dev.heed.npy.Npy;
 import dev.heed.npy.NpyArray;
@@ -105,6 +106,26 @@ final class CliFixtures {
     }
   }
 
+  /** The files of one {@code heed classify} run. */
+  record ClassifyInputs(Path model, Path graph, Path features) {
+
+    /** The arguments {@code classify --model M --graph G --features X}, then {@code more}. */
+    String[] args(String... more) {
+      List<String> args =
+          new ArrayList<>(
+              List.of(
+                  "classify",
+                  "--model",
+                  model.toString(),
+                  "--graph",
+                  graph.toString(),
+                  "--features",
+                  features.toString()));
+      args.addAll(List.of(more));
+      return args.toArray(String[]::new);
+    }
+  }
+
   /** n nodes named "acct-i" in a ring plus random chords, and features in [-1, 1). */
   static Data randomData(int n, int chords, int featureCount, long seed) {
     SplittableRandom random = new SplittableRandom(seed);
@@ -158,8 +179,10 @@ final class CliFixtures {
     return file;
   }
 
-  private static String quoted(List<String> names) {
-    return String.join(", ", names.stream().map(s -> "\"" + s + "\"").toList());
+  /** Names as JSON strings, escaped (labels in tests may hold quotes and line breaks). */
+  private static String quoted(List<String> names) throws IOException {
+    String array = new ObjectMapper().writeValueAsString(names);
+    return array.substring(1, array.length() - 1);
   }
 
   private static NpyArray randomArray(SplittableRandom random, int... shape) {
@@ -172,6 +195,46 @@ final class CliFixtures {
       v[i] = (float) (2 * random.nextDouble() - 1);
     }
     return NpyArray.ofFloats(v, shape);
+  }
+
+  /**
+   * Parses CSV text with RFC 4180 rules (quoted fields may hold commas, doubled quotes and line
+   * breaks) into records of fields.
+   */
+  static List<List<String>> csvRecords(String text) {
+    List<List<String>> records = new ArrayList<>();
+    List<String> record = new ArrayList<>();
+    StringBuilder field = new StringBuilder();
+    boolean quoted = false;
+    for (int i = 0; i < text.length(); i++) {
+      char c = text.charAt(i);
+      if (quoted) {
+        if (c == '"' && i + 1 < text.length() && text.charAt(i + 1) == '"') {
+          field.append('"');
+          i++;
+        } else if (c == '"') {
+          quoted = false;
+        } else {
+          field.append(c);
+        }
+      } else if (c == '"') {
+        quoted = true;
+      } else if (c == ',') {
+        record.add(field.toString());
+        field.setLength(0);
+      } else if (c == '\n') {
+        record.add(field.toString());
+        field.setLength(0);
+        records.add(record);
+        record = new ArrayList<>();
+      } else {
+        field.append(c);
+      }
+    }
+    if (quoted || field.length() > 0 || !record.isEmpty()) {
+      throw new AssertionError("CSV text does not end with a complete line: " + text);
+    }
+    return records;
   }
 
   /** Parses CSV output without quoted fields into rows of fields. */

@@ -53,6 +53,7 @@ class DemoCommandIT {
             PaymentsNetwork.ROLES,
             7L);
     Path predictions = shared.resolve("predictions.csv");
+    Path report = shared.resolve("demo-report.html");
     CliProcess.Result r =
         CliProcess.run(
             shared,
@@ -65,7 +66,9 @@ class DemoCommandIT {
             "--threads",
             "2",
             "--out",
-            predictions.toString());
+            predictions.toString(),
+            "--report",
+            report.toString());
     assertEquals(0, r.exitCode(), r.toString());
     String out = r.stdout();
     assertTrue(
@@ -82,6 +85,11 @@ class DemoCommandIT {
         out);
     assertTrue(out.lines().anyMatch(l -> l.matches(" {6}acct-[0-9]{6} +weight [0-9.]+ .*")), out);
     assertTrue(r.stderr().contains("transfers.csv"), r.toString());
+    // The report: by default the 20 accounts scored highest as the last role, mule-ring.
+    assertTrue(r.stderr().contains("report: 20 explained nodes in " + report), r.toString());
+    String html = Files.readString(report, StandardCharsets.UTF_8);
+    assertEquals(20, html.split("<section class=\"card\"", -1).length - 1, "one card per account");
+    assertTrue(html.contains("with the highest probability of mule-ring"), "ranked by mule-ring");
 
     // The printed accuracy, recomputed from the written predictions and roles.csv.
     Map<String, String[]> roles = new HashMap<>();
