@@ -110,7 +110,7 @@ def _add_entry(archive, name, payload):
 
 
 def write_model(path, input_features, class_labels, layers, feature_names=None, checks=True,
-                check_tolerance=DEFAULT_CHECK_TOLERANCE):
+                check_tolerance=DEFAULT_CHECK_TOLERANCE, graph=None):
     """Write a model file.
 
     path: destination file name (or a binary file object).
@@ -127,6 +127,9 @@ def write_model(path, input_features, class_labels, layers, feature_names=None, 
         sorted, at most 256 nodes) and "features" ([nodes, input_features]) for your own, or
         False for none.
     check_tolerance: the largest deviation of a probability Heed accepts, at most 0.01.
+    graph: how the training graph was built from its edge list, recorded so that Heed builds the
+        graph the same way: a dict {"direction": "symmetrise"|"keep", "self_loops":
+        "add"|"as-given", "duplicates": "merge"|"reject"}. Give it whenever you know it.
     """
     description = {
         "format": FORMAT_NAME,
@@ -136,6 +139,9 @@ def write_model(path, input_features, class_labels, layers, feature_names=None, 
     if feature_names is not None:
         description["feature_names"] = [str(f) for f in feature_names]
     description["class_labels"] = [str(c) for c in class_labels]
+    if graph is not None:
+        description["graph"] = {key: str(graph[key])
+                                for key in ("direction", "self_loops", "duplicates")}
     described_layers = []
     entries = []
     for layer in layers:

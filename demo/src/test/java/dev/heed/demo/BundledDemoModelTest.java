@@ -21,6 +21,7 @@ import dev.heed.train.layer.Parameter;
 import java.io.ByteArrayInputStream;
 import java.io.IOException;
 import java.io.InputStream;
+import java.util.Optional;
 import java.util.List;
 import org.junit.jupiter.api.Test;
 import org.slf4j.Logger;
@@ -47,7 +48,8 @@ class BundledDemoModelTest {
   /**
    * The committed file is what the trainer's export writes for its weights, check vectors included:
    * the demo network ({@link DemoTraining#gat}) given the committed weights and exported through
-   * {@link TrainingNetwork#toModel} gives the committed bytes. So retraining reproduces the file
+   * {@link TrainingNetwork#toModel}, with the demo graph's conventions recorded as {@link
+   * DemoTraining} records them, gives the committed bytes. So retraining reproduces the file
    * byte for byte, and its check vectors are the trainer's own float64 evaluation pass, which
    * loading the file compares with the serving layers.
    */
@@ -78,7 +80,10 @@ class BundledDemoModelTest {
     assertArrayEquals(
         committed,
         ModelFile.toBytes(
-            network.toModel(PaymentsNetwork.ROLES, PaymentsNetworkGenerator.FEATURE_NAMES)));
+            network
+                .toModel(PaymentsNetwork.ROLES, PaymentsNetworkGenerator.FEATURE_NAMES)
+                .withGraphConventions(DemoGraph.CONVENTIONS)));
+    assertEquals(Optional.of(DemoGraph.CONVENTIONS), model.graphConventions());
   }
 
   @Test
