@@ -343,6 +343,20 @@ public final class EdgeListFileBuilder<V> {
   }
 
   /**
+   * Sets all three policies at once, typically to build the graph the way a model's training graph
+   * was built ({@code model.graphConventions()}).
+   *
+   * @param conventions direction, self-loop and duplicate policies, not null
+   * @return this builder
+   */
+  public EdgeListFileBuilder<V> conventions(GraphConventions conventions) {
+    Objects.requireNonNull(conventions, "conventions");
+    return direction(conventions.direction())
+        .selfLoops(conventions.selfLoops())
+        .duplicates(conventions.duplicates());
+  }
+
+  /**
    * Sets the self-loop policy.
    *
    * @param policy the policy, not null

@@ -21,8 +21,8 @@ import dev.heed.train.layer.Parameter;
 import java.io.ByteArrayInputStream;
 import java.io.IOException;
 import java.io.InputStream;
-import java.util.Optional;
 import java.util.List;
+import java.util.Optional;
 import org.junit.jupiter.api.Test;
 import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
@@ -49,9 +49,9 @@ class BundledDemoModelTest {
    * The committed file is what the trainer's export writes for its weights, check vectors included:
    * the demo network ({@link DemoTraining#gat}) given the committed weights and exported through
    * {@link TrainingNetwork#toModel}, with the demo graph's conventions recorded as {@link
-   * DemoTraining} records them, gives the committed bytes. So retraining reproduces the file
-   * byte for byte, and its check vectors are the trainer's own float64 evaluation pass, which
-   * loading the file compares with the serving layers.
+   * DemoTraining} records them, gives the committed bytes. So retraining reproduces the file byte
+   * for byte, and its check vectors are the trainer's own float64 evaluation pass, which loading
+   * the file compares with the serving layers.
    */
   @Test
   void committedFileIsTheTrainersExportOfItsWeights() throws IOException {
