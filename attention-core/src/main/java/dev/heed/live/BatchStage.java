@@ -1,0 +1,326 @@
+package dev.heed.live;
+
+import java.util.ArrayList;
+import java.util.Arrays;
+import java.util.HashMap;
+import java.util.List;
+import java.util.Map;
+
+/**
+ * Applies one batch to one snapshot in two steps. {@link #stage()} runs the batch's operations in
+ * order against private copies (new ids in a local map, each touched row in a {@link RowEditor},
+ * features in a local map) and throws at the first bad operation, so a refused batch leaves nothing
+ * behind. {@link #commit} then appends the new ids and builds the next snapshot by path copying; it
+ * cannot fail on input. The caller holds the graph's write lock around both; ids that already
+ * existed are looked up before, without the lock ({@link #preResolve}), since an index never
+ * changes once given.
+ */
+final class BatchStage<K> {
+
+  /** The most nodes and row entries a live graph holds (Java array limit, common practice). */
+  static final int MAX_SIZE = Integer.MAX_VALUE - 8;
+
+  private final LiveGraph<K> graph;
+  private final LiveSnapshot<K> from;
+  private final NodeIdTable<K> idTable;
+  private final UpdateBatch<K> batch;
+  private final int[] firstIndex;
+  private final int[] secondIndex;
+  private final List<K> newIds = new ArrayList<>();
+  private final Map<K, Integer> newIdIndex = new HashMap<>();
+  private final Map<Integer, RowEditor> rows = new HashMap<>();
+  private final Map<Integer, float[]> features = new HashMap<>();
+  private long entriesAdded;
+  private long entriesRemoved;
+
+  BatchStage(
+      LiveGraph<K> graph,
+      LiveSnapshot<K> from,
+      NodeIdTable<K> idTable,
+      UpdateBatch<K> batch,
+      int[][] resolved) {
+    this.graph = graph;
+    this.from = from;
+    this.idTable = idTable;
+    this.batch = batch;
+    this.firstIndex = resolved[0];
+    this.secondIndex = resolved[1];
+  }
+
+  /**
+   * Looks up every id of the batch in {@code ids} (a published snapshot's), -1 where absent. Needs
+   * no lock: indices found stay valid in every later version.
+   */
+  static <K> int[][] preResolve(UpdateBatch<K> batch, NodeIdView<K> ids) {
+    int size = batch.size();
+    int[] first = new int[size];
+    int[] second = new int[size];
+    for (int op = 0; op < size; op++) {
+      first[op] = ids.indexOf(batch.first(op));
+      K other = batch.second(op);
+      second[op] = other == null ? -1 : ids.indexOf(other);
+    }
+    return new int[][] {first, second};
+  }
+
+  /** Runs the operations against private state; throws at the first one that cannot apply. */
+  void stage() {
+    for (int op = 0; op < batch.size(); op++) {
+      switch (batch.kind(op)) {
+        case UpdateBatch.ADD_NODE:
+          addNode(op);
+          break;
+        case UpdateBatch.ADD_EDGE:
+          addEdge(op, node(op, batch.first(op), firstIndex[op], "source"), target(op));
+          break;
+        case UpdateBatch.REMOVE_EDGE:
+          removeEdge(op, node(op, batch.first(op), firstIndex[op], "source"), target(op));
+          break;
+        default:
+          features.put(node(op, batch.first(op), firstIndex[op], "node"), batch.features(op));
+          break;
+      }
+    }
+  }
+
+  private int target(int op) {
+    return node(op, batch.second(op), secondIndex[op], "target");
+  }
+
+  private void addNode(int op) {
+    K id = batch.first(op);
+    int existing = firstIndex[op] >= 0 ? firstIndex[op] : idTable.indexOf(id);
+    if (existing >= 0) {
+      throw reject(
+          op,
+          "node '"
+              + id
+              + "' already exists (index "
+              + existing
+              + "); use setFeatures to change its features");
+    }
+    if (newIdIndex.containsKey(id)) {
+      throw reject(op, "node '" + id + "' is added twice in this batch");
+    }
+    int index = from.nodeCount + newIds.size();
+    if ((long) (index + 1) * graph.featureCount() > MAX_SIZE) {
+      throw reject(
+          op,
+          "a live graph with "
+              + graph.featureCount()
+              + " features per node holds at most "
+              + MAX_SIZE / graph.featureCount()
+              + " nodes (its compacted features are one float array of n·f values)");
+    }
+    newIds.add(id);
+    newIdIndex.put(id, index);
+    if (graph.addsSelfLoops()) {
+      editor(index).add(index);
+      countAdded(op, 1);
+    }
+    float[] row = batch.features(op);
+    if (row != null) {
+      features.put(index, row);
+    }
+  }
+
+  private void addEdge(int op, int source, int target) {
+    if (source == target && graph.addsSelfLoops()) {
+      return; // every node already attends to itself under SelfLoopPolicy.ADD
+    }
+    RowEditor row = editor(target);
+    if (row.contains(source)) {
+      if (graph.rejectsDuplicates()) {
+        throw reject(
+            op,
+            "duplicate "
+                + edgeText(op)
+                + ": the graph already has it (or an earlier operation of this batch added it);"
+                + " drop the repeat or build the live graph with DuplicatePolicy.MERGE");
+      }
+      return;
+    }
+    row.add(source);
+    if (graph.symmetrises() && source != target) {
+      editor(source).add(target);
+      countAdded(op, 2);
+    } else {
+      countAdded(op, 1);
+    }
+  }
+
+  private void removeEdge(int op, int source, int target) {
+    if (source == target && graph.addsSelfLoops()) {
+      throw reject(
+          op,
+          "cannot remove the self-loop of node '"
+              + batch.first(op)
+              + "': SelfLoopPolicy.ADD keeps one on every node");
+    }
+    RowEditor row = editor(target);
+    if (!row.contains(source)) {
+      throw reject(
+          op,
+          "cannot remove "
+              + edgeText(op)
+              + ": the graph does not have it at this point of the batch (check the ids and"
+              + " direction, or that it was not removed already)");
+    }
+    row.remove(source);
+    entriesRemoved++;
+    if (graph.symmetrises() && source != target) {
+      editor(source).remove(target);
+      entriesRemoved++;
+    }
+  }
+
+  private void countAdded(int op, int entries) {
+    entriesAdded += entries;
+    if (from.edgeCount + entriesAdded - entriesRemoved > MAX_SIZE) {
+      throw reject(op, "a live graph holds at most " + MAX_SIZE + " row entries");
+    }
+  }
+
+  private String edgeText(int op) {
+    return graph.symmetrises()
+        ? "undirected edge {'" + batch.first(op) + "', '" + batch.second(op) + "'}"
+        : "edge '" + batch.first(op) + "' -> '" + batch.second(op) + "'";
+  }
+
+  private int node(int op, K id, int resolved, String role) {
+    if (resolved >= 0) {
+      return resolved;
+    }
+    int index = idTable.indexOf(id);
+    if (index >= 0) {
+      return index;
+    }
+    Integer added = newIdIndex.get(id);
+    if (added != null) {
+      return added;
+    }
+    throw reject(
+        op,
+        "unknown "
+            + role
+            + " id '"
+            + id
+            + "': it is not a node of the graph (version "
+            + from.version
+            + ", "
+            + from.nodeCount
+            + " nodes) and no earlier operation of this batch adds it; add it with addNode first");
+  }
+
+  private RowEditor editor(int target) {
+    RowEditor row = rows.get(target);
+    if (row == null) {
+      int[] delta = target < from.nodeCount ? (int[]) from.rowDeltas.get(target) : null;
+      row = new RowEditor(target, from.base, delta);
+      rows.put(target, row);
+    }
+    return row;
+  }
+
+  private RejectedUpdateException reject(int op, String why) {
+    return new RejectedUpdateException(
+        "batch refused, nothing applied: operation "
+            + op
+            + " of "
+            + batch.size()
+            + " ("
+            + UpdateBatch.describe(batch.kind(op))
+            + "): "
+            + why,
+        op);
+  }
+
+  /**
+   * Appends the new ids to {@code idTable} and returns the next snapshot, version {@code
+   * from.version + 1}; {@code result[0]} receives what changed. Call only after {@link #stage()}
+   * returned.
+   */
+  LiveSnapshot<K> commit(BatchResult[] result) {
+    for (K id : newIds) {
+      idTable.append(id);
+    }
+    int nodeCount = from.nodeCount + newIds.size();
+    SlotTrie rowTrie = from.rowDeltas;
+    long deltaEntries = from.deltaEntries;
+    long deltaRowBytes = from.deltaRowBytes;
+    int[] changedRows = new int[rows.size() + newIds.size()];
+    int rowCount = 0;
+    if (!rows.isEmpty()) {
+      SlotTrie.Editor edit = rowTrie.edit();
+      for (RowEditor row : rows.values()) {
+        int[] delta = row.encode();
+        boolean added = row.target >= from.nodeCount;
+        if (Arrays.equals(delta, row.oldDelta)) {
+          continue;
+        }
+        edit.set(row.target, delta);
+        deltaEntries += RowDeltas.entries(delta) - RowDeltas.entries(row.oldDelta);
+        deltaRowBytes += RowDeltas.bytes(delta) - RowDeltas.bytes(row.oldDelta);
+        if (!added) {
+          changedRows[rowCount++] = row.target;
+        }
+      }
+      rowTrie = edit.finish();
+    }
+    for (int k = 0; k < newIds.size(); k++) {
+      changedRows[rowCount++] = from.nodeCount + k;
+    }
+    SlotTrie featureTrie = from.featureRows;
+    long featureRowBytes = from.featureRowBytes;
+    int missing = from.missingFeatures + newIds.size();
+    int[] changedFeatures = new int[features.size()];
+    int featureCount = 0;
+    if (!features.isEmpty()) {
+      SlotTrie.Editor edit = featureTrie.edit();
+      for (Map.Entry<Integer, float[]> entry : features.entrySet()) {
+        int node = entry.getKey();
+        float[] row = entry.getValue();
+        float[] old = node < from.nodeCount ? from.featureRowOrNull(node) : null;
+        if (old != null && Arrays.equals(old, row)) {
+          continue;
+        }
+        Object previous = edit.set(node, row);
+        featureRowBytes += Layout.arrayBytes(row.length, 4);
+        if (previous != null) {
+          featureRowBytes -= Layout.arrayBytes(((float[]) previous).length, 4);
+        }
+        if (old == null) {
+          missing--;
+        }
+        changedFeatures[featureCount++] = node;
+      }
+      featureTrie = edit.finish();
+    }
+    changedRows = sorted(changedRows, rowCount);
+    changedFeatures = sorted(changedFeatures, featureCount);
+    long version = from.version + 1;
+    result[0] =
+        new BatchResult(
+            version, changedRows, changedFeatures, newIds.size(), entriesAdded, entriesRemoved);
+    return new LiveSnapshot<>(
+        version,
+        nodeCount,
+        from.edgeCount + entriesAdded - entriesRemoved,
+        from.base,
+        rowTrie,
+        deltaEntries,
+        deltaRowBytes,
+        from.baseFeatures,
+        from.baseMissing,
+        featureTrie,
+        featureRowBytes,
+        missing,
+        idTable.view());
+  }
+
+  private static int[] sorted(int[] values, int count) {
+    int[] out = count == values.length ? values : Arrays.copyOf(values, count);
+    Arrays.sort(out);
+    return out;
+  }
+}
