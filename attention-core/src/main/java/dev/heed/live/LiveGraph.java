@@ -88,7 +88,7 @@ public final class LiveGraph<K> implements AutoCloseable {
   public static final long DEFAULT_COMPACTION_MIN_BYTES = 4L << 20;
 
   /** A compaction finishes under the write lock once at most this many changes are pending. */
-  private static final long FINISH_UNDER_LOCK = 8192;
+  static final long FINISH_UNDER_LOCK = 8192;
 
   /** After this many rounds of catching up without the lock, the next one finishes under it. */
   private static final int MAX_CATCH_UP_ROUNDS = 4;
@@ -107,6 +107,7 @@ public final class LiveGraph<K> implements AutoCloseable {
   private ChangeLog changeLog; // guarded by writeLock; set while a compaction runs
   private volatile LiveSnapshot<K> current;
   private volatile boolean closed;
+  private volatile long finishUnderLock = FINISH_UNDER_LOCK;
   private final Thread compactor; // null when compaction is left to the caller
   private final Object compactionSignal = new Object();
   private boolean compactionRequested; // guarded by compactionSignal
@@ -271,7 +272,7 @@ public final class LiveGraph<K> implements AutoCloseable {
       try {
         ensureOpen("compact");
         latest = current;
-        if (changeLog.pending() <= FINISH_UNDER_LOCK || round > MAX_CATCH_UP_ROUNDS) {
+        if (changeLog.pending() <= finishUnderLock || round > MAX_CATCH_UP_ROUNDS) {
           compaction.rebase(latest, changeLog.take().nodes());
           LiveSnapshot<K> compacted = compaction.finish(latest);
           current = compacted;
@@ -380,6 +381,11 @@ public final class LiveGraph<K> implements AutoCloseable {
    */
   public boolean compactsInBackground() {
     return compactor != null;
+  }
+
+  /** For tests: finish compactions under the lock only at this many pending changes or fewer. */
+  void finishUnderLockAt(long pendingChanges) {
+    finishUnderLock = pendingChanges;
   }
 
   boolean addsSelfLoops() {

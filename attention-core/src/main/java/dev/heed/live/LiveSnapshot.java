@@ -152,7 +152,7 @@ public final class LiveSnapshot<K> implements NeighbourRows, FeatureRows {
         return false;
       }
     }
-    return target < base.nodeCount() && base.entryOf(target, source) >= 0;
+    return RowDeltas.baseHas(base, target, source);
   }
 
   /**

@@ -37,6 +37,14 @@ final class RowDeltas {
     return delta == null ? 0 : Layout.arrayBytes(delta.length, 4);
   }
 
+  /**
+   * Returns whether the base row of {@code target} holds {@code source} (false beyond the base).
+   */
+  static boolean baseHas(CsrGraph base, int target, int source) {
+    int n = base.nodeCount();
+    return target < n && source < n && base.entryOf(target, source) >= 0;
+  }
+
   /** Encodes sorted added and removed sources, or returns null when both are empty. */
   static int[] encode(int[] added, int addedCount, int[] removed, int removedCount) {
     if (addedCount == 0 && removedCount == 0) {

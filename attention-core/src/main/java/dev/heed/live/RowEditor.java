@@ -13,7 +13,6 @@ final class RowEditor {
   final int target;
   final int[] oldDelta; // null when the row had no delta
   private final CsrGraph base;
-  private final boolean inBase;
   private int[] added;
   private int addedCount;
   private int[] removed;
@@ -22,7 +21,6 @@ final class RowEditor {
   RowEditor(int target, CsrGraph base, int[] oldDelta) {
     this.target = target;
     this.base = base;
-    this.inBase = target < base.nodeCount();
     this.oldDelta = oldDelta;
     if (oldDelta == null) {
       added = new int[4];
@@ -44,7 +42,7 @@ final class RowEditor {
     if (Arrays.binarySearch(removed, 0, removedCount, source) >= 0) {
       return false;
     }
-    return inBase && base.entryOf(target, source) >= 0;
+    return RowDeltas.baseHas(base, target, source);
   }
 
   /** Adds {@code source}, which {@link #contains} must have reported absent. */
