@@ -28,7 +28,7 @@ final class BatchStage<K> {
   private final int[] secondIndex;
   private final List<K> newIds = new ArrayList<>();
   private final Map<K, Integer> newIdIndex = new HashMap<>();
-  private final Map<Integer, RowEditor> rows = new HashMap<>();
+  private final RowEditors rows;
   private final Map<Integer, float[]> features = new HashMap<>();
   private long entriesAdded;
   private long entriesRemoved;
@@ -45,6 +45,7 @@ final class BatchStage<K> {
     this.batch = batch;
     this.firstIndex = resolved[0];
     this.secondIndex = resolved[1];
+    this.rows = new RowEditors(from);
   }
 
   /**
@@ -55,11 +56,8 @@ final class BatchStage<K> {
     int size = batch.size();
     int[] first = new int[size];
     int[] second = new int[size];
-    for (int op = 0; op < size; op++) {
-      first[op] = ids.indexOf(batch.first(op));
-      K other = batch.second(op);
-      second[op] = other == null ? -1 : ids.indexOf(other);
-    }
+    ids.indexOfAll(batch.firstIds(), size, first);
+    ids.indexOfAll(batch.secondIds(), size, second);
     return new int[][] {first, second};
   }
 
@@ -213,13 +211,7 @@ final class BatchStage<K> {
   }
 
   private RowEditor editor(int target) {
-    RowEditor row = rows.get(target);
-    if (row == null) {
-      int[] delta = target < from.nodeCount ? (int[]) from.rowDeltas.get(target) : null;
-      row = new RowEditor(target, from.base, delta);
-      rows.put(target, row);
-    }
-    return row;
+    return rows.of(target);
   }
 
   private RejectedUpdateException reject(int op, String why) {
@@ -250,18 +242,23 @@ final class BatchStage<K> {
     long deltaRowBytes = from.deltaRowBytes;
     int[] changedRows = new int[rows.size() + newIds.size()];
     int rowCount = 0;
-    if (!rows.isEmpty()) {
+    long[] changed = new long[rows.size()]; // target << 32 | editor position, to set in order
+    int changedCount = 0;
+    for (int p = 0; p < rows.size(); p++) {
+      if (rows.get(p).changed()) {
+        changed[changedCount++] = (long) rows.get(p).target << 32 | p;
+      }
+    }
+    if (changedCount > 0) {
+      Arrays.sort(changed, 0, changedCount);
       SlotTrie.Editor edit = rowTrie.edit();
-      for (RowEditor row : rows.values()) {
-        int[] delta = row.encode();
-        boolean added = row.target >= from.nodeCount;
-        if (Arrays.equals(delta, row.oldDelta)) {
-          continue;
-        }
+      for (int k = 0; k < changedCount; k++) {
+        RowEditor row = rows.get((int) changed[k]);
+        Object delta = row.encode();
         edit.set(row.target, delta);
         deltaEntries += RowDeltas.entries(delta) - RowDeltas.entries(row.oldDelta);
         deltaRowBytes += RowDeltas.bytes(delta) - RowDeltas.bytes(row.oldDelta);
-        if (!added) {
+        if (row.target < from.nodeCount) {
           changedRows[rowCount++] = row.target;
         }
       }

@@ -122,8 +122,8 @@ final class Compaction<K> {
       latest.copyRow(node, scratch, 0);
       int start = node < baseNodes ? base.rowStart(node) : 0;
       int end = node < baseNodes ? base.rowEnd(node) : 0;
-      int[] delta = RowDeltas.diff(base, start, end, scratch, length);
-      int[] previous = (int[]) rows.set(node, delta);
+      Object delta = RowDeltas.diff(base, start, end, scratch, length);
+      Object previous = rows.set(node, delta);
       deltaEntries += RowDeltas.entries(delta) - RowDeltas.entries(previous);
       deltaRowBytes += RowDeltas.bytes(delta) - RowDeltas.bytes(previous);
     }

@@ -6,7 +6,6 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.IndexedGraph;
 import dev.heed.graph.NeighbourRows;
 import dev.heed.graph.NodeIndex;
-import java.util.Arrays;
 import java.util.Objects;
 
 /**
@@ -36,7 +35,7 @@ public final class LiveSnapshot<K> implements NeighbourRows, FeatureRows {
   final int nodeCount;
   final long edgeCount;
   final CsrGraph base; // rows of nodes 0..base.nodeCount()-1 as of the last compaction
-  final SlotTrie rowDeltas; // int[] per changed row, see RowDeltas
+  final SlotTrie rowDeltas; // a delta per changed row, see RowDeltas
   final long deltaEntries; // sum of added plus removed over all deltas
   final long deltaRowBytes; // bytes of the delta arrays
   final NodeFeatures baseFeatures; // base.nodeCount() rows; a missing row is zeros
@@ -114,13 +113,13 @@ public final class LiveSnapshot<K> implements NeighbourRows, FeatureRows {
   @Override
   public int degree(int target) {
     Objects.checkIndex(target, nodeCount);
-    return RowDeltas.degree(baseDegree(target), (int[]) rowDeltas.get(target));
+    return RowDeltas.degree(baseDegree(target), rowDeltas.get(target));
   }
 
   @Override
   public int copyRow(int target, int[] into, int offset) {
     Objects.checkIndex(target, nodeCount);
-    int[] delta = (int[]) rowDeltas.get(target);
+    Object delta = rowDeltas.get(target);
     if (delta == null) {
       return target < base.nodeCount() ? base.copyRow(target, into, offset) : 0;
     }
@@ -142,17 +141,11 @@ public final class LiveSnapshot<K> implements NeighbourRows, FeatureRows {
   public boolean hasEdge(int source, int target) {
     Objects.checkIndex(source, nodeCount);
     Objects.checkIndex(target, nodeCount);
-    int[] delta = (int[]) rowDeltas.get(target);
-    if (delta != null) {
-      int a = RowDeltas.addedCount(delta);
-      if (Arrays.binarySearch(delta, 1, 1 + a, source) >= 0) {
-        return true;
-      }
-      if (Arrays.binarySearch(delta, 1 + a, delta.length, source) >= 0) {
-        return false;
-      }
+    Object delta = rowDeltas.get(target);
+    if (RowDeltas.isAdded(delta, source)) {
+      return true;
     }
-    return RowDeltas.baseHas(base, target, source);
+    return !RowDeltas.isRemoved(delta, source) && RowDeltas.baseHas(base, target, source);
   }
 
   /**

@@ -4,50 +4,46 @@ import dev.heed.graph.CsrGraph;
 import java.util.Arrays;
 
 /**
- * One target row's changes while a batch is staged: the row's base range and its delta, unpacked
- * into two sorted, growable lists that the batch's operations edit in order. Confined to the
- * applying thread; nothing shared is touched until the batch commits.
+ * One target row's changes while a batch is staged: the sources the batch adds to and removes from
+ * the row as it was before the batch (two short sorted lists, net of each other), over the row's
+ * old delta and base range, which are only read. {@link #encode()} merges them into the row's new
+ * delta in one pass. Confined to the applying thread; nothing shared is touched.
  */
 final class RowEditor {
 
+  private static final int[] NONE = new int[0];
+
   final int target;
-  final int[] oldDelta; // null when the row had no delta
+  final Object oldDelta; // null when the row had no delta; see RowDeltas
   private final CsrGraph base;
-  private int[] added;
+  private int[] added = NONE;
   private int addedCount;
-  private int[] removed;
+  private int[] removed = NONE;
   private int removedCount;
 
-  RowEditor(int target, CsrGraph base, int[] oldDelta) {
+  RowEditor(int target, CsrGraph base, Object oldDelta) {
     this.target = target;
     this.base = base;
     this.oldDelta = oldDelta;
-    if (oldDelta == null) {
-      added = new int[4];
-      removed = new int[0];
-    } else {
-      int a = RowDeltas.addedCount(oldDelta);
-      added = Arrays.copyOfRange(oldDelta, 1, 1 + a + 4); // 4 spare slots, zero-padded
-      addedCount = a;
-      removed = Arrays.copyOfRange(oldDelta, 1 + a, oldDelta.length);
-      removedCount = removed.length;
-    }
   }
 
   /** Returns whether the row, with the changes staged so far, holds {@code source}. */
   boolean contains(int source) {
-    if (Arrays.binarySearch(added, 0, addedCount, source) >= 0) {
+    if (addedCount > 0 && Arrays.binarySearch(added, 0, addedCount, source) >= 0) {
       return true;
     }
-    if (Arrays.binarySearch(removed, 0, removedCount, source) >= 0) {
+    if (removedCount > 0 && Arrays.binarySearch(removed, 0, removedCount, source) >= 0) {
       return false;
     }
-    return RowDeltas.baseHas(base, target, source);
+    if (RowDeltas.isAdded(oldDelta, source)) {
+      return true;
+    }
+    return !RowDeltas.isRemoved(oldDelta, source) && RowDeltas.baseHas(base, target, source);
   }
 
   /** Adds {@code source}, which {@link #contains} must have reported absent. */
   void add(int source) {
-    int at = Arrays.binarySearch(removed, 0, removedCount, source);
+    int at = removedCount > 0 ? Arrays.binarySearch(removed, 0, removedCount, source) : -1;
     if (at >= 0) {
       removedCount = deleteAt(removed, removedCount, at);
     } else {
@@ -57,12 +53,73 @@ final class RowEditor {
 
   /** Removes {@code source}, which {@link #contains} must have reported present. */
   void remove(int source) {
-    int at = Arrays.binarySearch(added, 0, addedCount, source);
+    int at = addedCount > 0 ? Arrays.binarySearch(added, 0, addedCount, source) : -1;
     if (at >= 0) {
       addedCount = deleteAt(added, addedCount, at);
     } else {
       removed = insert(removed, removedCount++, source);
     }
+  }
+
+  /** Returns whether the batch changed the row (its additions and removals did not cancel out). */
+  boolean changed() {
+    return addedCount + removedCount > 0;
+  }
+
+  /**
+   * Returns the row's new delta over the base, or null when the row equals its base row. A source
+   * this batch adds was either removed from the base before (it stops being removed) or is new to
+   * the row (it becomes added); a source it removes was either added before (it stops being added)
+   * or is in the base (it becomes removed). O(old delta + changes) for a flat delta, O(directory +
+   * touched chunks) for a chunked one.
+   */
+  Object encode() {
+    int[] newlyAdded = without(added, addedCount, true);
+    int[] newlyRemoved = without(removed, removedCount, false);
+    int oldEntries = RowDeltas.entries(oldDelta);
+    if (oldDelta instanceof RowDeltas.Chunked
+        || oldEntries + newlyAdded.length + newlyRemoved.length > RowDeltas.FLAT_LIMIT) {
+      RowDeltas.Chunked old = RowDeltas.chunked(oldDelta);
+      return RowDeltas.settle(
+          old.added.update(removed, removedCount, newlyAdded, newlyAdded.length),
+          old.removed.update(added, addedCount, newlyRemoved, newlyRemoved.length));
+    }
+    int[] old = oldDelta == null ? new int[1] : (int[]) oldDelta;
+    int oldAdded = old[0];
+    int[] sides = new int[oldEntries + newlyAdded.length + newlyRemoved.length];
+    int newAdded =
+        SortedChunks.merge(
+            old, 1, 1 + oldAdded, removed, removedCount, newlyAdded, newlyAdded.length, sides, 0);
+    int end =
+        SortedChunks.merge(
+            old,
+            1 + oldAdded,
+            old.length,
+            added,
+            addedCount,
+            newlyRemoved,
+            newlyRemoved.length,
+            sides,
+            newAdded);
+    int[] newRemoved = Arrays.copyOfRange(sides, newAdded, end);
+    return RowDeltas.of(sides, newAdded, newRemoved, newRemoved.length);
+  }
+
+  /**
+   * Returns {@code values[0..count-1]} without those that only take back an old change: sources
+   * this batch adds that the old delta removed ({@code adding}), or sources it removes that the old
+   * delta added.
+   */
+  private int[] without(int[] values, int count, boolean adding) {
+    int[] out = new int[count];
+    int w = 0;
+    for (int k = 0; k < count; k++) {
+      int v = values[k];
+      if (adding ? !RowDeltas.isRemoved(oldDelta, v) : !RowDeltas.isAdded(oldDelta, v)) {
+        out[w++] = v;
+      }
+    }
+    return w == count ? out : Arrays.copyOf(out, w);
   }
 
   /** Inserts an absent value into the sorted {@code list[0..count-1]}, growing it if full. */
@@ -77,10 +134,5 @@ final class RowEditor {
   private static int deleteAt(int[] list, int count, int at) {
     System.arraycopy(list, at + 1, list, at, count - at - 1);
     return count - 1;
-  }
-
-  /** Returns the row's new delta, or null when the row equals its base row. */
-  int[] encode() {
-    return RowDeltas.encode(added, addedCount, removed, removedCount);
   }
 }

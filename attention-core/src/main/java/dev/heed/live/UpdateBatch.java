@@ -183,6 +183,16 @@ public final class UpdateBatch<K> {
     return (K) second[op];
   }
 
+  /** The first id of every operation (the node, or the edge's source), shared, not copied. */
+  Object[] firstIds() {
+    return first;
+  }
+
+  /** The second id of every operation (the edge's target; null for node operations), shared. */
+  Object[] secondIds() {
+    return second;
+  }
+
   float[] features(int op) {
     return features[op];
   }

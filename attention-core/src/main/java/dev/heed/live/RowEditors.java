@@ -1,0 +1,75 @@
+package dev.heed.live;
+
+import dev.heed.graph.CsrGraph;
+import java.util.Arrays;
+
+/**
+ * The row editors of one staged batch, found by target without boxing: an open-addressing table of
+ * editor positions (linear probing, load at most 1/2) beside the editors in the order they were
+ * made. Confined to the applying thread.
+ */
+final class RowEditors {
+
+  private final LiveSnapshot<?> from;
+  private RowEditor[] editors = new RowEditor[16];
+  private int count;
+  private int[] table = new int[32]; // position + 1, or 0 for an empty slot
+
+  RowEditors(LiveSnapshot<?> from) {
+    this.from = from;
+  }
+
+  /** Returns the editor of {@code target}, making it on first use. */
+  RowEditor of(int target) {
+    int mask = table.length - 1;
+    int slot = mix(target) & mask;
+    while (true) {
+      int entry = table[slot];
+      if (entry == 0) {
+        break;
+      }
+      if (editors[entry - 1].target == target) {
+        return editors[entry - 1];
+      }
+      slot = (slot + 1) & mask;
+    }
+    CsrGraph base = from.base;
+    Object delta = target < from.nodeCount ? from.rowDeltas.get(target) : null;
+    RowEditor editor = new RowEditor(target, base, delta);
+    if (count == editors.length) {
+      editors = Arrays.copyOf(editors, count * 2);
+    }
+    editors[count++] = editor;
+    table[slot] = count;
+    if (2 * count > table.length) {
+      rehash();
+    }
+    return editor;
+  }
+
+  int size() {
+    return count;
+  }
+
+  RowEditor get(int position) {
+    return editors[position];
+  }
+
+  private void rehash() {
+    int[] next = new int[table.length * 2];
+    int mask = next.length - 1;
+    for (int p = 0; p < count; p++) {
+      int slot = mix(editors[p].target) & mask;
+      while (next[slot] != 0) {
+        slot = (slot + 1) & mask;
+      }
+      next[slot] = p + 1;
+    }
+    table = next;
+  }
+
+  private static int mix(int key) {
+    int h = key * 0x9E3779B9;
+    return h ^ (h >>> 16);
+  }
+}
