@@ -11,9 +11,18 @@ import java.util.Map;
  * order against private copies (new ids in a local map, each touched row in a {@link RowEditor},
  * features in a local map) and throws at the first bad operation, so a refused batch leaves nothing
  * behind. {@link #commit} then appends the new ids and builds the next snapshot by path copying; it
- * cannot fail on input. The caller holds the graph's write lock around both; ids that already
- * existed are looked up before, without the lock ({@link #preResolve}), since an index never
- * changes once given.
+ * cannot fail on input. Ids that already existed are looked up before, without the lock ({@link
+ * #preResolve}), since an index never changes once given.
+ *
+ * <p>Two ways to run it. Under the graph's write lock, from the latest snapshot: always correct.
+ * Or, for batches of edge and feature operations on known nodes with direction kept ({@link
+ * #canStageAhead}), staged and encoded before taking the lock from the snapshot seen then; under
+ * the lock, {@link #rebaseOnto} checks each touched row against the latest snapshot by identity of
+ * its delta and runs the operations of the rows that changed meanwhile again (each row's operations
+ * depend only on that row when direction is kept), so that the lock is held for the few rows both
+ * writers touched plus the trie update. If anything cannot be carried over (a compaction in
+ * between, an operation that no longer applies), the caller stages the batch again under the lock,
+ * which reports the first bad operation exactly.
  */
 final class BatchStage<K> {
 
@@ -21,7 +30,8 @@ final class BatchStage<K> {
   static final int MAX_SIZE = Integer.MAX_VALUE - 8;
 
   private final LiveGraph<K> graph;
-  private final LiveSnapshot<K> from;
+  private LiveSnapshot<K> from;
+  private final boolean ahead; // staged before taking the lock; row editors keep logs
   private final NodeIdTable<K> idTable;
   private final UpdateBatch<K> batch;
   private final int[] firstIndex;
@@ -30,17 +40,21 @@ final class BatchStage<K> {
   private final Map<K, Integer> newIdIndex = new HashMap<>();
   private final RowEditors rows;
   private final Map<Integer, float[]> features = new HashMap<>();
-  private long entriesAdded;
-  private long entriesRemoved;
+  private long stagedAdded; // running counts while staging, for the size limit
+  private long stagedRemoved;
+  private long touched; // keeps the loads of touchRows() from being optimised away
+  private int[] orderedRows; // editor positions by target, when encoded ahead
 
   BatchStage(
       LiveGraph<K> graph,
       LiveSnapshot<K> from,
       NodeIdTable<K> idTable,
       UpdateBatch<K> batch,
-      int[][] resolved) {
+      int[][] resolved,
+      boolean ahead) {
     this.graph = graph;
     this.from = from;
+    this.ahead = ahead;
     this.idTable = idTable;
     this.batch = batch;
     this.firstIndex = resolved[0];
@@ -61,8 +75,29 @@ final class BatchStage<K> {
     return new int[][] {first, second};
   }
 
+  /**
+   * Returns whether the batch can be staged before taking the write lock: direction kept, no new
+   * nodes, every id known to the snapshot its ids were looked up in (of fewer than 2^30 nodes).
+   */
+  static <K> boolean canStageAhead(
+      LiveGraph<K> graph, UpdateBatch<K> batch, int[][] resolved, LiveSnapshot<K> seen) {
+    if (graph.symmetrises() || seen.nodeCount >= 1 << 30) {
+      return false;
+    }
+    for (int op = 0; op < batch.size(); op++) {
+      byte kind = batch.kind(op);
+      if (kind == UpdateBatch.ADD_NODE
+          || resolved[0][op] < 0
+          || (kind != UpdateBatch.SET_FEATURES && resolved[1][op] < 0)) {
+        return false;
+      }
+    }
+    return true;
+  }
+
   /** Runs the operations against private state; throws at the first one that cannot apply. */
   void stage() {
+    touchRows();
     for (int op = 0; op < batch.size(); op++) {
       switch (batch.kind(op)) {
         case UpdateBatch.ADD_NODE:
@@ -79,6 +114,48 @@ final class BatchStage<K> {
           break;
       }
     }
+  }
+
+  /**
+   * Reads, ahead of the operations, what they will read of the rows they touch (trie path, delta,
+   * base offsets, the middle of the base row), one kind of load at a time over all rows: loads of
+   * different rows then wait for memory together instead of one after another (the same idea as the
+   * staged id lookups). Only performance depends on it.
+   */
+  private void touchRows() {
+    int size = batch.size();
+    int[] rows = new int[2 * size];
+    int count = 0;
+    for (int op = 0; op < size; op++) {
+      if (secondIndex[op] >= 0 && firstIndex[op] >= 0) {
+        rows[count++] = secondIndex[op];
+        if (graph.symmetrises()) {
+          rows[count++] = firstIndex[op];
+        }
+      }
+    }
+    Object[] deltas = new Object[count];
+    for (int k = 0; k < count; k++) {
+      deltas[k] = from.rowDeltas.get(rows[k]);
+    }
+    long sum = 0;
+    for (int k = 0; k < count; k++) {
+      sum += RowDeltas.entries(deltas[k]);
+    }
+    int baseNodes = from.base.nodeCount();
+    for (int k = 0; k < count; k++) {
+      if (rows[k] < baseNodes) {
+        rows[k] = from.base.rowStart(rows[k]) + from.base.rowEnd(rows[k]) >>> 1;
+      } else {
+        rows[k] = -1;
+      }
+    }
+    for (int k = 0; k < count; k++) {
+      if (rows[k] >= 0 && rows[k] < from.base.edgeCount()) {
+        sum += from.base.column(rows[k]);
+      }
+    }
+    touched = sum;
   }
 
   private int target(int op) {
@@ -127,6 +204,9 @@ final class BatchStage<K> {
       return; // every node already attends to itself under SelfLoopPolicy.ADD
     }
     RowEditor row = editor(target);
+    if (ahead) {
+      row.log(op, source, true);
+    }
     if (row.contains(source)) {
       if (graph.rejectsDuplicates()) {
         throw reject(
@@ -156,6 +236,9 @@ final class BatchStage<K> {
               + "': SelfLoopPolicy.ADD keeps one on every node");
     }
     RowEditor row = editor(target);
+    if (ahead) {
+      row.log(op, source, false);
+    }
     if (!row.contains(source)) {
       throw reject(
           op,
@@ -165,16 +248,16 @@ final class BatchStage<K> {
               + " direction, or that it was not removed already)");
     }
     row.remove(source);
-    entriesRemoved++;
+    stagedRemoved++;
     if (graph.symmetrises() && source != target) {
       editor(source).remove(target);
-      entriesRemoved++;
+      stagedRemoved++;
     }
   }
 
   private void countAdded(int op, int entries) {
-    entriesAdded += entries;
-    if (from.edgeCount + entriesAdded - entriesRemoved > MAX_SIZE) {
+    stagedAdded += entries;
+    if (from.edgeCount + stagedAdded - stagedRemoved > MAX_SIZE) {
       throw reject(op, "a live graph holds at most " + MAX_SIZE + " row entries");
     }
   }
@@ -227,6 +310,53 @@ final class BatchStage<K> {
         op);
   }
 
+  /** Encodes every changed row ahead of the lock; {@link #commit} then reuses the results. */
+  void encodeAhead() {
+    for (int p = 0; p < rows.size(); p++) {
+      if (rows.get(p).changed()) {
+        rows.get(p).encode();
+      }
+    }
+    orderedRows = rows.positionsByTarget();
+  }
+
+  /**
+   * Carries a batch staged ahead over to {@code latest}, a later snapshot: rows whose delta is no
+   * longer the one they were staged on have their operations run again. Returns false when that
+   * cannot be done (another base, or an operation that no longer applies); the batch must then be
+   * staged again from {@code latest}. O(touched rows) plus the rows run again.
+   */
+  boolean rebaseOnto(LiveSnapshot<K> latest) {
+    assert ahead;
+    if (latest == from) {
+      return true;
+    }
+    if (latest.base != from.base) {
+      return false;
+    }
+    long added = 0;
+    long removed = 0;
+    for (int p = 0; p < rows.size(); p++) {
+      RowEditor row = rows.get(p);
+      Object now = latest.rowDeltas.get(row.target);
+      if (now != row.oldDelta) {
+        row = row.replayOnto(now, graph.rejectsDuplicates());
+        if (row == null) {
+          return false;
+        }
+        rows.replace(p, row);
+      }
+      added += row.adds();
+      removed += row.removes();
+    }
+    if (latest.edgeCount + added - removed > MAX_SIZE) {
+      return false;
+    }
+    from = latest;
+    rows.readFrom(latest);
+    return true;
+  }
+
   /**
    * Appends the new ids to {@code idTable} and returns the next snapshot, version {@code
    * from.version + 1}; {@code result[0]} receives what changed. Call only after {@link #stage()}
@@ -242,27 +372,30 @@ final class BatchStage<K> {
     long deltaRowBytes = from.deltaRowBytes;
     int[] changedRows = new int[rows.size() + newIds.size()];
     int rowCount = 0;
-    long[] changed = new long[rows.size()]; // target << 32 | editor position, to set in order
-    int changedCount = 0;
-    for (int p = 0; p < rows.size(); p++) {
-      if (rows.get(p).changed()) {
-        changed[changedCount++] = (long) rows.get(p).target << 32 | p;
+    int[] order = orderedRows != null ? orderedRows : rows.positionsByTarget();
+    long entriesAdded = 0;
+    long entriesRemoved = 0;
+    SlotTrie.Editor rowEdit = null;
+    for (int position : order) {
+      RowEditor row = rows.get(position);
+      entriesAdded += row.adds();
+      entriesRemoved += row.removes();
+      if (!row.changed()) {
+        continue;
+      }
+      if (rowEdit == null) {
+        rowEdit = rowTrie.edit();
+      }
+      Object delta = row.encode();
+      rowEdit.set(row.target, delta);
+      deltaEntries += RowDeltas.entries(delta) - RowDeltas.entries(row.oldDelta);
+      deltaRowBytes += RowDeltas.bytes(delta) - RowDeltas.bytes(row.oldDelta);
+      if (row.target < from.nodeCount) {
+        changedRows[rowCount++] = row.target;
       }
     }
-    if (changedCount > 0) {
-      Arrays.sort(changed, 0, changedCount);
-      SlotTrie.Editor edit = rowTrie.edit();
-      for (int k = 0; k < changedCount; k++) {
-        RowEditor row = rows.get((int) changed[k]);
-        Object delta = row.encode();
-        edit.set(row.target, delta);
-        deltaEntries += RowDeltas.entries(delta) - RowDeltas.entries(row.oldDelta);
-        deltaRowBytes += RowDeltas.bytes(delta) - RowDeltas.bytes(row.oldDelta);
-        if (row.target < from.nodeCount) {
-          changedRows[rowCount++] = row.target;
-        }
-      }
-      rowTrie = edit.finish();
+    if (rowEdit != null) {
+      rowTrie = rowEdit.finish();
     }
     for (int k = 0; k < newIds.size(); k++) {
       changedRows[rowCount++] = from.nodeCount + k;

@@ -179,20 +179,46 @@ public final class LiveGraph<K> implements AutoCloseable {
    * @throws NullPointerException if {@code batch} is null
    */
   public BatchResult apply(UpdateBatch<K> batch) {
+    return apply(batch, null);
+  }
+
+  /**
+   * {@link #apply(UpdateBatch)}, running {@code betweenSteps} (when not null) after the batch was
+   * staged ahead and before the write lock is taken: lets tests make another writer's batch land in
+   * between.
+   */
+  BatchResult apply(UpdateBatch<K> batch, Runnable betweenSteps) {
     Objects.requireNonNull(batch, "batch");
     if (batch.graph() != this) {
       throw new IllegalArgumentException(
           "the batch was made by another live graph; make it with this graph's newBatch()");
     }
     ensureOpen("apply a batch");
-    int[][] resolved = BatchStage.preResolve(batch, current.ids);
+    LiveSnapshot<K> seen = current;
+    int[][] resolved = BatchStage.preResolve(batch, seen.ids);
+    BatchStage<K> ahead = null;
+    if (BatchStage.canStageAhead(this, batch, resolved, seen)) {
+      ahead = new BatchStage<>(this, seen, idTable, batch, resolved, true);
+      try {
+        ahead.stage();
+        ahead.encodeAhead();
+      } catch (RejectedUpdateException e) {
+        ahead = null; // staged again under the lock, which reports it against the latest version
+      }
+    }
+    if (betweenSteps != null) {
+      betweenSteps.run();
+    }
     BatchResult[] result = new BatchResult[1];
     LiveSnapshot<K> next;
     writeLock.lock();
     try {
       ensureOpen("apply a batch");
-      BatchStage<K> stage = new BatchStage<>(this, current, idTable, batch, resolved);
-      stage.stage();
+      BatchStage<K> stage = ahead;
+      if (stage == null || !stage.rebaseOnto(current)) {
+        stage = new BatchStage<>(this, current, idTable, batch, resolved, false);
+        stage.stage();
+      }
       next = stage.commit(result);
       current = next;
       if (changeLog != null) {

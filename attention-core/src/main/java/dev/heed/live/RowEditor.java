@@ -20,11 +20,68 @@ final class RowEditor {
   private int addedCount;
   private int[] removed = NONE;
   private int removedCount;
+  private int adds; // row entries added by the batch's operations, before netting
+  private int removes;
+  private int[] log = NONE; // source << 1 | 1 for an add, 0 for a removal, in batch order
+  private int[] logOps = NONE; // the operation of each log entry
+  private int logCount;
+  private Object encoded;
+  private boolean encodedReady;
 
   RowEditor(int target, CsrGraph base, Object oldDelta) {
     this.target = target;
     this.base = base;
     this.oldDelta = oldDelta;
+  }
+
+  /**
+   * Records that operation {@code op} asks to add ({@code adding}) or remove {@code source}, so
+   * that {@link #replayOnto} can run the row's operations again over a newer version of the row.
+   * Only batches staged before taking the write lock keep a log; their sources are below 2^30.
+   */
+  void log(int op, int source, boolean adding) {
+    if (logCount == log.length) {
+      log = Arrays.copyOf(log, logCount * 2 + 4);
+      logOps = Arrays.copyOf(logOps, log.length);
+    }
+    logOps[logCount] = op;
+    log[logCount++] = source << 1 | (adding ? 1 : 0);
+  }
+
+  /**
+   * Runs the logged operations again on the same row over {@code newerDelta} (the row's delta in a
+   * later version with the same base) and returns the resulting editor, or null if one of them
+   * cannot apply there (the caller then stages the whole batch again, to report it exactly).
+   */
+  RowEditor replayOnto(Object newerDelta, boolean rejectDuplicates) {
+    RowEditor replay = new RowEditor(target, base, newerDelta);
+    for (int k = 0; k < logCount; k++) {
+      int source = log[k] >>> 1;
+      boolean present = replay.contains(source);
+      if ((log[k] & 1) == 1) {
+        if (present && rejectDuplicates) {
+          return null;
+        }
+        if (!present) {
+          replay.add(source);
+        }
+      } else {
+        if (!present) {
+          return null;
+        }
+        replay.remove(source);
+      }
+      replay.log(logOps[k], source, (log[k] & 1) == 1);
+    }
+    return replay;
+  }
+
+  int adds() {
+    return adds;
+  }
+
+  int removes() {
+    return removes;
   }
 
   /** Returns whether the row, with the changes staged so far, holds {@code source}. */
@@ -43,6 +100,8 @@ final class RowEditor {
 
   /** Adds {@code source}, which {@link #contains} must have reported absent. */
   void add(int source) {
+    adds++;
+    encodedReady = false;
     int at = removedCount > 0 ? Arrays.binarySearch(removed, 0, removedCount, source) : -1;
     if (at >= 0) {
       removedCount = deleteAt(removed, removedCount, at);
@@ -53,6 +112,8 @@ final class RowEditor {
 
   /** Removes {@code source}, which {@link #contains} must have reported present. */
   void remove(int source) {
+    removes++;
+    encodedReady = false;
     int at = addedCount > 0 ? Arrays.binarySearch(added, 0, addedCount, source) : -1;
     if (at >= 0) {
       addedCount = deleteAt(added, addedCount, at);
@@ -74,6 +135,14 @@ final class RowEditor {
    * touched chunks) for a chunked one.
    */
   Object encode() {
+    if (!encodedReady) {
+      encoded = encodeNow();
+      encodedReady = true;
+    }
+    return encoded;
+  }
+
+  private Object encodeNow() {
     int[] newlyAdded = without(added, addedCount, true);
     int[] newlyRemoved = without(removed, removedCount, false);
     int oldEntries = RowDeltas.entries(oldDelta);

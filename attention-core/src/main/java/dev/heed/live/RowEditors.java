@@ -10,7 +10,7 @@ import java.util.Arrays;
  */
 final class RowEditors {
 
-  private final LiveSnapshot<?> from;
+  private LiveSnapshot<?> from;
   private RowEditor[] editors = new RowEditor[16];
   private int count;
   private int[] table = new int[32]; // position + 1, or 0 for an empty slot
@@ -47,12 +47,37 @@ final class RowEditors {
     return editor;
   }
 
+  /** Makes editors made from now on read {@code newer}, a later version with the same base. */
+  void readFrom(LiveSnapshot<?> newer) {
+    from = newer;
+  }
+
   int size() {
     return count;
   }
 
   RowEditor get(int position) {
     return editors[position];
+  }
+
+  /** Puts {@code editor}, which must be for the same target, in the place of editor {@code p}. */
+  void replace(int position, RowEditor editor) {
+    assert editor.target == editors[position].target;
+    editors[position] = editor;
+  }
+
+  /** Returns the editors' positions, ordered by target. */
+  int[] positionsByTarget() {
+    long[] keys = new long[count];
+    for (int p = 0; p < count; p++) {
+      keys[p] = (long) editors[p].target << 32 | p;
+    }
+    Arrays.sort(keys);
+    int[] positions = new int[count];
+    for (int k = 0; k < count; k++) {
+      positions[k] = (int) keys[k];
+    }
+    return positions;
   }
 
   private void rehash() {

@@ -15,7 +15,7 @@ import java.util.List;
 final class SortedChunks {
 
   /** The most values in one chunk; a chunk that grows past it is split in two. */
-  static final int MAX_CHUNK = 128;
+  static final int MAX_CHUNK = 64;
 
   static final SortedChunks EMPTY = new SortedChunks(new int[0][], new int[0], 0);
 

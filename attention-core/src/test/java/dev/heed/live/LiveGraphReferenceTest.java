@@ -157,6 +157,68 @@ class LiveGraphReferenceTest {
     }
   }
 
+  /**
+   * A batch staged before the write lock while another writer's batch lands first (on the same
+   * rows): it must apply as if it came after that batch, or be refused naming the operation that no
+   * longer applies.
+   */
+  @ParameterizedTest
+  @MethodSource("policies")
+  void batchesStagedAheadApplyAfterTheBatchThatOvertookThem(
+      SelfLoopPolicy selfLoops, DirectionPolicy direction, DuplicatePolicy duplicates) {
+    SplittableRandom random =
+        new SplittableRandom(3000 + 31L * selfLoops.ordinal() + 7L * direction.ordinal());
+    try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
+      Reference ref = new Reference(graph);
+      UpdateBatch<String> nodes = graph.newBatch();
+      for (int i = 0; i < 40; i++) {
+        String id = ref.newId();
+        float[] row = ref.randomFeatures(random);
+        nodes.addNode(id, row);
+        ref.addNode(id, row);
+      }
+      graph.apply(nodes);
+      ref = ref.next();
+      int overtaken = 0;
+      for (int round = 0; round < 300; round++) {
+        // the batch that overtakes: valid by construction, replayed on the reference first
+        Reference afterOther = ref.next();
+        UpdateBatch<String> other = graph.newBatch();
+        int otherFails = fill(other, afterOther, random, 1 + random.nextInt(12));
+        Reference afterOtherOk = otherFails < 0 ? afterOther : ref;
+        Reference afterBoth = afterOtherOk.next();
+        UpdateBatch<String> batch = graph.newBatch();
+        int fails = fill(batch, afterBoth, random, 1 + random.nextInt(12));
+        boolean compactBetween = round % 10 == 3; // the batch was staged on the old base
+        Runnable overtake =
+            () -> {
+              if (otherFails < 0) {
+                graph.apply(other);
+              } else {
+                assertThrows(RejectedUpdateException.class, () -> graph.apply(other));
+              }
+              if (compactBetween) {
+                graph.compact();
+              }
+            };
+        if (fails >= 0) {
+          RejectedUpdateException e =
+              assertThrows(RejectedUpdateException.class, () -> graph.apply(batch, overtake));
+          assertEquals(fails, e.operation(), e.getMessage());
+          ref = afterOtherOk;
+        } else {
+          BatchResult result = graph.apply(batch, overtake);
+          assertArrayEquals(afterOtherOk.changedRows(afterBoth), result.changedRows());
+          ref = afterBoth;
+          overtaken++;
+        }
+        assertMatches(ref, graph.snapshot());
+      }
+      assertTrue(overtaken > 100, "applied after being overtaken: " + overtaken);
+      assertEquals(ref.built(), graph.snapshot().toIndexedGraph().graph());
+    }
+  }
+
   private static void run(LiveGraph<String> graph, SplittableRandom random, boolean compactHere) {
     Reference ref = new Reference(graph);
     List<LiveSnapshot<String>> keptSnapshots = new ArrayList<>();
