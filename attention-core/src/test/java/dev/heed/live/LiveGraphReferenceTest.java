@@ -95,16 +95,7 @@ class LiveGraphReferenceTest {
     SplittableRandom random =
         new SplittableRandom(2000 + 31L * selfLoops.ordinal() + 7L * direction.ordinal());
     try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
-      Reference ref = new Reference(graph);
-      UpdateBatch<String> nodes = graph.newBatch();
-      for (int i = 0; i < 2000; i++) {
-        String id = ref.newId();
-        float[] row = ref.randomFeatures(random);
-        nodes.addNode(id, row);
-        assertTrue(ref.addNode(id, row));
-      }
-      graph.apply(nodes);
-      ref = ref.next();
+      Reference ref = withNodes(graph, 2000, random);
       int chunked = 0;
       LiveSnapshot<String> kept = null;
       Reference keptRef = null;
@@ -169,16 +160,7 @@ class LiveGraphReferenceTest {
     SplittableRandom random =
         new SplittableRandom(3000 + 31L * selfLoops.ordinal() + 7L * direction.ordinal());
     try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
-      Reference ref = new Reference(graph);
-      UpdateBatch<String> nodes = graph.newBatch();
-      for (int i = 0; i < 40; i++) {
-        String id = ref.newId();
-        float[] row = ref.randomFeatures(random);
-        nodes.addNode(id, row);
-        ref.addNode(id, row);
-      }
-      graph.apply(nodes);
-      ref = ref.next();
+      Reference ref = withNodes(graph, 40, random);
       int overtaken = 0;
       for (int round = 0; round < 300; round++) {
         // the batch that overtakes: valid by construction, replayed on the reference first
@@ -217,6 +199,20 @@ class LiveGraphReferenceTest {
       assertTrue(overtaken > 100, "applied after being overtaken: " + overtaken);
       assertEquals(ref.built(), graph.snapshot().toIndexedGraph().graph());
     }
+  }
+
+  /** Adds {@code n} nodes with random features in one batch; returns the matching reference. */
+  private static Reference withNodes(LiveGraph<String> graph, int n, SplittableRandom random) {
+    Reference ref = new Reference(graph);
+    UpdateBatch<String> nodes = graph.newBatch();
+    for (int i = 0; i < n; i++) {
+      String id = ref.newId();
+      float[] row = ref.randomFeatures(random);
+      nodes.addNode(id, row);
+      assertTrue(ref.addNode(id, row));
+    }
+    graph.apply(nodes);
+    return ref.next();
   }
 
   private static void run(LiveGraph<String> graph, SplittableRandom random, boolean compactHere) {
