@@ -59,7 +59,7 @@ final class BatchStage<K> {
     this.batch = batch;
     this.firstIndex = resolved[0];
     this.secondIndex = resolved[1];
-    this.rows = new RowEditors(from);
+    this.rows = new RowEditors(from, Math.min(batch.size(), 1 << 16));
   }
 
   /**

@@ -143,6 +143,9 @@ final class RowEditor {
   }
 
   private Object encodeNow() {
+    if (oldDelta == null) { // the common case while ingesting: nothing to merge with
+      return RowDeltas.of(added, addedCount, removed, removedCount);
+    }
     int[] newlyAdded = without(added, addedCount, true);
     int[] newlyRemoved = without(removed, removedCount, false);
     int oldEntries = RowDeltas.entries(oldDelta);

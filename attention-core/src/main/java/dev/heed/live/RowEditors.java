@@ -11,12 +11,16 @@ import java.util.Arrays;
 final class RowEditors {
 
   private LiveSnapshot<?> from;
-  private RowEditor[] editors = new RowEditor[16];
+  private RowEditor[] editors;
   private int count;
-  private int[] table = new int[32]; // position + 1, or 0 for an empty slot
+  private int[] table; // position + 1, or 0 for an empty slot
 
-  RowEditors(LiveSnapshot<?> from) {
+  /** Starts with room for {@code expected} editors without growing. */
+  RowEditors(LiveSnapshot<?> from, int expected) {
     this.from = from;
+    int capacity = Math.max(16, Integer.highestOneBit(Math.max(expected, 1) - 1) << 1);
+    this.editors = new RowEditor[capacity];
+    this.table = new int[2 * capacity];
   }
 
   /** Returns the editor of {@code target}, making it on first use. */
