@@ -12,6 +12,7 @@ public final class MissingFeaturesException extends IllegalStateException {
 
   private static final long serialVersionUID = 1L;
 
+  /** The index of the node without features. */
   private final int node;
 
   MissingFeaturesException(String message, int node) {

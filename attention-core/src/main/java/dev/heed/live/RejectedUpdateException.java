@@ -12,6 +12,7 @@ public final class RejectedUpdateException extends IllegalArgumentException {
 
   private static final long serialVersionUID = 1L;
 
+  /** The position of the refused operation in its batch. */
   private final int operation;
 
   RejectedUpdateException(String message, int operation) {
