@@ -24,6 +24,7 @@ module dev.heed.core {
   exports dev.heed.classify;
   exports dev.heed.graph;
   exports dev.heed.graph.generate;
+  exports dev.heed.live;
   exports dev.heed.model;
   exports dev.heed.npy;
 

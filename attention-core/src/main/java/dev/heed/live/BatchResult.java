@@ -38,8 +38,8 @@ public final class BatchResult {
   }
 
   /**
-   * Returns the version the batch produced; {@link LiveGraph#snapshot()} returns this version or a
-   * later one from now on.
+   * Returns the version the batch produced; {@link VersionedGraph#snapshot()} returns this version
+   * or a later one from now on.
    *
    * @return the version, at least 1
    */

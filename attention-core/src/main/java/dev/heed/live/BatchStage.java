@@ -29,7 +29,7 @@ final class BatchStage<K> {
   /** The most nodes and row entries a live graph holds (Java array limit, common practice). */
   static final int MAX_SIZE = Integer.MAX_VALUE - 8;
 
-  private final LiveGraph<K> graph;
+  private final VersionedGraph<K> graph;
   private LiveSnapshot<K> from;
   private final boolean ahead; // staged before taking the lock; row editors keep logs
   private final NodeIdTable<K> idTable;
@@ -46,7 +46,7 @@ final class BatchStage<K> {
   private int[] orderedRows; // editor positions by target, when encoded ahead
 
   BatchStage(
-      LiveGraph<K> graph,
+      VersionedGraph<K> graph,
       LiveSnapshot<K> from,
       NodeIdTable<K> idTable,
       UpdateBatch<K> batch,
@@ -80,7 +80,7 @@ final class BatchStage<K> {
    * nodes, every id known to the snapshot its ids were looked up in (of fewer than 2^30 nodes).
    */
   static <K> boolean canStageAhead(
-      LiveGraph<K> graph, UpdateBatch<K> batch, int[][] resolved, LiveSnapshot<K> seen) {
+      VersionedGraph<K> graph, UpdateBatch<K> batch, int[][] resolved, LiveSnapshot<K> seen) {
     if (graph.symmetrises() || seen.nodeCount >= 1 << 30) {
       return false;
     }

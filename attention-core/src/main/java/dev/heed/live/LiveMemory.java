@@ -9,8 +9,9 @@ package dev.heed.live;
  * <p>The rows cost {@link #baseGraphBytes()} (a CSR graph: {@code 4·(n+1) + 4·E} bytes) plus {@link
  * #deltaBytes()} for rows changed since the last compaction: per changed row {@code 16 + 4·(1 +
  * changes)} bytes (rounded up to 8) and a 152-byte trie node per block of 32 node indices holding a
- * changed row (plus a few inner nodes). After {@link LiveGraph#compact()} the deltas are empty and
- * the rows cost exactly what {@link dev.heed.graph.CsrGraph#storageBytes()} of the same graph does.
+ * changed row (plus a few inner nodes). After {@link VersionedGraph#compact()} the deltas are empty
+ * and the rows cost exactly what {@link dev.heed.graph.CsrGraph#storageBytes()} of the same graph
+ * does.
  *
  * <p>Thread safety: immutable.
  *

@@ -9,10 +9,10 @@ import dev.heed.graph.NodeIndex;
 import java.util.Objects;
 
 /**
- * One version of a {@link LiveGraph}: its nodes, in-neighbour rows and features as they were after
- * a given batch, unchanged for as long as the snapshot is held, whatever writers and compaction do
- * meanwhile. Scoring code reads it through {@link NeighbourRows} and {@link FeatureRows}; a result
- * can quote {@link #version()} to say which graph it saw.
+ * One version of a {@link VersionedGraph}: its nodes, in-neighbour rows and features as they were
+ * after a given batch, unchanged for as long as the snapshot is held, whatever writers and
+ * compaction do meanwhile. Scoring code reads it through {@link NeighbourRows} and {@link
+ * FeatureRows}; a result can quote {@link #version()} to say which graph it saw.
  *
  * <p>Node indices run over {@code 0..nodeCount()-1} in the order the nodes were added, and a node
  * keeps its index for the life of the graph (nodes are never removed), so an index from an older

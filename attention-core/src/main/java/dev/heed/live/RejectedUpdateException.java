@@ -1,10 +1,11 @@
 package dev.heed.live;
 
 /**
- * Thrown by {@link LiveGraph#apply} when an operation of a batch cannot be applied (an unknown id,
- * a node added twice, a duplicate edge under {@link dev.heed.graph.DuplicatePolicy#REJECT}, removal
- * of an edge that is not there, ...). The whole batch is refused: the graph, its version and every
- * snapshot are unchanged. The message says what was wrong, which operation and how to fix it.
+ * Thrown by {@link VersionedGraph#apply} when an operation of a batch cannot be applied (an unknown
+ * id, a node added twice, a duplicate edge under {@link dev.heed.graph.DuplicatePolicy#REJECT},
+ * removal of an edge that is not there, ...). The whole batch is refused: the graph, its version
+ * and every snapshot are unchanged. The message says what was wrong, which operation and how to fix
+ * it.
  *
  * <p>Thread safety: immutable once thrown.
  */

@@ -4,9 +4,9 @@ import java.util.Arrays;
 import java.util.Objects;
 
 /**
- * A list of changes to one {@link LiveGraph}, applied together by {@link LiveGraph#apply}: readers
- * see all of them or none. Operations apply in the order they were recorded, so a batch may add a
- * node and then its edges, or remove an edge and add it back.
+ * A list of changes to one {@link VersionedGraph}, applied together by {@link
+ * VersionedGraph#apply}: readers see all of them or none. Operations apply in the order they were
+ * recorded, so a batch may add a node and then its edges, or remove an edge and add it back.
  *
  * <pre>{@code
  * BatchResult result =
@@ -29,7 +29,7 @@ import java.util.Objects;
  * 13 bytes per operation plus the copied feature rows.
  *
  * <p>Thread safety: not thread safe; fill a batch in one thread (any thread) and do not change it
- * while {@link LiveGraph#apply} runs.
+ * while {@link VersionedGraph#apply} runs.
  *
  * @param <K> the type of the caller's node ids
  */
@@ -40,7 +40,7 @@ public final class UpdateBatch<K> {
   static final byte REMOVE_EDGE = 2;
   static final byte SET_FEATURES = 3;
 
-  private final LiveGraph<K> graph;
+  private final VersionedGraph<K> graph;
   private final int featureCount;
   private byte[] kinds = new byte[16];
   private Object[] first = new Object[16];
@@ -48,7 +48,7 @@ public final class UpdateBatch<K> {
   private float[][] features = new float[16][];
   private int size;
 
-  UpdateBatch(LiveGraph<K> graph, int featureCount) {
+  UpdateBatch(VersionedGraph<K> graph, int featureCount) {
     this.graph = graph;
     this.featureCount = featureCount;
   }
@@ -70,7 +70,8 @@ public final class UpdateBatch<K> {
    * Records a new node with its features.
    *
    * @param id the caller's id, not null; refused when applied if it is already a node
-   * @param features input, not modified, copied: {@link LiveGraph#featureCount()} finite values
+   * @param features input, not modified, copied: {@link VersionedGraph#featureCount()} finite
+   *     values
    * @return this batch
    * @throws NullPointerException if an argument is null
    * @throws IllegalArgumentException if the row has the wrong width or a NaN or infinite value
@@ -128,7 +129,8 @@ public final class UpdateBatch<K> {
    * Records a node's features, replacing any it had.
    *
    * @param id the node's id, not null; must be a node when the batch applies
-   * @param features input, not modified, copied: {@link LiveGraph#featureCount()} finite values
+   * @param features input, not modified, copied: {@link VersionedGraph#featureCount()} finite
+   *     values
    * @return this batch
    * @throws NullPointerException if an argument is null
    * @throws IllegalArgumentException if the row has the wrong width or a NaN or infinite value
@@ -165,7 +167,7 @@ public final class UpdateBatch<K> {
     size = 0;
   }
 
-  LiveGraph<K> graph() {
+  VersionedGraph<K> graph() {
     return graph;
   }
 

@@ -1,6 +1,6 @@
 /**
  * A graph with node features that services change while they read it: {@link
- * dev.heed.live.LiveGraph} takes nodes (by the caller's own ids), edges and features in atomic
+ * dev.heed.live.VersionedGraph} takes nodes (by the caller's own ids), edges and features in atomic
  * {@link dev.heed.live.UpdateBatch batches} from any thread, reports what each batch changed
  * ({@link dev.heed.live.BatchResult}), and hands out immutable, versioned {@link
  * dev.heed.live.LiveSnapshot snapshots} in O(1) that scoring code reads through {@link

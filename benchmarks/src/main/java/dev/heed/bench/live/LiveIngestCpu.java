@@ -1,8 +1,8 @@
 package dev.heed.bench.live;
 
-import dev.heed.live.LiveGraph;
 import dev.heed.live.LiveSnapshot;
 import dev.heed.live.UpdateBatch;
+import dev.heed.live.VersionedGraph;
 import java.lang.management.ManagementFactory;
 import java.lang.management.ThreadMXBean;
 import java.util.Locale;
@@ -11,11 +11,11 @@ import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicLong;
 
 /**
- * The ingest of {@link LiveGraphBenchmark} (same graph, batches, 2 writers and 1 reader, background
- * compaction) for a fixed time, reporting the writers' thread CPU time ({@link ThreadMXBean}) as
- * well as wall time: on a machine shared with other work, edges per writer CPU-second say what the
- * code costs, and the wall rate what the machine allowed. Complements the JMH figures; it does not
- * replace them.
+ * The ingest of {@link VersionedGraphBenchmark} (same graph, batches, 2 writers and 1 reader,
+ * background compaction) for a fixed time, reporting the writers' thread CPU time ({@link
+ * ThreadMXBean}) as well as wall time: on a machine shared with other work, edges per writer
+ * CPU-second say what the code costs, and the wall rate what the machine allowed. Complements the
+ * JMH figures; it does not replace them.
  *
  * <p>Run: {@code java -Xmx6g -cp benchmarks/target/benchmarks.jar dev.heed.bench.live.LiveIngestCpu
  * [seconds]} (default 8).
@@ -34,7 +34,7 @@ public final class LiveIngestCpu {
     long seconds = args.length > 0 ? Long.parseLong(args[0]) : 8;
     int[][] edges = LiveInputs.rmatEdges();
     Long[] ids = LiveInputs.nodeIds();
-    LiveGraph<Long> graph = LiveGraph.builder(LiveInputs.FEATURES).build();
+    VersionedGraph<Long> graph = VersionedGraph.builder(LiveInputs.FEATURES).build();
     LiveInputs.addNodes(graph, ids);
     ThreadMXBean cpu = ManagementFactory.getThreadMXBean();
     AtomicBoolean stop = new AtomicBoolean();

@@ -1,8 +1,8 @@
 package dev.heed.bench.live;
 
 import dev.heed.graph.generate.RmatGenerator;
-import dev.heed.live.LiveGraph;
 import dev.heed.live.UpdateBatch;
+import dev.heed.live.VersionedGraph;
 import java.util.SplittableRandom;
 
 /**
@@ -48,7 +48,7 @@ final class LiveInputs {
    * Adds every node, with seeded random features, in batches of 65,536, then compacts: the graph
    * then holds the nodes, their features and their self-loops in its base, and no edges.
    */
-  static void addNodes(LiveGraph<Long> graph, Long[] ids) {
+  static void addNodes(VersionedGraph<Long> graph, Long[] ids) {
     SplittableRandom random = new SplittableRandom(SEED);
     UpdateBatch<Long> batch = graph.newBatch();
     float[] row = new float[FEATURES];

@@ -23,7 +23,7 @@ import org.junit.jupiter.api.Test;
  * writer's ledger node the number of row entries that writer's nodes hold afterwards. Readers check
  * symmetry, the ledgers, sorted rows, features on every node and that versions never go back.
  */
-class LiveGraphConcurrencyTest {
+class VersionedGraphConcurrencyTest {
 
   private static final int READERS = 8;
   private static final int WRITERS = 2;
@@ -33,8 +33,8 @@ class LiveGraphConcurrencyTest {
   @Test
   void readersNeverSeeAHalfAppliedBatch() throws InterruptedException {
     long millis = Long.getLong("heed.live.stressMillis", 3000);
-    try (LiveGraph<String> graph =
-        LiveGraph.builder(FEATURES)
+    try (VersionedGraph<String> graph =
+        VersionedGraph.builder(FEATURES)
             .selfLoops(SelfLoopPolicy.AS_GIVEN)
             .compactionThreshold(0.05, 0)
             .build()) {
@@ -183,7 +183,7 @@ class LiveGraphConcurrencyTest {
 
   /** One writer: its own nodes, the undirected pairs among them, and its ledger. */
   private static final class Writer {
-    private final LiveGraph<String> graph;
+    private final VersionedGraph<String> graph;
     private final int id;
     private final SplittableRandom random;
     private final List<String> nodes = new ArrayList<>();
@@ -191,7 +191,7 @@ class LiveGraphConcurrencyTest {
     private final List<long[]> pairList = new ArrayList<>();
     private long sequence;
 
-    Writer(LiveGraph<String> graph, int id, SplittableRandom random) {
+    Writer(VersionedGraph<String> graph, int id, SplittableRandom random) {
       this.graph = graph;
       this.id = id;
       this.random = random;

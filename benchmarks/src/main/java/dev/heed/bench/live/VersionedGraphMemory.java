@@ -3,16 +3,16 @@ package dev.heed.bench.live;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.generate.RmatGenerator;
-import dev.heed.live.LiveGraph;
 import dev.heed.live.LiveMemory;
 import dev.heed.live.LiveSnapshot;
 import dev.heed.live.UpdateBatch;
+import dev.heed.live.VersionedGraph;
 import java.lang.management.ManagementFactory;
 import java.lang.management.MemoryMXBean;
 import java.util.Locale;
 
 /**
- * Bytes per edge of a {@link LiveGraph} against the compacted CSR of the same graph, on the
+ * Bytes per edge of a {@link VersionedGraph} against the compacted CSR of the same graph, on the
  * benchmark R-MAT graph (scale 20: 1,048,576 nodes, 16,777,216 edges; 8 features per node; default
  * policies). Steps: build the {@link CsrGraph} of all edges with {@link CsrGraphBuilder} (the
  * compacted reference); add the nodes to a live graph and compact (base: self-loops and features);
@@ -26,13 +26,13 @@ import java.util.Locale;
  * reference graph are held throughout, so they cancel out). Run it with the serial collector, whose
  * used heap after a full collection is exact (G1 counts whole regions for large arrays): {@code
  * java -Xmx6g -XX:+UseSerialGC -cp benchmarks/target/benchmarks.jar
- * dev.heed.bench.live.LiveGraphMemory}.
+ * dev.heed.bench.live.VersionedGraphMemory}.
  */
-public final class LiveGraphMemory {
+public final class VersionedGraphMemory {
 
   private static final double MIB = 1 << 20;
 
-  private LiveGraphMemory() {}
+  private VersionedGraphMemory() {}
 
   /**
    * Entry point.
@@ -66,8 +66,8 @@ public final class LiveGraphMemory {
         exact / (double) reference.edgeCount());
 
     long before = usedAfterGc(memory);
-    LiveGraph<Long> graph =
-        LiveGraph.builder(LiveInputs.FEATURES).backgroundCompaction(false).build();
+    VersionedGraph<Long> graph =
+        VersionedGraph.builder(LiveInputs.FEATURES).backgroundCompaction(false).build();
     LiveInputs.addNodes(graph, ids);
     report("nodes and features only, compacted", graph.snapshot(), memory, before, reference);
 
@@ -96,7 +96,7 @@ public final class LiveGraphMemory {
     graph.close();
   }
 
-  private static void insert(LiveGraph<Long> graph, Long[] ids, int[] sources, int[] targets) {
+  private static void insert(VersionedGraph<Long> graph, Long[] ids, int[] sources, int[] targets) {
     UpdateBatch<Long> batch = graph.newBatch();
     for (int e = 0; e < sources.length; e++) {
       batch.addEdge(ids[sources[e]], ids[targets[e]]);

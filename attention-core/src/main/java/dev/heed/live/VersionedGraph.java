@@ -18,8 +18,8 @@ import org.slf4j.LoggerFactory;
  * dev.heed.graph.NeighbourRows} and {@link dev.heed.classify.FeatureRows}.
  *
  * <pre>{@code
- * LiveGraph<String> graph =
- *     LiveGraph.builder(16) // 16 features per node
+ * VersionedGraph<String> graph =
+ *     VersionedGraph.builder(16) // 16 features per node
  *         .direction(DirectionPolicy.SYMMETRISE)
  *         .build();
  * graph.apply(graph.newBatch().addNode("a", fa).addNode("b", fb).addEdge("a", "b"));
@@ -82,7 +82,7 @@ import org.slf4j.LoggerFactory;
  *
  * @param <K> the type of the caller's node ids
  */
-public final class LiveGraph<K> implements AutoCloseable {
+public final class VersionedGraph<K> implements AutoCloseable {
 
   /** Default share of the base's bytes the deltas may reach before background compaction. */
   public static final double DEFAULT_COMPACTION_FRACTION = 0.25;
@@ -96,7 +96,7 @@ public final class LiveGraph<K> implements AutoCloseable {
   /** After this many rounds of catching up without the lock, the next one finishes under it. */
   private static final int MAX_CATCH_UP_ROUNDS = 4;
 
-  private static final Logger LOG = LoggerFactory.getLogger(LiveGraph.class);
+  private static final Logger LOG = LoggerFactory.getLogger(VersionedGraph.class);
 
   private final int featureCount;
   private final SelfLoopPolicy selfLoops;
@@ -115,7 +115,7 @@ public final class LiveGraph<K> implements AutoCloseable {
   private final Object compactionSignal = new Object();
   private boolean compactionRequested; // guarded by compactionSignal
 
-  private LiveGraph(Builder builder) {
+  private VersionedGraph(Builder builder) {
     this.featureCount = builder.featureCount;
     this.selfLoops = builder.selfLoops;
     this.direction = builder.direction;
@@ -476,7 +476,7 @@ public final class LiveGraph<K> implements AutoCloseable {
   }
 
   /**
-   * Configures and creates a {@link LiveGraph}. Defaults: {@link
+   * Configures and creates a {@link VersionedGraph}. Defaults: {@link
    * CsrGraphBuilder#DEFAULT_SELF_LOOPS}, {@link CsrGraphBuilder#DEFAULT_DIRECTION}, {@link
    * CsrGraphBuilder#DEFAULT_DUPLICATES} (the batch builders' defaults), background compaction at
    * {@link #DEFAULT_COMPACTION_FRACTION} of the base and at least {@link
@@ -532,7 +532,7 @@ public final class LiveGraph<K> implements AutoCloseable {
 
     /**
      * Sets whether a daemon thread compacts when the deltas grow past the threshold; when off, the
-     * caller calls {@link LiveGraph#compact()}.
+     * caller calls {@link VersionedGraph#compact()}.
      *
      * @param enabled true for background compaction (the default)
      * @return this builder
@@ -568,10 +568,10 @@ public final class LiveGraph<K> implements AutoCloseable {
      * Creates the empty graph (version 0) and, if enabled, starts its compaction thread.
      *
      * @param <K> the type of the caller's node ids
-     * @return the graph; {@link LiveGraph#close() close} it when done
+     * @return the graph; {@link VersionedGraph#close() close} it when done
      */
-    public <K> LiveGraph<K> build() {
-      return new LiveGraph<>(this);
+    public <K> VersionedGraph<K> build() {
+      return new VersionedGraph<>(this);
     }
   }
 }

@@ -30,7 +30,7 @@ import org.junit.jupiter.params.provider.MethodSource;
  * ids, counts and change report, the refusal of bad batches with nothing applied, the {@link
  * CsrGraphBuilder} graph of the same edge list, and old snapshots across compactions.
  */
-class LiveGraphReferenceTest {
+class VersionedGraphReferenceTest {
 
   private static final int FEATURES = 3;
   private static final int BATCHES = 300;
@@ -48,12 +48,12 @@ class LiveGraphReferenceTest {
   }
 
   /** A graph with the given policies; background compaction after almost every batch if asked. */
-  private static LiveGraph<String> graph(
+  private static VersionedGraph<String> graph(
       SelfLoopPolicy selfLoops,
       DirectionPolicy direction,
       DuplicatePolicy duplicates,
       boolean compactInBackground) {
-    return LiveGraph.builder(FEATURES)
+    return VersionedGraph.builder(FEATURES)
         .selfLoops(selfLoops)
         .direction(direction)
         .duplicates(duplicates)
@@ -67,7 +67,7 @@ class LiveGraphReferenceTest {
   void randomBatchesMatchTheReference(
       SelfLoopPolicy selfLoops, DirectionPolicy direction, DuplicatePolicy duplicates) {
     long seed = 31L * selfLoops.ordinal() + 7L * direction.ordinal() + duplicates.ordinal();
-    try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
+    try (VersionedGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
       run(graph, new SplittableRandom(seed), true);
     }
   }
@@ -78,7 +78,7 @@ class LiveGraphReferenceTest {
   void randomBatchesMatchWhileCompactingInTheBackground(
       SelfLoopPolicy selfLoops, DirectionPolicy direction, DuplicatePolicy duplicates) {
     long seed = 1000 + 31L * selfLoops.ordinal() + 7L * direction.ordinal() + duplicates.ordinal();
-    try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, true)) {
+    try (VersionedGraph<String> graph = graph(selfLoops, direction, duplicates, true)) {
       graph.finishUnderLockAt(0); // always catch up without the lock first
       run(graph, new SplittableRandom(seed), false);
     }
@@ -94,7 +94,7 @@ class LiveGraphReferenceTest {
       SelfLoopPolicy selfLoops, DirectionPolicy direction, DuplicatePolicy duplicates) {
     SplittableRandom random =
         new SplittableRandom(2000 + 31L * selfLoops.ordinal() + 7L * direction.ordinal());
-    try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
+    try (VersionedGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
       Reference ref = withNodes(graph, 2000, random);
       int chunked = 0;
       LiveSnapshot<String> kept = null;
@@ -159,7 +159,7 @@ class LiveGraphReferenceTest {
       SelfLoopPolicy selfLoops, DirectionPolicy direction, DuplicatePolicy duplicates) {
     SplittableRandom random =
         new SplittableRandom(3000 + 31L * selfLoops.ordinal() + 7L * direction.ordinal());
-    try (LiveGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
+    try (VersionedGraph<String> graph = graph(selfLoops, direction, duplicates, false)) {
       Reference ref = withNodes(graph, 40, random);
       int overtaken = 0;
       for (int round = 0; round < 300; round++) {
@@ -202,7 +202,7 @@ class LiveGraphReferenceTest {
   }
 
   /** Adds {@code n} nodes with random features in one batch; returns the matching reference. */
-  private static Reference withNodes(LiveGraph<String> graph, int n, SplittableRandom random) {
+  private static Reference withNodes(VersionedGraph<String> graph, int n, SplittableRandom random) {
     Reference ref = new Reference(graph);
     UpdateBatch<String> nodes = graph.newBatch();
     for (int i = 0; i < n; i++) {
@@ -215,7 +215,8 @@ class LiveGraphReferenceTest {
     return ref.next();
   }
 
-  private static void run(LiveGraph<String> graph, SplittableRandom random, boolean compactHere) {
+  private static void run(
+      VersionedGraph<String> graph, SplittableRandom random, boolean compactHere) {
     Reference ref = new Reference(graph);
     List<LiveSnapshot<String>> keptSnapshots = new ArrayList<>();
     List<Reference> keptReferences = new ArrayList<>();
@@ -381,7 +382,7 @@ class LiveGraphReferenceTest {
     final List<float[]> features;
     final List<int[]> given; // each added edge as given, in order; removals delete them
 
-    Reference(LiveGraph<?> graph) {
+    Reference(VersionedGraph<?> graph) {
       selfLoopPolicy = graph.selfLoops();
       directionPolicy = graph.direction();
       duplicatePolicy = graph.duplicates();

@@ -15,7 +15,7 @@ import dev.heed.graph.SelfLoopPolicy;
 import org.junit.jupiter.api.Test;
 
 /** The live graph's conventions, versions, change reports, features and compaction. */
-class LiveGraphTest {
+class VersionedGraphTest {
 
   private static final float[] ONE = {1f, 2f};
   private static final float[] TWO = {3f, -4f};
@@ -28,7 +28,8 @@ class LiveGraphTest {
 
   @Test
   void gatConventionByDefault() {
-    try (LiveGraph<String> graph = LiveGraph.builder(2).backgroundCompaction(false).build()) {
+    try (VersionedGraph<String> graph =
+        VersionedGraph.builder(2).backgroundCompaction(false).build()) {
       BatchResult result =
           graph.apply(graph.newBatch().addNode("a", ONE).addNode("b", TWO).addEdge("a", "b"));
       assertEquals(1, result.version());
@@ -54,8 +55,8 @@ class LiveGraphTest {
 
   @Test
   void symmetriseAddsAndRemovesBothDirections() {
-    try (LiveGraph<Long> graph =
-        LiveGraph.builder(2)
+    try (VersionedGraph<Long> graph =
+        VersionedGraph.builder(2)
             .direction(DirectionPolicy.SYMMETRISE)
             .selfLoops(SelfLoopPolicy.AS_GIVEN)
             .backgroundCompaction(false)
@@ -80,15 +81,16 @@ class LiveGraphTest {
 
   @Test
   void duplicatesMergeOrRefuse() {
-    try (LiveGraph<String> merging = LiveGraph.builder(2).backgroundCompaction(false).build()) {
+    try (VersionedGraph<String> merging =
+        VersionedGraph.builder(2).backgroundCompaction(false).build()) {
       merging.apply(merging.newBatch().addNode("a", ONE).addNode("b", ONE).addEdge("a", "b"));
       BatchResult again = merging.apply(merging.newBatch().addEdge("a", "b").addEdge("b", "b"));
       assertEquals(2, again.version());
       assertEquals(0, again.changedNodeCount());
       assertEquals(3, merging.snapshot().edgeCount());
     }
-    try (LiveGraph<String> rejecting =
-        LiveGraph.builder(2)
+    try (VersionedGraph<String> rejecting =
+        VersionedGraph.builder(2)
             .duplicates(DuplicatePolicy.REJECT)
             .direction(DirectionPolicy.SYMMETRISE)
             .backgroundCompaction(false)
@@ -109,7 +111,8 @@ class LiveGraphTest {
 
   @Test
   void addingAndRemovingWithinABatchIsNoChange() {
-    try (LiveGraph<String> graph = LiveGraph.builder(2).backgroundCompaction(false).build()) {
+    try (VersionedGraph<String> graph =
+        VersionedGraph.builder(2).backgroundCompaction(false).build()) {
       graph.apply(graph.newBatch().addNode("a", ONE).addNode("b", ONE));
       BatchResult result =
           graph.apply(
@@ -125,7 +128,8 @@ class LiveGraphTest {
 
   @Test
   void missingFeaturesAreReportedBeforeScoring() {
-    try (LiveGraph<String> graph = LiveGraph.builder(2).backgroundCompaction(false).build()) {
+    try (VersionedGraph<String> graph =
+        VersionedGraph.builder(2).backgroundCompaction(false).build()) {
       graph.apply(graph.newBatch().addNode("a", ONE).addNode("late").addEdge("late", "a"));
       LiveSnapshot<String> now = graph.snapshot();
       assertEquals(1, now.missingFeatureCount());
@@ -157,7 +161,8 @@ class LiveGraphTest {
 
   @Test
   void compactionKeepsVersionAndContentAndOldSnapshots() {
-    try (LiveGraph<Integer> graph = LiveGraph.builder(2).backgroundCompaction(false).build()) {
+    try (VersionedGraph<Integer> graph =
+        VersionedGraph.builder(2).backgroundCompaction(false).build()) {
       UpdateBatch<Integer> nodes = graph.newBatch();
       for (int i = 0; i < 100; i++) {
         nodes.addNode(i, new float[] {i, -i});

@@ -10,19 +10,19 @@ import java.util.function.Consumer;
 import org.junit.jupiter.api.Test;
 
 /** Bad input gets a clear error, and a refused batch leaves the graph exactly as it was. */
-class LiveGraphBadInputTest {
+class VersionedGraphBadInputTest {
 
   private static final float[] OK = {0.5f, -1.5f};
 
-  private static LiveGraph<String> twoNodes() {
-    LiveGraph<String> graph = LiveGraph.builder(2).backgroundCompaction(false).build();
+  private static VersionedGraph<String> twoNodes() {
+    VersionedGraph<String> graph = VersionedGraph.builder(2).backgroundCompaction(false).build();
     graph.apply(graph.newBatch().addNode("a", OK).addNode("b", OK).addEdge("a", "b"));
     return graph;
   }
 
   /** Applies a batch that must be refused at {@code operation}; checks nothing changed. */
   private static String refused(
-      LiveGraph<String> graph, int operation, Consumer<UpdateBatch<String>> fill) {
+      VersionedGraph<String> graph, int operation, Consumer<UpdateBatch<String>> fill) {
     LiveSnapshot<String> before = graph.snapshot();
     UpdateBatch<String> batch = graph.newBatch();
     fill.accept(batch);
@@ -40,7 +40,7 @@ class LiveGraphBadInputTest {
 
   @Test
   void unknownIdsNameTheIdAndTheOperation() {
-    try (LiveGraph<String> graph = twoNodes()) {
+    try (VersionedGraph<String> graph = twoNodes()) {
       String message =
           refused(graph, 2, b -> b.addNode("c", OK).addEdge("c", "a").addEdge("x", "a"));
       assertTrue(message.contains("unknown source id 'x'"), message);
@@ -59,7 +59,7 @@ class LiveGraphBadInputTest {
 
   @Test
   void nodesCannotBeAddedTwice() {
-    try (LiveGraph<String> graph = twoNodes()) {
+    try (VersionedGraph<String> graph = twoNodes()) {
       String message = refused(graph, 0, b -> b.addNode("a"));
       assertTrue(message.contains("node 'a' already exists (index 0)"), message);
       message = refused(graph, 1, b -> b.addNode("c").addNode("c"));
@@ -69,7 +69,7 @@ class LiveGraphBadInputTest {
 
   @Test
   void removingAMissingEdgeIsAnError() {
-    try (LiveGraph<String> graph = twoNodes()) {
+    try (VersionedGraph<String> graph = twoNodes()) {
       String message = refused(graph, 0, b -> b.removeEdge("b", "a"));
       assertTrue(message.contains("cannot remove edge 'b' -> 'a'"), message);
       message = refused(graph, 1, b -> b.removeEdge("a", "b").removeEdge("a", "b"));
@@ -78,8 +78,8 @@ class LiveGraphBadInputTest {
       message = refused(graph, 0, b -> b.removeEdge("a", "a"));
       assertTrue(message.contains("SelfLoopPolicy.ADD"), message);
     }
-    try (LiveGraph<String> asGiven =
-        LiveGraph.builder(2)
+    try (VersionedGraph<String> asGiven =
+        VersionedGraph.builder(2)
             .selfLoops(SelfLoopPolicy.AS_GIVEN)
             .backgroundCompaction(false)
             .build()) {
@@ -91,7 +91,7 @@ class LiveGraphBadInputTest {
 
   @Test
   void featureRowsAreCheckedWhenRecorded() {
-    try (LiveGraph<String> graph = twoNodes()) {
+    try (VersionedGraph<String> graph = twoNodes()) {
       UpdateBatch<String> batch = graph.newBatch().addEdge("b", "a");
       IllegalArgumentException wide =
           assertThrows(
@@ -123,7 +123,7 @@ class LiveGraphBadInputTest {
 
   @Test
   void updatesAfterCloseAreRefused() {
-    LiveGraph<String> graph = twoNodes();
+    VersionedGraph<String> graph = twoNodes();
     LiveSnapshot<String> last = graph.snapshot();
     UpdateBatch<String> batch = graph.newBatch().addNode("c", OK);
     graph.close();
@@ -137,21 +137,22 @@ class LiveGraphBadInputTest {
 
   @Test
   void batchesBelongToTheirGraph() {
-    try (LiveGraph<String> one = twoNodes();
-        LiveGraph<String> other = twoNodes()) {
+    try (VersionedGraph<String> one = twoNodes();
+        VersionedGraph<String> other = twoNodes()) {
       UpdateBatch<String> batch = one.newBatch().addEdge("b", "a");
       IllegalArgumentException e =
           assertThrows(IllegalArgumentException.class, () -> other.apply(batch));
       assertTrue(e.getMessage().contains("another live graph"), e.getMessage());
-      assertThrows(IllegalArgumentException.class, () -> LiveGraph.builder(0));
+      assertThrows(IllegalArgumentException.class, () -> VersionedGraph.builder(0));
       assertThrows(
-          IllegalArgumentException.class, () -> LiveGraph.builder(2).compactionThreshold(0, 0));
+          IllegalArgumentException.class,
+          () -> VersionedGraph.builder(2).compactionThreshold(0, 0));
     }
   }
 
   @Test
   void readsOutOfRangeThrow() {
-    try (LiveGraph<String> graph = twoNodes()) {
+    try (VersionedGraph<String> graph = twoNodes()) {
       LiveSnapshot<String> now = graph.snapshot();
       assertThrows(IndexOutOfBoundsException.class, () -> now.degree(2));
       assertThrows(IndexOutOfBoundsException.class, () -> now.copyRow(1, new int[1], 0));

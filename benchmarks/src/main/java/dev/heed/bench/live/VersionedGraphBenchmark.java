@@ -1,9 +1,9 @@
 package dev.heed.bench.live;
 
 import dev.heed.live.BatchResult;
-import dev.heed.live.LiveGraph;
 import dev.heed.live.LiveSnapshot;
 import dev.heed.live.UpdateBatch;
+import dev.heed.live.VersionedGraph;
 import java.util.SplittableRandom;
 import java.util.concurrent.TimeUnit;
 import java.util.concurrent.atomic.AtomicInteger;
@@ -25,7 +25,7 @@ import org.openjdk.jmh.annotations.TearDown;
 import org.openjdk.jmh.annotations.Warmup;
 
 /**
- * Ingest rate of a {@link LiveGraph} with 2 writer threads while a third thread keeps taking
+ * Ingest rate of a {@link VersionedGraph} with 2 writer threads while a third thread keeps taking
  * snapshots and reading rows from them. Input: R-MAT (Graph500 initiator, scale 20: 1,048,576
  * nodes, 16,777,216 edges, seed {@value LiveInputs#SEED}); node ids are boxed {@code Long}s, 8
  * features per node. Before each iteration a fresh graph gets all nodes with their features
@@ -37,9 +37,10 @@ import org.openjdk.jmh.annotations.Warmup;
  * a batch, repeats merged by the graph included); {@code ingest:read}, node reads per second (a row
  * and a feature row each, from a snapshot taken every 16 reads). {@code compaction}: {@code
  * background} (the default daemon thread compacts as deltas grow, competing for the same cores) or
- * {@code none} (deltas only). Bytes per edge are measured by {@link LiveGraphMemory}, not here.
+ * {@code none} (deltas only). Bytes per edge are measured by {@link VersionedGraphMemory}, not
+ * here.
  *
- * <p>Run: {@code java -jar benchmarks/target/benchmarks.jar LiveGraphBenchmark} (about 70 s).
+ * <p>Run: {@code java -jar benchmarks/target/benchmarks.jar VersionedGraphBenchmark} (about 70 s).
  */
 @State(Scope.Group)
 @BenchmarkMode(Mode.Throughput)
@@ -49,7 +50,7 @@ import org.openjdk.jmh.annotations.Warmup;
 @Fork(
     value = 1,
     jvmArgsAppend = {"-Xmx6g", "-XX:+UseG1GC"})
-public class LiveGraphBenchmark {
+public class VersionedGraphBenchmark {
 
   private static final int WRITERS = 2;
   private static final int READ_NODES = 16;
@@ -62,7 +63,7 @@ public class LiveGraphBenchmark {
   private int[] sources;
   private int[] targets;
   private Long[] ids;
-  private LiveGraph<Long> graph;
+  private VersionedGraph<Long> graph;
   private final AtomicInteger writerSlots = new AtomicInteger();
 
   /** Generates the R-MAT edges and the node ids once per fork. */
@@ -78,7 +79,7 @@ public class LiveGraphBenchmark {
   @Setup(Level.Iteration)
   public void freshGraph() {
     graph =
-        LiveGraph.builder(LiveInputs.FEATURES)
+        VersionedGraph.builder(LiveInputs.FEATURES)
             .backgroundCompaction(compaction.equals("background"))
             .build();
     LiveInputs.addNodes(graph, ids);
@@ -101,7 +102,7 @@ public class LiveGraphBenchmark {
 
     /** Claims the next writer slot's half of the edges. */
     @Setup(Level.Iteration)
-    public void claim(LiveGraphBenchmark shared) {
+    public void claim(VersionedGraphBenchmark shared) {
       int slot = shared.writerSlots.getAndIncrement() % WRITERS;
       int half = LiveInputs.EDGES / WRITERS;
       start = slot * half;
