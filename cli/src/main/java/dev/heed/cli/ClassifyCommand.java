@@ -9,6 +9,7 @@ import java.io.PrintWriter;
 import java.nio.file.Path;
 import java.util.List;
 import java.util.Locale;
+import java.util.Optional;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
 import picocli.CommandLine.Mixin;
@@ -163,7 +164,8 @@ final class ClassifyCommand implements Callable<Integer> {
     }
     ClassifyRun.requireFile(model, "--model");
     AttentionModel m = ModelFile.read(model);
-    graphOptions.followModel(m.graphConventions(), overrideGraphConventions, err);
+    Optional<String> conventionsWarning =
+        graphOptions.followModel(m.graphConventions(), overrideGraphConventions);
     output.checkReportClass(m.classLabels());
     ClassifyRun run =
         ClassifyRun.load(
@@ -180,6 +182,7 @@ final class ClassifyCommand implements Callable<Integer> {
       run.writeNodeOrder(nodeOrder);
     }
     int[] chosen = nodes == null ? null : run.indicesOf(nodes);
+    conventionsWarning.ifPresent(err::println); // once the inputs are read without error
     warnIfDenseIsCostly(pathChoice, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();
     Classification result = run.classify(chosen, pathChoice, explain);

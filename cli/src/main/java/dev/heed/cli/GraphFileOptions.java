@@ -9,7 +9,6 @@ import dev.heed.graph.EdgeListResult;
 import dev.heed.graph.GraphConventions;
 import dev.heed.graph.SelfLoopPolicy;
 import java.io.IOException;
-import java.io.PrintWriter;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.List;
@@ -151,18 +150,18 @@ final class GraphFileOptions {
    *
    * @param recorded the model's conventions, if it records them
    * @param override whether explicit options may differ from the recorded ones
-   * @param err where warnings go
+   * @return the warning to print once the inputs have been read, if any (printed later, so that an
+   *     error in the inputs stays the one line on stderr)
    * @throws CliException (user error) naming each difference and both ways to resolve it
    */
-  void followModel(Optional<GraphConventions> recorded, boolean override, PrintWriter err) {
+  Optional<String> followModel(Optional<GraphConventions> recorded, boolean override) {
     if (recorded.isEmpty()) {
-      err.println(
+      return Optional.of(
           "warning: the model does not record how its training graph was built; building this"
               + " graph with "
               + conventions()
               + ". If the model was trained on another graph convention, say so with"
               + " --direction, --self-loops and --duplicates.");
-      return;
     }
     GraphConventions model = recorded.get();
     GraphConventions asked =
@@ -182,15 +181,16 @@ final class GraphFileOptions {
               + " you mean it.",
           HeedCli.EXIT_USER_ERROR);
     }
+    direction = GraphConventions.word(asked.direction());
+    selfLoops = GraphConventions.word(asked.selfLoops());
+    duplicates = GraphConventions.word(asked.duplicates());
     if (!differences.isEmpty()) {
-      err.println(
+      return Optional.of(
           "warning: building the graph unlike the model's training graph ("
               + String.join("; ", differences)
               + "), as --override-graph-conventions asks");
     }
-    direction = GraphConventions.word(asked.direction());
-    selfLoops = GraphConventions.word(asked.selfLoops());
-    duplicates = GraphConventions.word(asked.duplicates());
+    return Optional.empty();
   }
 
   DirectionPolicy directionPolicy() {
