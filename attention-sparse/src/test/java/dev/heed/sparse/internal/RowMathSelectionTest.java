@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
@@ -19,7 +19,7 @@ class RowMathSelectionTest {
   // if the kernel fell back to the scalar loops anyway, the fast path is broken and this fails.
   @Test
   void vectorImplementationRunsWhenTheBuildExpectsIt() {
-    String chosen = RowMaths.preferred().describe();
+    String chosen = RowMaths.preferred().name();
     if (Boolean.getBoolean("heed.test.expectVectorKernel")) {
       assertTrue(
           chosen.startsWith("vector("),
@@ -36,7 +36,7 @@ class RowMathSelectionTest {
     // Both kernels call the shared VectorExp; a second vector width in the same JVM pollutes its
     // type profile and slowed every vector loop 5-10x (measured here on JDK 17, see VectorExp).
     // The kernels name their vector width in describe(): they must agree.
-    String sparse = RowMaths.preferred().describe();
+    String sparse = RowMaths.preferred().name();
     String dense = AttentionKernels.forPath(ComputePath.DENSE, KernelOptions.defaults()).describe();
     Matcher sparseBits = Pattern.compile("^vector\\((\\d+)-bit").matcher(sparse);
     Matcher denseBits = Pattern.compile("Java vector\\((\\d+)-bit\\)").matcher(dense);
@@ -55,8 +55,11 @@ class RowMathSelectionTest {
         AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults().withThreads(3));
     assertEquals(ComputePath.SPARSE, kernel.path());
     assertEquals(CsrAttentionKernel.class, kernel.getClass());
-    assertEquals("csr-" + RowMaths.preferred().describe() + ", 3 threads", kernel.describe());
+    assertEquals("csr-" + RowMaths.preferred().name() + ", 3 threads", kernel.describe());
     assertEquals(
-        "csr-scalar, 1 thread", new CsrAttentionKernel(1, RowMaths.scalar(), 1).describe());
+        "csr-scalar, 1 thread",
+        new CsrAttentionKernel(
+                1, RowMaths.scalar(), CsrKernelVariant.DEFAULT.withMinCostPerThread(1))
+            .describe());
   }
 }

@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import java.util.concurrent.CountDownLatch;
 import java.util.concurrent.SynchronousQueue;
