@@ -4,6 +4,7 @@ import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.AttentionKernelProvider;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.KernelOptions;
+import dev.heed.sparse.internal.CsrAttentionKernel;
 
 /**
  * Contributes the {@link ComputePath#SPARSE} kernel to {@link
@@ -15,7 +16,7 @@ import dev.heed.attention.KernelOptions;
  * <p>The kernel runs the Vector API implementation of its inner loops when the JVM was started with
  * {@code --add-modules jdk.incubator.vector}, and plain Java loops otherwise (logging one WARN that
  * names the flag); {@link AttentionKernel#describe()} says which, for example {@code
- * "csr-vector(512-bit, 16 float lanes), 2 threads"}. The choice is made once per JVM.
+ * "csr-vector(256-bit of preferred 512-bit), 2 threads"}. The choice is made once per JVM.
  *
  * <p>Thread safety: stateless.
  */

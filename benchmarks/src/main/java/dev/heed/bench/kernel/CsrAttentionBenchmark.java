@@ -1,8 +1,6 @@
 package dev.heed.bench.kernel;
 
 import dev.heed.attention.AttentionKernel;
-import dev.heed.attention.AttentionKernels;
-import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.KernelOptions;
 import dev.heed.attention.ScoreFunction;
@@ -10,6 +8,8 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.graph.generate.RmatGenerator;
+import dev.heed.sparse.internal.CsrAttentionKernel;
+import dev.heed.sparse.internal.CsrKernelVariant;
 import java.util.Arrays;
 import java.util.SplittableRandom;
 import java.util.concurrent.TimeUnit;
@@ -27,35 +27,34 @@ import org.openjdk.jmh.annotations.State;
 import org.openjdk.jmh.annotations.Warmup;
 
 /**
- * One layer of sparse (CSR) attention: {@code AttentionKernels.forPath(SPARSE)} over a seeded
- * graph, all heads and value dims, no weights requested. {@code graph=uniform}: exactly {@code
- * averageDegree} distinct uniformly random sources per row, {@code nodes · averageDegree} edges.
- * {@code graph=rmat}: an R-MAT graph ({@link RmatGenerator}, Graph500 initiator, scrambled ids) of
- * {@code 2^ceil(log2 nodes)} nodes and edge factor {@code averageDegree}, built with self-loops
- * added and repeated edges merged, so its edge count differs a little from {@code nodes ·
- * averageDegree}; the setup prints the node and edge counts.
+ * One layer of sparse (CSR) attention over a seeded graph, all heads and value dims, no weights
+ * requested: the kernel {@code AttentionKernels.forPath(SPARSE)} gives, or one of its variants
+ * ({@link CsrKernelVariant}, selected by the parameters {@code implementation}, {@code path},
+ * {@code prefetch}, {@code packedTable} and {@code factoredWeights}). {@code graph=uniform}:
+ * exactly {@code averageDegree} distinct uniformly random sources per row, {@code nodes ·
+ * averageDegree} edges. {@code graph=rmat}: an R-MAT graph ({@link RmatGenerator}, Graph500
+ * initiator, scrambled ids) of {@code 2^ceil(log2 nodes)} nodes and edge factor {@code
+ * averageDegree}, built with self-loops added and repeated edges merged, so its edge count differs
+ * a little from {@code nodes · averageDegree}; the setup prints the node and edge counts.
  *
  * <p>Read the score as milliseconds per layer; edges per second = {@code edges / (ms / 1000)}. The
- * reference case: R-MAT, 1M nodes, 16M edges, 8 heads × 8 dims, additive scores; its targets are at
- * least 50 % of the machine's random-gather limit on 2 threads ({@code
- * benchmarks/sparse-vs-gather.sh}) and 2 threads at least 1.7× one. Run it with, for example:
+ * reference case is R-MAT, 1M nodes, 16M edges, 8 heads × 8 dims, additive scores, 2 threads. Run
+ * it with, for example:
  *
  * <pre>
  * java -jar benchmarks/target/benchmarks.jar CsrAttentionBenchmark -p graph=rmat \
  *     -p nodes=1048576 -p score=additive -p implementation=vector
  * </pre>
  *
- * <p>{@code path=perHead} sets {@code heed.sparse.allHeads=false} in the fork, so additive scores
- * with 8 heads of 8 floats take the per-head path instead of the all-heads one (A/B comparisons of
- * the two in one run; other shapes and scores always take the per-head path).
- *
- * <p>{@code implementation=scalar} sets {@code heed.sparse.vector=false} in the fork before the
- * kernel is first created, so the kernel runs its plain loops; each fork measures one
- * implementation only. Every fork gets {@code --add-modules jdk.incubator.vector} and transparent
- * huge pages for its heap ({@code -XX:+UseTransparentHugePages}: random gathers over hundreds of
- * MiB otherwise miss the TLB; measured here about +20 % at 300k nodes, busy machine). On JDK 17 a
- * fork can compile the kernel 2-3x slower unless Heed's Vector API warm-up runs first
- * (docs/design/vector-api.md).
+ * <p>Each fork creates one variant only (code that sees both branches of a switch compiles worse
+ * for each, so variants are compared fork against fork). {@code path=perHead}: additive scores with
+ * 8 heads of 8 floats take the per-head path instead of the all-heads one (other shapes and scores
+ * always take the per-head path). {@code implementation=scalar}: the plain Java loops. Every fork
+ * gets {@code --add-modules jdk.incubator.vector} and transparent huge pages for its heap ({@code
+ * -XX:+UseTransparentHugePages}: random gathers over hundreds of MiB otherwise miss the TLB;
+ * measured here about +20 % at 300k nodes, busy machine). On JDK 17 an occasional fork used to
+ * compile the kernel 2-3x slower; Heed's Vector API warm-up now prevents that (DEVELOPERS.md,
+ * "Vector API lessons").
  */
 @State(Scope.Benchmark)
 @BenchmarkMode(Mode.AverageTime)
@@ -109,18 +108,22 @@ public class CsrAttentionBenchmark {
   @Param({"allHeads"})
   public String path;
 
+  /** {@code on} (default kernel: rows loaded ahead) or {@code off} (no loads ahead). */
+  @Param({"on"})
+  public String prefetch;
+
   /**
    * {@code auto} (the kernel uses its packed node table where it applies: additive 8 × 8 over at
-   * least 16 MiB of table) or {@code off} ({@code heed.sparse.pack=false} in the fork: keys and
-   * values are always read from the caller's arrays), for A/B comparisons in one run.
+   * least 16 MiB of table) or {@code off} (keys and values are always read from the caller's
+   * arrays), for A/B comparisons in one run.
    */
   @Param({"auto"})
   public String packedTable;
 
   /**
    * {@code on} (the kernel uses factored weights on its packed node table when no weights are asked
-   * for, as here) or {@code off} ({@code heed.sparse.factor=false} in the fork: the exact per-row
-   * softmax on the same table), for A/B comparisons in one run.
+   * for, as here) or {@code off} (the exact per-row softmax on the table's exact layout), for A/B
+   * comparisons in one run.
    */
   @Param({"on"})
   public String factoredWeights;
@@ -138,30 +141,19 @@ public class CsrAttentionBenchmark {
   private float[] value;
   private float[] out;
 
-  /** Builds the graph and inputs and picks the implementation. */
+  /** Builds the graph and inputs and picks the kernel variant. */
   @Setup(Level.Trial)
   public void setUp() {
-    if (implementation.equals("scalar")) {
-      System.setProperty("heed.sparse.vector", "false");
-    } else if (!implementation.equals("vector")) {
-      throw new IllegalArgumentException("implementation must be vector or scalar");
+    CsrKernelVariant variant =
+        CsrKernelVariant.DEFAULT
+            .withVectorLoops(choose("implementation", implementation, "vector", "scalar"))
+            .withAllHeads(choose("path", path, "allHeads", "perHead"))
+            .withPrefetch(choose("prefetch", prefetch, "on", "off"))
+            .withFactoredWeights(choose("factoredWeights", factoredWeights, "on", "off"));
+    if (!choose("packedTable", packedTable, "auto", "off")) {
+      variant = variant.withMinPackedTableBytes(Long.MAX_VALUE);
     }
-    if (packedTable.equals("off")) {
-      System.setProperty("heed.sparse.pack", "false");
-    } else if (!packedTable.equals("auto")) {
-      throw new IllegalArgumentException("packedTable must be auto or off");
-    }
-    if (factoredWeights.equals("off")) {
-      System.setProperty("heed.sparse.factor", "false");
-    } else if (!factoredWeights.equals("on")) {
-      throw new IllegalArgumentException("factoredWeights must be on or off");
-    }
-    if (path.equals("perHead")) {
-      System.setProperty("heed.sparse.allHeads", "false");
-    } else if (!path.equals("allHeads")) {
-      throw new IllegalArgumentException("path must be allHeads or perHead");
-    }
-    kernel = AttentionKernels.forPath(ComputePath.SPARSE, new KernelOptions(threads, 1L << 30));
+    kernel = CsrAttentionKernel.create(threads, variant);
     if (!kernel.describe().startsWith("csr-" + implementation)) {
       throw new IllegalStateException(
           "asked for the " + implementation + " implementation but got " + kernel.describe());
@@ -215,6 +207,14 @@ public class CsrAttentionBenchmark {
   public float[] attend() {
     kernel.attend(csr, scoreFunction, shape, query, key, value, out, null);
     return out;
+  }
+
+  /** Returns true for {@code on}, false for {@code off}, and rejects anything else. */
+  private static boolean choose(String param, String value, String on, String off) {
+    if (value.equals(on) || value.equals(off)) {
+      return value.equals(on);
+    }
+    throw new IllegalArgumentException(param + " must be " + on + " or " + off + ", got " + value);
   }
 
   private static CsrGraph randomGraph(SplittableRandom random, int n, int degree) {

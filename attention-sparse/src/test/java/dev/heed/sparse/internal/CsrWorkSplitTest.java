@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
@@ -9,7 +9,6 @@ import dev.heed.attention.ReferenceAttention;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
-import dev.heed.sparse.internal.RowMath;
 import java.util.Arrays;
 import java.util.List;
 import java.util.Random;
@@ -57,9 +56,9 @@ class CsrWorkSplitTest {
         for (int threads = 1; threads <= 4; threads++) {
           float[] out = new float[n * shape.valueWidth()];
           float[] weights = new float[graph.edgeCount() * shape.heads()];
-          new CsrAttentionKernel(threads, math, 1)
+          new CsrAttentionKernel(threads, math, CsrKernelVariant.DEFAULT.withMinCostPerThread(1))
               .attend(graph, score, shape, q, k, v, out, weights);
-          String where = math.describe() + ", " + shape + ", " + threads + " threads, seed=" + seed;
+          String where = math.name() + ", " + shape + ", " + threads + " threads, seed=" + seed;
           if (firstOut == null) {
             firstOut = out;
             firstWeights = weights;
@@ -134,13 +133,13 @@ class CsrWorkSplitTest {
         float[] v = uniform(random, n * shape.valueWidth());
         float[] out = new float[n * shape.valueWidth()];
         float[] weights = new float[graph.edgeCount() * shape.heads()];
-        new CsrAttentionKernel(2, math, 1).attend(graph, score, shape, q, k, v, out, weights);
+        new CsrAttentionKernel(2, math, CsrKernelVariant.DEFAULT.withMinCostPerThread(1))
+            .attend(graph, score, shape, q, k, v, out, weights);
         for (float o : out) {
-          assertTrue(
-              Float.isFinite(o) && Math.abs(o) <= 1f, math.describe() + " " + score + ": " + o);
+          assertTrue(Float.isFinite(o) && Math.abs(o) <= 1f, math.name() + " " + score + ": " + o);
         }
         for (float w : weights) {
-          assertTrue(w >= 0f && w <= 1f, math.describe() + " " + score + ": weight " + w);
+          assertTrue(w >= 0f && w <= 1f, math.name() + " " + score + ": weight " + w);
         }
       }
     }

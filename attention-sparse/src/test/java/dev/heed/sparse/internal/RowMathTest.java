@@ -1,10 +1,9 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.attention.internal.FastExp;
-import dev.heed.sparse.internal.RowMath;
 import java.util.Arrays;
 import java.util.List;
 import java.util.Random;
@@ -51,11 +50,12 @@ class RowMathTest {
           gat += term;
           gatMagnitude += Math.abs(term);
         }
-        String where = math.describe() + ", length " + length;
-        assertEquals(dot, math.dot(a, ao, b, bo, length), sumTolerance(length, magnitude), where);
+        String where = math.name() + ", length " + length;
+        assertEquals(
+            dot, math.perHead().dot(a, ao, b, bo, length), sumTolerance(length, magnitude), where);
         assertEquals(
             gat,
-            math.gatv2(c, 3, a, ao, b, bo, length, 0.2f),
+            math.perHead().gatv2(c, 3, a, ao, b, bo, length, 0.2f),
             sumTolerance(length, gatMagnitude),
             where);
       }
@@ -78,8 +78,8 @@ class RowMathTest {
         rows[0] = tableRows - 1; // the last row: a vector load must not read past the table
         float[] out = new float[(count + 1) * width];
         Arrays.fill(out, 7f);
-        math.gatherRows(table, width, rows, count, out);
-        String where = math.describe() + ", width " + width;
+        math.perHead().gatherRows(table, width, rows, count, out);
+        String where = math.name() + ", width " + width;
         for (int t = 0; t < count; t++) {
           for (int x = 0; x < width; x++) {
             assertEquals(table[rows[t] * width + x], out[t * width + x], where);
@@ -98,17 +98,17 @@ class RowMathTest {
     Random random = new Random(0x0A12L);
     for (RowMath math : implementations()) {
       for (int length : LENGTHS) {
-        String where = math.describe() + ", length " + length;
+        String where = math.name() + ", length " + length;
         int off = random.nextInt(4);
         float[] s = uniform(random, length + off, -30f, 5f);
         float max = Float.NEGATIVE_INFINITY;
         for (int k = 0; k < length; k++) {
           max = Math.max(max, s[off + k]);
         }
-        assertEquals(max, math.max(s, off, length), where);
+        assertEquals(max, math.perHead().max(s, off, length), where);
         float[] before = s.clone();
         double sum = 0;
-        float got = math.expShiftSum(s, off, length, max);
+        float got = math.perHead().expShiftSum(s, off, length, max);
         for (int k = 0; k < length; k++) {
           double e = Math.exp(before[off + k] - max); // the argument rounded to float, as used
           sum += e;
@@ -123,7 +123,7 @@ class RowMathTest {
         float[] w = uniform(random, count + 1, 0f, 1f);
         float[] y = uniform(random, length + 1, -1f, 1f);
         float[] y0 = y.clone();
-        math.weightedRowSum(w, 1, rowBase, count, 2, value, y, 1, length);
+        math.perHead().weightedRowSum(w, 1, rowBase, count, 2, value, y, 1, length);
         assertEquals(y0[0], y[0], where + ": weightedRowSum wrote outside its span");
         double[] expected = new double[length];
         for (int k = 0; k < length; k++) {
@@ -133,7 +133,7 @@ class RowMathTest {
           }
           assertEquals(expected[k], y[1 + k], 1e-6, where);
         }
-        math.scale(y, 1, length, -2.5f);
+        math.perHead().scale(y, 1, length, -2.5f);
         for (int k = 0; k < length; k++) {
           assertEquals(expected[k] * -2.5, y[1 + k], 3e-6, where);
         }
@@ -150,7 +150,7 @@ class RowMathTest {
     for (int length : LENGTHS) {
       float[] s = uniform(random, length, -100f, 0f);
       float[] t = s.clone();
-      vector.expShiftSum(s, 0, length, 0f);
+      vector.perHead().expShiftSum(s, 0, length, 0f);
       for (int k = 0; k < length; k++) {
         t[k] = FastExp.expNonPositive(t[k]);
       }
@@ -193,7 +193,7 @@ class RowMathTest {
         s[k] = edges[(k + rotation) % edges.length];
       }
       float[] t = s.clone();
-      vector.expShiftSum(s, 0, s.length, 0f);
+      vector.perHead().expShiftSum(s, 0, s.length, 0f);
       for (int k = 0; k < s.length; k++) {
         assertEquals(
             Float.floatToRawIntBits(FastExp.expNonPositive(t[k])),

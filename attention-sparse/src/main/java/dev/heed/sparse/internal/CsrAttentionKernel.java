@@ -1,13 +1,13 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.internal.KernelWorkers;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
-import dev.heed.sparse.internal.RowMath;
 import java.util.Arrays;
 import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicInteger;
@@ -15,125 +15,118 @@ import java.util.concurrent.atomic.AtomicInteger;
 /**
  * The {@link ComputePath#SPARSE} kernel: one fused pass per target row over a {@link CsrGraph} or a
  * {@link dev.heed.graph.CompletePattern} (all sources, nothing stored), computing scores, a
- * numerically stable softmax and the weighted sum of values without forming the E×H score matrix
- * (see {@link CsrRowPass}). Obtain it with {@code AttentionKernels.forPath(ComputePath.SPARSE,
- * options)}.
+ * numerically stable softmax and the weighted sum of values without forming the E×H score matrix.
+ * Internal: applications obtain it with {@code AttentionKernels.forPath(ComputePath.SPARSE,
+ * options)}; tests and benchmarks create variants with {@link #create(int, CsrKernelVariant)}.
+ *
+ * <p>Each call chooses one pass once, before any row runs: {@link FactoredAllHeadsPass} for
+ * additive scores with 8 heads of 8 value floats over a CSR graph of at least {@link
+ * CsrKernelVariant#DEFAULT_MIN_PACKED_TABLE_BYTES} bytes of {@link PackedNodeTable} (about 52k
+ * nodes), after copying two factors of every node's key terms and its value row into that table
+ * (320 bytes per node, one access per neighbour instead of two; the table is kept for the next
+ * call, softly referenced); {@link ExactAllHeadsPass} for that score and shape otherwise; {@link
+ * PerHeadPass} for every other score and shape.
  *
  * <p>Cost: O(E·H·(keyDim + valueDim)) time; per thread and call, {@code 128·H·(1 + keyDim) +
  * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
  * neighbour costs one random access to its key row and one to its value row, since a node's data
- * for all heads is contiguous. For additive scores with 8 heads of 8 value floats over a graph of
- * at least {@value #DEFAULT_MIN_PACKED_TABLE_BYTES} bytes of {@link PackedNodeTable} (about 52k
- * nodes), a call first copies two factors of every node's key terms and its value row into that
- * table (320 bytes per node, one access per neighbour instead of two), and keeps the table for the
- * next call (softly referenced; see {@link PackedNodeTable}). The rows then use factored weights
- * ({@link CsrRowPass}): no exponential per entry.
+ * for all heads is contiguous.
  *
  * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
  * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one
  * (so power-law degree distributions split evenly); the calling thread and {@code threads - 1}
- * helpers from {@link CsrWorkerPool} claim chunks until none are left. Calls with less than {@value
- * #DEFAULT_MIN_COST_PER_THREAD} cost units per thread use fewer threads (one for small graphs), so
- * small calls never pay for a hand-off. Every row is computed by one thread with arithmetic that
- * depends only on that row, so results are bit-identical for any thread count.
+ * helpers from {@link KernelWorkers} (one JVM-wide pool shared by every kernel) claim chunks until
+ * none are left. Calls with less than {@link CsrKernelVariant#minCostPerThread()} cost units per
+ * thread use fewer threads (one for small graphs), so small calls never pay for a hand-off. Every
+ * row is computed by one thread with arithmetic that depends only on that row, so results are
+ * bit-identical for any thread count.
  *
  * <p>Thread safety: immutable apart from the spare packed table, which one call at a time takes;
  * concurrent calls are safe (each has its own scratch and table and waits only for its own
  * helpers).
  */
-final class CsrAttentionKernel implements AttentionKernel {
+public final class CsrAttentionKernel implements AttentionKernel {
 
   /** Chunks per thread: enough for dynamic balancing, few enough to keep claiming cheap. */
   static final int CHUNKS_PER_THREAD = 8;
 
-  /** Below this many cost units (entries + rows) per thread, fewer threads are used. */
-  static final long DEFAULT_MIN_COST_PER_THREAD = 1L << 14;
-
   private final int threads;
   private final RowMath math;
-  private final long minCostPerThread;
-  private final boolean allHeadsAllowed;
-  private final long minPackedTableBytes;
-  private final boolean factorTable;
+  private final CsrKernelVariant variant;
   private final PackedNodeTable tables = new PackedNodeTable();
 
   /**
-   * Calls whose {@link PackedNodeTable} would be smaller than this many bytes read the caller's key
-   * and value arrays in place (their rows stay in cache, and the copy costs more than it saves).
+   * Creates the kernel on the given inner loops; {@code variant.vectorLoops()} is not consulted
+   * (tests pass either implementation directly).
    */
-  static final long DEFAULT_MIN_PACKED_TABLE_BYTES = 16L << 20;
-
-  CsrAttentionKernel(int threads, RowMath math, long minCostPerThread) {
-    this(threads, math, minCostPerThread, RowMaths.allHeadsEnabled());
-  }
-
-  /**
-   * Creates the kernel; {@code allHeadsAllowed = false} keeps every shape on the per-head path
-   * (tests and A/B comparisons).
-   */
-  CsrAttentionKernel(int threads, RowMath math, long minCostPerThread, boolean allHeadsAllowed) {
-    this(
-        threads,
-        math,
-        minCostPerThread,
-        allHeadsAllowed,
-        PackedNodeTable.ENABLED ? DEFAULT_MIN_PACKED_TABLE_BYTES : Long.MAX_VALUE);
-  }
-
-  /**
-   * Creates the kernel; calls on the all-heads path whose packed node table would have at least
-   * {@code minPackedTableBytes} bytes use one ({@code Long.MAX_VALUE}: never; 0: always, for
-   * tests).
-   */
-  CsrAttentionKernel(
-      int threads,
-      RowMath math,
-      long minCostPerThread,
-      boolean allHeadsAllowed,
-      long minPackedTableBytes) {
-    this(threads, math, minCostPerThread, allHeadsAllowed, minPackedTableBytes, FACTOR);
-  }
-
-  /**
-   * Creates the kernel; {@code factorTable} selects the packed node table's factored layout and
-   * weights ({@link CsrRowPass}) over its exact one (tests cover both).
-   */
-  CsrAttentionKernel(
-      int threads,
-      RowMath math,
-      long minCostPerThread,
-      boolean allHeadsAllowed,
-      long minPackedTableBytes,
-      boolean factorTable) {
-    assert threads >= 1 && minCostPerThread >= 1 && minPackedTableBytes >= 0;
+  CsrAttentionKernel(int threads, RowMath math, CsrKernelVariant variant) {
+    assert threads >= 1;
     this.threads = threads;
     this.math = math;
-    this.minCostPerThread = minCostPerThread;
-    this.allHeadsAllowed = allHeadsAllowed;
-    this.minPackedTableBytes = minPackedTableBytes;
-    this.factorTable = factorTable;
+    this.variant = variant;
   }
 
-  /** Creates the kernel on the implementation chosen for this JVM. */
-  static CsrAttentionKernel create(int threads) {
-    return new CsrAttentionKernel(threads, RowMaths.preferred(), DEFAULT_MIN_COST_PER_THREAD);
+  /**
+   * Creates the default kernel, as {@code AttentionKernels.forPath(ComputePath.SPARSE, options)}
+   * does.
+   *
+   * @param threads threads per call, the calling thread included, at least 1
+   * @return a new kernel
+   * @throws IllegalArgumentException if {@code threads < 1}
+   */
+  public static CsrAttentionKernel create(int threads) {
+    return create(threads, CsrKernelVariant.DEFAULT);
   }
 
-  /** Returns the name of the inner-loop implementation, {@code "vector(...)"} or "scalar". */
-  String implementation() {
-    return math.describe();
+  /**
+   * Creates a kernel that runs the given variant (tests and A/B benchmarks).
+   *
+   * @param threads threads per call, the calling thread included, at least 1
+   * @param variant which parts of the kernel are on
+   * @return a new kernel
+   * @throws IllegalArgumentException if {@code threads < 1}
+   */
+  public static CsrAttentionKernel create(int threads, CsrKernelVariant variant) {
+    if (threads < 1) {
+      throw new IllegalArgumentException("threads must be at least 1, got " + threads);
+    }
+    RowMath math = variant.vectorLoops() ? RowMaths.preferred() : RowMaths.scalar();
+    return new CsrAttentionKernel(threads, math, variant);
   }
 
+  /**
+   * Returns {@link ComputePath#SPARSE}.
+   *
+   * @return the sparse path
+   */
   @Override
   public ComputePath path() {
     return ComputePath.SPARSE;
   }
 
+  /**
+   * Returns the inner loops and thread count, for example {@code "csr-vector(256-bit of preferred
+   * 512-bit), 2 threads"}.
+   *
+   * @return the description
+   */
   @Override
   public String describe() {
-    return "csr-" + math.describe() + ", " + threads + (threads == 1 ? " thread" : " threads");
+    return "csr-" + math.name() + ", " + threads + (threads == 1 ? " thread" : " threads");
   }
 
+  /**
+   * Whether calls with this score and shape take the all-heads path (exact or factored) rather than
+   * the per-head one.
+   */
+  boolean takesAllHeadsPath(ScoreFunction score, HeadShape shape) {
+    return variant.allHeads() && math.servesAllHeads() && AllHeadsPass.applies(score, shape);
+  }
+
+  /**
+   * Computes attention over the pattern; see {@link AttentionKernel#attend} for the arguments,
+   * their shapes and roles, and the checks and exceptions. Runs on up to {@code threads} threads.
+   */
   @Override
   public void attend(
       AttentionPattern pattern,
@@ -147,11 +140,13 @@ final class CsrAttentionKernel implements AttentionKernel {
     AttentionKernels.checkCallShapes(pattern, score, shape, query, key, value, out, weights);
     int n = pattern.nodeCount();
     AttentionKernels.checkFinite("query", query, shape.keyWidth());
+    boolean allHeads = takesAllHeadsPath(score, shape);
     float[] table =
-        n > 0
+        allHeads
+                && pattern instanceof CsrGraph
+                && n > 0
                 && n <= PackedNodeTable.MAX_NODES
-                && PackedNodeTable.bytes(n) >= minPackedTableBytes
-                && CsrRowPass.allHeadsOverCsr(math, pattern, score, shape, allHeadsAllowed)
+                && PackedNodeTable.bytes(n) >= variant.minPackedTableBytes()
             ? tables.take(n)
             : null;
     if (table == null) {
@@ -163,30 +158,24 @@ final class CsrAttentionKernel implements AttentionKernel {
       return;
     }
     long cost = pattern.entryCount() + n;
-    int useThreads = (int) Math.min(Math.min(threads, n), Math.max(1, cost / minCostPerThread));
+    int useThreads =
+        (int) Math.min(Math.min(threads, n), Math.max(1, cost / variant.minCostPerThread()));
+    CsrCall call = new CsrCall(pattern, score, shape, query, key, value, out, weights);
     if (table == null) {
       run(
-          new CsrRowPass(
-              math, pattern, score, shape, query, key, value, out, weights, allHeadsAllowed),
+          allHeads
+              ? new ExactAllHeadsPass(call, math, variant.prefetch(), null)
+              : PerHeadPass.of(call, math.perHead(), variant.prefetch()),
           pattern,
           useThreads);
       return;
     }
     try {
-      CsrRowPass pass =
-          new CsrRowPass(
-              math,
-              pattern,
-              score,
-              shape,
-              query,
-              key,
-              value,
-              out,
-              weights,
-              allHeadsAllowed,
-              table,
-              factorTable ? keyMaxima(key, n, shape) : null);
+      AllHeadsPass pass =
+          variant.factoredWeights()
+              ? new FactoredAllHeadsPass(
+                  call, math, variant.prefetch(), table, keyMaxima(key, n, shape))
+              : new ExactAllHeadsPass(call, math, variant.prefetch(), table);
       if (!pack(pass, n, useThreads)) {
         // the first bad value, with checkCall's message
         AttentionKernels.checkFinite("key", key, shape.keyWidth());
@@ -200,22 +189,15 @@ final class CsrAttentionKernel implements AttentionKernel {
   }
 
   /**
-   * Whether calls that use the node table use its factored form ({@link CsrRowPass}); {@code
-   * -Dheed.sparse.factor=false} keeps the exact per-row softmax there, for measurements.
-   */
-  static final boolean FACTOR =
-      Boolean.parseBoolean(System.getProperty("heed.sparse.factor", "true"));
-
-  /**
    * Each head's largest key term over all n nodes (the factored table's K), checking every key term
    * for NaN and infinities on the way (the packed copy then checks only the values).
    *
    * @throws IllegalArgumentException for a non-finite key term, with checkCall's message
    */
   private float[] keyMaxima(float[] key, int n, HeadShape shape) {
-    float[] keyMax = new float[RowMath.ALL_HEADS];
+    float[] keyMax = new float[AllHeadsMath.HEADS];
     Arrays.fill(keyMax, Float.NEGATIVE_INFINITY);
-    if (!math.keyMaximaAllHeads(key, 0, n, keyMax)) {
+    if (!math.factored().keyMaxima(key, 0, n, keyMax)) {
       AttentionKernels.checkFinite("key", key, shape.keyWidth());
       throw new AssertionError("the key maxima flagged a value that the full check passed");
     }
@@ -227,14 +209,14 @@ final class CsrAttentionKernel implements AttentionKernel {
    *
    * @return true if every key and value float is finite
    */
-  private static boolean pack(CsrRowPass pass, int n, int useThreads) {
+  private static boolean pack(AllHeadsPass pass, int n, int useThreads) {
     if (useThreads == 1) {
       return pass.pack(0, n);
     }
     int chunks = Math.min(n, useThreads * CHUNKS_PER_THREAD);
     AtomicInteger next = new AtomicInteger();
     AtomicBoolean finite = new AtomicBoolean(true);
-    CsrWorkerPool.runShared(
+    KernelWorkers.runShared(
         useThreads - 1,
         () -> {
           for (int c = next.getAndIncrement(); c < chunks; c = next.getAndIncrement()) {
@@ -247,7 +229,7 @@ final class CsrAttentionKernel implements AttentionKernel {
   }
 
   /** Runs every row of the pass on {@code useThreads} threads. */
-  private static void run(CsrRowPass pass, AttentionPattern pattern, int useThreads) {
+  private static void run(CsrPass pass, AttentionPattern pattern, int useThreads) {
     int n = pattern.nodeCount();
     if (useThreads == 1) {
       pass.run(0, n, pass.newScratch());
@@ -256,10 +238,10 @@ final class CsrAttentionKernel implements AttentionKernel {
     int[] bounds = partitionRows(pattern, Math.min(n, useThreads * CHUNKS_PER_THREAD));
     int chunks = bounds.length - 1;
     AtomicInteger next = new AtomicInteger();
-    CsrWorkerPool.runShared(
+    KernelWorkers.runShared(
         useThreads - 1,
         () -> {
-          CsrRowPass.Scratch scratch = null;
+          CsrPass.Scratch scratch = null;
           for (int c = next.getAndIncrement(); c < chunks; c = next.getAndIncrement()) {
             if (scratch == null) {
               scratch = pass.newScratch();

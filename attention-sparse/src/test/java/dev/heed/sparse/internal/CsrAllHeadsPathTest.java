@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
@@ -15,7 +15,6 @@ import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
-import dev.heed.sparse.internal.RowMath;
 import java.util.Arrays;
 import java.util.List;
 import java.util.Random;
@@ -37,13 +36,11 @@ class CsrAllHeadsPathTest {
   /** Rows of 0 to 20 distinct sources, plus rows longer than one block (up to 2.5 blocks). */
   private static CsrGraph graph(Random random, int n) {
     int[] offsets = new int[n + 1];
-    int[] columns = new int[n * (CsrRowPass.BLOCK * 3)];
+    int[] columns = new int[n * (CsrPass.BLOCK * 3)];
     int e = 0;
     for (int i = 0; i < n; i++) {
       int degree =
-          i % 17 == 5
-              ? CsrRowPass.BLOCK + random.nextInt(CsrRowPass.BLOCK * 3 / 2)
-              : random.nextInt(21);
+          i % 17 == 5 ? CsrPass.BLOCK + random.nextInt(CsrPass.BLOCK * 3 / 2) : random.nextInt(21);
       int[] row = random.ints(0, n).distinct().limit(Math.min(degree, n)).sorted().toArray();
       System.arraycopy(row, 0, columns, e, row.length);
       e += row.length;
@@ -62,7 +59,14 @@ class CsrAllHeadsPathTest {
       float[] q,
       float[] k,
       float[] v) {
-    return run(new CsrAttentionKernel(threads, math, 1, allHeads), pattern, true, q, k, v);
+    return run(
+        new CsrAttentionKernel(
+            threads, math, CsrKernelVariant.DEFAULT.withMinCostPerThread(1).withAllHeads(allHeads)),
+        pattern,
+        true,
+        q,
+        k,
+        v);
   }
 
   /** One call; {@code withWeights = false} leaves the weights array null and returns it so. */
@@ -83,47 +87,43 @@ class CsrAllHeadsPathTest {
   /** A kernel that uses the node table for every graph (or never), in its default layout. */
   private static CsrAttentionKernel packing(int threads, boolean packed) {
     return new CsrAttentionKernel(
-        threads, RowMaths.preferred(), 1, true, packed ? 0 : Long.MAX_VALUE);
+        threads,
+        RowMaths.preferred(),
+        CsrKernelVariant.DEFAULT
+            .withMinCostPerThread(1)
+            .withMinPackedTableBytes(packed ? 0 : Long.MAX_VALUE));
   }
 
   /** A kernel that uses the node table for every graph, in its factored or its exact layout. */
   private static CsrAttentionKernel packing(int threads, boolean packed, boolean factored) {
     return new CsrAttentionKernel(
-        threads, RowMaths.preferred(), 1, true, packed ? 0 : Long.MAX_VALUE, factored);
+        threads,
+        RowMaths.preferred(),
+        CsrKernelVariant.DEFAULT
+            .withMinCostPerThread(1)
+            .withMinPackedTableBytes(packed ? 0 : Long.MAX_VALUE)
+            .withFactoredWeights(factored));
   }
 
   @Test
   void pathIsTakenOnlyForItsShape() {
-    float[] none = new float[0];
-    CompletePattern p = CompletePattern.of(2);
     assertFalse(
-        new CsrRowPass(RowMaths.scalar(), p, GAT, SHAPE, none, none, none, none, null, true)
-            .allHeads(),
+        allHeadsKernel(RowMaths.scalar(), true).takesAllHeadsPath(GAT, SHAPE),
         "the scalar loops are slower on the all-heads path");
     RowMath vector = RowMaths.preferred();
-    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    assumeTrue(vector.servesAllHeads(), vector.name() + " has no 8-float vectors");
     for (RowMath math : List.of(vector)) {
-      assertTrue(
-          new CsrRowPass(math, p, GAT, SHAPE, none, none, none, none, null, true).allHeads());
+      assertTrue(allHeadsKernel(math, true).takesAllHeadsPath(GAT, SHAPE));
+      assertFalse(allHeadsKernel(math, false).takesAllHeadsPath(GAT, SHAPE));
+      assertFalse(allHeadsKernel(math, true).takesAllHeadsPath(GAT, new HeadShape(8, 1, 4)));
       assertFalse(
-          new CsrRowPass(math, p, GAT, SHAPE, none, none, none, none, null, false).allHeads());
-      assertFalse(
-          new CsrRowPass(math, p, GAT, new HeadShape(8, 1, 4), none, none, none, none, null, true)
-              .allHeads());
-      assertFalse(
-          new CsrRowPass(
-                  math,
-                  p,
-                  ScoreFunction.scaledDotProduct(),
-                  new HeadShape(8, 8, 8),
-                  none,
-                  none,
-                  none,
-                  none,
-                  null,
-                  true)
-              .allHeads());
+          allHeadsKernel(math, true)
+              .takesAllHeadsPath(ScoreFunction.scaledDotProduct(), new HeadShape(8, 8, 8)));
     }
+  }
+
+  private static CsrAttentionKernel allHeadsKernel(RowMath math, boolean allHeads) {
+    return new CsrAttentionKernel(1, math, CsrKernelVariant.DEFAULT.withAllHeads(allHeads));
   }
 
   @Test
@@ -138,10 +138,10 @@ class CsrAllHeadsPathTest {
     float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
     ReferenceAttention.Result want = ReferenceAttention.attend(graph, GAT, SHAPE, q, k, v);
     RowMath vector = RowMaths.preferred();
-    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    assumeTrue(vector.servesAllHeads(), vector.name() + " has no 8-float vectors");
     Run first = null;
     for (RowMath math : List.of(vector)) {
-      String where = math.describe() + ", seed=" + seed;
+      String where = math.name() + ", seed=" + seed;
       Run perHead = run(graph, RowMaths.scalar(), 1, false, q, k, v);
       for (int threads = 1; threads <= 3; threads++) {
         Run got = run(graph, math, threads, true, q, k, v);
@@ -318,9 +318,12 @@ class CsrAllHeadsPathTest {
     PackedNodeTable tables = new PackedNodeTable();
     float[] first = tables.take(10);
     assertEquals(PackedNodeTable.length(10), first.length);
-    assertTrue(first.length >= PackedNodeTable.OFFSET + 10 * RowMath.PACKED_ROW, "exact layout");
     assertTrue(
-        first.length >= PackedNodeTable.factoredValueRow(9) + RowMath.ALL_HEADS * RowMath.ALL_HEADS,
+        first.length >= PackedNodeTable.EXACT_OFFSET + 10 * PackedNodeTable.EXACT_ROW,
+        "exact layout");
+    assertTrue(
+        first.length
+            >= PackedNodeTable.factoredValueRow(9) + AllHeadsMath.HEADS * AllHeadsMath.HEADS,
         "factored layout");
     tables.giveBack(first);
     assertSame(first, tables.take(7), "a spare large enough is reused");
@@ -355,13 +358,13 @@ class CsrAllHeadsPathTest {
       float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
       ReferenceAttention.Result want = ReferenceAttention.attend(pattern, GAT, SHAPE, q, k, v);
       RowMath vector = RowMaths.preferred();
-      assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+      assumeTrue(vector.servesAllHeads(), vector.name() + " has no 8-float vectors");
       for (RowMath math : List.of(vector)) {
         Run got = run(pattern, math, 2, true, q, k, v);
         double error = ReferenceAttention.relativeError(want.out(), got.out());
         assertTrue(
             error < 1e-5,
-            math.describe() + ", n=" + n + ", seed=" + seed + ": relative error " + error);
+            math.name() + ", n=" + n + ", seed=" + seed + ": relative error " + error);
       }
     }
   }
@@ -406,16 +409,17 @@ class CsrAllHeadsPathTest {
     assertTrue(apart < 1e-5, where + ": per-head and all-heads paths differ by " + apart);
   }
 
-  // The vector all-heads methods against the scalar reference forms, bit for bit (RowMath contract:
+  // The vector all-heads methods against the scalar reference forms, bit for bit (AllHeadsMath
+  // contract:
   // same IEEE operations in the same order), over block lengths that cross every edge case, with
   // fresh and carried-over running maxima (rescaling by exp(old - new) and by exp(-inf) = 0).
   @Test
   void vectorAllHeadsMethodsEqualTheScalarReferenceBitForBit() {
     RowMath vector = RowMaths.preferred();
-    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    assumeTrue(vector.servesAllHeads(), vector.name() + " has no 8-float vectors");
     RowMath scalar = RowMaths.scalar();
-    int h = RowMath.ALL_HEADS;
-    for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrRowPass.BLOCK}) {
+    int h = AllHeadsMath.HEADS;
+    for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrPass.BLOCK}) {
       long seed = 0xB17B17L + count;
       Random random = new Random(seed);
       String where = "count " + count + ", seed=" + seed;
@@ -429,8 +433,8 @@ class CsrAllHeadsPathTest {
       }
       float[] sv = new float[count * h];
       float[] ss = new float[count * h];
-      assertTrue(vector.additiveScoresAllHeads(q, 3, keys, 0, count, 0.2f, sv), where);
-      assertTrue(scalar.additiveScoresAllHeads(q, 3, keys, 0, count, 0.2f, ss), where);
+      assertTrue(vector.allHeads().additiveScores(q, 3, keys, 0, count, 0.2f, sv), where);
+      assertTrue(scalar.allHeads().additiveScores(q, 3, keys, 0, count, 0.2f, ss), where);
       assertArrayEquals(ss, sv, "scores, " + where);
       float[] maxV = new float[h];
       float[] sumV = new float[h];
@@ -444,8 +448,12 @@ class CsrAllHeadsPathTest {
       float[] maxS = maxV.clone();
       float[] sumS = sumV.clone();
       float[] accS = accV.clone();
-      vector.softmaxAccumulateAllHeads(sv, count, maxV, sumV, rowBase, value, accV, new float[h]);
-      scalar.softmaxAccumulateAllHeads(ss, count, maxS, sumS, rowBase, value, accS, new float[h]);
+      vector
+          .allHeads()
+          .softmaxAccumulate(sv, count, maxV, sumV, rowBase, value, accV, new float[h]);
+      scalar
+          .allHeads()
+          .softmaxAccumulate(ss, count, maxS, sumS, rowBase, value, accS, new float[h]);
       assertArrayEquals(ss, sv, "weights, " + where);
       assertArrayEquals(maxS, maxV, "maxima, " + where);
       assertArrayEquals(sumS, sumV, "sums, " + where);
@@ -461,15 +469,15 @@ class CsrAllHeadsPathTest {
       String where = nodes + " nodes, seed=" + seed;
       float[] key = uniform(random, nodes * h, -6f, 6f);
       float[] value = uniform(random, nodes * h * h, -1f, 1f);
-      int offset = PackedNodeTable.OFFSET;
-      float[] tableV = uniform(random, offset + nodes * RowMath.PACKED_ROW + 5, -9f, 9f);
+      int offset = PackedNodeTable.EXACT_OFFSET;
+      float[] tableV = uniform(random, offset + nodes * PackedNodeTable.EXACT_ROW + 5, -9f, 9f);
       float[] tableS = tableV.clone();
-      assertTrue(vector.packAllHeads(key, value, 0, nodes, tableV, offset), where);
-      assertTrue(scalar.packAllHeads(key, value, 0, nodes, tableS, offset), where);
+      assertTrue(vector.allHeads().pack(key, value, 0, nodes, tableV), where);
+      assertTrue(scalar.allHeads().pack(key, value, 0, nodes, tableS), where);
       assertArrayEquals(tableS, tableV, "packed table, " + where);
       int count = 3 * nodes + 1;
       int[] rows = random.ints(count, 0, nodes).toArray();
-      int[] rowBase = Arrays.stream(rows).map(PackedNodeTable::valueRow).toArray();
+      int[] rowBase = Arrays.stream(rows).map(PackedNodeTable::exactValueRow).toArray();
       float[] gathered = new float[count * h];
       for (int t = 0; t < count; t++) {
         System.arraycopy(key, rows[t] * h, gathered, t * h, h);
@@ -480,46 +488,47 @@ class CsrAllHeadsPathTest {
       }
       float[] q = uniform(random, h, -6f, 6f);
       float[] want = new float[count * h];
-      scalar.additiveScoresAllHeads(q, 0, gathered, 0, count, 0.2f, want);
+      scalar.allHeads().additiveScores(q, 0, gathered, 0, count, 0.2f, want);
       for (RowMath math : List.of(vector, scalar)) {
         float[] got = new float[count * h];
-        assertTrue(math.additiveScoresAllHeadsPacked(q, 0, tableV, rowBase, count, 0.2f, got));
-        assertArrayEquals(want, got, "scores from the table, " + math.describe() + ", " + where);
+        assertTrue(math.allHeads().additiveScoresInTable(q, 0, tableV, rowBase, count, 0.2f, got));
+        assertArrayEquals(want, got, "scores from the table, " + math.name() + ", " + where);
       }
       for (float bad : new float[] {Float.NaN, Float.POSITIVE_INFINITY, Float.NEGATIVE_INFINITY}) {
         for (float[] input : List.of(key, value)) {
           int at = random.nextInt(input.length);
           float saved = input[at];
           input[at] = bad;
-          assertFalse(vector.packAllHeads(key, value, 0, nodes, tableV, offset), where);
-          assertFalse(scalar.packAllHeads(key, value, 0, nodes, tableS, offset), where);
+          assertFalse(vector.allHeads().pack(key, value, 0, nodes, tableV), where);
+          assertFalse(scalar.allHeads().pack(key, value, 0, nodes, tableS), where);
           input[at] = saved;
         }
       }
       // finite values whose sum overflows are not mistaken for infinities
       Arrays.fill(value, 3e38f);
-      assertTrue(vector.packAllHeads(key, value, 0, nodes, tableV, offset), where);
-      assertTrue(scalar.packAllHeads(key, value, 0, nodes, tableS, offset), where);
+      assertTrue(vector.allHeads().pack(key, value, 0, nodes, tableV), where);
+      assertTrue(scalar.allHeads().pack(key, value, 0, nodes, tableS), where);
     }
     // an overflowing score is reported, not hidden
     float[] big = {3e38f, 3e38f, 0f, 0f, 0f, 0f, 0f, 0f};
     float[] s = new float[h];
-    assertFalse(vector.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
-    assertFalse(scalar.additiveScoresAllHeads(big, 0, big, 0, 1, 0.2f, s));
+    assertFalse(vector.allHeads().additiveScores(big, 0, big, 0, 1, 0.2f, s));
+    assertFalse(scalar.allHeads().additiveScores(big, 0, big, 0, 1, 0.2f, s));
   }
 
-  // The factored methods (RowMath contract): vector and scalar forms do the same IEEE operations in
+  // The factored methods (FactoredMath contract): vector and scalar forms do the same IEEE
+  // operations in
   // the same order, so tables, weights, sums, accumulators and outputs agree bit for bit; over
   // queries that put each head above and below zero (z = q + K), keys near q + k = 0 and keys far
   // below the maximum (factors that underflow to 0).
   @Test
   void factoredMethodsEqualTheScalarReferenceBitForBit() {
     RowMath vector = RowMaths.preferred();
-    assumeTrue(vector.servesAllHeads(), vector.describe() + " has no 8-float vectors");
+    assumeTrue(vector.servesAllHeads(), vector.name() + " has no 8-float vectors");
     RowMath scalar = RowMaths.scalar();
-    int h = RowMath.ALL_HEADS;
+    int h = AllHeadsMath.HEADS;
     int nodes = 40;
-    for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrRowPass.BLOCK}) {
+    for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrPass.BLOCK}) {
       long seed = 0xFAC702L + count;
       Random random = new Random(seed);
       String where = "count " + count + ", seed=" + seed;
@@ -529,14 +538,13 @@ class CsrAllHeadsPathTest {
       float[] maxV = new float[h];
       Arrays.fill(maxV, Float.NEGATIVE_INFINITY);
       float[] maxS = maxV.clone();
-      assertTrue(vector.keyMaximaAllHeads(key, 0, nodes, maxV), where);
-      assertTrue(scalar.keyMaximaAllHeads(key, 0, nodes, maxS), where);
+      assertTrue(vector.factored().keyMaxima(key, 0, nodes, maxV), where);
+      assertTrue(scalar.factored().keyMaxima(key, 0, nodes, maxS), where);
       assertArrayEquals(maxS, maxV, "key maxima, " + where);
-      int offset = PackedNodeTable.FACTORED_OFFSET;
       float[] tableV = uniform(random, PackedNodeTable.length(nodes) + 3, -9f, 9f);
       float[] tableS = tableV.clone();
-      assertTrue(vector.packFactored(key, value, 0, nodes, maxV, 0.2f, tableV, offset), where);
-      assertTrue(scalar.packFactored(key, value, 0, nodes, maxS, 0.2f, tableS, offset), where);
+      assertTrue(vector.factored().pack(key, value, 0, nodes, maxV, 0.2f, tableV), where);
+      assertTrue(scalar.factored().pack(key, value, 0, nodes, maxS, 0.2f, tableS), where);
       assertArrayEquals(tableS, tableV, "factored table, " + where);
       int[] rowBase = new int[count];
       int[] rows = new int[count];
@@ -554,10 +562,8 @@ class CsrAllHeadsPathTest {
       float[] sS = new float[(count + 1) * h];
       float[] outV = new float[h * h + 4];
       float[] outS = new float[h * h + 4];
-      boolean okV =
-          vector.factoredRowAllHeads(q, 3, maxV, 0.2f, tableV, rowBase, count, sV, outV, 4);
-      boolean okS =
-          scalar.factoredRowAllHeads(q, 3, maxS, 0.2f, tableS, rowBase, count, sS, outS, 4);
+      boolean okV = vector.factored().row(q, 3, maxV, 0.2f, tableV, rowBase, count, sV, outV, 4);
+      boolean okS = scalar.factored().row(q, 3, maxS, 0.2f, tableS, rowBase, count, sS, outS, 4);
       assertEquals(okS, okV, "accepted, " + where);
       assertTrue(okV, "weights of a few units must not underflow, " + where);
       assertArrayEquals(
@@ -567,8 +573,8 @@ class CsrAllHeadsPathTest {
       float[] accV = uniform(random, h * h, -1f, 1f);
       float[] sumS = sumV.clone();
       float[] accS = accV.clone();
-      vector.factoredBlockAllHeads(q, 3, maxV, 0.2f, tableV, rowBase, count, sV, sumV, accV);
-      scalar.factoredBlockAllHeads(q, 3, maxS, 0.2f, tableS, rowBase, count, sS, sumS, accS);
+      vector.factored().block(q, 3, maxV, 0.2f, tableV, rowBase, count, sV, sumV, accV);
+      scalar.factored().block(q, 3, maxS, 0.2f, tableS, rowBase, count, sS, sumS, accS);
       assertArrayEquals(sumS, sumV, "block sums, " + where);
       assertArrayEquals(accS, accV, "block accumulator, " + where);
       // against the definition in float64: weight exp(LeakyReLU(q + k) - LeakyReLU(q + K)). The
@@ -593,12 +599,12 @@ class CsrAllHeadsPathTest {
       float[] max = new float[h];
       Arrays.fill(max, Float.NEGATIVE_INFINITY);
       key[17] = Float.NaN;
-      assertFalse(math.keyMaximaAllHeads(key, 0, nodes, max), math.describe());
+      assertFalse(math.factored().keyMaxima(key, 0, nodes, max), math.name());
       key[17] = 0.5f;
       Arrays.fill(max, Float.NEGATIVE_INFINITY);
-      assertTrue(math.keyMaximaAllHeads(key, 0, nodes, max), math.describe());
+      assertTrue(math.factored().keyMaxima(key, 0, nodes, max), math.name());
       value[99] = Float.NEGATIVE_INFINITY;
-      assertFalse(math.packFactored(key, value, 0, nodes, max, 0.2f, table, 12), math.describe());
+      assertFalse(math.factored().pack(key, value, 0, nodes, max, 0.2f, table), math.name());
       value[99] = 0.25f;
     }
   }
@@ -661,17 +667,17 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  // The one-block row method against the steps it replaces (RowMath contract: fresh maxima, sums
-  // and accumulator, one block, then acc / sum), bit for bit, for both implementations; the scratch
-  // it is given holds junk first, which it must ignore.
+  // The one-block row method against the steps it replaces (AllHeadsMath contract: fresh maxima,
+  // sums and accumulator, one block, then acc / sum), bit for bit, for both implementations; the
+  // maxima and sums it is given hold junk first, which it must ignore.
   @Test
   void wholeRowMethodEqualsTheBlockStepsBitForBit() {
-    int h = RowMath.ALL_HEADS;
+    int h = AllHeadsMath.HEADS;
     for (RowMath math : List.of(RowMaths.preferred(), RowMaths.scalar())) {
-      for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrRowPass.BLOCK}) {
+      for (int count : new int[] {1, 2, 7, 8, 9, 64, CsrPass.BLOCK}) {
         long seed = 0xB10C4L + count;
         Random random = new Random(seed);
-        String where = math.describe() + ", count " + count + ", seed=" + seed;
+        String where = math.name() + ", count " + count + ", seed=" + seed;
         float[] scores = uniform(random, count * h, -8f, 8f);
         int nodes = 40;
         float[] value = uniform(random, nodes * h * h, -1f, 1f);
@@ -685,7 +691,8 @@ class CsrAllHeadsPathTest {
         float[] sumStep = new float[h];
         float[] accStep = new float[h * h];
         RowMaths.scalar()
-            .softmaxAccumulateAllHeads(
+            .allHeads()
+            .softmaxAccumulate(
                 sStep, count, maxStep, sumStep, rowBase, value, accStep, new float[h]);
         float[] outStep = new float[3 + h * h];
         for (int x = 0; x < h * h; x++) {
@@ -694,10 +701,8 @@ class CsrAllHeadsPathTest {
         float[] sRow = scores.clone();
         float[] maxRow = uniform(random, h, -9f, 9f);
         float[] sumRow = uniform(random, h, -9f, 9f);
-        float[] accRow = uniform(random, h * h, -9f, 9f);
         float[] outRow = new float[3 + h * h];
-        math.softmaxRowAllHeads(
-            sRow, count, maxRow, sumRow, rowBase, value, accRow, new float[h], outRow, 3);
+        math.allHeads().softmaxRow(sRow, count, maxRow, sumRow, rowBase, value, outRow, 3);
         assertArrayEquals(outStep, outRow, "outputs, " + where);
         assertArrayEquals(sStep, sRow, "weights, " + where);
         assertArrayEquals(maxStep, maxRow, "maxima, " + where);
@@ -711,7 +716,7 @@ class CsrAllHeadsPathTest {
   // same bits, including +0 for a -0 value, subnormals and the largest floats.
   @Test
   void singleEntryRowEqualsTheWholeRowMethodBitForBit() {
-    int h = RowMath.ALL_HEADS;
+    int h = AllHeadsMath.HEADS;
     float[] special = {
       0f, -0f, Float.MIN_VALUE, -Float.MIN_VALUE, 1e-40f, -1e-40f, Float.MAX_VALUE, -Float.MAX_VALUE
     };
@@ -719,7 +724,7 @@ class CsrAllHeadsPathTest {
       for (int trial = 0; trial < 50; trial++) {
         long seed = 0x51E6L + trial;
         Random random = new Random(seed);
-        String where = math.describe() + ", seed=" + seed;
+        String where = math.name() + ", seed=" + seed;
         float[] scores = uniform(random, h, -8f, 8f);
         if (trial % 2 == 1) {
           for (int x = 0; x < h; x++) {
@@ -732,19 +737,11 @@ class CsrAllHeadsPathTest {
         }
         int base = random.nextInt(3) * h * h;
         float[] want = new float[5 + h * h];
-        math.softmaxRowAllHeads(
-            scores.clone(),
-            1,
-            new float[h],
-            new float[h],
-            new int[] {base},
-            value,
-            new float[h * h],
-            new float[h],
-            want,
-            5);
+        math.allHeads()
+            .softmaxRow(
+                scores.clone(), 1, new float[h], new float[h], new int[] {base}, value, want, 5);
         float[] got = new float[5 + h * h];
-        math.singleEntryRowAllHeads(value, base, got, 5);
+        math.allHeads().singleEntryRow(value, base, got, 5);
         assertArrayEquals(want, got, where);
       }
     }

@@ -1,7 +1,6 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import dev.heed.attention.internal.VectorApiLoader;
-import dev.heed.sparse.internal.RowMath;
 import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
 
@@ -16,19 +15,22 @@ final class RowMaths {
 
   /**
    * System property that, set to {@code false}, keeps the kernel on the scalar loops even when the
-   * Vector API is readable (for comparisons and benchmarks). Read once, on first use.
+   * Vector API is readable: the one switch left to users, a remedy where the Vector API misbehaves
+   * for this kernel alone (the dense path and the input checks keep theirs). Read once, on first
+   * use. Tests and benchmarks choose with {@link CsrKernelVariant#vectorLoops()} instead.
    */
   static final String VECTOR_PROPERTY = "heed.sparse.vector";
 
-  /**
-   * System property that, set to {@code false}, keeps every shape on the per-head path, switching
-   * off the all-heads path for additive scores with 8 heads of 8 value floats (for A/B
-   * comparisons). Read once, on first use.
-   */
-  static final String ALL_HEADS_PROPERTY = "heed.sparse.allHeads";
-
   private static final String VECTOR_CLASS = "dev.heed.sparse.simd.VectorRowMath";
   private static final Logger LOG = LoggerFactory.getLogger(RowMaths.class);
+
+  private static final RowMath SCALAR =
+      new RowMath(
+          "scalar",
+          false,
+          ScalarPerHeadMath.INSTANCE,
+          ScalarAllHeadsMath.INSTANCE,
+          ScalarFactoredMath.INSTANCE);
 
   private RowMaths() {}
 
@@ -39,17 +41,7 @@ final class RowMaths {
 
   /** Returns the scalar implementation, whatever was chosen (tests and comparisons). */
   static RowMath scalar() {
-    return ScalarRowMath.INSTANCE;
-  }
-
-  /** Returns false if {@value #ALL_HEADS_PROPERTY} was set to {@code false} before first use. */
-  static boolean allHeadsEnabled() {
-    return AllHeadsHolder.ENABLED;
-  }
-
-  private static final class AllHeadsHolder {
-    static final boolean ENABLED =
-        !"false".equalsIgnoreCase(System.getProperty(ALL_HEADS_PROPERTY));
+    return SCALAR;
   }
 
   private static final class Holder {
@@ -68,9 +60,9 @@ final class RowMaths {
             "CSR attention runs its slower scalar loops",
             LOG);
     if (vector == null) {
-      return ScalarRowMath.INSTANCE;
+      return SCALAR;
     }
-    LOG.debug("CSR attention uses {}", vector.describe());
+    LOG.debug("CSR attention uses {}", vector.name());
     return vector;
   }
 }

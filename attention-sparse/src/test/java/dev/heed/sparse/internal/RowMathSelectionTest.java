@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
@@ -10,14 +10,16 @@ import dev.heed.attention.KernelOptions;
 import dev.heed.attention.internal.VectorApiLoader;
 import org.junit.jupiter.api.Test;
 
-/** Which implementation runs, and how the kernel is found (JVector practice, STYLE.md). */
+/**
+ * Which implementation runs, and how the kernel is found (common practice, as in JVector's tests).
+ */
 class RowMathSelectionTest {
 
   // The build runs the tests with -Dheed.test.expectVectorKernel=true and the Vector API module:
   // if the kernel fell back to the scalar loops anyway, the fast path is broken and this fails.
   @Test
   void vectorImplementationRunsWhenTheBuildExpectsIt() {
-    String chosen = RowMaths.preferred().describe();
+    String chosen = RowMaths.preferred().name();
     if (Boolean.getBoolean("heed.test.expectVectorKernel")) {
       assertTrue(
           chosen.startsWith("vector("),
@@ -35,8 +37,11 @@ class RowMathSelectionTest {
         AttentionKernels.forPath(ComputePath.SPARSE, KernelOptions.defaults().withThreads(3));
     assertEquals(ComputePath.SPARSE, kernel.path());
     assertEquals(CsrAttentionKernel.class, kernel.getClass());
-    assertEquals("csr-" + RowMaths.preferred().describe() + ", 3 threads", kernel.describe());
+    assertEquals("csr-" + RowMaths.preferred().name() + ", 3 threads", kernel.describe());
     assertEquals(
-        "csr-scalar, 1 thread", new CsrAttentionKernel(1, RowMaths.scalar(), 1).describe());
+        "csr-scalar, 1 thread",
+        new CsrAttentionKernel(
+                1, RowMaths.scalar(), CsrKernelVariant.DEFAULT.withMinCostPerThread(1))
+            .describe());
   }
 }

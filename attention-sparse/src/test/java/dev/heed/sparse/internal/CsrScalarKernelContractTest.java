@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.AttentionKernelContractTest;
@@ -8,6 +8,7 @@ class CsrScalarKernelContractTest extends AttentionKernelContractTest {
 
   @Override
   protected AttentionKernel kernel(int threads) {
-    return new CsrAttentionKernel(threads, RowMaths.scalar(), 1);
+    return new CsrAttentionKernel(
+        threads, RowMaths.scalar(), CsrKernelVariant.DEFAULT.withMinCostPerThread(1));
   }
 }

@@ -1,4 +1,4 @@
-package dev.heed.sparse;
+package dev.heed.sparse.internal;
 
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.AttentionKernelContractTest;
@@ -12,6 +12,7 @@ class CsrVectorKernelContractTest extends AttentionKernelContractTest {
 
   @Override
   protected AttentionKernel kernel(int threads) {
-    return new CsrAttentionKernel(threads, RowMaths.preferred(), 1);
+    return new CsrAttentionKernel(
+        threads, RowMaths.preferred(), CsrKernelVariant.DEFAULT.withMinCostPerThread(1));
   }
 }

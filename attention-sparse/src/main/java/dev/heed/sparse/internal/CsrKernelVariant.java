@@ -1,0 +1,152 @@
+package dev.heed.sparse.internal;
+
+/**
+ * Which of its variants a CSR kernel runs, for tests and A/B benchmarks: {@link #DEFAULT} is what
+ * {@code AttentionKernels.forPath(ComputePath.SPARSE, options)} gives, and each other value
+ * switches one part off so that its effect can be measured or checked. Internal, not API:
+ * applications use the default through the kernel provider.
+ *
+ * <p>Every variant computes the same attention; all but {@code factoredWeights} give the same bits
+ * as the default (factored weights agree with the exact softmax to rounding).
+ *
+ * <p>Thread safety: immutable.
+ *
+ * @param vectorLoops the Vector API inner loops where the JVM reads {@code jdk.incubator.vector}
+ *     (default); false: the plain Java loops, which also keeps every shape on the per-head path
+ * @param allHeads additive scores with 8 heads of 8 value floats take the all-heads path (default);
+ *     false: the per-head path, like every other shape
+ * @param prefetch rows of the next group or block are loaded ahead, one float per cache line, on
+ *     the all-heads path and on the per-head path with 64-float key and value rows (default)
+ * @param minPackedTableBytes calls on the all-heads path over a CSR graph whose {@link
+ *     PackedNodeTable} would have at least this many bytes use one; {@code Long.MAX_VALUE}: never,
+ *     0: always
+ * @param factoredWeights calls that use the packed node table fill it in its factored layout and
+ *     run the factored path (default); false: its exact layout and the exact softmax
+ * @param minCostPerThread below this many cost units (entries + rows) per thread, a call uses fewer
+ *     threads; 1 uses every thread even for tiny calls (tests)
+ */
+public record CsrKernelVariant(
+    boolean vectorLoops,
+    boolean allHeads,
+    boolean prefetch,
+    long minPackedTableBytes,
+    boolean factoredWeights,
+    long minCostPerThread) {
+
+  /**
+   * Calls whose packed node table would be smaller than this many bytes read the caller's key and
+   * value arrays in place (their rows stay in cache, and the copy costs more than it saves).
+   */
+  public static final long DEFAULT_MIN_PACKED_TABLE_BYTES = 16L << 20;
+
+  /**
+   * Cost units (entries + rows) per thread below which a call uses fewer threads, so small calls
+   * never pay for a hand-off.
+   */
+  public static final long DEFAULT_MIN_COST_PER_THREAD = 1L << 14;
+
+  /**
+   * The one switch for users (README, JVM settings): {@code -Dheed.sparse.pack=false} keeps keys
+   * and values in the caller's arrays, for a heap that cannot spare the packed table's 320 bytes
+   * per node. Read once, when this class initialises.
+   */
+  public static final String PACK_PROPERTY = "heed.sparse.pack";
+
+  /**
+   * The variant applications get: every part on, with the default thresholds (no packed table if
+   * {@link #PACK_PROPERTY} is {@code false}).
+   */
+  public static final CsrKernelVariant DEFAULT =
+      new CsrKernelVariant(
+          true,
+          true,
+          true,
+          "false".equalsIgnoreCase(System.getProperty(PACK_PROPERTY))
+              ? Long.MAX_VALUE
+              : DEFAULT_MIN_PACKED_TABLE_BYTES,
+          true,
+          DEFAULT_MIN_COST_PER_THREAD);
+
+  /**
+   * Checks the thresholds.
+   *
+   * @throws IllegalArgumentException if {@code minPackedTableBytes} is negative or {@code
+   *     minCostPerThread} is below 1
+   */
+  public CsrKernelVariant {
+    if (minPackedTableBytes < 0) {
+      throw new IllegalArgumentException(
+          "minPackedTableBytes must be at least 0 (0: always), got " + minPackedTableBytes);
+    }
+    if (minCostPerThread < 1) {
+      throw new IllegalArgumentException(
+          "minCostPerThread must be at least 1, got " + minCostPerThread);
+    }
+  }
+
+  /**
+   * Returns this variant with the Vector API loops on or off.
+   *
+   * @param on false for the plain Java loops
+   * @return the new variant
+   */
+  public CsrKernelVariant withVectorLoops(boolean on) {
+    return new CsrKernelVariant(
+        on, allHeads, prefetch, minPackedTableBytes, factoredWeights, minCostPerThread);
+  }
+
+  /**
+   * Returns this variant with the all-heads path on or off.
+   *
+   * @param on false to keep every shape on the per-head path
+   * @return the new variant
+   */
+  public CsrKernelVariant withAllHeads(boolean on) {
+    return new CsrKernelVariant(
+        vectorLoops, on, prefetch, minPackedTableBytes, factoredWeights, minCostPerThread);
+  }
+
+  /**
+   * Returns this variant with the loads ahead on or off.
+   *
+   * @param on false for no loads ahead
+   * @return the new variant
+   */
+  public CsrKernelVariant withPrefetch(boolean on) {
+    return new CsrKernelVariant(
+        vectorLoops, allHeads, on, minPackedTableBytes, factoredWeights, minCostPerThread);
+  }
+
+  /**
+   * Returns this variant with another packed-table threshold.
+   *
+   * @param bytes the smallest table used, at least 0; {@code Long.MAX_VALUE}: never
+   * @return the new variant
+   */
+  public CsrKernelVariant withMinPackedTableBytes(long bytes) {
+    return new CsrKernelVariant(
+        vectorLoops, allHeads, prefetch, bytes, factoredWeights, minCostPerThread);
+  }
+
+  /**
+   * Returns this variant with factored weights on or off.
+   *
+   * @param on false for the exact layout of the table and the exact softmax
+   * @return the new variant
+   */
+  public CsrKernelVariant withFactoredWeights(boolean on) {
+    return new CsrKernelVariant(
+        vectorLoops, allHeads, prefetch, minPackedTableBytes, on, minCostPerThread);
+  }
+
+  /**
+   * Returns this variant with another threshold for using fewer threads.
+   *
+   * @param cost cost units per thread, at least 1
+   * @return the new variant
+   */
+  public CsrKernelVariant withMinCostPerThread(long cost) {
+    return new CsrKernelVariant(
+        vectorLoops, allHeads, prefetch, minPackedTableBytes, factoredWeights, cost);
+  }
+}

@@ -1,0 +1,124 @@
+package dev.heed.sparse.internal;
+
+import dev.heed.attention.internal.FastExp;
+
+/**
+ * The inner loops of the CSR kernel's per-head path ({@link PerHeadPass}), which serves every score
+ * function and head shape: spans of floats in, numbers out.
+ *
+ * <p>Every method works on the span {@code [offset, offset + length)} of its arrays, and callers
+ * guarantee valid offsets and lengths (implementations only {@code assert}). Results depend only on
+ * the span contents and length, never on which thread runs, whether the code is interpreted or
+ * compiled, or on alignment, so that the kernel's results are bit-identical for any thread count:
+ * implementations use only IEEE-754 add, multiply, fused multiply-add, compare and exact bit
+ * manipulation, in a fixed order (no {@code reduceLanes(ADD)}, whose order is unspecified, and no
+ * library {@code exp}, whose vector and scalar forms differ).
+ *
+ * <p>Thread safety: implementations are stateless and safe from any thread.
+ */
+public interface PerHeadMath {
+
+  /**
+   * Returns the dot product {@code Σ a[ao+k] · b[bo+k]} over {@code k < length}, in float32.
+   *
+   * @param a input, not modified
+   * @param ao offset in {@code a}
+   * @param b input, not modified
+   * @param bo offset in {@code b}
+   * @param length span length, at least 1
+   * @return the dot product; may be infinite or NaN if an intermediate overflows
+   */
+  float dot(float[] a, int ao, float[] b, int bo, int length);
+
+  /**
+   * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
+   * length} (Brody et al. 2022), in float32.
+   *
+   * @param att input, not modified: the head's attention vector
+   * @param ao offset in {@code att}
+   * @param q input, not modified: the target's query terms
+   * @param qo offset in {@code q}
+   * @param key input, not modified: the source's key terms
+   * @param ko offset in {@code key}
+   * @param length span length (the key width), at least 1
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @return the score; may be infinite or NaN if an intermediate overflows
+   */
+  float gatv2(
+      float[] att, int ao, float[] q, int qo, float[] key, int ko, int length, float negativeSlope);
+
+  /**
+   * Returns the largest element of the span.
+   *
+   * @param s input, not modified, finite values
+   * @param offset start of the span
+   * @param length span length, at least 1
+   * @return the maximum
+   */
+  float max(float[] s, int offset, int length);
+
+  /**
+   * Replaces each element {@code x} of the span by {@code exp(x - shift)} and returns their sum,
+   * added in a fixed order. Callers pass {@code shift >= every x}, so each result lies in {@code
+   * [0, 1]}; arguments below {@link FastExp#LOWEST_ARGUMENT} give 0. The exponential is {@link
+   * FastExp}'s polynomial, not the library one.
+   *
+   * @param s input and output: finite scores in, unnormalised weights out
+   * @param offset start of the span
+   * @param length span length, at least 1
+   * @param shift the value subtracted before exponentiating, finite
+   * @return the sum of the new span
+   */
+  float expShiftSum(float[] s, int offset, int length, float shift);
+
+  /**
+   * For one head of one block of entries, adds the weighted value rows into the accumulator: {@code
+   * acc[accOffset + x] += Σ_t w[wOffset + t] · value[rowBase[t] + headOffset + x]} for {@code x <
+   * length}, the sum over {@code t < count} taken in order of t for every x. Keeping the loop over
+   * entries inside lets an implementation hold the accumulator in registers.
+   *
+   * @param w input, not modified: the entries' unnormalised weights for this head
+   * @param wOffset offset of entry 0's weight in {@code w}
+   * @param rowBase input, not modified: the start of each entry's value row in {@code value}
+   * @param count number of entries, at least 1
+   * @param headOffset offset of this head's values within a value row
+   * @param value input, not modified: the value rows
+   * @param acc input and output: the accumulator
+   * @param accOffset offset of this head's span in {@code acc}
+   * @param length the head's value width, at least 1
+   */
+  void weightedRowSum(
+      float[] w,
+      int wOffset,
+      int[] rowBase,
+      int count,
+      int headOffset,
+      float[] value,
+      float[] acc,
+      int accOffset,
+      int length);
+
+  /**
+   * Copies {@code count} rows of {@code width} floats from a table into consecutive rows of {@code
+   * out}: {@code out[t·width + x] = table[rows[t]·width + x]} for {@code t < count}, {@code x <
+   * width}. Gathering a block's rows in one loop of loads keeps many cache misses in flight before
+   * anything uses them.
+   *
+   * @param table input, not modified: rows of {@code width} floats
+   * @param width row width, at least 1
+   * @param rows input, not modified: the row index of each entry
+   * @param count number of rows, at least 1
+   * @param out output: {@code count · width} floats
+   */
+  void gatherRows(float[] table, int width, int[] rows, int count, float[] out);
+
+  /**
+   * Multiplies each element of the span by {@code factor}.
+   *
+   * @param y input and output
+   * @param offset start of the span
+   * @param length span length, at least 1
+   * @param factor the factor
+   */
+  void scale(float[] y, int offset, int length, float factor);
+}
