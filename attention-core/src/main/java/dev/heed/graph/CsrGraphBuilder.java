@@ -80,12 +80,12 @@ public final class CsrGraphBuilder {
 
   /**
    * Sets all three policies at once, typically to build the graph the way a model's training graph
-   * was built ({@code model.graphConventions()}).
+   * was built ({@code model.graphPolicies()}).
    *
    * @param conventions direction, self-loop and duplicate policies, not null
    * @return this builder
    */
-  public CsrGraphBuilder conventions(GraphConventions conventions) {
+  public CsrGraphBuilder policies(GraphPolicies conventions) {
     Objects.requireNonNull(conventions, "conventions");
     return direction(conventions.direction())
         .selfLoops(conventions.selfLoops())

@@ -344,12 +344,12 @@ public final class EdgeListFileBuilder<V> {
 
   /**
    * Sets all three policies at once, typically to build the graph the way a model's training graph
-   * was built ({@code model.graphConventions()}).
+   * was built ({@code model.graphPolicies()}).
    *
    * @param conventions direction, self-loop and duplicate policies, not null
    * @return this builder
    */
-  public EdgeListFileBuilder<V> conventions(GraphConventions conventions) {
+  public EdgeListFileBuilder<V> policies(GraphPolicies conventions) {
     Objects.requireNonNull(conventions, "conventions");
     return direction(conventions.direction())
         .selfLoops(conventions.selfLoops())

@@ -62,12 +62,12 @@ public final class JGraphTGraphBuilder<V> {
 
   /**
    * Sets all three policies at once, typically to build the graph the way a model's training graph
-   * was built ({@code model.graphConventions()}).
+   * was built ({@code model.graphPolicies()}).
    *
    * @param conventions direction, self-loop and duplicate policies, not null
    * @return this builder
    */
-  public JGraphTGraphBuilder<V> conventions(GraphConventions conventions) {
+  public JGraphTGraphBuilder<V> policies(GraphPolicies conventions) {
     Objects.requireNonNull(conventions, "conventions");
     return direction(conventions.direction())
         .selfLoops(conventions.selfLoops())

@@ -4,7 +4,7 @@ import dev.heed.attention.KernelOptions;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
-import dev.heed.graph.GraphConventions;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.NeighbourRows;
 import java.util.HashSet;
 import java.util.List;
@@ -34,7 +34,7 @@ public final class AttentionModel {
   private final List<Layer> layers;
   private final KernelOptions kernelOptions;
   private final KernelSource kernels;
-  private final GraphConventions graphConventions; // null: not recorded
+  private final GraphPolicies graphPolicies; // null: not recorded
   private final CheckVectors checks; // null: none
 
   AttentionModel(
@@ -44,7 +44,7 @@ public final class AttentionModel {
       List<Layer> layers,
       KernelOptions kernelOptions,
       KernelSource kernels,
-      GraphConventions graphConventions,
+      GraphPolicies graphPolicies,
       CheckVectors checks) {
     this.inputFeatureCount = inputFeatureCount;
     this.featureNames = List.copyOf(featureNames);
@@ -52,7 +52,7 @@ public final class AttentionModel {
     this.layers = List.copyOf(layers);
     this.kernelOptions = kernelOptions;
     this.kernels = kernels;
-    this.graphConventions = graphConventions;
+    this.graphPolicies = graphPolicies;
     this.checks = checks;
   }
 
@@ -192,8 +192,8 @@ public final class AttentionModel {
    *
    * @return the recorded conventions, or empty for a model that does not record them
    */
-  public Optional<GraphConventions> graphConventions() {
-    return Optional.ofNullable(graphConventions);
+  public Optional<GraphPolicies> graphPolicies() {
+    return Optional.ofNullable(graphPolicies);
   }
 
   /**
@@ -203,7 +203,7 @@ public final class AttentionModel {
    * @param conventions the training graph's direction, self-loop and duplicate policies
    * @return a new model
    */
-  public AttentionModel withGraphConventions(GraphConventions conventions) {
+  public AttentionModel withGraphPolicies(GraphPolicies conventions) {
     Objects.requireNonNull(conventions, "conventions");
     return new AttentionModel(
         inputFeatureCount,
@@ -241,7 +241,7 @@ public final class AttentionModel {
         layers,
         options,
         KernelSource.fromClassPath(options),
-        graphConventions,
+        graphPolicies,
         checks);
   }
 
@@ -254,7 +254,7 @@ public final class AttentionModel {
         layers,
         kernelOptions,
         source,
-        graphConventions,
+        graphPolicies,
         checks);
   }
 
@@ -314,7 +314,7 @@ public final class AttentionModel {
         layers,
         kernelOptions,
         kernels,
-        graphConventions,
+        graphPolicies,
         checks);
   }
 
@@ -331,7 +331,7 @@ public final class AttentionModel {
         layers,
         kernelOptions,
         kernels,
-        graphConventions,
+        graphPolicies,
         null);
   }
 

@@ -13,7 +13,7 @@ import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.heed.attention.KernelOptions;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
-import dev.heed.graph.GraphConventions;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.npy.NpyArray;
 import dev.heed.npy.NpyFormatException;
@@ -383,7 +383,7 @@ public final class ModelFile {
       }
     }
     if (root.has("graph")) {
-      model = model.withGraphConventions(graphConventions(name, root.get("graph")));
+      model = model.withGraphPolicies(graphPolicies(name, root.get("graph")));
     }
     if (verifyChecks && model.checks().isPresent()) {
       CheckEntries.verify(name, model);
@@ -393,7 +393,7 @@ public final class ModelFile {
 
   private static final Set<String> GRAPH_KEYS = Set.of("direction", "self_loops", "duplicates");
 
-  private static GraphConventions graphConventions(String name, JsonNode graph)
+  private static GraphPolicies graphPolicies(String name, JsonNode graph)
       throws ModelFormatException {
     if (!graph.isObject()) {
       throw top(name, "\"graph\" must be an object with keys " + GRAPH_KEYS);
@@ -404,7 +404,7 @@ public final class ModelFile {
         throw top(name, "unknown key '" + key + "' in \"graph\"; expected " + GRAPH_KEYS);
       }
     }
-    return new GraphConventions(
+    return new GraphPolicies(
         graphPolicy(name, graph, "direction", DirectionPolicy.class),
         graphPolicy(name, graph, "self_loops", SelfLoopPolicy.class),
         graphPolicy(name, graph, "duplicates", DuplicatePolicy.class));
@@ -417,7 +417,7 @@ public final class ModelFile {
       throw top(name, "\"graph\" needs a string \"" + key + "\", got " + value);
     }
     try {
-      return GraphConventions.policy(type, value.asText());
+      return GraphPolicies.policy(type, value.asText());
     } catch (IllegalArgumentException e) {
       throw top(name, "\"graph\".\"" + key + "\": " + e.getMessage());
     }
@@ -462,13 +462,13 @@ public final class ModelFile {
     ArrayNode labels = root.putArray("class_labels");
     model.classLabels().forEach(labels::add);
     model
-        .graphConventions()
+        .graphPolicies()
         .ifPresent(
             c -> {
               ObjectNode graph = root.putObject("graph");
-              graph.put("direction", GraphConventions.word(c.direction()));
-              graph.put("self_loops", GraphConventions.word(c.selfLoops()));
-              graph.put("duplicates", GraphConventions.word(c.duplicates()));
+              graph.put("direction", GraphPolicies.word(c.direction()));
+              graph.put("self_loops", GraphPolicies.word(c.selfLoops()));
+              graph.put("duplicates", GraphPolicies.word(c.duplicates()));
             });
     ArrayNode layers = root.putArray("layers");
     Map<String, NpyArray> arrays = new LinkedHashMap<>();

@@ -27,7 +27,7 @@ class VersionedGraphTest {
   }
 
   @Test
-  void gatConventionByDefault() {
+  void gatPolicyByDefault() {
     try (VersionedGraph<String> graph =
         VersionedGraph.builder(2).backgroundCompaction(false).build()) {
       BatchResult result =

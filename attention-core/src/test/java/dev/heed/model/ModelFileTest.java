@@ -10,7 +10,7 @@ import com.fasterxml.jackson.databind.node.ArrayNode;
 import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
-import dev.heed.graph.GraphConventions;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.npy.Npy;
 import dev.heed.npy.NpyArray;
@@ -62,13 +62,13 @@ class ModelFileTest {
   }
 
   @Test
-  void graphConventionsRoundTripAndAreOptional() throws IOException {
+  void graphPoliciesRoundTripAndAreOptional() throws IOException {
     AttentionModel plain = TestModels.load(TestModels.resource("mixed.heed"));
-    GraphConventions directed =
-        new GraphConventions(DirectionPolicy.KEEP, SelfLoopPolicy.AS_GIVEN, DuplicatePolicy.REJECT);
-    AttentionModel recorded = plain.withGraphConventions(directed);
+    GraphPolicies directed =
+        new GraphPolicies(DirectionPolicy.KEEP, SelfLoopPolicy.AS_GIVEN, DuplicatePolicy.REJECT);
+    AttentionModel recorded = plain.withGraphPolicies(directed);
     AttentionModel back = TestModels.load(ModelFile.toBytes(recorded));
-    assertEquals(Optional.of(directed), back.graphConventions());
+    assertEquals(Optional.of(directed), back.graphPolicies());
     String json =
         new String(
             Npz.read(
@@ -85,16 +85,15 @@ class ModelFileTest {
     d.remove("graph");
     AttentionModel none =
         TestModels.load(TestModels.modelBytes(JSON.writeValueAsBytes(d), fixtureArrays()));
-    assertEquals(Optional.empty(), none.graphConventions());
+    assertEquals(Optional.empty(), none.graphPolicies());
     assertEquals(
         List.of("direction: keep instead of symmetrise", "duplicates: reject instead of merge"),
-        GraphConventions.UNDIRECTED_WITH_SELF_LOOPS.differences(
-            new GraphConventions(
-                DirectionPolicy.KEEP, SelfLoopPolicy.ADD, DuplicatePolicy.REJECT)));
+        GraphPolicies.UNDIRECTED_WITH_SELF_LOOPS.differences(
+            new GraphPolicies(DirectionPolicy.KEEP, SelfLoopPolicy.ADD, DuplicatePolicy.REJECT)));
   }
 
   @Test
-  void malformedGraphConventionsAreNamed() throws IOException {
+  void malformedGraphPoliciesAreNamed() throws IOException {
     assertMentions(
         broken(d -> d.put("graph", "symmetrise"), SAME_ARRAYS), "\"graph\" must be an object");
     assertMentions(

@@ -110,12 +110,12 @@ final class ClassifyCommand implements Callable<Integer> {
   @Mixin GraphFileOptions graphOptions;
 
   @Option(
-      names = "--override-graph-conventions",
+      names = "--override-graph-policies",
       description =
           "Build the graph with the --direction, --self-loops and --duplicates given even where"
               + " they differ from what the model file records about its training graph"
               + " (predictions then differ from what the model was trained for).")
-  boolean overrideGraphConventions;
+  boolean overrideGraphPolicies;
 
   @Option(
       names = "--demo",
@@ -165,7 +165,7 @@ final class ClassifyCommand implements Callable<Integer> {
     ClassifyRun.requireFile(model, "--model");
     AttentionModel m = ModelFile.read(model);
     Optional<String> conventionsWarning =
-        graphOptions.followModel(m.graphConventions(), overrideGraphConventions);
+        graphOptions.followModel(m.graphPolicies(), overrideGraphPolicies);
     output.checkReportClass(m.classLabels());
     ClassifyRun run =
         ClassifyRun.load(

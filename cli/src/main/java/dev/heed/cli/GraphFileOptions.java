@@ -6,7 +6,7 @@ import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.EdgeListFileBuilder;
 import dev.heed.graph.EdgeListFormatException;
 import dev.heed.graph.EdgeListResult;
-import dev.heed.graph.GraphConventions;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.SelfLoopPolicy;
 import java.io.IOException;
 import java.nio.file.Files;
@@ -135,11 +135,11 @@ final class GraphFileOptions {
    * The conventions when an option is not given and no model says otherwise: the demo model's, and
    * the graph-attention papers' (undirected ties, a self-loop per node, repeated ties merged).
    */
-  static final GraphConventions DEFAULTS = GraphConventions.UNDIRECTED_WITH_SELF_LOOPS;
+  static final GraphPolicies DEFAULTS = GraphPolicies.UNDIRECTED_WITH_SELF_LOOPS;
 
   /** The three policies as given, or as defaulted. */
-  GraphConventions conventions() {
-    return new GraphConventions(directionPolicy(), selfLoopPolicy(), duplicatePolicy());
+  GraphPolicies policies() {
+    return new GraphPolicies(directionPolicy(), selfLoopPolicy(), duplicatePolicy());
   }
 
   /**
@@ -154,18 +154,18 @@ final class GraphFileOptions {
    *     error in the inputs stays the one line on stderr)
    * @throws CliException (user error) naming each difference and both ways to resolve it
    */
-  Optional<String> followModel(Optional<GraphConventions> recorded, boolean override) {
+  Optional<String> followModel(Optional<GraphPolicies> recorded, boolean override) {
     if (recorded.isEmpty()) {
       return Optional.of(
           "warning: the model does not record how its training graph was built; building this"
               + " graph with "
-              + conventions()
+              + policies()
               + ". If the model was trained on another graph convention, say so with"
               + " --direction, --self-loops and --duplicates.");
     }
-    GraphConventions model = recorded.get();
-    GraphConventions asked =
-        new GraphConventions(
+    GraphPolicies model = recorded.get();
+    GraphPolicies asked =
+        new GraphPolicies(
             direction == null ? model.direction() : directionPolicy(),
             selfLoops == null ? model.selfLoops() : selfLoopPolicy(),
             duplicates == null ? model.duplicates() : duplicatePolicy());
@@ -177,18 +177,18 @@ final class GraphFileOptions {
               + "): "
               + String.join("; ", differences)
               + ". Predictions on a graph built another way are silently different. Drop those"
-              + " options to use the model's conventions, or add --override-graph-conventions if"
+              + " options to use the model's conventions, or add --override-graph-policies if"
               + " you mean it.",
           HeedCli.EXIT_USER_ERROR);
     }
-    direction = GraphConventions.word(asked.direction());
-    selfLoops = GraphConventions.word(asked.selfLoops());
-    duplicates = GraphConventions.word(asked.duplicates());
+    direction = GraphPolicies.word(asked.direction());
+    selfLoops = GraphPolicies.word(asked.selfLoops());
+    duplicates = GraphPolicies.word(asked.duplicates());
     if (!differences.isEmpty()) {
       return Optional.of(
           "warning: building the graph unlike the model's training graph ("
               + String.join("; ", differences)
-              + "), as --override-graph-conventions asks");
+              + "), as --override-graph-policies asks");
     }
     return Optional.empty();
   }

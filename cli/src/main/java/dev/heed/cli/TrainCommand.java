@@ -301,7 +301,7 @@ final class TrainCommand implements Callable<Integer> {
     ModelFile.write(
         network
             .toModel(labelTable.classes, g.featureNames())
-            .withGraphConventions(graphOptions.conventions()),
+            .withGraphPolicies(graphOptions.policies()),
         this.out);
     out.println("training: " + describe(report));
     if (labelTable.test.length > 0) {

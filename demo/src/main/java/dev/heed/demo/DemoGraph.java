@@ -4,7 +4,7 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
-import dev.heed.graph.GraphConventions;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.SelfLoopPolicy;
 import java.util.Objects;
 
@@ -38,8 +38,8 @@ public final class DemoGraph {
   public static final DuplicatePolicy DUPLICATES = DuplicatePolicy.MERGE;
 
   /** The three policies together, as the demo model file records them. */
-  public static final GraphConventions CONVENTIONS =
-      new GraphConventions(DIRECTION, SELF_LOOPS, DUPLICATES);
+  public static final GraphPolicies CONVENTIONS =
+      new GraphPolicies(DIRECTION, SELF_LOOPS, DUPLICATES);
 
   private DemoGraph() {}
 

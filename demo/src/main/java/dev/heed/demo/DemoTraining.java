@@ -205,7 +205,7 @@ public final class DemoTraining {
     return new Outcome(
         network
             .toModel(PaymentsNetwork.ROLES, payments.featureNames())
-            .withGraphConventions(DemoGraph.CONVENTIONS),
+            .withGraphPolicies(DemoGraph.CONVENTIONS),
         report,
         HeldOutScore.of(predicted, payments, PaymentsNetwork.Split.TEST));
   }

@@ -82,8 +82,8 @@ class BundledDemoModelTest {
         ModelFile.toBytes(
             network
                 .toModel(PaymentsNetwork.ROLES, PaymentsNetworkGenerator.FEATURE_NAMES)
-                .withGraphConventions(DemoGraph.CONVENTIONS)));
-    assertEquals(Optional.of(DemoGraph.CONVENTIONS), model.graphConventions());
+                .withGraphPolicies(DemoGraph.CONVENTIONS)));
+    assertEquals(Optional.of(DemoGraph.CONVENTIONS), model.graphPolicies());
   }
 
   @Test

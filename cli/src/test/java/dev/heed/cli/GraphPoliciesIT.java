@@ -7,7 +7,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
-import dev.heed.graph.GraphConventions;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.model.ModelFile;
 import java.nio.file.Path;
@@ -22,10 +22,10 @@ import org.junit.jupiter.api.io.TempDir;
  * warning when a model records none. A graph built another way gives other predictions with no
  * error, so these are the boundary's safeguards.
  */
-class GraphConventionsIT {
+class GraphPoliciesIT {
 
-  private static final GraphConventions DIRECTED =
-      new GraphConventions(DirectionPolicy.KEEP, SelfLoopPolicy.ADD, DuplicatePolicy.MERGE);
+  private static final GraphPolicies DIRECTED =
+      new GraphPolicies(DirectionPolicy.KEEP, SelfLoopPolicy.ADD, DuplicatePolicy.MERGE);
 
   @TempDir Path dir;
 
@@ -49,10 +49,10 @@ class GraphConventionsIT {
     return List.of(String.valueOf(r.exitCode()), r.stdout(), r.stderr());
   }
 
-  private Path recordedModel(GraphConventions conventions) throws Exception {
+  private Path recordedModel(GraphPolicies conventions) throws Exception {
     Path plain = CliFixtures.mixedModel(dir);
     Path recorded = dir.resolve("recorded.heed");
-    ModelFile.write(ModelFile.read(plain).withGraphConventions(conventions), recorded);
+    ModelFile.write(ModelFile.read(plain).withGraphPolicies(conventions), recorded);
     return recorded;
   }
 
@@ -76,11 +76,11 @@ class GraphConventionsIT {
     List<String> refused = classify(model, "--direction", "symmetrise");
     assertEquals(String.valueOf(HeedCli.EXIT_USER_ERROR), refused.get(0), refused.toString());
     assertTrue(refused.get(2).contains("direction: symmetrise instead of keep"), refused.get(2));
-    assertTrue(refused.get(2).contains("--override-graph-conventions"), refused.get(2));
+    assertTrue(refused.get(2).contains("--override-graph-policies"), refused.get(2));
     assertTrue(refused.get(1).isEmpty(), "no predictions on refusal: " + refused.get(1));
 
     List<String> overridden =
-        classify(model, "--direction", "symmetrise", "--override-graph-conventions");
+        classify(model, "--direction", "symmetrise", "--override-graph-policies");
     assertEquals("0", overridden.get(0), overridden.toString());
     assertTrue(overridden.get(2).contains("warning: building the graph unlike"), overridden.get(2));
   }

@@ -16,22 +16,22 @@ import java.util.Objects;
  * @param selfLoops whether every node attends to itself
  * @param duplicates whether repeated edges are merged or rejected
  */
-public record GraphConventions(
+public record GraphPolicies(
     DirectionPolicy direction, SelfLoopPolicy selfLoops, DuplicatePolicy duplicates) {
 
   /**
    * The conventions of the graph-attention papers' graphs and of Heed's demo: undirected ties, a
    * self-loop per node (Veličković et al. 2018: N(i) includes i), repeated ties merged.
    */
-  public static final GraphConventions UNDIRECTED_WITH_SELF_LOOPS =
-      new GraphConventions(DirectionPolicy.SYMMETRISE, SelfLoopPolicy.ADD, DuplicatePolicy.MERGE);
+  public static final GraphPolicies UNDIRECTED_WITH_SELF_LOOPS =
+      new GraphPolicies(DirectionPolicy.SYMMETRISE, SelfLoopPolicy.ADD, DuplicatePolicy.MERGE);
 
   /**
    * Creates the conventions.
    *
    * @throws NullPointerException if an argument is null
    */
-  public GraphConventions {
+  public GraphPolicies {
     Objects.requireNonNull(direction, "direction");
     Objects.requireNonNull(selfLoops, "selfLoops");
     Objects.requireNonNull(duplicates, "duplicates");
@@ -45,7 +45,7 @@ public record GraphConventions(
    * @param other the conventions to compare with
    * @return one entry per difference; empty if they are equal
    */
-  public List<String> differences(GraphConventions other) {
+  public List<String> differences(GraphPolicies other) {
     Objects.requireNonNull(other, "other");
     List<String> out = new ArrayList<>();
     if (other.direction != direction) {

@@ -8,7 +8,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import org.junit.jupiter.api.Test;
 
 /** Setting the conventions at once builds what the three policies build one by one. */
-class GraphConventionsTest {
+class GraphPoliciesTest {
 
   private static final int[] SOURCES = {0, 1, 1, 2};
   private static final int[] TARGETS = {1, 2, 2, 0};
@@ -17,8 +17,8 @@ class GraphConventionsTest {
   void conventionsSetAllThreePolicies() {
     for (DirectionPolicy d : DirectionPolicy.values()) {
       for (SelfLoopPolicy l : SelfLoopPolicy.values()) {
-        GraphConventions c = new GraphConventions(d, l, DuplicatePolicy.MERGE);
-        CsrGraph once = CsrGraphBuilder.fromEdges(SOURCES, TARGETS, 3).conventions(c).build();
+        GraphPolicies c = new GraphPolicies(d, l, DuplicatePolicy.MERGE);
+        CsrGraph once = CsrGraphBuilder.fromEdges(SOURCES, TARGETS, 3).policies(c).build();
         CsrGraph each =
             CsrGraphBuilder.fromEdges(SOURCES, TARGETS, 3)
                 .direction(d)
@@ -30,7 +30,7 @@ class GraphConventionsTest {
     }
     assertNotEquals(
         CsrGraphBuilder.fromEdges(SOURCES, TARGETS, 3)
-            .conventions(GraphConventions.UNDIRECTED_WITH_SELF_LOOPS)
+            .policies(GraphPolicies.UNDIRECTED_WITH_SELF_LOOPS)
             .build(),
         CsrGraphBuilder.fromEdges(SOURCES, TARGETS, 3).build());
     IllegalArgumentException rejected =
@@ -38,8 +38,8 @@ class GraphConventionsTest {
             IllegalArgumentException.class,
             () ->
                 CsrGraphBuilder.fromEdges(SOURCES, TARGETS, 3)
-                    .conventions(
-                        new GraphConventions(
+                    .policies(
+                        new GraphPolicies(
                             DirectionPolicy.KEEP, SelfLoopPolicy.AS_GIVEN, DuplicatePolicy.REJECT))
                     .build());
     assertTrue(rejected.getMessage().contains("1"), rejected.getMessage());
@@ -47,13 +47,12 @@ class GraphConventionsTest {
 
   @Test
   void wordsReadBack() {
-    assertEquals(
-        SelfLoopPolicy.AS_GIVEN, GraphConventions.policy(SelfLoopPolicy.class, "as-given"));
-    assertEquals("as-given", GraphConventions.word(SelfLoopPolicy.AS_GIVEN));
+    assertEquals(SelfLoopPolicy.AS_GIVEN, GraphPolicies.policy(SelfLoopPolicy.class, "as-given"));
+    assertEquals("as-given", GraphPolicies.word(SelfLoopPolicy.AS_GIVEN));
     IllegalArgumentException e =
         assertThrows(
             IllegalArgumentException.class,
-            () -> GraphConventions.policy(DuplicatePolicy.class, "drop"));
+            () -> GraphPolicies.policy(DuplicatePolicy.class, "drop"));
     assertEquals("'drop' is not one of [merge, reject]", e.getMessage());
   }
 }
