@@ -24,14 +24,6 @@ final class RowMaths {
   private static final String VECTOR_CLASS = "dev.heed.sparse.simd.VectorRowMath";
   private static final Logger LOG = LoggerFactory.getLogger(RowMaths.class);
 
-  private static final RowMath SCALAR =
-      new RowMath(
-          "scalar",
-          false,
-          ScalarPerHeadMath.INSTANCE,
-          ScalarAllHeadsMath.INSTANCE,
-          ScalarFactoredMath.INSTANCE);
-
   private RowMaths() {}
 
   /** Returns the implementation chosen for this JVM. */
@@ -41,7 +33,20 @@ final class RowMaths {
 
   /** Returns the scalar implementation, whatever was chosen (tests and comparisons). */
   static RowMath scalar() {
-    return SCALAR;
+    return ScalarHolder.SCALAR;
+  }
+
+  // Loaded only when asked for: while the vector classes are the only loaded implementations of
+  // the row-math interfaces, C2 can call them without a type check (class hierarchy analysis,
+  // common practice; not measured separately here).
+  private static final class ScalarHolder {
+    static final RowMath SCALAR =
+        new RowMath(
+            "scalar",
+            false,
+            ScalarPerHeadMath.INSTANCE,
+            ScalarAllHeadsMath.INSTANCE,
+            ScalarFactoredMath.INSTANCE);
   }
 
   private static final class Holder {
@@ -60,7 +65,7 @@ final class RowMaths {
             "CSR attention runs its slower scalar loops",
             LOG);
     if (vector == null) {
-      return SCALAR;
+      return scalar();
     }
     LOG.debug("CSR attention uses {}", vector.name());
     return vector;
