@@ -222,6 +222,11 @@ final class DemoRun {
     }
   }
 
+  /** The bundled demo model, for tests that compare with it. */
+  static AttentionModel bundledModelForTests() throws IOException {
+    return bundledModel();
+  }
+
   private static AttentionModel bundledModel() throws IOException {
     try (InputStream in = DemoRun.class.getResourceAsStream(MODEL_RESOURCE)) {
       if (in == null) {
