@@ -147,6 +147,25 @@ final class DemoReplay {
         opened,
         watched,
         flaggedName);
+    double allSince = Double.NEGATIVE_INFINITY;
+    int ringSize = 0;
+    for (Map.Entry<String, String[]> e : opened.entrySet()) {
+      if (e.getValue()[0].equals("mule-ring")) {
+        ringSize++;
+        Watch w = watched.get(e.getKey());
+        allSince = Math.max(allSince, w == null ? Double.NaN : w.flaggedSince);
+      }
+    }
+    out.println(
+        Double.isNaN(allSince) || ringSize == 0
+            ? "Not every ring account is scored " + flaggedName + " at the end."
+            : String.format(
+                Locale.ROOT,
+                "All %d ring accounts are scored %s from %s on, to the end of the stream.",
+                ringSize,
+                flaggedName,
+                clock(allSince)));
+    out.println();
     printAccounts("New ordinary customers:", "ordinary", opened, watched, flaggedName);
     int toFlag = 0;
     int fromFlag = 0;

@@ -63,6 +63,9 @@ class ReplayDemoTest {
     PaymentsNetwork network = PaymentsNetworkGenerator.bundledDemo().generate();
     PaymentsStream stream = PaymentsStream.generate(network, PaymentsStream.DEFAULT_SEED);
     List<String> ring = stream.ringAccounts();
+    assertTrue(
+        r.stdout().contains("All " + ring.size() + " ring accounts are scored mule-ring from"),
+        r.stdout());
     for (String account : ring) {
       String row =
           r.stdout().lines().filter(l -> l.strip().startsWith(account)).findFirst().orElseThrow();
