@@ -134,7 +134,7 @@ final class ClassifyCommand implements Callable<Integer> {
   @Override
   public Integer call() throws IOException {
     long start = System.nanoTime();
-    PathChoice pathChoice = pathChoice();
+    PathChoice pathChoice = parsePath(path);
     graphOptions.validate();
     if (explain < 0) {
       throw new CliException("--explain must be at least 0, got " + explain, HeedCli.EXIT_USAGE);
@@ -212,7 +212,8 @@ final class ClassifyCommand implements Callable<Integer> {
     }
   }
 
-  private PathChoice pathChoice() {
+  /** The {@code --path} value as a path choice. */
+  static PathChoice parsePath(String path) {
     return switch (path.toLowerCase(Locale.ROOT)) {
       case "auto" -> PathChoice.AUTO;
       case "dense" -> PathChoice.DENSE;

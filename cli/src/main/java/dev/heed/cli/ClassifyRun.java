@@ -105,6 +105,10 @@ final class ClassifyRun {
     return graph;
   }
 
+  NodeFeatures features() {
+    return features;
+  }
+
   /** The number of edge lines read from the graph file. */
   long edgeLines() {
     return inputs.edgeLines();

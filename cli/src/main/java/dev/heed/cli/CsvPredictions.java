@@ -52,14 +52,8 @@ final class CsvPredictions implements PredictionWriter {
     out.write(line.append('\n').toString());
     for (NodePrediction p : result.predictions()) {
       line.setLength(0);
-      line.append(TextFields.csv(ids.idOf(p.node())))
-          .append(',')
-          .append(TextFields.csv(p.label()))
-          .append(',')
-          .append(decimal(p.probability()));
-      for (float probability : p.probabilities()) {
-        line.append(',').append(decimal(probability));
-      }
+      line.append(TextFields.csv(ids.idOf(p.node()))).append(',');
+      appendScores(line, p);
       if (explainK > 0) {
         List<NeighbourWeight> top = ClassifyRun.lastLayerNeighbours(p);
         for (int k = 0; k < explainK; k++) {
@@ -76,6 +70,14 @@ final class CsvPredictions implements PredictionWriter {
       out.write(line.append('\n').toString());
     }
     out.flush();
+  }
+
+  /** Appends {@code label,probability,p_1,...,p_C} of a prediction, numbers with six decimals. */
+  static void appendScores(StringBuilder line, NodePrediction p) {
+    line.append(TextFields.csv(p.label())).append(',').append(decimal(p.probability()));
+    for (float probability : p.probabilities()) {
+      line.append(',').append(decimal(probability));
+    }
   }
 
   private static String decimal(float value) {

@@ -60,38 +60,14 @@ final class DemoRun {
       ClassifyOutputOptions output,
       long start)
       throws IOException {
-    AttentionModel model;
-    String modelName;
-    if (modelFile != null) {
-      ClassifyRun.requireFile(modelFile, "--model");
-      model = ModelFile.read(modelFile);
-      modelName = modelFile.getFileName().toString();
-    } else {
-      model = bundledModel();
-      modelName = "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1);
-    }
+    Named named = model(modelFile);
+    AttentionModel model = named.model();
+    String modelName = named.name();
     output.checkReportClass(model.classLabels());
-    Path dir = directory != null ? directory : DemoFiles.defaultDirectory();
     long prepareStart = System.nanoTime();
-    DemoFiles files;
-    try {
-      files = DemoFiles.prepare(dir);
-    } catch (IOException e) {
-      throw new CliException(
-          "cannot prepare the demo files in " + dir + ": " + e + "; choose another --demo-dir",
-          HeedCli.EXIT_USER_ERROR);
-    }
+    DemoFiles files = files(directory);
     double prepareSeconds = (System.nanoTime() - prepareStart) / 1e9;
-    ClassifyRun run =
-        ClassifyRun.load(
-            model,
-            modelName,
-            files.transfers(),
-            files.features(),
-            null,
-            GraphFileOptions.demo(),
-            threads,
-            ProgressDisplay.off());
+    ClassifyRun run = load(named, files, threads);
     ClassifyCommand.warnIfDenseIsCostly(path, run.graph().nodeCount(), err);
     long classifyStart = System.nanoTime();
     Classification all = run.classify(null, path, 0);
@@ -206,6 +182,49 @@ final class DemoRun {
     out.println(CAUTION);
     out.flush();
     return 0;
+  }
+
+  /** A model and the name the summaries give it. */
+  record Named(AttentionModel model, String name) {}
+
+  /** The model of {@code --model}, or the bundled demo model when it is null. */
+  static Named model(Path modelFile) throws IOException {
+    if (modelFile != null) {
+      ClassifyRun.requireFile(modelFile, "--model");
+      return new Named(ModelFile.read(modelFile), modelFile.getFileName().toString());
+    }
+    return new Named(
+        bundledModel(), "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1));
+  }
+
+  /** Reads the demo network's files for a model, as any graph and features files are read. */
+  static ClassifyRun load(Named model, DemoFiles files, Integer threads) throws IOException {
+    return ClassifyRun.load(
+        model.model(),
+        model.name(),
+        files.transfers(),
+        files.features(),
+        null,
+        GraphFileOptions.demo(),
+        threads,
+        ProgressDisplay.off());
+  }
+
+  /** The demo files in {@code directory} (default: the user's cache), made on first use. */
+  static DemoFiles files(Path directory) {
+    Path dir = directory != null ? directory : DemoFiles.defaultDirectory();
+    try {
+      return DemoFiles.prepare(dir);
+    } catch (IOException e) {
+      throw new CliException(
+          "cannot prepare the demo files in " + dir + ": " + e + "; choose another --demo-dir",
+          HeedCli.EXIT_USER_ERROR);
+    }
+  }
+
+  /** The bundled demo model, for tests that compare with it. */
+  static AttentionModel bundledModelForTests() throws IOException {
+    return bundledModel();
   }
 
   private static AttentionModel bundledModel() throws IOException {

@@ -18,6 +18,7 @@ import picocli.CommandLine.Command;
       InspectCommand.class,
       CheckModelCommand.class,
       TrainCommand.class,
+      ReplayCommand.class,
       VerifyCommand.class,
       BenchCommand.class
     })
@@ -53,6 +54,11 @@ public final class HeedCli implements Runnable {
    * @return the exit code
    */
   public static int run(String... args) {
+    return run(null, null, args);
+  }
+
+  /** {@link #run(String...)} writing to the given streams (null: the console's), for tests. */
+  static int run(PrintWriter stdout, PrintWriter stderr, String... args) {
     boolean debug = false;
     for (String a : args) {
       debug |= "--debug".equals(a);
@@ -63,6 +69,12 @@ public final class HeedCli implements Runnable {
     System.setProperty("java.awt.headless", "true");
     final boolean showTraces = debug;
     CommandLine cli = new CommandLine(new HeedCli());
+    if (stdout != null) {
+      cli.setOut(stdout);
+    }
+    if (stderr != null) {
+      cli.setErr(stderr);
+    }
     cli.setExecutionExceptionHandler(
         (ex, cmd, parsed) -> {
           PrintWriter err = cmd.getErr();

@@ -57,6 +57,14 @@ final class ProgressDisplay {
         0);
   }
 
+  /** A bar counting {@code total} steps (such as batches) in {@code unit}, or none. */
+  Bar steps(String task, long total, String unit) {
+    if (!enabled || total < 2) {
+      return Bar.NONE;
+    }
+    return new Bar(builder(task).setInitialMax(total).setUnit(unit, 1).build(), 0);
+  }
+
   private static ProgressBarBuilder builder(String task) {
     return new ProgressBarBuilder()
         .setTaskName(task)

@@ -39,6 +39,12 @@ import org.slf4j.LoggerFactory;
  *       back exactly;
  *   <li>{@value #ROLES} ({@code account,role,split}): each account's role (one of {@link
  *       PaymentsNetwork#ROLES}) and its split ({@code train}, {@code validation}, {@code test});
+ *   <li>{@value #STREAM} ({@code time,kind,source,target,} then the feature names): an invented
+ *       hour of new activity ({@link PaymentsStream}) in the stream format of {@code heed replay}
+ *       ({@code docs/stream-format.md}): transfers, a few recalled, new accounts with their
+ *       features, and a new mule ring forming;
+ *   <li>{@value #STREAM_ACCOUNTS} ({@code account,role,opened}): the role of each account the
+ *       stream opens, and the second it opens at;
  *   <li>{@value #MANIFEST}: the version, the generator's settings and the size and SHA-256 of each
  *       file above, written last.
  * </ul>
@@ -67,6 +73,16 @@ public final class DemoFiles {
 
   /** The roles-and-splits file name. */
   public static final String ROLES = "roles.csv";
+
+  /** The stream file name. */
+  public static final String STREAM = "stream.csv";
+
+  /** The file naming the roles of the accounts the stream opens. */
+  public static final String STREAM_ACCOUNTS = "stream-accounts.csv";
+
+  /** The files the manifest vouches for, in the order written. */
+  private static final List<String> DATA_FILES =
+      List.of(TRANSFERS, FEATURES, ROLES, STREAM, STREAM_ACCOUNTS);
 
   /** The manifest file name. */
   public static final String MANIFEST = "manifest.txt";
@@ -110,7 +126,9 @@ public final class DemoFiles {
             + " accounts="
             + PaymentsNetworkGenerator.DEFAULT_ACCOUNTS
             + " transfers="
-            + PaymentsNetworkGenerator.DEFAULT_TRANSFERS);
+            + PaymentsNetworkGenerator.DEFAULT_TRANSFERS
+            + " stream-seed="
+            + PaymentsStream.DEFAULT_SEED);
   }
 
   /** As {@link #prepare(Path)} with another generator (tests); {@code settings} names it. */
@@ -123,7 +141,9 @@ public final class DemoFiles {
       return new DemoFiles(directory, false);
     }
     LOG.info("generating the demo files in {}", directory);
-    write(directory, generator.generate(), header);
+    PaymentsNetwork network = generator.generate();
+    write(
+        directory, network, PaymentsStream.generate(network, PaymentsStream.DEFAULT_SEED), header);
     return new DemoFiles(directory, true);
   }
 
@@ -164,6 +184,24 @@ public final class DemoFiles {
   }
 
   /**
+   * Returns the stream file.
+   *
+   * @return {@code directory/stream.csv}
+   */
+  public Path stream() {
+    return directory.resolve(STREAM);
+  }
+
+  /**
+   * Returns the file with the roles of the accounts the stream opens.
+   *
+   * @return {@code directory/stream-accounts.csv}
+   */
+  public Path streamAccounts() {
+    return directory.resolve(STREAM_ACCOUNTS);
+  }
+
+  /**
    * Returns whether {@link #prepare} generated the files in this call (rather than reusing them).
    *
    * @return true if they were (re)generated
@@ -189,7 +227,7 @@ public final class DemoFiles {
       return false;
     }
     String[] lines = manifest.substring(header.length()).split("\n");
-    if (lines.length != 3) {
+    if (lines.length != DATA_FILES.size()) {
       return false;
     }
     for (String line : lines) {
@@ -210,13 +248,14 @@ public final class DemoFiles {
     return true;
   }
 
-  private static void write(Path directory, PaymentsNetwork network, String header)
+  private static void write(
+      Path directory, PaymentsNetwork network, PaymentsStream stream, String header)
       throws IOException {
     Map<String, String> digests = new LinkedHashMap<>();
     Map<String, Long> sizes = new LinkedHashMap<>();
     List<Path> temporary = new ArrayList<>();
     try {
-      for (String name : List.of(TRANSFERS, FEATURES, ROLES)) {
+      for (String name : DATA_FILES) {
         Path tmp = Files.createTempFile(directory, "." + name + "-", ".tmp");
         temporary.add(tmp);
         MessageDigest digest = newDigest();
@@ -228,14 +267,16 @@ public final class DemoFiles {
           switch (name) {
             case TRANSFERS -> writeTransfers(network, out);
             case FEATURES -> writeFeatures(network, out);
-            default -> writeRoles(network, out);
+            case ROLES -> writeRoles(network, out);
+            case STREAM -> writeStream(network, stream, out);
+            default -> writeStreamAccounts(stream, out);
           }
         }
         digests.put(name, HexFormat.of().formatHex(digest.digest()));
         sizes.put(name, Files.size(tmp));
       }
       for (int i = 0; i < temporary.size(); i++) {
-        move(temporary.get(i), directory.resolve(List.of(TRANSFERS, FEATURES, ROLES).get(i)));
+        move(temporary.get(i), directory.resolve(DATA_FILES.get(i)));
       }
       StringBuilder manifest = new StringBuilder(header);
       for (Map.Entry<String, String> e : digests.entrySet()) {
@@ -306,6 +347,43 @@ public final class DemoFiles {
       out.write(',');
       out.write(splits[a].name().toLowerCase(java.util.Locale.ROOT));
       out.write('\n');
+    }
+  }
+
+  private static void writeStream(PaymentsNetwork network, PaymentsStream stream, Writer out)
+      throws IOException {
+    out.write("time,kind,source,target," + String.join(",", network.featureNames()) + "\n");
+    String noFeatures = ",".repeat(network.featureNames().size());
+    for (PaymentsStream.Event e : stream.events()) {
+      out.write(String.format(java.util.Locale.ROOT, "%.3f", e.time()));
+      out.write(',');
+      out.write(e.kind());
+      out.write(',');
+      out.write(e.source());
+      out.write(',');
+      out.write(e.target());
+      float[] x = e.features();
+      if (x.length == 0) {
+        out.write(noFeatures);
+      } else {
+        for (float v : x) {
+          out.write(',');
+          out.write(Float.toString(v));
+        }
+      }
+      out.write('\n');
+    }
+  }
+
+  private static void writeStreamAccounts(PaymentsStream stream, Writer out) throws IOException {
+    out.write("account,role,opened\n");
+    for (PaymentsStream.Event e : stream.events()) {
+      if (e.kind().equals(PaymentsStream.ADD_NODE)) {
+        String role = stream.ringAccounts().contains(e.source()) ? "mule-ring" : "ordinary";
+        out.write(
+            e.source() + "," + role + "," + String.format(java.util.Locale.ROOT, "%.3f", e.time()));
+        out.write('\n');
+      }
     }
   }
 

@@ -33,6 +33,22 @@ public final class PaymentsNetwork {
   private final float[] features;
   private final int[] roles;
   private final Split[] splits;
+  private final Standardisation standardisation;
+  private final double[] propensity;
+
+  /**
+   * How raw features became the standardised ones: {@code (raw - means[c]) / scales[c]} per column,
+   * with the column means and deviations over all accounts of the network.
+   */
+  record Standardisation(double[] means, double[] scales) {
+    float[] apply(double[] raw) {
+      float[] out = new float[raw.length];
+      for (int c = 0; c < raw.length; c++) {
+        out[c] = (float) ((raw[c] - means[c]) / scales[c]);
+      }
+      return out;
+    }
+  }
 
   PaymentsNetwork(
       String[] accountIds,
@@ -41,7 +57,9 @@ public final class PaymentsNetwork {
       List<String> featureNames,
       float[] features,
       int[] roles,
-      Split[] splits) {
+      Split[] splits,
+      Standardisation standardisation,
+      double[] propensity) {
     this.accountIds = accountIds;
     this.transferSources = transferSources;
     this.transferTargets = transferTargets;
@@ -49,10 +67,13 @@ public final class PaymentsNetwork {
     this.features = features;
     this.roles = roles;
     this.splits = splits;
+    this.standardisation = standardisation;
+    this.propensity = propensity;
     if (transferSources.length != transferTargets.length
         || features.length != accountIds.length * featureNames.size()
         || roles.length != accountIds.length
-        || splits.length != accountIds.length) {
+        || splits.length != accountIds.length
+        || propensity.length != accountIds.length) {
       throw new IllegalStateException("inconsistent payments network arrays");
     }
   }
@@ -138,6 +159,16 @@ public final class PaymentsNetwork {
    */
   public Split[] splits() {
     return splits.clone();
+  }
+
+  /** The column means and deviations the features were standardised with. */
+  Standardisation standardisation() {
+    return standardisation;
+  }
+
+  /** Each account's propensity to transact (the generator's Pareto draw); shared, not copied. */
+  double[] propensity() {
+    return propensity;
   }
 
   @Override

@@ -40,12 +40,12 @@ public final class PaymentsNetworkGenerator {
           "devices_seen",
           "business_registration");
 
-  private static final int ORDINARY = 0;
-  private static final int MERCHANT = 1;
-  private static final int MULE = 2;
+  static final int ORDINARY = 0;
+  static final int MERCHANT = 1;
+  static final int MULE = 2;
   private static final double MERCHANT_SHARE = 0.08;
   private static final double MULE_SHARE = 0.02;
-  private static final int RING_SIZE = 10;
+  static final int RING_SIZE = 10;
   private static final double PARETO_SHAPE = 2.1;
   private static final double PROPENSITY_CAP = 300.0;
 
@@ -168,7 +168,10 @@ public final class PaymentsNetworkGenerator {
       made++;
     }
 
-    float[] features = features(roles, random);
+    int f = FEATURE_NAMES.size();
+    double[] means = new double[f];
+    double[] scales = new double[f];
+    float[] features = features(roles, random, means, scales);
     PaymentsNetwork.Split[] splits = new PaymentsNetwork.Split[accounts];
     for (int a = 0; a < accounts; a++) {
       double u = random.nextDouble();
@@ -181,7 +184,16 @@ public final class PaymentsNetworkGenerator {
     for (int a = 0; a < accounts; a++) {
       ids[a] = String.format("acct-%06d", a);
     }
-    return new PaymentsNetwork(ids, sources, targets, FEATURE_NAMES, features, roles, splits);
+    return new PaymentsNetwork(
+        ids,
+        sources,
+        targets,
+        FEATURE_NAMES,
+        features,
+        roles,
+        splits,
+        new PaymentsNetwork.Standardisation(means, scales),
+        propensity);
   }
 
   /** Mule rings are consecutive runs of {@link #RING_SIZE} in the mule member list. */
@@ -195,37 +207,11 @@ public final class PaymentsNetworkGenerator {
     return mate;
   }
 
-  private float[] features(int[] roles, SplittableRandom random) {
+  private float[] features(int[] roles, SplittableRandom random, double[] means, double[] scales) {
     int f = FEATURE_NAMES.size();
     double[] raw = new double[accounts * f];
     for (int a = 0; a < accounts; a++) {
-      int o = a * f;
-      switch (roles[a]) {
-        case MERCHANT -> {
-          raw[o] = Math.max(0.05, 7.0 + 5.0 * random.nextGaussian());
-          raw[o + 1] = 4.1 + 0.9 * random.nextGaussian();
-          raw[o + 2] = clamp01(0.06 + 0.06 * random.nextGaussian());
-          raw[o + 3] = 0.8 + 0.7 * random.nextGaussian();
-          raw[o + 4] = Math.max(1, Math.round(2.2 + 1.5 * random.nextGaussian()));
-          raw[o + 5] = random.nextDouble() < 0.7 ? 1 : 0;
-        }
-        case MULE -> {
-          raw[o] = Math.max(0.05, 2.5 + 2.5 * random.nextGaussian());
-          raw[o + 1] = 4.0 + 0.9 * random.nextGaussian();
-          raw[o + 2] = clamp01(0.14 + 0.10 * random.nextGaussian());
-          raw[o + 3] = 0.1 + 0.6 * random.nextGaussian();
-          raw[o + 4] = Math.max(1, Math.round(2.4 + 1.5 * random.nextGaussian()));
-          raw[o + 5] = random.nextDouble() < 0.05 ? 1 : 0;
-        }
-        default -> {
-          raw[o] = Math.max(0.05, 6.0 + 4.0 * random.nextGaussian());
-          raw[o + 1] = 3.6 + 0.8 * random.nextGaussian();
-          raw[o + 2] = clamp01(0.08 + 0.07 * random.nextGaussian());
-          raw[o + 3] = 0.0 + 0.6 * random.nextGaussian();
-          raw[o + 4] = Math.max(1, Math.round(1.6 + 1.0 * random.nextGaussian()));
-          raw[o + 5] = random.nextDouble() < 0.04 ? 1 : 0;
-        }
-      }
+      drawRawFeatures(roles[a], random, raw, a * f);
     }
     float[] standardised = new float[raw.length];
     for (int c = 0; c < f; c++) {
@@ -240,11 +226,46 @@ public final class PaymentsNetworkGenerator {
         var += d * d;
       }
       double sd = Math.sqrt(var / accounts);
+      means[c] = mean;
+      scales[c] = sd == 0 ? 1 : sd;
       for (int a = 0; a < accounts; a++) {
-        standardised[a * f + c] = (float) ((raw[a * f + c] - mean) / (sd == 0 ? 1 : sd));
+        standardised[a * f + c] = (float) ((raw[a * f + c] - mean) / scales[c]);
       }
     }
     return standardised;
+  }
+
+  /**
+   * Draws one account's raw (unstandardised) features for its role into {@code raw[offset .. offset
+   * + 5]}, consuming the random stream in a fixed order.
+   */
+  static void drawRawFeatures(int role, SplittableRandom random, double[] raw, int o) {
+    switch (role) {
+      case MERCHANT -> {
+        raw[o] = Math.max(0.05, 7.0 + 5.0 * random.nextGaussian());
+        raw[o + 1] = 4.1 + 0.9 * random.nextGaussian();
+        raw[o + 2] = clamp01(0.06 + 0.06 * random.nextGaussian());
+        raw[o + 3] = 0.8 + 0.7 * random.nextGaussian();
+        raw[o + 4] = Math.max(1, Math.round(2.2 + 1.5 * random.nextGaussian()));
+        raw[o + 5] = random.nextDouble() < 0.7 ? 1 : 0;
+      }
+      case MULE -> {
+        raw[o] = Math.max(0.05, 2.5 + 2.5 * random.nextGaussian());
+        raw[o + 1] = 4.0 + 0.9 * random.nextGaussian();
+        raw[o + 2] = clamp01(0.14 + 0.10 * random.nextGaussian());
+        raw[o + 3] = 0.1 + 0.6 * random.nextGaussian();
+        raw[o + 4] = Math.max(1, Math.round(2.4 + 1.5 * random.nextGaussian()));
+        raw[o + 5] = random.nextDouble() < 0.05 ? 1 : 0;
+      }
+      default -> {
+        raw[o] = Math.max(0.05, 6.0 + 4.0 * random.nextGaussian());
+        raw[o + 1] = 3.6 + 0.8 * random.nextGaussian();
+        raw[o + 2] = clamp01(0.08 + 0.07 * random.nextGaussian());
+        raw[o + 3] = 0.0 + 0.6 * random.nextGaussian();
+        raw[o + 4] = Math.max(1, Math.round(1.6 + 1.0 * random.nextGaussian()));
+        raw[o + 5] = random.nextDouble() < 0.04 ? 1 : 0;
+      }
+    }
   }
 
   private static double clamp01(double x) {

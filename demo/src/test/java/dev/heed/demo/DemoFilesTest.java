@@ -79,10 +79,47 @@ class DemoFilesTest {
   }
 
   @Test
+  void streamFileHoldsTheStreamExactly() throws IOException {
+    DemoFiles files = prepare(dir);
+    PaymentsNetwork network = PaymentsNetworkGenerator.of(ACCOUNTS, TRANSFERS, SEED).generate();
+    PaymentsStream stream = PaymentsStream.generate(network, PaymentsStream.DEFAULT_SEED);
+    List<String> lines = Files.readAllLines(files.stream(), StandardCharsets.UTF_8);
+    assertEquals(
+        "time,kind,source,target," + String.join(",", PaymentsNetworkGenerator.FEATURE_NAMES),
+        lines.get(0));
+    assertEquals(stream.events().size() + 1, lines.size());
+    int f = PaymentsNetworkGenerator.FEATURE_NAMES.size();
+    for (int i = 0; i < stream.events().size(); i++) {
+      PaymentsStream.Event e = stream.events().get(i);
+      String[] fields = lines.get(i + 1).split(",", -1);
+      assertEquals(4 + f, fields.length, "line " + (i + 2));
+      assertEquals(e.time(), Double.parseDouble(fields[0]), 5e-4, "line " + (i + 2));
+      assertEquals(e.kind(), fields[1]);
+      assertEquals(e.source(), fields[2]);
+      assertEquals(e.target(), fields[3]);
+      float[] x = e.features();
+      for (int c = 0; c < f; c++) {
+        assertEquals(x.length == 0 ? "" : Float.toString(x[c]), fields[4 + c]);
+      }
+    }
+    List<String> accounts = Files.readAllLines(files.streamAccounts(), StandardCharsets.UTF_8);
+    assertEquals("account,role,opened", accounts.get(0));
+    assertEquals(PaymentsStream.RING_MEMBERS + PaymentsStream.NEW_CUSTOMERS + 1, accounts.size());
+    long mules = accounts.stream().filter(l -> l.contains(",mule-ring,")).count();
+    assertEquals(PaymentsStream.RING_MEMBERS, mules);
+  }
+
+  @Test
   void sameSettingsGiveTheSameBytesAndAreReused() throws IOException {
     DemoFiles first = prepare(dir.resolve("a"));
     DemoFiles other = prepare(dir.resolve("b"));
-    for (String name : List.of(DemoFiles.TRANSFERS, DemoFiles.FEATURES, DemoFiles.ROLES)) {
+    for (String name :
+        List.of(
+            DemoFiles.TRANSFERS,
+            DemoFiles.FEATURES,
+            DemoFiles.ROLES,
+            DemoFiles.STREAM,
+            DemoFiles.STREAM_ACCOUNTS)) {
       assertArrayEquals(
           Files.readAllBytes(first.directory().resolve(name)),
           Files.readAllBytes(other.directory().resolve(name)),
@@ -127,7 +164,13 @@ class DemoFilesTest {
 
     try (var listing = Files.list(dir)) {
       assertEquals(
-          List.of(DemoFiles.FEATURES, DemoFiles.MANIFEST, DemoFiles.ROLES, DemoFiles.TRANSFERS),
+          List.of(
+              DemoFiles.FEATURES,
+              DemoFiles.MANIFEST,
+              DemoFiles.ROLES,
+              DemoFiles.STREAM_ACCOUNTS,
+              DemoFiles.STREAM,
+              DemoFiles.TRANSFERS),
           listing.map(p -> p.getFileName().toString()).sorted().toList(),
           "no temporary files left behind");
     }

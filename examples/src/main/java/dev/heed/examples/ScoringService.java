@@ -1,5 +1,6 @@
 package dev.heed.examples;
 
+import com.fasterxml.jackson.databind.JsonNode;
 import com.fasterxml.jackson.databind.ObjectMapper;
 import com.fasterxml.jackson.databind.node.ArrayNode;
 import com.fasterxml.jackson.databind.node.ObjectNode;
@@ -14,16 +15,25 @@ import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
 import dev.heed.demo.PaymentsNetwork;
 import dev.heed.demo.PaymentsNetworkGenerator;
+import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.IndexedGraph;
+import dev.heed.live.BatchResult;
+import dev.heed.live.LiveSnapshot;
+import dev.heed.live.RejectedUpdateException;
+import dev.heed.live.UpdateBatch;
+import dev.heed.live.VersionedGraph;
 import dev.heed.model.AttentionModel;
 import java.io.IOException;
+import java.io.InputStream;
 import java.io.OutputStream;
 import java.net.InetAddress;
 import java.net.InetSocketAddress;
 import java.net.URI;
 import java.net.URLDecoder;
 import java.nio.charset.StandardCharsets;
+import java.util.Arrays;
 import java.util.HashMap;
+import java.util.Iterator;
 import java.util.List;
 import java.util.Map;
 import java.util.Objects;
@@ -40,45 +50,59 @@ import org.slf4j.LoggerFactory;
 
 /**
  * A minimal scoring service on the JDK's built-in HTTP server: it loads a model, a graph and its
- * features once at start-up, and answers "what does the model say about this account, and whom did
- * it look at?" over HTTP.
+ * features once at start-up, answers "what does the model say about this account, and whom did it
+ * look at?" over HTTP, and takes new accounts and transfers as they happen, so that its answers
+ * stay exact for the graph as it is now.
  *
  * <p>Scenario (invented): a payments platform asks, for one account at a time, for the demo model's
  * view of that account (ordinary, merchant or mule-ring, with probabilities), for example while an
  * operator reviews a case. The graph is the demo's invented payments network.
  *
- * <h2>Endpoints (GET only, JSON answers)</h2>
+ * <h2>Endpoints (JSON answers)</h2>
  *
  * <ul>
- *   <li>{@code /score?node=acct-000123&explain=3}: the account's label, its probability, every
- *       label's probability, and with {@code explain=k} (0 to {@value #MAX_EXPLAIN}, default 0) the
- *       k neighbours each attention layer attended to most, by account id. Served from the
- *       predictions computed at start-up.
- *   <li>{@code /score?node=acct-000123&explain=3&fresh=true}: the same, computed on request.
- *   <li>{@code /health}: {@code {"status":"ok","nodes":n}}.
+ *   <li>{@code GET /score?node=acct-000123&explain=3}: the account's label, its probability, every
+ *       label's probability, the graph {@code version} they reflect, and with {@code explain=k} (0
+ *       to {@value #MAX_EXPLAIN}, default 0) the k neighbours each attention layer attended to
+ *       most, by account id. Served from the score table (see below).
+ *   <li>{@code GET /score?node=acct-000123&explain=3&fresh=true}: the same, computed on request
+ *       from the same version.
+ *   <li>{@code POST /transfers} with a JSON body {@code {"accounts": [{"id": "acct-new",
+ *       "features": [six numbers]}], "transfers": [{"source": "acct-000007", "target":
+ *       "acct-new"}], "recalled": [{"source": ..., "target": ...}]}} (every key optional): adds the
+ *       new accounts, then the transfers, then removes the recalled transfers' edges, all in one
+ *       version, or none of it. The answer gives the new {@code version}, how many nodes changed
+ *       and were rescored, and every account whose top label changed ({@code label_changes}).
+ *   <li>{@code GET /health}: {@code {"status":"ok","nodes":n,"version":v}}.
  * </ul>
  *
- * Errors are JSON too, {@code {"error":"..."}}: 400 for a missing or malformed parameter, 404 for
- * an unknown account or path, 405 for another method. An unexpected failure gives 500 with a
- * generic message; the stack trace goes to the server's log, never to the client.
+ * Errors are JSON too, {@code {"error":"..."}}: 400 for a missing or malformed parameter or body
+ * (an unknown account, a recalled transfer that is not there, an account added twice, features of
+ * the wrong width or not finite: the update is refused whole and nothing changes), 404 for an
+ * unknown account or path, 405 for another method, 413 for a body over {@value #MAX_BODY_BYTES}
+ * bytes. An unexpected failure gives 500 with a generic message; the stack trace goes to the
+ * server's log, never to the client.
  *
  * <h2>Design</h2>
  *
- * <p><b>Precomputed by default.</b> A graph attention model's answer for one node depends on its
- * neighbourhood. With a graph and features that are fixed while the service runs, the cheapest
- * correct design is one forward pass at start-up (with explanations) and answers from memory
- * afterwards: each request then costs a hash lookup and some JSON. <b>On-demand</b> ({@code
- * fresh=true}) runs the model for that request; it shows the path a service would take when
- * features change between requests (then pass the current features instead of the start-up ones).
- * {@link NodeClassifier} then computes only the node's receptive field (its in-neighbourhood of as
- * many hops as the model has attention layers), not the whole graph.
+ * <p><b>A score table, kept exact.</b> A graph attention model's answer for one node depends on its
+ * neighbourhood. The service makes one forward pass at start-up (with explanations) and answers
+ * from that table: each request costs a lookup and some JSON. The graph lives in a {@link
+ * VersionedGraph}; an update is applied as one batch, and then the nodes it can have changed (the
+ * changed nodes and those downstream of them, as many hops as the model has attention layers; see
+ * {@code LiveScores}) are scored again over their receptive fields, and a new table (version,
+ * snapshot, scores) is published in one step. So every answer is exact for the version it names,
+ * and a reader never sees half an update. <b>On-demand</b> ({@code fresh=true}) runs the model for
+ * that request on the table's version; {@link NodeClassifier} then computes only the node's
+ * receptive field (its in-neighbourhood of as many hops as the model has attention layers).
  *
  * <p><b>Concurrency.</b> The model, the classifier, the graph and the features are immutable and
- * thread safe; each classify call uses its own scratch. Requests run on a fixed pool of {@code
- * threads} workers, so at most {@code threads} forward passes (and their memory) are in flight at
- * once. Requests beyond that wait in a queue of {@value #QUEUE_CAPACITY}; when the queue is full
- * the server's dispatcher thread runs the request itself, which pauses accepting new connections
- * (backpressure instead of unbounded memory).
+ * thread safe; each classify call uses its own scratch. Updates are applied one at a time (a lock),
+ * so a slow update delays the next update, never a score query. Requests run on a fixed pool of
+ * {@code threads} workers, so at most {@code threads} forward passes (and their memory) are in
+ * flight at once. Requests beyond that wait in a queue of {@value #QUEUE_CAPACITY}; when the queue
+ * is full the server's dispatcher thread runs the request itself, which pauses accepting new
+ * connections (backpressure instead of unbounded memory).
  *
  * <p><b>Network.</b> It listens on the loopback interface (127.0.0.1) only; put a real gateway with
  * authentication in front of anything that leaves the machine.
@@ -96,6 +120,8 @@ import org.slf4j.LoggerFactory;
  * <pre>
  * examples/run ScoringService path/to/model.heed 8080
  * curl 'http://127.0.0.1:8080/score?node=acct-000123&amp;explain=3'
+ * curl -d '{"transfers": [{"source": "acct-000007", "target": "acct-000123"}]}' \
+ *     http://127.0.0.1:8080/transfers
  * </pre>
  *
  * Arguments: the model (a file, or {@code classpath:/dev/heed/demo/payments-demo.heed}, the bundled
@@ -115,43 +141,59 @@ public final class ScoringService implements AutoCloseable {
   /** Requests that may wait for a worker before the dispatcher runs them itself. */
   public static final int QUEUE_CAPACITY = 256;
 
+  /** Largest request body {@code POST /transfers} accepts, in bytes. */
+  public static final int MAX_BODY_BYTES = 1 << 20;
+
   /** Seconds {@link #close()} waits for requests in progress. */
   public static final int STOP_GRACE_SECONDS = 2;
 
   private static final Logger LOG = LoggerFactory.getLogger(ScoringService.class);
   private static final ObjectMapper JSON = new ObjectMapper();
   private static final Set<String> SCORE_PARAMETERS = Set.of("node", "explain", "fresh");
+  private static final Set<String> UPDATE_KEYS = Set.of("accounts", "transfers", "recalled");
+
+  /**
+   * What score queries read: one version of the graph and every node's scores for it, published
+   * together.
+   */
+  private record Table(LiveSnapshot<String> snapshot, NodePrediction[] predictions) {}
 
   /** Element k explains by k neighbours (none for 0). */
   private final NodeClassifier[] onRequest;
 
-  private final IndexedGraph<String> graph;
-  private final NodeFeatures features;
-  private final Classification precomputed;
+  private final List<String> labels;
+  private final VersionedGraph<String> live;
+  private final Object updateLock = new Object();
+  private final LiveScores rescoring; // guarded by updateLock
+  private volatile Table table;
   private final HttpServer server;
   private final ThreadPoolExecutor workers;
   private final AtomicBoolean closed = new AtomicBoolean();
 
   private ScoringService(
       NodeClassifier[] onRequest,
-      IndexedGraph<String> graph,
-      NodeFeatures features,
-      Classification precomputed,
+      List<String> labels,
+      VersionedGraph<String> live,
+      LiveScores rescoring,
+      Table table,
       HttpServer server,
       ThreadPoolExecutor workers) {
     this.onRequest = onRequest;
-    this.graph = graph;
-    this.features = features;
-    this.precomputed = precomputed;
+    this.labels = labels;
+    this.live = live;
+    this.rescoring = rescoring;
+    this.table = table;
     this.server = server;
     this.workers = workers;
   }
 
   /**
-   * Classifies every node once, then starts serving on 127.0.0.1.
+   * Classifies every node once, then starts serving on 127.0.0.1. Updates grow the graph with the
+   * model's recorded graph policies, or symmetrised with self-loops ({@link
+   * GraphPolicies#UNDIRECTED_WITH_SELF_LOOPS}, the demo's) when it records none.
    *
    * @param model the model; its feature count must match {@code features}
-   * @param graph the graph with the index from account ids to nodes
+   * @param graph the graph with the index from account ids to nodes, built with those policies
    * @param features one row per node, in node order
    * @param port the port, or 0 for any free port (see {@link #port()})
    * @param threads worker threads, at least 1
@@ -168,6 +210,40 @@ public final class ScoringService implements AutoCloseable {
       int threads)
       throws IOException {
     Objects.requireNonNull(model, "model");
+    return start(
+        model,
+        graph,
+        features,
+        model.graphPolicies().orElse(GraphPolicies.UNDIRECTED_WITH_SELF_LOOPS),
+        port,
+        threads);
+  }
+
+  /**
+   * {@link #start(AttentionModel, IndexedGraph, NodeFeatures, int, int)} with the graph policies
+   * the graph was built with, which updates follow.
+   *
+   * @param model the model; its feature count must match {@code features}
+   * @param graph the graph with the index from account ids to nodes
+   * @param features one row per node, in node order
+   * @param policies how {@code graph} was built from its edges
+   * @param port the port, or 0 for any free port
+   * @param threads worker threads, at least 1
+   * @return the running service
+   * @throws IllegalArgumentException if the features do not fit the model or graph, or {@code
+   *     threads} is below 1
+   * @throws IOException if the port cannot be bound
+   */
+  public static ScoringService start(
+      AttentionModel model,
+      IndexedGraph<String> graph,
+      NodeFeatures features,
+      GraphPolicies policies,
+      int port,
+      int threads)
+      throws IOException {
+    Objects.requireNonNull(model, "model");
+    Objects.requireNonNull(policies, "policies");
     Objects.requireNonNull(graph, "graph");
     Objects.requireNonNull(features, "features");
     if (threads < 1) {
@@ -179,13 +255,17 @@ public final class ScoringService implements AutoCloseable {
       onRequest[k] = NodeClassifier.of(model, ClassifyOptions.defaults().withExplanations(k));
     }
     long started = System.nanoTime();
+    ClassifyOptions explained = ClassifyOptions.defaults().withExplanations(MAX_EXPLAIN);
     Classification precomputed =
-        NodeClassifier.of(model, ClassifyOptions.defaults().withExplanations(MAX_EXPLAIN))
-            .classify(graph.graph(), features);
+        NodeClassifier.of(model, explained).classify(graph.graph(), features);
     LOG.info(
         "classified {} nodes in {} ms",
         graph.graph().nodeCount(),
         (System.nanoTime() - started) / 1_000_000);
+    VersionedGraph<String> live = LiveScores.load(graph, features, policies);
+    LiveScores rescoring = new LiveScores(model, explained, live.snapshot());
+    Table table =
+        new Table(live.snapshot(), precomputed.predictions().toArray(new NodePrediction[0]));
 
     ThreadPoolExecutor workers =
         new ThreadPoolExecutor(
@@ -201,10 +281,11 @@ public final class ScoringService implements AutoCloseable {
       server = HttpServer.create(new InetSocketAddress(InetAddress.getLoopbackAddress(), port), 0);
     } catch (IOException e) {
       workers.shutdown();
+      live.close();
       throw e;
     }
     ScoringService service =
-        new ScoringService(onRequest, graph, features, precomputed, server, workers);
+        new ScoringService(onRequest, model.classLabels(), live, rescoring, table, server, workers);
     server.createContext("/", service::handle);
     server.setExecutor(workers);
     server.start();
@@ -255,17 +336,33 @@ public final class ScoringService implements AutoCloseable {
       workers.shutdownNow();
       Thread.currentThread().interrupt();
     }
+    live.close();
     LOG.info("scoring service stopped");
+  }
+
+  /**
+   * Returns the graph version score queries answer from now.
+   *
+   * @return the version, 1 after start-up
+   */
+  public long version() {
+    return table.snapshot().version();
   }
 
   /** A request that cannot be answered, with its status and a message for the client. */
   private static final class RequestProblem extends Exception {
     private static final long serialVersionUID = 1L;
     private final int status;
+    private final String allow;
 
     RequestProblem(int status, String message) {
+      this(status, message, null);
+    }
+
+    RequestProblem(int status, String message, String allow) {
       super(message, null, false, false);
       this.status = status;
+      this.allow = allow;
     }
   }
 
@@ -278,8 +375,8 @@ public final class ScoringService implements AutoCloseable {
       } catch (RequestProblem p) {
         status = p.status;
         body = error(p.getMessage());
-        if (status == 405) {
-          exchange.getResponseHeaders().set("Allow", "GET");
+        if (p.allow != null) {
+          exchange.getResponseHeaders().set("Allow", p.allow);
         }
       } catch (RuntimeException e) {
         LOG.error("failed to answer {}", exchange.getRequestURI(), e);
@@ -292,19 +389,27 @@ public final class ScoringService implements AutoCloseable {
     }
   }
 
-  private ObjectNode answer(HttpExchange exchange) throws RequestProblem {
+  private ObjectNode answer(HttpExchange exchange) throws RequestProblem, IOException {
     String path = exchange.getRequestURI().getPath();
-    if (!path.equals("/score") && !path.equals("/health")) {
-      throw new RequestProblem(404, "no such path '" + path + "'; use /score or /health");
-    }
-    if (!exchange.getRequestMethod().equals("GET")) {
+    String method = exchange.getRequestMethod();
+    if (!path.equals("/score") && !path.equals("/health") && !path.equals("/transfers")) {
       throw new RequestProblem(
-          405, "method " + exchange.getRequestMethod() + " is not allowed; use GET");
+          404, "no such path '" + path + "'; use /score, /transfers or /health");
     }
+    String allowed = path.equals("/transfers") ? "POST" : "GET";
+    if (!method.equals(allowed)) {
+      throw new RequestProblem(
+          405, "method " + method + " is not allowed on " + path + "; use " + allowed, allowed);
+    }
+    if (path.equals("/transfers")) {
+      return update(readBody(exchange));
+    }
+    Table now = table;
     if (path.equals("/health")) {
       ObjectNode health = JSON.createObjectNode();
       health.put("status", "ok");
-      health.put("nodes", graph.graph().nodeCount());
+      health.put("nodes", now.snapshot().nodeCount());
+      health.put("version", now.snapshot().version());
       return health;
     }
     Map<String, String> query = parseQuery(exchange.getRequestURI().getRawQuery());
@@ -312,7 +417,7 @@ public final class ScoringService implements AutoCloseable {
     if (id == null || id.isEmpty()) {
       throw new RequestProblem(400, "missing parameter 'node' (an account id)");
     }
-    int node = graph.nodes().indexOf(id);
+    int node = now.snapshot().nodes().indexOf(id);
     if (node < 0) {
       throw new RequestProblem(404, "unknown node '" + id + "'");
     }
@@ -320,19 +425,147 @@ public final class ScoringService implements AutoCloseable {
     boolean fresh = parseFresh(query.get("fresh"));
     NodePrediction prediction =
         fresh
-            ? onRequest[explain].classify(graph.graph(), features, node).predictions().get(0)
-            : precomputed.forNode(node);
-    return render(prediction, explain, fresh);
+            ? onRequest[explain]
+                .classifyFromRows(now.snapshot(), now.snapshot(), node)
+                .predictions()
+                .get(0)
+            : now.predictions()[node];
+    return render(now, prediction, explain, fresh);
   }
 
-  private ObjectNode render(NodePrediction p, int explain, boolean fresh) {
+  private static byte[] readBody(HttpExchange exchange) throws IOException, RequestProblem {
+    try (InputStream in = exchange.getRequestBody()) {
+      byte[] body = in.readNBytes(MAX_BODY_BYTES + 1);
+      if (body.length > MAX_BODY_BYTES) {
+        throw new RequestProblem(
+            413, "the body is over " + MAX_BODY_BYTES + " bytes; send the updates in parts");
+      }
+      return body;
+    }
+  }
+
+  /**
+   * Applies one update: parses the whole body first, records it as one batch, applies it (whole or
+   * not at all), scores the nodes it can have changed and publishes the new table.
+   */
+  private ObjectNode update(byte[] body) throws RequestProblem {
+    JsonNode request;
+    try {
+      request = JSON.readTree(body);
+    } catch (IOException e) {
+      throw new RequestProblem(400, "the body is not valid JSON: " + firstLine(e.getMessage()));
+    }
+    if (request == null || !request.isObject()) {
+      throw new RequestProblem(
+          400, "the body must be a JSON object with 'accounts', 'transfers' and/or 'recalled'");
+    }
+    for (Iterator<String> keys = request.fieldNames(); keys.hasNext(); ) {
+      String key = keys.next();
+      if (!UPDATE_KEYS.contains(key)) {
+        throw new RequestProblem(400, "unknown key '" + key + "'; expected " + UPDATE_KEYS);
+      }
+    }
+    synchronized (updateLock) {
+      UpdateBatch<String> batch = live.newBatch();
+      for (JsonNode account : items(request, "accounts")) {
+        String id = text(account, "id", "accounts");
+        JsonNode values = account.get("features");
+        if (values == null || !values.isArray() || account.size() != 2) {
+          throw new RequestProblem(
+              400, "each of 'accounts' is {\"id\": ..., \"features\": [numbers]}");
+        }
+        float[] x = new float[values.size()];
+        for (int k = 0; k < x.length; k++) {
+          if (!values.get(k).isNumber()) {
+            throw new RequestProblem(
+                400, "feature " + k + " of account '" + id + "' is not a number");
+          }
+          x[k] = values.get(k).floatValue();
+        }
+        try {
+          batch.addNode(id, x);
+        } catch (IllegalArgumentException e) {
+          throw new RequestProblem(400, e.getMessage());
+        }
+      }
+      for (JsonNode transfer : items(request, "transfers")) {
+        batch.addEdge(text(transfer, "source", "transfers"), text(transfer, "target", "transfers"));
+      }
+      for (JsonNode recalled : items(request, "recalled")) {
+        batch.removeEdge(
+            text(recalled, "source", "recalled"), text(recalled, "target", "recalled"));
+      }
+      if (batch.isEmpty()) {
+        throw new RequestProblem(400, "the update is empty; nothing to apply");
+      }
+      BatchResult result;
+      try {
+        result = live.apply(batch);
+      } catch (RejectedUpdateException e) {
+        throw new RequestProblem(400, e.getMessage());
+      }
+      LiveSnapshot<String> snapshot = live.snapshot();
+      Classification fresh = rescoring.refresh(snapshot, result);
+      Table before = table;
+      NodePrediction[] predictions = Arrays.copyOf(before.predictions(), snapshot.nodeCount());
+      ObjectNode answer = JSON.createObjectNode();
+      answer.put("version", snapshot.version());
+      answer.put("nodes", snapshot.nodeCount());
+      answer.put("changed_nodes", result.changedNodeCount());
+      answer.put("rescored", fresh == null ? 0 : fresh.predictions().size());
+      ArrayNode changes = answer.putArray("label_changes");
+      if (fresh != null) {
+        for (NodePrediction p : fresh.predictions()) {
+          NodePrediction old = predictions[p.node()];
+          if (old == null || old.labelIndex() != p.labelIndex()) {
+            ObjectNode change = changes.addObject();
+            change.put("node", snapshot.nodes().idOf(p.node()));
+            change.put("old_label", old == null ? null : old.label());
+            change.put("label", p.label());
+            change.put("probability", p.probability());
+          }
+          predictions[p.node()] = p;
+        }
+      }
+      table = new Table(snapshot, predictions);
+      return answer;
+    }
+  }
+
+  private static Iterable<JsonNode> items(JsonNode request, String key) throws RequestProblem {
+    JsonNode list = request.get(key);
+    if (list == null) {
+      return List.of();
+    }
+    if (!list.isArray()) {
+      throw new RequestProblem(400, "'" + key + "' must be a JSON array");
+    }
+    return list;
+  }
+
+  private static String text(JsonNode item, String field, String key) throws RequestProblem {
+    JsonNode value = item.isObject() ? item.get(field) : null;
+    if (value == null || !value.isTextual() || value.asText().isEmpty()) {
+      throw new RequestProblem(
+          400, "each of '" + key + "' needs '" + field + "', an account id as a JSON string");
+    }
+    return value.asText();
+  }
+
+  private static String firstLine(String message) {
+    String m = String.valueOf(message);
+    int end = m.indexOf('\n');
+    return end < 0 ? m : m.substring(0, end);
+  }
+
+  private ObjectNode render(Table now, NodePrediction p, int explain, boolean fresh) {
     ObjectNode out = JSON.createObjectNode();
-    out.put("node", graph.nodes().idOf(p.node()));
+    out.put("node", now.snapshot().nodes().idOf(p.node()));
     out.put("label", p.label());
     out.put("probability", p.probability());
+    out.put("version", now.snapshot().version());
     ObjectNode probabilities = out.putObject("probabilities");
     float[] all = p.probabilities();
-    List<String> labels = precomputed.classLabels();
     for (int c = 0; c < all.length; c++) {
       probabilities.put(labels.get(c), all[c]);
     }
@@ -346,12 +579,12 @@ public final class ScoringService implements AutoCloseable {
         List<NeighbourWeight> top = layer.topNeighbours();
         for (NeighbourWeight w : top.subList(0, Math.min(explain, top.size()))) {
           ObjectNode n = neighbours.addObject();
-          n.put("node", graph.nodes().idOf(w.node()));
+          n.put("node", now.snapshot().nodes().idOf(w.node()));
           n.put("weight", w.weight());
         }
       }
     }
-    out.put("computed", fresh ? "on-request" : "at-start-up");
+    out.put("computed", fresh ? "on-request" : "from-table");
     return out;
   }
 

@@ -196,7 +196,7 @@ class ScoringServiceTest {
       assertEquals(p[c], floatOf(answer.get("probabilities").get(label)), 0f, where);
     }
     assertFalse(labels.hasNext(), where);
-    assertEquals(onRequest ? "on-request" : "at-start-up", answer.get("computed").asText(), where);
+    assertEquals(onRequest ? "on-request" : "from-table", answer.get("computed").asText(), where);
     if (explain == 0) {
       assertFalse(answer.has("explanation"), where);
       return;
