@@ -1,6 +1,7 @@
 package dev.heed.model;
 
 import dev.heed.attention.internal.MatrixProduct;
+import dev.heed.attention.internal.RowProjectors;
 import java.util.Arrays;
 import java.util.ServiceLoader;
 import org.slf4j.Logger;
@@ -67,29 +68,18 @@ final class ModelMath {
   }
 
   /**
-   * The product in plain Java. The loop order (i, k, j) streams rows of w, which the JIT
-   * vectorises, and zero inputs are skipped (sparse features cost less).
+   * The product in Java: the bias (or zeros), then {@link RowProjectors#preferred()} (the Vector
+   * API when the JVM reads it, else plain Java).
    */
   static float[] projectInJava(float[] x, int n, int in, float[] w, int out, float[] bias) {
     assert x.length >= (long) n * in && w.length == (long) in * out;
     float[] y = new float[n * out];
-    for (int i = 0; i < n; i++) {
-      int yRow = i * out;
-      if (bias != null) {
+    if (bias != null) {
+      for (int yRow = 0; yRow < y.length; yRow += out) {
         System.arraycopy(bias, 0, y, yRow, out);
       }
-      int xRow = i * in;
-      for (int k = 0; k < in; k++) {
-        float xv = x[xRow + k];
-        if (xv == 0f) {
-          continue;
-        }
-        int wRow = k * out;
-        for (int j = 0; j < out; j++) {
-          y[yRow + j] += xv * w[wRow + j];
-        }
-      }
     }
+    RowProjectors.preferred().multiplyAdd(x, n, in, w, out, y);
     return y;
   }
 

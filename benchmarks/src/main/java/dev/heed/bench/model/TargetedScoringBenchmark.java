@@ -89,12 +89,12 @@ public class TargetedScoringBenchmark {
   private static final int HEAD_WIDTH = 8;
   private static final int CLASSES = 4;
 
-  private CsrGraph graph;
+  CsrGraph graph;
   private float[] values;
-  private NodeFeatures features;
+  NodeFeatures features;
   private AttentionModel model;
-  private NodeClassifier classifier;
-  private int[] targets;
+  NodeClassifier classifier;
+  int[] targets;
   private int next;
 
   /** Builds the graph, features, model and query list. */
