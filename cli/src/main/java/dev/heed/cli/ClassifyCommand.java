@@ -200,9 +200,12 @@ final class ClassifyCommand implements Callable<Integer> {
     return 0;
   }
 
+  /** Node count above which an explicit dense path gets a note about its n² cost. */
+  static final int DENSE_NOTE_MIN_NODES = 4096;
+
   /** An explicit dense path over a large graph works in n² per head; say so before it starts. */
   static void warnIfDenseIsCostly(PathChoice choice, int nodeCount, PrintWriter err) {
-    if (choice == PathChoice.DENSE && nodeCount > PathChoice.AUTO_DENSE_MAX_NODES) {
+    if (choice == PathChoice.DENSE && nodeCount > DENSE_NOTE_MIN_NODES) {
       err.printf(
           Locale.ROOT,
           "heed: note: --path dense on %,d nodes: the dense path's work grows with n² per head"
