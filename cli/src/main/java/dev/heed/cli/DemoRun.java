@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import dev.heed.attention.PathCosts;
 import dev.heed.classify.Classification;
 import dev.heed.classify.NeighbourWeight;
 import dev.heed.classify.NodePrediction;
@@ -53,6 +54,7 @@ final class DemoRun {
   int run(
       Path directory,
       Path modelFile,
+      PathCosts pathCosts,
       PathChoice path,
       Integer threads,
       int explainK,
@@ -70,6 +72,7 @@ final class DemoRun {
       model = bundledModel();
       modelName = "bundled " + MODEL_RESOURCE.substring(MODEL_RESOURCE.lastIndexOf('/') + 1);
     }
+    model = ClassifyCommand.withPathCosts(model, pathCosts);
     output.checkReportClass(model.classLabels());
     Path dir = directory != null ? directory : DemoFiles.defaultDirectory();
     long prepareStart = System.nanoTime();

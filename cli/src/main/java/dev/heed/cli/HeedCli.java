@@ -19,6 +19,7 @@ import picocli.CommandLine.Command;
       CheckModelCommand.class,
       TrainCommand.class,
       VerifyCommand.class,
+      CalibrateCommand.class,
       BenchCommand.class
     })
 public final class HeedCli implements Runnable {
