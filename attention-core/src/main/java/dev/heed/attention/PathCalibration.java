@@ -120,60 +120,134 @@ public final class PathCalibration {
       efficiency = Math.max(0.05, Math.min(1, (speedUp - 1) / Math.max(1, used - 1)));
       calls.remove(oneThread);
     }
-    PathCosts prior = PathCosts.builtIn();
-    Map<CostRegime, double[]> fitted = new EnumMap<>(CostRegime.class);
-    int points = 0;
-    for (CostRegime regime : CostRegime.values()) {
-      List<double[]> rows = new ArrayList<>();
-      List<Double> times = new ArrayList<>();
-      for (Call c : calls) {
-        CallSize size = c.spec.size(threads);
-        if (CostRegime.of(c.spec.path, size) == regime) {
-          rows.add(regime.features(size, efficiency));
-          times.add(c.seconds());
-        }
-      }
-      if (rows.isEmpty()) {
-        fitted.put(regime, prior.coefficients(regime));
-        continue;
-      }
-      points += rows.size();
-      fitted.put(
-          regime,
-          CostFit.fit(
-              rows.toArray(new double[0][]),
-              times.stream().mapToDouble(Double::doubleValue).toArray(),
-              prior.coefficients(regime)));
+    List<Measurement> measured = new ArrayList<>();
+    for (Call c : calls) {
+      Spec spec = c.spec;
+      CallSize size = spec.size(threads);
+      measured.add(
+          new Measurement(
+              spec.path,
+              spec.n,
+              size.entries(),
+              size.complete(),
+              spec.function(),
+              spec.shape,
+              c.seconds()));
     }
     double seconds = (System.nanoTime() - start) * 1e-9;
-    PathCosts unfitted =
-        new PathCosts(fitted, threads, efficiency, machine(), now(), null, "calibration");
-    double[] errors = new double[calls.size()];
-    for (int i = 0; i < calls.size(); i++) {
-      Call c = calls.get(i);
-      double predicted = unfitted.seconds(c.spec.path, c.spec.size(threads));
-      errors[i] = Math.abs(predicted / c.seconds() - 1);
-    }
-    Arrays.sort(errors);
-    double medianError = errors.length == 0 ? Double.NaN : errors[errors.length / 2];
+    PathCosts costs =
+        fit(measured, threads, efficiency, PathCosts.builtIn(), machine(), seconds, "calibration");
     say.accept(
         String.format(
             Locale.ROOT,
             "fitted %d regimes to %d calls in %.1f s: median relative error %.1f %%, parallel"
                 + " efficiency %.2f",
             CostRegime.values().length,
-            points,
+            measured.size(),
             seconds,
-            medianError * 100,
+            costs.fitMedianRelativeError() * 100,
             efficiency));
+    return costs;
+  }
+
+  /**
+   * One measured attention call, for {@link #fit}.
+   *
+   * @param path the path it ran on
+   * @param nodes n
+   * @param entries E (n² for the complete pattern)
+   * @param complete whether the pattern was the complete one
+   * @param score the score function
+   * @param shape heads and widths
+   * @param seconds its time, positive
+   */
+  public record Measurement(
+      ComputePath path,
+      int nodes,
+      long entries,
+      boolean complete,
+      ScoreFunction score,
+      HeadShape shape,
+      double seconds) {
+
+    /**
+     * Checks the values.
+     *
+     * @throws IllegalArgumentException if seconds is not positive and finite
+     * @throws NullPointerException if path, score or shape is null
+     */
+    public Measurement {
+      Objects.requireNonNull(path, "path");
+      Objects.requireNonNull(score, "score");
+      Objects.requireNonNull(shape, "shape");
+      if (!(seconds > 0 && seconds < Double.POSITIVE_INFINITY)) {
+        throw new IllegalArgumentException("seconds must be positive and finite, got " + seconds);
+      }
+    }
+  }
+
+  /**
+   * Fits a profile to calls measured elsewhere (for example the points of a crossover sweep): each
+   * regime with measurements gets coefficients fitted to them, the others keep {@code prior}'s.
+   *
+   * @param measurements the calls (not modified)
+   * @param threads the threads they ran with, at least 1
+   * @param parallelEfficiency e in {@code [0, 1]}
+   * @param prior the coefficients to start from and fall back to
+   * @param machine a description of the machine
+   * @param seconds how long measuring took, or NaN
+   * @param source the new profile's {@link PathCosts#source()}
+   * @return the fitted profile, with its median relative error over {@code measurements}
+   */
+  public static PathCosts fit(
+      List<Measurement> measurements,
+      int threads,
+      double parallelEfficiency,
+      PathCosts prior,
+      String machine,
+      double seconds,
+      String source) {
+    Map<CostRegime, double[]> fitted = new EnumMap<>(CostRegime.class);
+    for (CostRegime regime : CostRegime.values()) {
+      List<double[]> rows = new ArrayList<>();
+      List<Double> times = new ArrayList<>();
+      for (Measurement m : measurements) {
+        CallSize size = size(m, threads);
+        if (CostRegime.of(m.path(), size) == regime) {
+          rows.add(regime.features(size, parallelEfficiency));
+          times.add(m.seconds());
+        }
+      }
+      fitted.put(
+          regime,
+          rows.isEmpty()
+              ? prior.coefficients(regime)
+              : CostFit.fit(
+                  rows.toArray(new double[0][]),
+                  times.stream().mapToDouble(Double::doubleValue).toArray(),
+                  prior.coefficients(regime)));
+    }
+    PathCosts costs =
+        new PathCosts(fitted, threads, parallelEfficiency, machine, now(), null, source);
+    double[] errors = new double[measurements.size()];
+    for (int i = 0; i < errors.length; i++) {
+      Measurement m = measurements.get(i);
+      errors[i] = Math.abs(costs.seconds(m.path(), size(m, threads)) / m.seconds() - 1);
+    }
+    Arrays.sort(errors);
+    double medianError = errors.length == 0 ? Double.NaN : errors[errors.length / 2];
     return new PathCosts(
         fitted,
         threads,
-        efficiency,
-        machine(),
+        parallelEfficiency,
+        machine,
         now(),
-        new PathCosts.Fit(points, medianError, seconds),
-        "calibration");
+        new PathCosts.Fit(measurements.size(), medianError, seconds),
+        source);
+  }
+
+  private static CallSize size(Measurement m, int threads) {
+    return new CallSize(m.nodes(), m.entries(), m.complete(), m.score(), m.shape(), threads);
   }
 
   private static String now() {

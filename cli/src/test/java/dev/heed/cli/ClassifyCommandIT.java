@@ -467,10 +467,7 @@ class ClassifyCommandIT {
         1,
         foreign + ": not a Heed path-cost profile",
         in.args("--path", "auto", "--path-costs", foreign.toString()));
-    expectError(
-        1,
-        "--path-costs",
-        in.args("--path-costs", dir.resolve("missing.json").toString()));
+    expectError(1, "--path-costs", in.args("--path-costs", dir.resolve("missing.json").toString()));
   }
 
   private void expectError(int exit, String message, String... args) throws Exception {

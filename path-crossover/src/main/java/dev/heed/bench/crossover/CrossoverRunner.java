@@ -749,38 +749,48 @@ public final class CrossoverRunner {
     }
 
     /**
-     * Estimated seconds for one call: extrapolated from the largest point measured so far on the
-     * same path and score (dense by n², sparse by E), or from the path cost model when none was.
+     * Estimated seconds for one call: the fastest rate (seconds per unit of work: n² dense, E
+     * sparse) among the points measured so far on the same path and score with at least 1/64 of
+     * this call's work (the largest point's if none), since other work on the machine only ever
+     * slows a point; no faster than a first call that was too slow to time; from the path cost
+     * model when nothing was measured.
      */
     private double estimateCall(
         ComputePath path, HeadShape shape, SweepScore score, int n, double density, long edges) {
-      SweepPoint basis = null;
-      double basisWork = 0;
+      double target = scaleWork(path, n, edges);
+      double rate = Double.NaN; // seconds per unit of work
+      double largest = 0;
+      double largestRate = Double.NaN;
       for (SweepPoint p : points) {
         if (p.path() != path || p.score() != score || !p.measured()) {
           continue;
         }
         double w = scaleWork(path, p.n(), p.edges());
-        if (w >= basisWork) {
-          basis = p;
-          basisWork = w;
+        double r = p.timing().medianNanos() * 1e-9 / w;
+        if (w >= target / 64 && !(r >= rate)) {
+          rate = r;
+        }
+        if (w >= largest) {
+          largest = w;
+          largestRate = r;
         }
       }
-      double basisNanos = basis == null ? Double.NaN : basis.timing().medianNanos();
+      if (Double.isNaN(rate)) {
+        rate = largestRate;
+      }
       for (double[] slow : slowCalls) {
         if (slow[0] != path.ordinal() || slow[1] != score.ordinal()) {
           continue;
         }
         double w = scaleWork(path, (int) slow[2], (long) slow[3]);
-        if (w <= scaleWork(path, n, edges) && (Double.isNaN(basisNanos) || w >= basisWork)) {
-          basisNanos = slow[4];
-          basisWork = w;
+        if (w <= target) {
+          rate = Math.max(Double.isNaN(rate) ? 0 : rate, slow[4] * 1e-9 / w);
         }
       }
-      if (Double.isNaN(basisNanos)) {
+      if (Double.isNaN(rate)) {
         return modelCallSeconds(path, shape, score, n, density, edges, costs, config);
       }
-      return basisNanos * 1e-9 * scaleWork(path, n, edges) / basisWork;
+      return rate * target;
     }
 
     private static double scaleWork(ComputePath path, int n, long edges) {
