@@ -1,6 +1,7 @@
 package dev.heed.model;
 
 import dev.heed.attention.KernelOptions;
+import dev.heed.attention.PathCosts;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
@@ -36,6 +37,7 @@ public final class AttentionModel {
   private final KernelSource kernels;
   private final GraphPolicies graphPolicies; // null: not recorded
   private final CheckVectors checks; // null: none
+  private final PathCosts pathCosts; // null: PathCosts.current()
 
   AttentionModel(
       int inputFeatureCount,
@@ -45,7 +47,8 @@ public final class AttentionModel {
       KernelOptions kernelOptions,
       KernelSource kernels,
       GraphPolicies graphPolicies,
-      CheckVectors checks) {
+      CheckVectors checks,
+      PathCosts pathCosts) {
     this.inputFeatureCount = inputFeatureCount;
     this.featureNames = List.copyOf(featureNames);
     this.classLabels = List.copyOf(classLabels);
@@ -54,6 +57,7 @@ public final class AttentionModel {
     this.kernels = kernels;
     this.graphPolicies = graphPolicies;
     this.checks = checks;
+    this.pathCosts = pathCosts;
   }
 
   /**
@@ -146,7 +150,15 @@ public final class AttentionModel {
     }
     KernelOptions options = KernelOptions.defaults();
     return new AttentionModel(
-        inputs, names, labels, stack, options, KernelSource.fromClassPath(options), null, null);
+        inputs,
+        names,
+        labels,
+        stack,
+        options,
+        KernelSource.fromClassPath(options),
+        null,
+        null,
+        null);
   }
 
   /**
@@ -213,7 +225,8 @@ public final class AttentionModel {
         kernelOptions,
         kernels,
         conventions,
-        checks);
+        checks,
+        pathCosts);
   }
 
   /**
@@ -242,7 +255,45 @@ public final class AttentionModel {
         options,
         KernelSource.fromClassPath(options),
         graphPolicies,
-        checks);
+        checks,
+        pathCosts);
+  }
+
+  /**
+   * Returns a model with the same layers whose {@link PathChoice#AUTO} choices use the given path
+   * cost profile instead of {@link PathCosts#current()}. The weights are shared, not copied.
+   *
+   * @param costs the profile, for example from {@link PathCosts#read} or {@link
+   *     dev.heed.attention.PathCalibration#run}
+   * @return a new model
+   */
+  public AttentionModel withPathCosts(PathCosts costs) {
+    Objects.requireNonNull(costs, "costs");
+    return new AttentionModel(
+        inputFeatureCount,
+        featureNames,
+        classLabels,
+        layers,
+        kernelOptions,
+        kernels,
+        graphPolicies,
+        checks,
+        costs);
+  }
+
+  /**
+   * Returns the path cost profile {@link PathChoice#AUTO} uses for this model: the one given to
+   * {@link #withPathCosts}, else {@link PathCosts#current()}.
+   *
+   * @return the profile
+   */
+  public PathCosts pathCosts() {
+    return pathCosts != null ? pathCosts : PathCosts.current();
+  }
+
+  /** The profile a call with {@code choice} needs: none unless AUTO. */
+  private PathCosts autoCosts(PathChoice choice) {
+    return choice == PathChoice.AUTO ? pathCosts() : null;
   }
 
   /** The same model with kernels from {@code source}; for tests and the reference check. */
@@ -255,7 +306,8 @@ public final class AttentionModel {
         kernelOptions,
         source,
         graphPolicies,
-        checks);
+        checks,
+        pathCosts);
   }
 
   /**
@@ -315,7 +367,8 @@ public final class AttentionModel {
         kernelOptions,
         kernels,
         graphPolicies,
-        checks);
+        checks,
+        pathCosts);
   }
 
   /**
@@ -332,7 +385,8 @@ public final class AttentionModel {
         kernelOptions,
         kernels,
         graphPolicies,
-        null);
+        null,
+        pathCosts);
   }
 
   /**
@@ -361,7 +415,9 @@ public final class AttentionModel {
     int n = graph.nodeCount();
     checkFeatures(features, n, null);
     checkRowWidths(n);
-    ForwardPass pass = new ForwardPass(graph, path, kernels, keepAttention);
+    ForwardPass pass =
+        new ForwardPass(
+            graph, path, kernels, autoCosts(path), kernelOptions.threads(), keepAttention);
     float[] x = runLayers(pass, features);
     return new ModelOutput(n, classLabels.size(), x, pass.attention(), pass.layerRuns());
   }
@@ -466,7 +522,9 @@ public final class AttentionModel {
     }
     checkFeatures(features, field.nodeCount(), field);
     checkRowWidths(field.nodeCount());
-    ForwardPass pass = new ForwardPass(field, path, kernels, keepAttention);
+    ForwardPass pass =
+        new ForwardPass(
+            field, path, kernels, autoCosts(path), kernelOptions.threads(), keepAttention);
     float[] x = runLayers(pass, features);
     return new FieldOutput(field, classLabels.size(), x, pass.attention(), pass.layerRuns());
   }

@@ -3,6 +3,8 @@ package dev.heed.model;
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
+import dev.heed.attention.PathCosts;
+import dev.heed.attention.PathEstimate;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import java.util.ArrayList;
@@ -36,23 +38,36 @@ final class ForwardPass {
 
   private final PathChoice choice;
   private final KernelSource kernels;
+  private final PathCosts costs; // null unless AUTO
+  private final int threads;
   private final boolean keepAttention;
   private final List<LayerAttention> attention = new ArrayList<>();
   private final List<LayerRun> layerRuns = new ArrayList<>();
   private int layerIndex;
   private ComputePath layerPath;
   private long layerEntries;
+  private PathEstimate layerEstimate;
 
   /** A pass over every node of {@code graph}. */
   ForwardPass(
-      AttentionPattern graph, PathChoice choice, KernelSource kernels, boolean keepAttention) {
-    this(null, graph, choice, kernels, keepAttention);
+      AttentionPattern graph,
+      PathChoice choice,
+      KernelSource kernels,
+      PathCosts costs,
+      int threads,
+      boolean keepAttention) {
+    this(null, graph, choice, kernels, costs, threads, keepAttention);
   }
 
   /** A pass over {@code field}'s rows. */
   ForwardPass(
-      ReceptiveField field, PathChoice choice, KernelSource kernels, boolean keepAttention) {
-    this(field, field.wholePattern(), choice, kernels, keepAttention);
+      ReceptiveField field,
+      PathChoice choice,
+      KernelSource kernels,
+      PathCosts costs,
+      int threads,
+      boolean keepAttention) {
+    this(field, field.wholePattern(), choice, kernels, costs, threads, keepAttention);
   }
 
   private ForwardPass(
@@ -60,10 +75,15 @@ final class ForwardPass {
       AttentionPattern graph,
       PathChoice choice,
       KernelSource kernels,
+      PathCosts costs,
+      int threads,
       boolean keepAttention) {
+    assert choice != PathChoice.AUTO || costs != null;
     this.field = field;
     this.choice = choice;
     this.kernels = kernels;
+    this.costs = costs;
+    this.threads = threads;
     this.keepAttention = keepAttention;
     if (graph != null) {
       this.rowsIn = graph.nodeCount();
@@ -76,6 +96,7 @@ final class ForwardPass {
     this.layerIndex = index;
     this.layerPath = null;
     this.layerEntries = 0;
+    this.layerEstimate = null;
     if (field != null && field.wholePattern() == null) {
       rowsIn = field.rowsRead(index);
       rowsOut = field.rowsComputed(index);
@@ -94,7 +115,8 @@ final class ForwardPass {
             nanos,
             rowsIn,
             rowsOut,
-            layerEntries));
+            layerEntries,
+            layerEstimate));
   }
 
   List<LayerRun> layerRuns() {
@@ -117,7 +139,7 @@ final class ForwardPass {
       float[] query,
       float[] key,
       float[] value) {
-    AttentionKernel kernel = kernelFor(pattern, score);
+    AttentionKernel kernel = kernelFor(layer, pattern, score, shape);
     layerPath = kernel.path();
     layerEntries += pattern.entryCount();
     float[] out = new float[pattern.nodeCount() * shape.valueWidth()];
@@ -150,10 +172,24 @@ final class ForwardPass {
     return out;
   }
 
-  private AttentionKernel kernelFor(AttentionPattern pattern, ScoreFunction score) {
-    ComputePath path = choice.pathFor(pattern, score);
+  private AttentionKernel kernelFor(
+      Layer layer, AttentionPattern pattern, ScoreFunction score, HeadShape shape) {
     if (choice != PathChoice.AUTO) {
-      return kernels.kernel(path);
+      return kernels.kernel(choice.pathFor(pattern, score, shape, threads, null));
+    }
+    PathEstimate estimate = costs.estimate(pattern, score, shape, threads);
+    layerEstimate = layerEstimate == null ? estimate : layerEstimate.plus(estimate);
+    ComputePath path = estimate.faster();
+    if (LOG.isDebugEnabled()) {
+      LOG.debug(
+          "AUTO: layer {} '{}' ({} nodes, {} entries, {}): {} path; {}",
+          layerIndex,
+          layer.name(),
+          pattern.nodeCount(),
+          pattern.entryCount(),
+          score.getClass().getSimpleName(),
+          path,
+          estimate);
     }
     try {
       return kernels.kernel(path);

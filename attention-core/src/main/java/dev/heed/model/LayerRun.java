@@ -1,16 +1,17 @@
 package dev.heed.model;
 
 import dev.heed.attention.ComputePath;
+import dev.heed.attention.PathEstimate;
 import java.util.Objects;
 import java.util.Optional;
 
 /**
  * How one layer ran in one {@link AttentionModel#forward} call: which attention path it took (for
- * {@link PathChoice#AUTO}, after any fallback), how long it took on the wall clock, and how much it
- * computed: the rows it read and computed and the attention entries it touched (all n rows in a
- * whole-graph pass; the layer's share of the receptive field in a {@link ReceptiveField} pass). For
- * reports and diagnostics, such as the command-line tool's per-layer summary; not a benchmark (use
- * JMH for that).
+ * {@link PathChoice#AUTO}, after any fallback, with the times the cost model predicted for each
+ * path), how long it took on the wall clock, and how much it computed: the rows it read and
+ * computed and the attention entries it touched (all n rows in a whole-graph pass; the layer's
+ * share of the receptive field in a {@link ReceptiveField} pass). For reports and diagnostics, such
+ * as the command-line tool's per-layer summary; not a benchmark (use JMH for that).
  *
  * <p>Thread safety: immutable.
  */
@@ -24,6 +25,7 @@ public final class LayerRun {
   private final int rowsRead;
   private final int rowsComputed;
   private final long entries;
+  private final PathEstimate estimate; // null unless AUTO chose the path
 
   LayerRun(
       int layerIndex,
@@ -33,7 +35,8 @@ public final class LayerRun {
       long nanos,
       int rowsRead,
       int rowsComputed,
-      long entries) {
+      long entries,
+      PathEstimate estimate) {
     this.layerIndex = layerIndex;
     this.layerName = Objects.requireNonNull(layerName, "layerName");
     this.kind = Objects.requireNonNull(kind, "kind");
@@ -42,6 +45,7 @@ public final class LayerRun {
     this.rowsRead = rowsRead;
     this.rowsComputed = rowsComputed;
     this.entries = entries;
+    this.estimate = estimate;
   }
 
   /**
@@ -117,6 +121,17 @@ public final class LayerRun {
     return entries;
   }
 
+  /**
+   * Returns the times the path cost model predicted for the layer's attention on each path, when
+   * {@link PathChoice#AUTO} chose its path by them (summed over the layer's attention calls).
+   * {@link #path()} is the faster one unless its kernel was missing.
+   *
+   * @return the prediction, or empty for an explicit path or a layer that does not attend
+   */
+  public Optional<PathEstimate> estimate() {
+    return Optional.ofNullable(estimate);
+  }
+
   @Override
   public String toString() {
     return layerName
@@ -125,6 +140,7 @@ public final class LayerRun {
         + (path == null ? "" : ", " + path)
         + ", "
         + String.format(java.util.Locale.ROOT, "%.3f s", nanos / 1e9)
+        + (estimate == null ? "" : "; AUTO " + estimate)
         + ")";
   }
 }

@@ -72,7 +72,8 @@ class LayerEquationsTest {
 
   private static float[] run(Layer layer, AttentionPattern graph, float[] x) {
     ForwardPass pass =
-        new ForwardPass(graph, PathChoice.SPARSE, p -> new ReferenceAttentionKernel(), false);
+        new ForwardPass(
+            graph, PathChoice.SPARSE, p -> new ReferenceAttentionKernel(), null, 1, false);
     return layer.forward(x, pass);
   }
 
@@ -340,7 +341,12 @@ class LayerEquationsTest {
     int n = 9;
     ForwardPass pass =
         new ForwardPass(
-            CompletePattern.of(n), PathChoice.SPARSE, p -> new ReferenceAttentionKernel(), true);
+            CompletePattern.of(n),
+            PathChoice.SPARSE,
+            p -> new ReferenceAttentionKernel(),
+            null,
+            1,
+            true);
     layer.forward(features(n, 4), pass);
     LayerAttention a = pass.attention().get(0);
     for (int h = 0; h < 2; h++) {

@@ -8,8 +8,11 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
+import dev.heed.attention.PathCosts;
+import dev.heed.attention.PathEstimate;
 import dev.heed.attention.ReferenceAttentionKernel;
 import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.SyntheticCosts;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CompletePattern;
 import dev.heed.graph.CsrGraph;
@@ -22,50 +25,31 @@ import org.junit.jupiter.api.Test;
 /** The documented AUTO rule, its fallback, and explicit paths that fail when absent. */
 class PathChoiceTest {
 
+  /** Dense 2e-9·n²·H, sparse 8e-9·E·H: the sparse path is faster below density 0.25. */
+  private static final PathCosts QUARTER = SyntheticCosts.linear(0, 2e-9, 0, 8e-9);
+
+  /** Dense far cheaper than sparse: AUTO goes dense for every attention layer. */
+  private static final PathCosts DENSE_CHEAP = SyntheticCosts.linear(0, 1e-15, 1, 1);
+
   @Test
-  void autoRuleFollowsPatternKindSizeDensityAndScore() {
-    // The documented rule; its thresholds come from the crossover sweep in benchmarks/RESULTS.md.
-    ScoreFunction gat = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+  void autoTakesThePathTheCostModelPredictsFaster() {
     ScoreFunction dot = ScoreFunction.scaledDotProduct();
-    for (ScoreFunction score : new ScoreFunction[] {gat, dot}) {
-      assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(CompletePattern.of(100_000), score));
-      assertEquals(ComputePath.SPARSE, PathChoice.SPARSE.pathFor(CompletePattern.of(3), score));
-    }
+    HeadShape shape = new HeadShape(4, 16, 16);
     CsrGraph chain = CsrGraph.of(new int[] {0, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1}, new int[] {0});
-    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain, dot)); // density 0.01
-    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain, gat));
-    assertEquals(ComputePath.DENSE, PathChoice.DENSE.pathFor(chain, gat));
-    CsrGraph selfLoops = CsrGraph.of(new int[] {0, 1, 2, 3, 4}, new int[] {0, 1, 2, 3});
-    // density 4/16 = 0.25: above the dot-product threshold, below the additive one
-    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(selfLoops, dot));
-    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(selfLoops, gat));
+    // density 0.01
+    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(chain, dot, shape, 1, QUARTER));
     CsrGraph threeQuarters =
         CsrGraph.of(
             new int[] {0, 3, 6, 9, 12},
             new int[] {0, 1, 2, 1, 2, 3, 0, 2, 3, 0, 1, 3}); // density 12/16
-    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(threeQuarters, gat));
+    assertEquals(ComputePath.DENSE, PathChoice.AUTO.pathFor(threeQuarters, dot, shape, 1, QUARTER));
     assertEquals(
-        ComputePath.DENSE,
-        PathChoice.AUTO.pathFor(threeQuarters, ScoreFunction.gatv2(0.2f, new float[] {1f})));
-  }
-
-  @Test
-  void autoSendsLargeGraphsToTheSparsePathExceptDenseDotProductOnes() {
-    int n = PathChoice.AUTO_DENSE_MAX_NODES + 1;
-    int degree = n; // every pair: density 1 without being the complete-pattern type
-    int[] offsets = new int[n + 1];
-    int[] columns = new int[n * degree];
-    for (int i = 0; i < n; i++) {
-      offsets[i + 1] = (i + 1) * degree;
-      for (int j = 0; j < degree; j++) {
-        columns[i * degree + j] = j;
-      }
-    }
-    CsrGraph full = CsrGraph.of(offsets, columns);
-    ScoreFunction gat = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
-    assertEquals(ComputePath.SPARSE, PathChoice.AUTO.pathFor(full, gat));
-    assertEquals(
-        ComputePath.DENSE, PathChoice.AUTO.pathFor(full, ScoreFunction.scaledDotProduct()));
+        ComputePath.DENSE, PathChoice.AUTO.pathFor(CompletePattern.of(3), dot, shape, 1, QUARTER));
+    // explicit paths ignore the model, and need none
+    assertEquals(ComputePath.SPARSE, PathChoice.SPARSE.pathFor(threeQuarters, dot, shape, 1, null));
+    assertEquals(ComputePath.DENSE, PathChoice.DENSE.pathFor(chain, dot, shape, 1, null));
+    assertThrows(
+        NullPointerException.class, () -> PathChoice.AUTO.pathFor(chain, dot, shape, 1, null));
   }
 
   @Test
@@ -74,20 +58,21 @@ class PathChoiceTest {
     List<ComputePath> asked = new ArrayList<>();
     ReferenceAttentionKernel reference = new ReferenceAttentionKernel();
     AttentionModel onlySparse =
-        base.withKernelSource(
-            path -> {
-              synchronized (asked) {
-                asked.add(path);
-              }
-              if (path == ComputePath.DENSE) {
-                throw new IllegalStateException("no attention kernel for the DENSE path");
-              }
-              return reference;
-            });
+        base.withPathCosts(DENSE_CHEAP)
+            .withKernelSource(
+                path -> {
+                  synchronized (asked) {
+                    asked.add(path);
+                  }
+                  if (path == ComputePath.DENSE) {
+                    throw new IllegalStateException("no attention kernel for the DENSE path");
+                  }
+                  return reference;
+                });
     CsrGraph graph = TestModels.fixtureGraph();
     float[] x = TestModels.npyResource("features.npy").toFloats();
     float[] auto = onlySparse.forward(graph, x, PathChoice.AUTO, false).values();
-    assertTrue(asked.contains(ComputePath.DENSE), "the fixture's full self-attention asks DENSE");
+    assertTrue(asked.contains(ComputePath.DENSE), "AUTO asks DENSE where it is predicted faster");
     float[] sparse = onlySparse.forward(graph, x, PathChoice.SPARSE, false).values();
     assertArrayEquals(sparse, auto, 0f);
     IllegalStateException e =
@@ -129,8 +114,12 @@ class PathChoiceTest {
   void layerRunsReportEachLayersPathIncludingTheAutoFallback() throws IOException {
     AttentionModel base = TestModels.load(TestModels.resource("mixed.heed"));
     ReferenceAttentionKernel reference = new ReferenceAttentionKernel();
-    AttentionModel both = base.withKernelSource(path -> reporting(path, reference));
     CsrGraph graph = TestModels.fixtureGraph();
+    // sparse faster up to halfway between the fixture graph's density and the complete pattern's
+    double threshold = (graph.density() + 1) / 2;
+    AttentionModel both =
+        base.withPathCosts(SyntheticCosts.linear(0, 1e-8 * threshold, 0, 1e-8))
+            .withKernelSource(path -> reporting(path, reference));
     float[] x = TestModels.npyResource("features.npy").toFloats();
     List<LayerRun> runs = both.forward(graph, x, PathChoice.AUTO, false).layerRuns();
     assertEquals(base.layers().size(), runs.size());
@@ -145,34 +134,36 @@ class PathChoiceTest {
         assertTrue(run.path().isEmpty(), run.toString());
       } else {
         boolean complete = layer instanceof SelfAttentionLayer s && s.attendsToAllNodes();
-        ComputePath expected =
-            PathChoice.AUTO.pathFor(
-                complete ? CompletePattern.of(graph.nodeCount()) : graph, scoreOf(layer));
-        assertEquals(Optional.of(expected), run.path(), run.toString());
+        PathEstimate estimate = run.estimate().orElseThrow();
+        assertEquals(Optional.of(estimate.faster()), run.path(), run.toString());
+        assertEquals(
+            complete ? ComputePath.DENSE : ComputePath.SPARSE, estimate.faster(), run.toString());
+        assertTrue(run.toString().contains("AUTO predicted dense"), run.toString());
       }
     }
     assertTrue(
         runs.stream().anyMatch(r -> r.path().equals(Optional.of(ComputePath.DENSE))),
-        "the fixture's full self-attention goes DENSE under AUTO");
+        "the fixture's full self-attention (density 1) goes DENSE under AUTO");
+    assertTrue(
+        runs.stream().anyMatch(r -> r.path().equals(Optional.of(ComputePath.SPARSE))),
+        "the fixture's graph layers go SPARSE under AUTO");
     for (LayerRun run : both.forward(graph, x, PathChoice.SPARSE, false).layerRuns()) {
       assertTrue(run.path().isEmpty() || run.path().get() == ComputePath.SPARSE, run.toString());
+      assertTrue(run.estimate().isEmpty(), "an explicit path has no prediction: " + run);
     }
     AttentionModel onlySparse =
-        base.withKernelSource(
-            path -> {
-              if (path == ComputePath.DENSE) {
-                throw new IllegalStateException("no attention kernel for the DENSE path");
-              }
-              return reporting(path, reference);
-            });
+        base.withPathCosts(DENSE_CHEAP)
+            .withKernelSource(
+                path -> {
+                  if (path == ComputePath.DENSE) {
+                    throw new IllegalStateException("no attention kernel for the DENSE path");
+                  }
+                  return reporting(path, reference);
+                });
     for (LayerRun run : onlySparse.forward(graph, x, PathChoice.AUTO, false).layerRuns()) {
       assertTrue(
           run.path().isEmpty() || run.path().get() == ComputePath.SPARSE,
           "AUTO's fallback is reported: " + run);
     }
-  }
-
-  private static ScoreFunction scoreOf(Layer layer) {
-    return layer instanceof GraphAttentionLayer g ? g.score() : ScoreFunction.scaledDotProduct();
   }
 }

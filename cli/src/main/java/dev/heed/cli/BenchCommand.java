@@ -92,7 +92,9 @@ final class BenchCommand implements Runnable {
 
     @Mixin DebugOption debug;
 
-    @Option(names = "--quick", description = "A small sweep, about 3 minutes on 2 cores.")
+    @Option(
+        names = "--quick",
+        description = "A small sweep, about 1-2 minutes on 2 cores (points capped at 140 s).")
     boolean quick;
 
     @Option(

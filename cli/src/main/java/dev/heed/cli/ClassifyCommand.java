@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import dev.heed.attention.PathCosts;
 import dev.heed.classify.Classification;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.ModelFile;
@@ -90,6 +91,14 @@ final class ClassifyCommand implements Callable<Integer> {
   Integer threads;
 
   @Option(
+      names = "--path-costs",
+      paramLabel = "FILE",
+      description =
+          "Path-cost profile for --path auto (written by heed calibrate; default: -Dheed.path.costs,"
+              + " else ~/.heed/path-costs.json if present, else the reference machine's).")
+  Path pathCosts;
+
+  @Option(
       names = "--explain",
       paramLabel = "K",
       defaultValue = "0",
@@ -152,7 +161,16 @@ final class ClassifyCommand implements Callable<Integer> {
             HeedCli.EXIT_USAGE);
       }
       return new DemoRun(spec.commandLine().getOut(), err)
-          .run(demoDir, model, pathChoice, threads, explain == 0 ? 5 : explain, out, output, start);
+          .run(
+              demoDir,
+              model,
+              pathCostsOrNull(),
+              pathChoice,
+              threads,
+              explain == 0 ? 5 : explain,
+              out,
+              output,
+              start);
     }
     if (demoDir != null) {
       throw new CliException("--demo-dir needs --demo", HeedCli.EXIT_USAGE);
@@ -163,7 +181,7 @@ final class ClassifyCommand implements Callable<Integer> {
           HeedCli.EXIT_USAGE);
     }
     ClassifyRun.requireFile(model, "--model");
-    AttentionModel m = ModelFile.read(model);
+    AttentionModel m = withPathCosts(ModelFile.read(model), pathCostsOrNull());
     Optional<String> conventionsWarning =
         graphOptions.followModel(m.graphPolicies(), overrideGraphPolicies);
     output.checkReportClass(m.classLabels());
@@ -200,9 +218,26 @@ final class ClassifyCommand implements Callable<Integer> {
     return 0;
   }
 
+  /** Reads --path-costs, or returns null when it was not given. */
+  private PathCosts pathCostsOrNull() throws IOException {
+    if (pathCosts == null) {
+      return null;
+    }
+    ClassifyRun.requireFile(pathCosts, "--path-costs");
+    return PathCosts.read(pathCosts);
+  }
+
+  /** The model with the profile AUTO uses, if one was given. */
+  static AttentionModel withPathCosts(AttentionModel model, PathCosts costs) {
+    return costs == null ? model : model.withPathCosts(costs);
+  }
+
+  /** Node count above which an explicit dense path gets a note about its n² cost. */
+  static final int DENSE_NOTE_MIN_NODES = 4096;
+
   /** An explicit dense path over a large graph works in n² per head; say so before it starts. */
   static void warnIfDenseIsCostly(PathChoice choice, int nodeCount, PrintWriter err) {
-    if (choice == PathChoice.DENSE && nodeCount > PathChoice.AUTO_DENSE_MAX_NODES) {
+    if (choice == PathChoice.DENSE && nodeCount > DENSE_NOTE_MIN_NODES) {
       err.printf(
           Locale.ROOT,
           "heed: note: --path dense on %,d nodes: the dense path's work grows with n² per head"

@@ -213,19 +213,38 @@ final class ClassifyRun {
         inputs.featuresHow(),
         modelName,
         model.kernelOptions().threads());
+    boolean auto = result.layerRuns().stream().anyMatch(r -> r.estimate().isPresent());
+    if (auto) {
+      err.printf(Locale.ROOT, "  --path auto: %s%n", model.pathCosts());
+    }
     err.printf(
-        Locale.ROOT, "  %-5s %-20s %-16s %-7s %9s%n", "layer", "name", "kind", "path", "seconds");
+        Locale.ROOT,
+        "  %-5s %-20s %-16s %-7s %9s%s%n",
+        "layer",
+        "name",
+        "kind",
+        "path",
+        "seconds",
+        auto ? String.format(Locale.ROOT, " %13s %13s", "dense (pred.)", "sparse (pred.)") : "");
     double layerTotal = 0;
     for (LayerRun run : result.layerRuns()) {
       layerTotal += run.nanos() / 1e9;
       err.printf(
           Locale.ROOT,
-          "  %-5d %-20s %-16s %-7s %9.3f%n",
+          "  %-5d %-20s %-16s %-7s %9.3f%s%n",
           run.layerIndex(),
           run.layerName(),
           run.kind(),
           run.path().map(p -> p.name().toLowerCase(Locale.ROOT)).orElse("-"),
-          run.nanos() / 1e9);
+          run.nanos() / 1e9,
+          !auto
+              ? ""
+              : run.estimate()
+                  .map(
+                      e ->
+                          String.format(
+                              Locale.ROOT, " %13.4f %13.4f", e.denseSeconds(), e.sparseSeconds()))
+                  .orElse(String.format(Locale.ROOT, " %13s %13s", "-", "-")));
     }
     err.printf(
         Locale.ROOT,

@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import dev.heed.attention.PathCosts;
 import dev.heed.classify.Classification;
 import dev.heed.classify.NeighbourWeight;
 import dev.heed.classify.NodePrediction;
@@ -53,6 +54,7 @@ final class DemoRun {
   int run(
       Path directory,
       Path modelFile,
+      PathCosts pathCosts,
       PathChoice path,
       Integer threads,
       int explainK,
@@ -60,7 +62,9 @@ final class DemoRun {
       ClassifyOutputOptions output,
       long start)
       throws IOException {
-    Named named = model(modelFile);
+    Named loaded = model(modelFile);
+    Named named =
+        new Named(ClassifyCommand.withPathCosts(loaded.model(), pathCosts), loaded.name());
     AttentionModel model = named.model();
     String modelName = named.name();
     output.checkReportClass(model.classLabels());

@@ -20,6 +20,7 @@ import picocli.CommandLine.Command;
       TrainCommand.class,
       ReplayCommand.class,
       VerifyCommand.class,
+      CalibrateCommand.class,
       BenchCommand.class
     })
 public final class HeedCli implements Runnable {

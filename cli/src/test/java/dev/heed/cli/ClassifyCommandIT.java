@@ -4,6 +4,7 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
+import dev.heed.attention.PathCosts;
 import dev.heed.classify.Classification;
 import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
@@ -440,6 +441,33 @@ class ClassifyCommandIT {
         1,
         "--out: the directory " + dir.resolve("nowhere") + " does not exist",
         in.args("--out", dir.resolve("nowhere").resolve("p.jsonl").toString()));
+  }
+
+  @Test
+  void autoReportsItsProfileAndPredictionsAndRefusesABadProfile() throws Exception {
+    CliFixtures.Data data = data();
+    CliFixtures.ClassifyInputs in =
+        new CliFixtures.ClassifyInputs(
+            CliFixtures.mixedModel(dir),
+            data.writeEdges(dir.resolve("g.csv"), ",", true),
+            data.writeFeaturesCsv(dir.resolve("x.csv"), null));
+    Path good = dir.resolve("costs.json");
+    PathCosts.builtIn().write(good);
+    CliProcess.Result r =
+        CliProcess.run(dir, in.args("--path", "auto", "--path-costs", good.toString()));
+    assertEquals(0, r.exitCode(), r.toString());
+    assertTrue(r.stderr().contains("--path auto: path costs from " + good), r.toString());
+    assertTrue(r.stderr().contains("dense (pred.)"), r.toString());
+    assertTrue(
+        r.stderr().lines().anyMatch(l -> l.contains(" gat1 ") && l.matches(".*\\d\\.\\d{4}.*")),
+        "gat1's line has its predicted seconds:\n" + r);
+
+    Path foreign = Files.writeString(dir.resolve("other.json"), "{\"format\": \"something-else\"}");
+    expectError(
+        1,
+        foreign + ": not a Heed path-cost profile",
+        in.args("--path", "auto", "--path-costs", foreign.toString()));
+    expectError(1, "--path-costs", in.args("--path-costs", dir.resolve("missing.json").toString()));
   }
 
   private void expectError(int exit, String message, String... args) throws Exception {

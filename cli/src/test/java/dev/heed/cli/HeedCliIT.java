@@ -20,7 +20,7 @@ class HeedCliIT {
     assertTrue(r.stdout().startsWith("heed "), r.toString());
     r = CliProcess.run(dir, "--help");
     assertEquals(0, r.exitCode(), r.toString());
-    for (String verb : new String[] {"classify", "inspect", "verify"}) {
+    for (String verb : new String[] {"classify", "inspect", "verify", "calibrate"}) {
       assertTrue(r.stdout().contains(verb), verb + ":\n" + r);
       CliProcess.Result help = CliProcess.run(dir, verb, "--help");
       assertEquals(0, help.exitCode(), help.toString());

@@ -1,6 +1,7 @@
 package dev.heed.bench.crossover;
 
 import dev.heed.attention.ComputePath;
+import dev.heed.attention.PathCosts;
 import dev.heed.bench.roofline.GatherProbe;
 import dev.heed.bench.roofline.MachineLimits;
 import java.io.IOException;
@@ -40,6 +41,10 @@ public final class CrossoverReport {
           "q1_ms",
           "q3_ms",
           "spread",
+          "ci_low_ms",
+          "ci_high_ms",
+          "discarded",
+          "extra_rounds",
           "warmup_calls",
           "reps",
           "achieved",
@@ -63,6 +68,8 @@ public final class CrossoverReport {
   private final double largestPathDifference;
   private final double peakLoadAverage;
   private final Duration elapsed;
+  private final AutoCheck autoCheck;
+  private final NoiseCheck noiseCheck;
 
   /**
    * Assembles a report and computes the crossovers and growth checks from the points.
@@ -76,6 +83,8 @@ public final class CrossoverReport {
    * @param peakLoadAverage the highest one-minute system load average seen during the sweep, or NaN
    *     if the platform does not report it
    * @param elapsed how long the sweep took
+   * @param costs the path cost profile whose AUTO choices are checked against the points
+   * @param startLoadAverage the one-minute system load average before the first point, or NaN
    */
   public CrossoverReport(
       SweepConfig config,
@@ -84,7 +93,9 @@ public final class CrossoverReport {
       List<SweepPoint> points,
       double largestPathDifference,
       double peakLoadAverage,
-      Duration elapsed) {
+      Duration elapsed,
+      PathCosts costs,
+      double startLoadAverage) {
     this.config = Objects.requireNonNull(config, "config");
     this.limits = Objects.requireNonNull(limits, "limits");
     this.kernels = Collections.unmodifiableMap(new EnumMap<>(kernels));
@@ -103,6 +114,26 @@ public final class CrossoverReport {
     }
     this.crossovers = List.copyOf(found);
     this.growth = List.copyOf(checks);
+    this.autoCheck = AutoCheck.of(config, this.points, costs);
+    this.noiseCheck = NoiseCheck.of(config, this.points, startLoadAverage, peakLoadAverage);
+  }
+
+  /**
+   * Returns how well the cost model's AUTO choices matched the measured faster path.
+   *
+   * @return the check
+   */
+  public AutoCheck autoCheck() {
+    return autoCheck;
+  }
+
+  /**
+   * Returns whether the machine was quiet enough for the timings to be trusted.
+   *
+   * @return the check
+   */
+  public NoiseCheck noiseCheck() {
+    return noiseCheck;
   }
 
   /**
@@ -178,13 +209,13 @@ public final class CrossoverReport {
   }
 
   /**
-   * Returns whether the machine was busier than the sweep itself could make it: a peak load average
-   * above the sweep's threads plus one.
+   * Returns whether other work or noise probably disturbed the timings ({@link
+   * NoiseCheck#noisy()}).
    *
-   * @return true if other work probably disturbed the timings
+   * @return true if the machine was noisy
    */
   public boolean machineWasBusy() {
-    return peakLoadAverage > config.threads() + 1;
+    return noiseCheck.noisy();
   }
 
   /**
@@ -230,12 +261,17 @@ public final class CrossoverReport {
     b.append(
         String.format(
             Locale.ROOT,
-            "timing: warm-up %d..%d calls (stable within %.0f %%), median of up to %d calls;"
-                + " spread = (max - min) / median%n",
+            "timing: both paths warmed up first on small graphs of both pattern kinds; per point"
+                + " the two paths alternate: warm-up %d..%d calls each (stable within %.0f %%),"
+                + " then %d timed calls each, A B A B; calls above Q3 + 3 IQR dropped; a point"
+                + " spreading over %.0f %% is timed again (up to %d more batches); median with a"
+                + " 95 %% confidence interval; spread = (max - min) / median%n",
             config.timing().minWarmupCalls(),
             config.timing().maxWarmupCalls(),
             config.timing().stableTolerance() * 100,
-            config.timing().repetitions()));
+            config.timing().repetitions(),
+            config.timing().maxSpread() * 100,
+            config.timing().extraRounds()));
     for (SweepScore score : config.scores()) {
       b.append('\n').append(table(score));
     }
@@ -249,6 +285,8 @@ public final class CrossoverReport {
     for (GrowthCheck g : growth) {
       b.append("  ").append(g.score().label()).append(": ").append(g.describe()).append('\n');
     }
+    b.append('\n').append(autoCheck.describe());
+    b.append("\nNoise check:\n").append(noiseCheck.describe());
     if (!Double.isNaN(largestPathDifference)) {
       b.append(
           String.format(
@@ -289,8 +327,8 @@ public final class CrossoverReport {
     b.append('\n');
     if (machineWasBusy()) {
       b.append(
-          "WARNING: other work was running on this machine during the sweep; the timings and the"
-              + " crossovers are unreliable. Run it again on an idle machine.\n");
+          "WARNING: noisy machine (see the noise check); the timings, the crossovers and the AUTO"
+              + " check are unreliable. Run it again on an idle machine.\n");
     }
     b.append(AUTHORITY).append('\n');
     return b.toString();
@@ -411,6 +449,10 @@ public final class CrossoverReport {
         f.add(t == null ? "" : Formats.csvNumber(t.q1Nanos() / 1e6));
         f.add(t == null ? "" : Formats.csvNumber(t.q3Nanos() / 1e6));
         f.add(t == null ? "" : Formats.csvNumber(t.relativeSpread()));
+        f.add(t == null ? "" : Formats.csvNumber(t.ciLowNanos() / 1e6));
+        f.add(t == null ? "" : Formats.csvNumber(t.ciHighNanos() / 1e6));
+        f.add(t == null ? "" : Integer.toString(t.discarded()));
+        f.add(t == null ? "" : Integer.toString(t.extraRounds()));
         f.add(t == null ? "" : Integer.toString(t.warmupCalls()));
         f.add(t == null ? "" : Integer.toString(t.repetitions()));
         f.add(Formats.csvNumber(p.achieved()));

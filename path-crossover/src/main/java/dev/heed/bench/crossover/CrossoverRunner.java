@@ -4,6 +4,7 @@ import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.MemoryBudgetExceededException;
+import dev.heed.attention.PathCosts;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.bench.roofline.GatherProbe;
 import dev.heed.bench.roofline.MachineLimits;
@@ -56,12 +57,18 @@ public final class CrossoverRunner {
   /** The default output folder: {@value}. */
   public static final String DEFAULT_OUT = "heed-crossover";
 
-  /** Fraction of the measured limits assumed for duration estimates before anything is timed. */
-  static final double ASSUMED_EFFICIENCY = 0.2;
-
   private static final String RELAUNCHED = "heed.bench.relaunched";
 
   private static volatile double sink;
+
+  /** Nodes of the warm-up graphs. */
+  static final int PREWARM_NODES = 128;
+
+  /** Rounds of the warm-up over every kernel, score and pattern kind, at most. */
+  static final int PREWARM_ROUNDS = 200;
+
+  /** Seconds of the warm-up, at most. */
+  static final double PREWARM_MAX_SECONDS = 3.0;
 
   private CrossoverRunner() {}
 
@@ -163,7 +170,28 @@ public final class CrossoverRunner {
    */
   public static CrossoverReport run(
       SweepConfig config, KernelFactory kernels, MachineLimits limits, ProgressListener progress) {
+    return run(config, kernels, limits, progress, PathCosts.current());
+  }
+
+  /**
+   * Runs the sweep, checking the AUTO choices of a given path cost profile against it.
+   *
+   * @param config what to sweep
+   * @param kernels supplies each path's kernel; a path whose kernel cannot be created is skipped
+   *     and the report says why
+   * @param limits the machine limits for roofline fractions, or null to measure them first
+   * @param progress receives progress: limits, the expected duration, then every point
+   * @param costs the profile whose choices the report checks, and which estimates the duration
+   * @return the report
+   */
+  public static CrossoverReport run(
+      SweepConfig config,
+      KernelFactory kernels,
+      MachineLimits limits,
+      ProgressListener progress,
+      PathCosts costs) {
     long start = System.nanoTime();
+    double startLoad = ManagementFactory.getOperatingSystemMXBean().getSystemLoadAverage();
     Map<ComputePath, AttentionKernel> available = new EnumMap<>(ComputePath.class);
     Map<ComputePath, String> described = new EnumMap<>(ComputePath.class);
     for (ComputePath path : ComputePath.values()) {
@@ -183,22 +211,33 @@ public final class CrossoverRunner {
               + " s)...");
       limits = measureLimits(config, progress);
     }
-    Duration expected = estimateDuration(config, limits);
+    Sweep sweep = new Sweep(config, available, described, limits, progress, start, costs);
+    double prewarm = sweep.prewarm();
+    Duration expected = estimateDuration(config, costs);
     progress.message(
         String.format(
             Locale.ROOT,
-            "%s sweep: %d points (%d n x %d densities x %d scores x 2 paths); expected duration"
-                + " about %s (rough: assumes the kernels reach %.0f %% of the measured limits;"
-                + " calls estimated over %.1f s are skipped)",
+            "%s sweep: %d points (%d n x %d densities x %d scores x 2 paths); JIT warm-up of both"
+                + " paths %.1f s; expected duration about %s (from the path cost model, %s; calls"
+                + " estimated over %.1f s are skipped)",
             sweepName(config),
             config.pointCount(),
             config.nodeCounts().size(),
             config.densities().size(),
             config.scores().size(),
+            prewarm,
             Formats.duration(expected),
-            ASSUMED_EFFICIENCY * 100,
+            costs.source(),
             config.maxCallSeconds()));
-    Sweep sweep = new Sweep(config, available, described, limits, progress, start);
+    if (startLoad > Runtime.getRuntime().availableProcessors() * 0.5) {
+      progress.message(
+          String.format(
+              Locale.ROOT,
+              "note: load average %.2f on %d processors: other work is running, expect noisy"
+                  + " timings",
+              startLoad,
+              Runtime.getRuntime().availableProcessors()));
+    }
     sweep.runAll();
     return new CrossoverReport(
         config,
@@ -207,21 +246,22 @@ public final class CrossoverRunner {
         sweep.points,
         sweep.largestDifference,
         sweep.peakLoad,
-        Duration.ofNanos(System.nanoTime() - start));
+        Duration.ofNanos(System.nanoTime() - start),
+        costs,
+        startLoad);
   }
 
   /**
-   * Estimates how long a sweep will take from the machine limits, assuming the kernels reach
-   * {@value #ASSUMED_EFFICIENCY} of them. Rough: real kernels may be several times faster or
-   * slower.
+   * Estimates how long a sweep will take from the path cost model's predicted call times and the
+   * timing policy (warm-up, repetitions, caps).
    *
    * @param config the sweep
-   * @param limits the machine limits
+   * @param costs the path cost profile
    * @return the estimate
    */
-  public static Duration estimateDuration(SweepConfig config, MachineLimits limits) {
+  public static Duration estimateDuration(SweepConfig config, PathCosts costs) {
     double seconds = 0;
-    for (double s : pointEstimates(config, limits)) {
+    for (double s : pointEstimates(config, costs)) {
       seconds += s;
     }
     return Duration.ofMillis(Math.round(seconds * 1000));
@@ -250,7 +290,7 @@ public final class CrossoverRunner {
   // ---------------------------------------------------------------------------------------------
 
   /** Estimated seconds of every point, in sweep order. */
-  static double[] pointEstimates(SweepConfig config, MachineLimits limits) {
+  static double[] pointEstimates(SweepConfig config, PathCosts costs) {
     double[] est = new double[config.pointCount()];
     int i = 0;
     for (int n : config.nodeCounts()) {
@@ -259,7 +299,7 @@ public final class CrossoverRunner {
         for (SweepScore score : config.scores()) {
           HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
           for (ComputePath path : ComputePath.values()) {
-            double call = modelCallSeconds(path, shape, n, edges, limits);
+            double call = modelCallSeconds(path, shape, score, n, d, edges, costs, config);
             est[i++] = call > config.maxCallSeconds() ? 0.0 : pointSeconds(call, config.timing());
           }
         }
@@ -277,16 +317,20 @@ public final class CrossoverRunner {
   }
 
   private static double modelCallSeconds(
-      ComputePath path, HeadShape shape, int n, long edges, MachineLimits limits) {
-    double w = work(path, shape, n, edges);
-    if (path == ComputePath.DENSE) {
-      return w / (limits.gemmFlopsPerSecond() * ASSUMED_EFFICIENCY) + 1e-4;
-    }
-    // the sparse path also reads a key row per entry for dot-product scores
-    double rows = w * (shape.keyDim() + shape.valueDim()) / (double) shape.valueDim();
-    return rows / (limits.gatherRowsPerSecond(n) * ASSUMED_EFFICIENCY) + 1e-5;
+      ComputePath path,
+      HeadShape shape,
+      SweepScore score,
+      int n,
+      double density,
+      long edges,
+      PathCosts costs,
+      SweepConfig config) {
+    return costs
+        .estimate(n, edges, density >= 1.0, score.function(), shape, config.threads())
+        .seconds(path);
   }
 
+  /** Warm-up and timed calls of one point (one path), with the policy's caps. */
   private static double pointSeconds(double call, TimingPolicy policy) {
     int warmCalls = Math.min(policy.maxWarmupCalls(), Math.max(policy.minWarmupCalls(), 3) + 1);
     double warm = Math.min(warmCalls * call, policy.maxWarmupSeconds() + call);
@@ -294,7 +338,9 @@ public final class CrossoverRunner {
         Math.min(
             policy.repetitions() * call,
             Math.max(policy.maxTimedSeconds(), policy.minRepetitions() * call));
-    return warm + timed;
+    // graph building, reading outputs back, the odd repeated batch: about 20 % on top (measured
+    // against the quick sweep's points)
+    return 1.2 * (warm + timed);
   }
 
   private static Integer relaunchWithVectorApi(String[] args) {
@@ -331,6 +377,7 @@ public final class CrossoverRunner {
     private final MachineLimits limits;
     private final ProgressListener progress;
     private final long start;
+    private final PathCosts costs;
     private final double[] estimates;
     private final List<SweepPoint> points = new ArrayList<>();
 
@@ -347,14 +394,64 @@ public final class CrossoverRunner {
         Map<ComputePath, String> described,
         MachineLimits limits,
         ProgressListener progress,
-        long start) {
+        long start,
+        PathCosts costs) {
       this.config = config;
       this.kernels = kernels;
       this.described = described;
       this.limits = limits;
       this.progress = progress;
       this.start = start;
-      this.estimates = pointEstimates(config, limits);
+      this.costs = costs;
+      this.estimates = pointEstimates(config, costs);
+    }
+
+    /**
+     * Runs every kernel and score on small graphs of both pattern kinds (CSR and complete),
+     * alternately, before anything is timed: the JIT then compiles the kernels with both kinds in
+     * their profiles, and the dense path's native start-up is paid here. Without it, the first
+     * complete-pattern point after CSR ones ran while the JIT recompiled the sparse per-head pass
+     * (uncommon traps on branches its profile had never seen taken), 100x slower than steady state.
+     *
+     * @return seconds spent
+     */
+    double prewarm() {
+      long t0 = System.nanoTime();
+      int n = PREWARM_NODES;
+      AttentionPattern[] patterns = {
+        RandomPatterns.uniform(n, 0.05, config.seed()), dev.heed.graph.CompletePattern.of(n)
+      };
+      List<Runnable> calls = new ArrayList<>();
+      for (SweepScore score : config.scores()) {
+        HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
+        Inputs in = Inputs.random(n, shape, seedFor(n, score));
+        float[] out = new float[in.value.length];
+        for (ComputePath path : ComputePath.values()) {
+          AttentionKernel k = kernels.get(path);
+          if (k == null) {
+            continue;
+          }
+          for (AttentionPattern pattern : patterns) {
+            calls.add(
+                () ->
+                    k.attend(
+                        pattern, score.function(), shape, in.query, in.key, in.value, out, null));
+          }
+        }
+      }
+      for (int round = 0; round < PREWARM_ROUNDS; round++) {
+        for (Runnable c : calls) {
+          try {
+            c.run();
+          } catch (RuntimeException | LinkageError e) {
+            return (System.nanoTime() - t0) * 1e-9; // the point itself will report it
+          }
+        }
+        if ((System.nanoTime() - t0) * 1e-9 > PREWARM_MAX_SECONDS) {
+          break;
+        }
+      }
+      return (System.nanoTime() - t0) * 1e-9;
     }
 
     void runAll() {
@@ -376,25 +473,17 @@ public final class CrossoverRunner {
           for (SweepScore score : config.scores()) {
             HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
             Inputs in = pattern == null ? null : Inputs.random(n, shape, seedFor(n, score));
-            float[] denseOut = null;
-            for (ComputePath path : ComputePath.values()) {
-              Outcome o =
-                  overTime(sweepStart)
-                      ? skipped(
-                          score,
-                          n,
-                          density,
-                          edges,
-                          path,
-                          limitFor(path, n),
-                          unitFor(path),
-                          timeLimitText())
-                      : runPoint(
-                          score, shape, n, density, edges, path, pattern, in, patternProblem);
+            Outcome[] outcomes =
+                overTime(sweepStart)
+                    ? new Outcome[] {
+                      skipped(score, n, density, edges, ComputePath.DENSE, timeLimitText()),
+                      skipped(score, n, density, edges, ComputePath.SPARSE, timeLimitText())
+                    }
+                    : runPaths(score, shape, n, density, edges, pattern, in, patternProblem);
+            float[] denseOut = outcomes[0].out;
+            for (Outcome o : outcomes) {
               SweepPoint p = o.point;
-              if (path == ComputePath.DENSE) {
-                denseOut = o.out;
-              } else if (denseOut != null && o.out != null) {
+              if (p.path() == ComputePath.SPARSE && denseOut != null && o.out != null) {
                 double diff = relativeDifference(denseOut, o.out);
                 largestDifference =
                     Double.isNaN(largestDifference) ? diff : Math.max(largestDifference, diff);
@@ -454,8 +543,11 @@ public final class CrossoverRunner {
       for (int i = index; i < estimates.length; i++) {
         estimatedLeft += estimates[i];
       }
-      double factor = estimatedDone > 0 ? elapsed / estimatedDone : 1.0;
-      factor = Math.max(0.1, Math.min(10, factor));
+      // the measured rate, pulled towards the model's while little is done (a tenth of the
+      // estimate as a prior weight): the first points alone said 10x too slow or too fast
+      double prior = 0.1 * (estimatedDone + estimatedLeft);
+      double factor = (elapsed + prior) / (estimatedDone + prior);
+      factor = Math.max(0.25, Math.min(4, factor));
       double left = estimatedLeft * factor;
       if (config.maxSweepSeconds() > 0) {
         // points still left at the time limit are skipped at once
@@ -495,97 +587,138 @@ public final class CrossoverRunner {
       return config.seed() ^ (0x9E3779B97F4A7C15L * (n * 4L + score.ordinal() + 1));
     }
 
-    private Outcome runPoint(
+    /**
+     * Times both paths of one point, interleaved. Each path is first checked (kernel, pattern,
+     * estimated call time) and called once on its own, so that a path that fails or is too slow is
+     * skipped without stopping the other.
+     *
+     * @return the dense and the sparse outcome
+     */
+    private Outcome[] runPaths(
+        SweepScore score,
+        HeadShape shape,
+        int n,
+        double density,
+        long edges,
+        AttentionPattern pattern,
+        Inputs in,
+        String patternProblem) {
+      ComputePath[] paths = ComputePath.values();
+      Outcome[] outcomes = new Outcome[paths.length];
+      List<Integer> ready = new ArrayList<>();
+      List<Runnable> calls = new ArrayList<>();
+      List<Long> firsts = new ArrayList<>();
+      float[][] outs = new float[paths.length][];
+      for (int i = 0; i < paths.length; i++) {
+        ComputePath path = paths[i];
+        AttentionKernel kernel = kernels.get(path);
+        if (kernel == null) {
+          outcomes[i] =
+              skipped(
+                  score,
+                  n,
+                  density,
+                  edges,
+                  path,
+                  "no " + path + " kernel (" + described.get(path) + ")");
+          continue;
+        }
+        if (pattern == null) {
+          outcomes[i] = skipped(score, n, density, edges, path, patternProblem);
+          continue;
+        }
+        double estimate = estimateCall(path, shape, score, n, density, edges);
+        if (estimate > config.maxCallSeconds()) {
+          outcomes[i] =
+              skipped(
+                  score,
+                  n,
+                  density,
+                  edges,
+                  path,
+                  String.format(
+                      Locale.ROOT,
+                      "estimated %.1f s per call, over the %.1f s cap (--max-call-seconds)",
+                      estimate,
+                      config.maxCallSeconds()));
+          continue;
+        }
+        float[] out;
+        try {
+          out = new float[in.value.length];
+        } catch (OutOfMemoryError e) {
+          outcomes[i] = skipped(score, n, density, edges, path, "out of heap memory");
+          continue;
+        }
+        ScoreFunction function = score.function();
+        Runnable call =
+            () -> kernel.attend(pattern, function, shape, in.query, in.key, in.value, out, null);
+        long first;
+        try {
+          long t0 = System.nanoTime();
+          call.run();
+          first = System.nanoTime() - t0;
+        } catch (MemoryBudgetExceededException e) {
+          outcomes[i] =
+              skipped(
+                  score,
+                  n,
+                  density,
+                  edges,
+                  path,
+                  "over the dense memory budget: " + e.getMessage());
+          continue;
+        } catch (OutOfMemoryError e) {
+          outcomes[i] = skipped(score, n, density, edges, path, "out of memory: " + e.getMessage());
+          continue;
+        } catch (RuntimeException | LinkageError e) {
+          outcomes[i] = skipped(score, n, density, edges, path, "kernel failed: " + e);
+          continue;
+        }
+        if (first * 1e-9 > 2 * config.maxCallSeconds()) {
+          slowCalls.add(new double[] {path.ordinal(), score.ordinal(), n, edges, first});
+          outcomes[i] =
+              skipped(
+                  score,
+                  n,
+                  density,
+                  edges,
+                  path,
+                  String.format(
+                      Locale.ROOT,
+                      "the first call took %.1f s, over twice the %.1f s cap (--max-call-seconds)",
+                      first * 1e-9,
+                      config.maxCallSeconds()));
+          continue;
+        }
+        ready.add(i);
+        calls.add(call);
+        firsts.add(first);
+        outs[i] = out;
+      }
+      if (!ready.isEmpty()) {
+        TimingResult[] timings =
+            PointTimer.timeInterleaved(
+                calls.toArray(new Runnable[0]),
+                firsts.stream().mapToLong(Long::longValue).toArray(),
+                config.timing());
+        for (int r = 0; r < ready.size(); r++) {
+          int i = ready.get(r);
+          outcomes[i] = measured(score, shape, n, density, edges, paths[i], timings[r], outs[i]);
+        }
+      }
+      return outcomes;
+    }
+
+    private Outcome measured(
         SweepScore score,
         HeadShape shape,
         int n,
         double density,
         long edges,
         ComputePath path,
-        AttentionPattern pattern,
-        Inputs in,
-        String patternProblem) {
-      AttentionKernel kernel = kernels.get(path);
-      String unit = unitFor(path);
-      double limit = limitFor(path, n);
-      if (kernel == null) {
-        return skipped(
-            score,
-            n,
-            density,
-            edges,
-            path,
-            limit,
-            unit,
-            "no " + path + " kernel (" + described.get(path) + ")");
-      }
-      if (pattern == null) {
-        return skipped(score, n, density, edges, path, limit, unit, patternProblem);
-      }
-      double estimate = estimateCall(path, shape, score, n, edges);
-      if (estimate > config.maxCallSeconds()) {
-        return skipped(
-            score,
-            n,
-            density,
-            edges,
-            path,
-            limit,
-            unit,
-            String.format(
-                Locale.ROOT,
-                "estimated %.1f s per call, over the %.1f s cap (--max-call-seconds)",
-                estimate,
-                config.maxCallSeconds()));
-      }
-      ScoreFunction function = score.function();
-      float[] out;
-      try {
-        out = new float[in.value.length];
-      } catch (OutOfMemoryError e) {
-        return skipped(score, n, density, edges, path, limit, unit, "out of heap memory");
-      }
-      float[] target = out;
-      TimingResult timing;
-      try {
-        timing =
-            PointTimer.time(
-                () ->
-                    kernel.attend(
-                        pattern, function, shape, in.query, in.key, in.value, target, null),
-                config.timing(),
-                2 * config.maxCallSeconds());
-      } catch (PointTimer.TooSlowException e) {
-        slowCalls.add(new double[] {path.ordinal(), score.ordinal(), n, edges, e.firstCallNanos()});
-        return skipped(
-            score,
-            n,
-            density,
-            edges,
-            path,
-            limit,
-            unit,
-            String.format(
-                Locale.ROOT,
-                "the first call took %.1f s, over twice the %.1f s cap (--max-call-seconds)",
-                e.firstCallNanos() * 1e-9,
-                config.maxCallSeconds()));
-      } catch (MemoryBudgetExceededException e) {
-        return skipped(
-            score,
-            n,
-            density,
-            edges,
-            path,
-            limit,
-            unit,
-            "over the dense memory budget: " + e.getMessage());
-      } catch (OutOfMemoryError e) {
-        return skipped(
-            score, n, density, edges, path, limit, unit, "out of memory: " + e.getMessage());
-      } catch (RuntimeException | LinkageError e) {
-        return skipped(score, n, density, edges, path, limit, unit, "kernel failed: " + e);
-      }
+        TimingResult timing,
+        float[] out) {
       double check = 0;
       for (float v : out) {
         check += v;
@@ -596,42 +729,68 @@ public final class CrossoverRunner {
       double w = work(path, shape, n, edges);
       double achieved = path == ComputePath.DENSE ? w / seconds / 1e9 : w / seconds / 1e6;
       return new Outcome(
-          new SweepPoint(score, n, density, edges, path, timing, achieved, limit, unit, note), out);
+          new SweepPoint(
+              score,
+              n,
+              density,
+              edges,
+              path,
+              timing,
+              achieved,
+              limitFor(path, n),
+              unitFor(path),
+              note),
+          out);
+    }
+
+    private Outcome skipped(
+        SweepScore score, int n, double density, long edges, ComputePath path, String why) {
+      return skipped(score, n, density, edges, path, limitFor(path, n), unitFor(path), why);
     }
 
     /**
-     * Estimated seconds for one call: extrapolated from the largest point measured so far on the
-     * same path and score (dense by n², sparse by E), or from the model when none was.
+     * Estimated seconds for one call: the fastest rate (seconds per unit of work: n² dense, E
+     * sparse) among the points measured so far on the same path and score with at least 1/64 of
+     * this call's work (the largest point's if none), since other work on the machine only ever
+     * slows a point; no faster than a first call that was too slow to time; from the path cost
+     * model when nothing was measured.
      */
     private double estimateCall(
-        ComputePath path, HeadShape shape, SweepScore score, int n, long edges) {
-      SweepPoint basis = null;
-      double basisWork = 0;
+        ComputePath path, HeadShape shape, SweepScore score, int n, double density, long edges) {
+      double target = scaleWork(path, n, edges);
+      double rate = Double.NaN; // seconds per unit of work
+      double largest = 0;
+      double largestRate = Double.NaN;
       for (SweepPoint p : points) {
         if (p.path() != path || p.score() != score || !p.measured()) {
           continue;
         }
         double w = scaleWork(path, p.n(), p.edges());
-        if (w >= basisWork) {
-          basis = p;
-          basisWork = w;
+        double r = p.timing().medianNanos() * 1e-9 / w;
+        if (w >= target / 64 && !(r >= rate)) {
+          rate = r;
+        }
+        if (w >= largest) {
+          largest = w;
+          largestRate = r;
         }
       }
-      double basisNanos = basis == null ? Double.NaN : basis.timing().medianNanos();
+      if (Double.isNaN(rate)) {
+        rate = largestRate;
+      }
       for (double[] slow : slowCalls) {
         if (slow[0] != path.ordinal() || slow[1] != score.ordinal()) {
           continue;
         }
         double w = scaleWork(path, (int) slow[2], (long) slow[3]);
-        if (w <= scaleWork(path, n, edges) && (Double.isNaN(basisNanos) || w >= basisWork)) {
-          basisNanos = slow[4];
-          basisWork = w;
+        if (w <= target) {
+          rate = Math.max(Double.isNaN(rate) ? 0 : rate, slow[4] * 1e-9 / w);
         }
       }
-      if (Double.isNaN(basisNanos)) {
-        return modelCallSeconds(path, shape, n, edges, limits);
+      if (Double.isNaN(rate)) {
+        return modelCallSeconds(path, shape, score, n, density, edges, costs, config);
       }
-      return basisNanos * 1e-9 * scaleWork(path, n, edges) / basisWork;
+      return rate * target;
     }
 
     private static double scaleWork(ComputePath path, int n, long edges) {

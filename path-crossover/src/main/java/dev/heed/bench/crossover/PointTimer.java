@@ -5,10 +5,12 @@ import java.util.ArrayList;
 import java.util.List;
 
 /**
- * Times one call repeatedly under a {@link TimingPolicy}: warm-up until stable, then the median of
- * the timed repetitions with min, max and quartiles. Each call is timed on its own with {@link
- * System#nanoTime()}, which is fine for calls of a few microseconds and more, the range of the
- * sweep (common practice: nanoTime's resolution is well under a microsecond on Linux).
+ * Times one call, or the paths of one sweep point interleaved, under a {@link TimingPolicy}:
+ * warm-up until stable, then the median of the timed repetitions with min, max, quartiles and a
+ * confidence interval, slow outliers dropped and high-spread points timed again. Each call is timed
+ * on its own with {@link System#nanoTime()}, which is fine for calls of a few microseconds and
+ * more, the range of the sweep (common practice: nanoTime's resolution is well under a microsecond
+ * on Linux).
  *
  * <p>Thread safety: stateless.
  */
@@ -41,47 +43,173 @@ public final class PointTimer {
    * @throws RuntimeException whatever {@code call} throws, unchanged
    */
   public static TimingResult time(Runnable call, TimingPolicy policy, double abortAboveSeconds) {
-    List<Long> warm = new ArrayList<>();
-    long warmTotal = 0;
-    boolean stable = false;
-    while (true) {
-      long t = timeOnce(call);
-      if (warm.isEmpty() && t * 1e-9 > abortAboveSeconds) {
-        throw new TooSlowException(t);
-      }
-      warm.add(t);
-      warmTotal += t;
-      if (warm.size() >= policy.minWarmupCalls()
-          && lastThreeStable(warm, policy.stableTolerance())) {
-        stable = true;
-        break;
-      }
-      if (warm.size() >= policy.maxWarmupCalls() || warmTotal * 1e-9 >= policy.maxWarmupSeconds()) {
-        break;
+    long first = timeOnce(call);
+    if (first * 1e-9 > abortAboveSeconds) {
+      throw new TooSlowException(first);
+    }
+    return timeInterleaved(new Runnable[] {call}, new long[] {first}, policy)[0];
+  }
+
+  /**
+   * Times several calls (the two paths of one sweep point) interleaved: warm-up calls alternate
+   * between them until each is stable (or capped), then the timed calls alternate A, B, A, B, so
+   * that a burst of other work on the machine touches every call alike. Each call's samples then
+   * lose their outliers (above Q3 + 3 IQR) and, while their spread exceeds {@code
+   * policy.maxSpread()}, get up to {@code policy.extraRounds()} more batches.
+   *
+   * @param calls the calls (not null, at least one)
+   * @param firstNanos each call's first call, already made (it counts as a warm-up call)
+   * @param policy warm-up, repetition and spread rules
+   * @return one result per call, in order
+   * @throws RuntimeException whatever a call throws, unchanged
+   */
+  public static TimingResult[] timeInterleaved(
+      Runnable[] calls, long[] firstNanos, TimingPolicy policy) {
+    int k = calls.length;
+    List<List<Long>> warm = new ArrayList<>();
+    long[] warmTotal = new long[k];
+    boolean[] done = new boolean[k];
+    boolean[] stable = new boolean[k];
+    for (int c = 0; c < k; c++) {
+      List<Long> w = new ArrayList<>();
+      w.add(firstNanos[c]);
+      warm.add(w);
+      warmTotal[c] = firstNanos[c];
+    }
+    int left = k;
+    while (left > 0) {
+      for (int c = 0; c < k; c++) {
+        if (done[c]) {
+          continue;
+        }
+        List<Long> w = warm.get(c);
+        if (w.size() >= policy.minWarmupCalls() && lastThreeStable(w, policy.stableTolerance())) {
+          stable[c] = true;
+          done[c] = true;
+        } else if (w.size() >= policy.maxWarmupCalls()
+            || warmTotal[c] * 1e-9 >= policy.maxWarmupSeconds()) {
+          done[c] = true;
+        } else {
+          long t = timeOnce(calls[c]);
+          w.add(t);
+          warmTotal[c] += t;
+          continue;
+        }
+        left--;
       }
     }
-    long last = warm.get(warm.size() - 1);
+    int[] reps = new int[k];
+    for (int c = 0; c < k; c++) {
+      List<Long> w = warm.get(c);
+      reps[c] = repetitionsFor(w.get(w.size() - 1), policy);
+    }
+    List<List<Double>> samples = new ArrayList<>();
+    for (int c = 0; c < k; c++) {
+      samples.add(new ArrayList<>());
+    }
+    timeRounds(calls, reps, samples);
+    int[] extra = new int[k];
+    double[][] kept = new double[k][];
+    int[] discarded = new int[k];
+    for (int round = 0; ; round++) {
+      int[] more = new int[k];
+      boolean any = false;
+      for (int c = 0; c < k; c++) {
+        double[] all = samples.get(c).stream().mapToDouble(Double::doubleValue).toArray();
+        kept[c] = withoutOutliers(all);
+        discarded[c] = all.length - kept[c].length;
+        double median = quantile(kept[c], 0.5);
+        double spread = (quantile(kept[c], 1) - quantile(kept[c], 0)) / median;
+        if (spread > policy.maxSpread() && round < policy.extraRounds()) {
+          more[c] = reps[c];
+          extra[c]++;
+          any = true;
+        }
+      }
+      if (!any) {
+        break;
+      }
+      timeRounds(calls, more, samples);
+    }
+    TimingResult[] results = new TimingResult[k];
+    for (int c = 0; c < k; c++) {
+      double[] times = kept[c];
+      double[] ci = medianInterval(times);
+      results[c] =
+          new TimingResult(
+              quantile(times, 0.5),
+              quantile(times, 0),
+              quantile(times, 1),
+              quantile(times, 0.25),
+              quantile(times, 0.75),
+              warm.get(c).size(),
+              samples.get(c).size(),
+              stable[c],
+              ci[0],
+              ci[1],
+              discarded[c],
+              extra[c]);
+    }
+    return results;
+  }
+
+  private static int repetitionsFor(long lastWarmNanos, TimingPolicy policy) {
     int reps = policy.repetitions();
-    double projected = (double) last * reps * 1e-9;
+    double projected = (double) lastWarmNanos * reps * 1e-9;
     if (projected > policy.maxTimedSeconds()) {
       reps =
           Math.max(
-              policy.minRepetitions(), (int) Math.floor(policy.maxTimedSeconds() / (last * 1e-9)));
+              policy.minRepetitions(),
+              (int) Math.floor(policy.maxTimedSeconds() / (lastWarmNanos * 1e-9)));
       reps = Math.min(reps, policy.repetitions());
     }
-    double[] times = new double[reps];
-    for (int r = 0; r < reps; r++) {
-      times[r] = timeOnce(call);
+    return reps;
+  }
+
+  /** Times {@code reps[c]} calls of each call c, alternating between the calls. */
+  private static void timeRounds(Runnable[] calls, int[] reps, List<List<Double>> samples) {
+    int rounds = 0;
+    for (int r : reps) {
+      rounds = Math.max(rounds, r);
     }
-    return new TimingResult(
-        quantile(times, 0.5),
-        quantile(times, 0),
-        quantile(times, 1),
-        quantile(times, 0.25),
-        quantile(times, 0.75),
-        warm.size(),
-        reps,
-        stable);
+    for (int r = 0; r < rounds; r++) {
+      for (int c = 0; c < calls.length; c++) {
+        if (r < reps[c]) {
+          samples.get(c).add((double) timeOnce(calls[c]));
+        }
+      }
+    }
+  }
+
+  /**
+   * Drops values above Q3 + 3·IQR (Tukey's far-out fence, common practice). Slow outliers only: a
+   * call cannot be sped up by interference.
+   */
+  static double[] withoutOutliers(double[] values) {
+    if (values.length < 4) {
+      return values.clone();
+    }
+    double q1 = quantile(values, 0.25);
+    double q3 = quantile(values, 0.75);
+    double fence = q3 + 3 * (q3 - q1);
+    return java.util.Arrays.stream(values).filter(v -> v <= fence).toArray();
+  }
+
+  /**
+   * A distribution-free 95 % confidence interval of the median from order statistics: ranks {@code
+   * m/2 ± 0.98·√m} (the normal approximation to the binomial, common practice); the whole range for
+   * fewer than 6 values.
+   */
+  static double[] medianInterval(double[] values) {
+    double[] sorted = values.clone();
+    java.util.Arrays.sort(sorted);
+    int m = sorted.length;
+    if (m < 6) {
+      return new double[] {sorted[0], sorted[m - 1]};
+    }
+    int lo = (int) Math.floor(m / 2.0 - 0.98 * Math.sqrt(m));
+    int hi = (int) Math.ceil(m / 2.0 + 0.98 * Math.sqrt(m));
+    return new double[] {sorted[Math.max(0, lo)], sorted[Math.min(m - 1, hi)]};
   }
 
   private static long timeOnce(Runnable call) {

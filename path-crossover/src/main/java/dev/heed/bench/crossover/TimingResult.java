@@ -13,6 +13,10 @@ package dev.heed.bench.crossover;
  * @param warmupCalls untimed warm-up calls made
  * @param repetitions timed calls made
  * @param stable whether warm-up ended because the timings had settled (not on a cap)
+ * @param ciLowNanos lower end of a 95 % confidence interval of the median (order statistics)
+ * @param ciHighNanos upper end of that interval
+ * @param discarded timed calls dropped as outliers (above Q3 + 3 IQR)
+ * @param extraRounds extra batches of repetitions timed because the spread was high
  */
 public record TimingResult(
     double medianNanos,
@@ -22,7 +26,56 @@ public record TimingResult(
     double q3Nanos,
     int warmupCalls,
     int repetitions,
-    boolean stable) {
+    boolean stable,
+    double ciLowNanos,
+    double ciHighNanos,
+    int discarded,
+    int extraRounds) {
+
+  /**
+   * A result without a confidence interval (taken as min..max), outliers or extra rounds.
+   *
+   * @param medianNanos median
+   * @param minNanos fastest
+   * @param maxNanos slowest
+   * @param q1Nanos first quartile
+   * @param q3Nanos third quartile
+   * @param warmupCalls warm-up calls
+   * @param repetitions timed calls
+   * @param stable whether warm-up settled
+   */
+  public TimingResult(
+      double medianNanos,
+      double minNanos,
+      double maxNanos,
+      double q1Nanos,
+      double q3Nanos,
+      int warmupCalls,
+      int repetitions,
+      boolean stable) {
+    this(
+        medianNanos,
+        minNanos,
+        maxNanos,
+        q1Nanos,
+        q3Nanos,
+        warmupCalls,
+        repetitions,
+        stable,
+        minNanos,
+        maxNanos,
+        0,
+        0);
+  }
+
+  /**
+   * Returns the half-width of the median's confidence interval relative to the median.
+   *
+   * @return {@code (ciHigh − ciLow) / 2 / median}
+   */
+  public double relativeConfidence() {
+    return (ciHighNanos - ciLowNanos) / 2 / medianNanos;
+  }
 
   /**
    * Returns the median in milliseconds.

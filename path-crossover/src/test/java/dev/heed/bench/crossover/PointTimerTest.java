@@ -48,6 +48,32 @@ class PointTimerTest {
   }
 
   @Test
+  void interleavedCallsAlternateAndEachGetsItsOwnResult() {
+    StringBuilder order = new StringBuilder();
+    Runnable a = () -> order.append('a');
+    Runnable b = () -> order.append('b');
+    TimingPolicy policy = new TimingPolicy(1, 1, 1.0, 0.5, 4, 1, 1.0, 1e9, 0);
+    TimingResult[] r = PointTimer.timeInterleaved(new Runnable[] {a, b}, new long[] {1, 1}, policy);
+    assertEquals(2, r.length);
+    // no warm-up call beyond the first (already made), then four timed rounds, a before b
+    assertEquals("abababab", order.toString());
+    assertEquals(4, r[0].repetitions());
+    assertEquals(4, r[1].repetitions());
+  }
+
+  @Test
+  void slowOutliersAreDroppedAndTheMedianHasAnInterval() {
+    double[] v = {10, 11, 9, 10, 12, 10, 11, 200};
+    double[] kept = PointTimer.withoutOutliers(v);
+    assertEquals(7, kept.length, "200 is above Q3 + 3 IQR");
+    double[] fast = {1, 10, 11, 9, 10, 12, 10, 11};
+    assertEquals(8, PointTimer.withoutOutliers(fast).length, "fast values are never dropped");
+    double[] ci = PointTimer.medianInterval(new double[] {5, 1, 4, 2, 3, 6, 7, 8, 9});
+    assertTrue(ci[0] <= 5 && 5 <= ci[1], ci[0] + ".." + ci[1]);
+    assertTrue(ci[0] >= 1 && ci[1] <= 9);
+  }
+
+  @Test
   void quantilesInterpolateBetweenOrderStatistics() {
     double[] v = {4, 1, 3, 2};
     assertEquals(1, PointTimer.quantile(v, 0));

@@ -1,0 +1,272 @@
+package dev.heed.attention.internal;
+
+import dev.heed.attention.ComputePath;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.ScoreFunction;
+import java.util.List;
+
+/**
+ * The ways the two kernels run one attention call, each with the work terms its time grows with.
+ * The path cost model ({@code dev.heed.attention.PathCosts}) predicts a call's time as a sum of
+ * coefficient × term over its regime; calibration fits the coefficients on the machine. Internal,
+ * not API.
+ *
+ * <p>A term's unit of work is counted from the call's size only (n, entries E, heads H, key width
+ * dk, value width dv, whether the pattern is the complete one, threads). Terms marked parallel run
+ * on the kernel's Java threads and are divided by the speed-up {@code 1 + e · (t − 1)} of the t
+ * threads the call uses, e being the profile's parallel efficiency; the others are not.
+ *
+ * <p>The sparse regimes follow the CSR kernel's own choice, which is made once per call (see the
+ * sparse module's kernel): additive scores with {@value #ALL_HEADS_HEADS} heads of {@value
+ * #ALL_HEADS_HEADS} value floats take the all-heads path when the Vector API loops run; over a CSR
+ * graph whose packed node table would hold at least {@value #PACKED_TABLE_MIN_BYTES} bytes ({@value
+ * #PACKED_ROW_BYTES} per node) they first copy keys and values into that table; every other call
+ * takes the per-head path, one regime per score function. A test in the sparse module checks that
+ * these rules match the kernel's.
+ *
+ * <p>Thread safety: an enum, immutable.
+ */
+public enum CostRegime {
+  /**
+   * The dense kernel: a fixed cost; its matrix products, n²·H·(dk + dv) (BLAS threads, not scaled);
+   * its per-score-element Java work, n²·H (softmax; parallel); the CSR mask, n²·H for a CSR pattern
+   * (ND4J adds); GATv2's Java scores, H·dk per scored pair (n² complete, E masked; parallel).
+   */
+  DENSE(
+      "dense",
+      ComputePath.DENSE,
+      List.of("fixed", "product", "element", "mask", "gatv2"),
+      new boolean[] {false, false, true, false, true}),
+  /** Sparse per-head path, additive (GAT) scores: fixed; n rows; E·H; E·H·(dk + dv). */
+  SPARSE_PER_HEAD_ADDITIVE(
+      "sparse_per_head_additive", ComputePath.SPARSE, perHeadTerms(), perHead()),
+  /** Sparse per-head path, scaled dot-product scores; terms as the additive regime. */
+  SPARSE_PER_HEAD_DOT("sparse_per_head_dot", ComputePath.SPARSE, perHeadTerms(), perHead()),
+  /** Sparse per-head path, GATv2 scores; terms as the additive regime. */
+  SPARSE_PER_HEAD_GATV2("sparse_per_head_gatv2", ComputePath.SPARSE, perHeadTerms(), perHead()),
+  /** Sparse all-heads path reading the caller's arrays in place: fixed; n rows; E. */
+  SPARSE_ALL_HEADS(
+      "sparse_all_heads",
+      ComputePath.SPARSE,
+      List.of("fixed", "row", "entry"),
+      new boolean[] {false, true, true}),
+  /** Sparse all-heads path over the packed node table: fixed; n nodes copied and rows; E. */
+  SPARSE_ALL_HEADS_PACKED(
+      "sparse_all_heads_packed",
+      ComputePath.SPARSE,
+      List.of("fixed", "node", "entry"),
+      new boolean[] {false, true, true});
+
+  /** Heads and value floats per head of the sparse all-heads path. */
+  public static final int ALL_HEADS_HEADS = 8;
+
+  /** Bytes per node of the sparse path's packed node table. */
+  public static final int PACKED_ROW_BYTES = 320;
+
+  /** Smallest packed node table the sparse path builds, in bytes (16 MiB). */
+  public static final long PACKED_TABLE_MIN_BYTES = 16L << 20;
+
+  /** Cost units (entries + rows) per thread below which the sparse path uses fewer threads. */
+  public static final long SPARSE_MIN_COST_PER_THREAD = 1L << 14;
+
+  private static final String PACK_PROPERTY = "heed.sparse.pack";
+  private static final String VECTOR_PROPERTY = "heed.sparse.vector";
+
+  private final String key;
+  private final ComputePath path;
+  private final List<String> terms;
+  private final boolean[] parallel;
+
+  CostRegime(String key, ComputePath path, List<String> terms, boolean[] parallel) {
+    this.key = key;
+    this.path = path;
+    this.terms = terms;
+    this.parallel = parallel;
+  }
+
+  private static List<String> perHeadTerms() {
+    return List.of("fixed", "row", "entry", "entry_width");
+  }
+
+  private static boolean[] perHead() {
+    return new boolean[] {false, true, true, true};
+  }
+
+  /**
+   * Returns the regime's name in profile files.
+   *
+   * @return for example {@code "sparse_per_head_dot"}
+   */
+  public String key() {
+    return key;
+  }
+
+  /**
+   * Returns the path this regime belongs to.
+   *
+   * @return the path
+   */
+  public ComputePath path() {
+    return path;
+  }
+
+  /**
+   * Returns the names of the regime's terms, in coefficient order.
+   *
+   * @return an unmodifiable list
+   */
+  public List<String> terms() {
+    return terms;
+  }
+
+  /**
+   * Returns the regime with this profile name.
+   *
+   * @param key the name
+   * @return the regime, or null if none has it
+   */
+  public static CostRegime byKey(String key) {
+    for (CostRegime r : values()) {
+      if (r.key.equals(key)) {
+        return r;
+      }
+    }
+    return null;
+  }
+
+  /**
+   * Returns the regime a call on {@code path} runs in.
+   *
+   * @param path the path
+   * @param size the call
+   * @return the regime
+   */
+  public static CostRegime of(ComputePath path, CallSize size) {
+    if (path == ComputePath.DENSE) {
+      return DENSE;
+    }
+    ScoreFunction score = size.score();
+    if (score instanceof ScoreFunction.Additive
+        && size.shape().heads() == ALL_HEADS_HEADS
+        && size.shape().valueDim() == ALL_HEADS_HEADS
+        && SparseSwitches.VECTOR_LOOPS) {
+      return !size.complete()
+              && SparseSwitches.PACKED
+              && (long) PACKED_ROW_BYTES * size.nodes() >= PACKED_TABLE_MIN_BYTES
+          ? SPARSE_ALL_HEADS_PACKED
+          : SPARSE_ALL_HEADS;
+    }
+    if (score instanceof ScoreFunction.Additive) {
+      return SPARSE_PER_HEAD_ADDITIVE;
+    }
+    if (score instanceof ScoreFunction.Gatv2) {
+      return SPARSE_PER_HEAD_GATV2;
+    }
+    return SPARSE_PER_HEAD_DOT;
+  }
+
+  /**
+   * Returns the threads a call uses: for the sparse path, as the kernel decides (fewer for small
+   * calls, at most n); for the dense path's Java work, all of them.
+   *
+   * @param size the call
+   * @return at least 1
+   */
+  public int threadsUsed(CallSize size) {
+    if (path == ComputePath.DENSE) {
+      return size.threads();
+    }
+    long cost = size.entries() + size.nodes();
+    return (int)
+        Math.max(
+            1,
+            Math.min(
+                Math.min(size.threads(), Math.max(1, size.nodes())),
+                Math.max(1, cost / SPARSE_MIN_COST_PER_THREAD)));
+  }
+
+  /**
+   * Returns the call's work per term, parallel terms divided by the speed-up of the threads it
+   * uses; a prediction is the dot product of these with the coefficients.
+   *
+   * @param size the call
+   * @param parallelEfficiency e in {@code [0, 1]}
+   * @return one value per term, in {@link #terms()} order
+   */
+  public double[] features(CallSize size, double parallelEfficiency) {
+    double n = size.nodes();
+    double e = size.entries();
+    HeadShape shape = size.shape();
+    double h = shape.heads();
+    double width = shape.keyDim() + shape.valueDim();
+    double[] f =
+        switch (this) {
+          case DENSE ->
+              new double[] {
+                1,
+                n * n * h * width,
+                n * n * h,
+                size.complete() ? 0 : n * n * h,
+                size.score() instanceof ScoreFunction.Gatv2 ? e * h * shape.keyDim() : 0
+              };
+          case SPARSE_PER_HEAD_ADDITIVE, SPARSE_PER_HEAD_DOT, SPARSE_PER_HEAD_GATV2 ->
+              new double[] {1, n, e * h, e * h * width};
+          case SPARSE_ALL_HEADS, SPARSE_ALL_HEADS_PACKED -> new double[] {1, n, e};
+        };
+    double speedUp = 1 + parallelEfficiency * (threadsUsed(size) - 1);
+    for (int i = 0; i < f.length; i++) {
+      if (parallel[i]) {
+        f[i] /= speedUp;
+      }
+    }
+    return f;
+  }
+
+  /** The sparse kernel's user switches, read once as the kernel reads them. */
+  private static final class SparseSwitches {
+    static final boolean PACKED = !"false".equalsIgnoreCase(System.getProperty(PACK_PROPERTY));
+    static final boolean VECTOR_LOOPS =
+        VectorApiLoader.vectorModule().isPresent()
+            && !"false".equalsIgnoreCase(System.getProperty(VECTOR_PROPERTY));
+  }
+
+  /**
+   * The size of one attention call, as far as its cost goes.
+   *
+   * @param nodes n, the pattern's node count
+   * @param entries E, the pattern's entries (n² for the complete pattern)
+   * @param complete whether the pattern is the complete one (no storage, no mask)
+   * @param score the score function
+   * @param shape heads and widths
+   * @param threads the threads the caller allows, at least 1
+   */
+  public record CallSize(
+      int nodes,
+      long entries,
+      boolean complete,
+      ScoreFunction score,
+      HeadShape shape,
+      int threads) {
+
+    /**
+     * Checks the values.
+     *
+     * @throws IllegalArgumentException if a count is negative or threads is below 1
+     * @throws NullPointerException if score or shape is null
+     */
+    public CallSize {
+      java.util.Objects.requireNonNull(score, "score");
+      java.util.Objects.requireNonNull(shape, "shape");
+      if (nodes < 0 || entries < 0 || threads < 1) {
+        throw new IllegalArgumentException(
+            "call size out of range: nodes="
+                + nodes
+                + ", entries="
+                + entries
+                + ", threads="
+                + threads
+                + " (counts at least 0, threads at least 1)");
+      }
+    }
+  }
+}

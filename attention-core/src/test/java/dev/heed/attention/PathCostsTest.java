@@ -1,0 +1,175 @@
+package dev.heed.attention;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertSame;
+import static org.junit.jupiter.api.Assertions.assertThrows;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.heed.attention.internal.CostRegime;
+import dev.heed.attention.internal.CostRegime.CallSize;
+import dev.heed.graph.CompletePattern;
+import java.io.IOException;
+import java.io.UncheckedIOException;
+import java.nio.file.Files;
+import java.nio.file.NoSuchFileException;
+import java.nio.file.Path;
+import java.util.Map;
+import org.junit.jupiter.api.Test;
+import org.junit.jupiter.api.io.TempDir;
+
+/** The cost model's predictions and rules with synthetic coefficients, and the profile file. */
+class PathCostsTest {
+
+  private static final ScoreFunction DOT = ScoreFunction.scaledDotProduct();
+  private static final ScoreFunction GAT = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
+  private static final HeadShape DOT_4X16 = new HeadShape(4, 16, 16);
+
+  @TempDir Path dir;
+
+  @Test
+  void predictionsAreTheSumOfCoefficientTimesWork() {
+    PathCosts costs = SyntheticCosts.linear(1e-4, 2e-9, 1e-5, 8e-9);
+    int n = 1000;
+    long e = 50_000;
+    PathEstimate est = costs.estimate(n, e, false, DOT, DOT_4X16, 1);
+    assertEquals(1e-4 + 2e-9 * n * (double) n * 4, est.denseSeconds(), 1e-12);
+    assertEquals(1e-5 + 8e-9 * e * 4, est.sparseSeconds(), 1e-12);
+    assertEquals(ComputePath.SPARSE, est.faster());
+    // E = n² on the complete pattern: dense (2e-9) beats sparse (8e-9) per element
+    assertEquals(
+        ComputePath.DENSE, costs.estimate(CompletePattern.of(n), DOT, DOT_4X16, 1).faster());
+  }
+
+  @Test
+  void crossoverDensityIsWhereThePredictionsMeet() {
+    // no fixed costs: dense 2e-9·n²H, sparse 8e-9·E·H, so they meet at E/n² = 0.25
+    PathCosts costs = SyntheticCosts.linear(0, 2e-9, 0, 8e-9);
+    assertEquals(0.25, costs.crossoverDensity(4096, DOT, DOT_4X16, 1), 1e-4);
+    assertEquals(
+        1.0, SyntheticCosts.linear(0, 1e-8, 0, 1e-9).crossoverDensity(64, DOT, DOT_4X16, 1));
+    assertEquals(
+        1.0 / 64,
+        SyntheticCosts.linear(0, 1e-12, 0, 1e-6).crossoverDensity(64, DOT, DOT_4X16, 1),
+        1e-12);
+  }
+
+  @Test
+  void threadsDivideTheParallelTermsOnly() {
+    PathCosts costs = SyntheticCosts.linear(1e-3, 1e-9, 1e-3, 1e-8);
+    // a large call uses both threads; efficiency 1 halves the entry term, not the fixed one
+    PathEstimate one = costs.estimate(100_000, 10_000_000, false, DOT, DOT_4X16, 1);
+    PathEstimate two = costs.estimate(100_000, 10_000_000, false, DOT, DOT_4X16, 2);
+    assertEquals((one.sparseSeconds() - 1e-3) / 2, two.sparseSeconds() - 1e-3, 1e-12);
+    // a call below the kernel's per-thread cost runs on one thread whatever is allowed
+    PathEstimate small1 = costs.estimate(100, 1000, false, DOT, DOT_4X16, 1);
+    PathEstimate small8 = costs.estimate(100, 1000, false, DOT, DOT_4X16, 8);
+    assertEquals(small1.sparseSeconds(), small8.sparseSeconds(), 0.0);
+  }
+
+  @Test
+  void regimesFollowTheSparseKernelsRules() {
+    HeadShape gat8x8 = new HeadShape(8, 1, 8);
+    int packedNodes = (int) (CostRegime.PACKED_TABLE_MIN_BYTES / CostRegime.PACKED_ROW_BYTES) + 1;
+    assertEquals(CostRegime.DENSE, regime(ComputePath.DENSE, 10, 10, false, GAT, gat8x8));
+    assertEquals(
+        CostRegime.SPARSE_ALL_HEADS, regime(ComputePath.SPARSE, 1000, 5000, false, GAT, gat8x8));
+    assertEquals(
+        CostRegime.SPARSE_ALL_HEADS_PACKED,
+        regime(ComputePath.SPARSE, packedNodes, 5L * packedNodes, false, GAT, gat8x8));
+    assertEquals(
+        CostRegime.SPARSE_ALL_HEADS,
+        regime(ComputePath.SPARSE, packedNodes - 2, 5L * packedNodes, false, GAT, gat8x8));
+    assertEquals(
+        CostRegime.SPARSE_PER_HEAD_ADDITIVE,
+        regime(ComputePath.SPARSE, 1000, 5000, false, GAT, new HeadShape(4, 1, 16)));
+    assertEquals(
+        CostRegime.SPARSE_PER_HEAD_DOT,
+        regime(ComputePath.SPARSE, 1000, 5000, false, DOT, DOT_4X16));
+    assertEquals(
+        CostRegime.SPARSE_PER_HEAD_GATV2,
+        regime(
+            ComputePath.SPARSE,
+            1000,
+            5000,
+            false,
+            ScoreFunction.gatv2(0.2f, new float[64]),
+            DOT_4X16));
+  }
+
+  private static CostRegime regime(
+      ComputePath path, int n, long e, boolean complete, ScoreFunction s, HeadShape shape) {
+    return CostRegime.of(path, new CallSize(n, e, complete, s, shape, 2));
+  }
+
+  @Test
+  void builtInProfileHasEveryRegimeWithPositiveCoefficients() {
+    PathCosts b = PathCosts.builtIn();
+    assertEquals(PathCosts.BUILT_IN_SOURCE, b.source());
+    Map<String, Map<String, Double>> all = b.coefficients();
+    assertEquals(CostRegime.values().length, all.size());
+    for (CostRegime r : CostRegime.values()) {
+      for (String term : r.terms()) {
+        assertTrue(all.get(r.key()).get(term) > 0, r.key() + "." + term + " is a prior: > 0");
+      }
+    }
+  }
+
+  @Test
+  void writeThenReadGivesTheSameProfile() throws IOException {
+    PathCosts costs = SyntheticCosts.linear(1e-4, 2e-9, 1e-5, 8e-9);
+    Path file = dir.resolve("sub/costs.json");
+    costs.write(file);
+    PathCosts back = PathCosts.read(file);
+    assertEquals(costs.coefficients(), back.coefficients());
+    assertEquals(costs.threads(), back.threads());
+    assertEquals(costs.parallelEfficiency(), back.parallelEfficiency());
+    assertEquals(file.toString(), back.source());
+    assertTrue(Files.readString(file).contains("\"format\" : \"heed-path-costs\""));
+  }
+
+  @Test
+  void badFilesGetErrorsNamingTheFileAndTheField() throws IOException {
+    String good = SyntheticCosts.linear(1e-4, 2e-9, 1e-5, 8e-9).toJson();
+    assertBad("{ not json", "not a JSON document");
+    assertBad("[1, 2]", "expected a JSON object");
+    assertBad("{\"format\": \"some-other-tool\", \"version\": 1}", "not a Heed path-cost profile");
+    assertBad(good.replace("\"version\" : 1", "\"version\" : 2"), "written by a newer Heed");
+    assertBad(good.replace("\"threads\" : 1", "\"threads\" : 0"), "\"threads\" must be at least 1");
+    assertBad(good.replace("\"sparse_all_heads\"", "\"sparse_everything\""), "unknown regime");
+    assertBad(good.replace("\"entry_width\"", "\"entry_widht\""), "has no term \"entry_widht\"");
+    assertBad(
+        good.replace("\"element\" : 2.0E-9", "\"element\" : -2.0E-9"), "regimes.dense.element");
+    assertBad(
+        good.replace("\"parallel_efficiency\" : 1.0", "\"parallel_efficiency\" : 1.5"), "[0, 1]");
+    assertBad(good.replace("\"calibrated_at\"", "\"colour\""), "unknown field \"colour\"");
+  }
+
+  private void assertBad(String text, String expected) throws IOException {
+    Path file = Files.writeString(dir.resolve("bad.json"), text);
+    PathCostsFormatException e =
+        assertThrows(PathCostsFormatException.class, () -> PathCosts.read(file));
+    assertTrue(e.getMessage().startsWith(file.toString()), e.getMessage());
+    assertTrue(e.getMessage().contains(expected), e.getMessage());
+  }
+
+  @Test
+  void aNamedFileMustBeValidButABadDefaultFileFallsBackToTheBuiltIn() throws IOException {
+    Path good = dir.resolve("good.json");
+    SyntheticCosts.linear(1e-4, 2e-9, 1e-5, 8e-9).write(good);
+    Path bad = Files.writeString(dir.resolve("bad.json"), "{\"format\": \"other\"}");
+    Path missing = dir.resolve("missing.json");
+
+    assertEquals(good.toString(), PathCosts.resolve(good.toString(), missing).source());
+    UncheckedIOException noFile =
+        assertThrows(UncheckedIOException.class, () -> PathCosts.resolve(missing.toString(), good));
+    assertTrue(noFile.getCause() instanceof NoSuchFileException, noFile.toString());
+    assertTrue(noFile.getMessage().contains("heed calibrate"), noFile.getMessage());
+    UncheckedIOException badFile =
+        assertThrows(UncheckedIOException.class, () -> PathCosts.resolve(bad.toString(), good));
+    assertTrue(badFile.getCause() instanceof PathCostsFormatException, badFile.toString());
+
+    assertEquals(good.toString(), PathCosts.resolve(null, good).source());
+    assertSame(PathCosts.builtIn(), PathCosts.resolve(null, bad));
+    assertSame(PathCosts.builtIn(), PathCosts.resolve("", missing));
+  }
+}
