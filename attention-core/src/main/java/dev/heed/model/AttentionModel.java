@@ -28,6 +28,10 @@ import java.util.Set;
  */
 public final class AttentionModel {
 
+  static {
+    dev.heed.internal.model.ModelSteps.install(new StepAccess());
+  }
+
   private final int inputFeatureCount;
   private final List<String> featureNames;
   private final List<String> classLabels;
@@ -243,6 +247,11 @@ public final class AttentionModel {
         KernelSource.fromClassPath(options),
         graphPolicies,
         checks);
+  }
+
+  /** The model's kernels. */
+  KernelSource kernelSource() {
+    return kernels;
   }
 
   /** The same model with kernels from {@code source}; for tests and the reference check. */
