@@ -12,7 +12,6 @@ import static org.junit.jupiter.api.Assertions.assertTimeoutPreemptively;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.graph.DirectionPolicy;
-import dev.heed.graph.generate.RmatGenerator;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.PathChoice;
 import dev.heed.model.RandomModels;
@@ -28,11 +27,6 @@ import java.util.concurrent.ConcurrentHashMap;
 import java.util.concurrent.CountDownLatch;
 import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.stream.Stream;
-import org.jgrapht.Graph;
-import org.jgrapht.generate.NamedGraphGenerator;
-import org.jgrapht.graph.DefaultEdge;
-import org.jgrapht.graph.SimpleGraph;
-import org.jgrapht.util.SupplierUtil;
 import org.junit.jupiter.api.Test;
 import org.junit.jupiter.params.ParameterizedTest;
 import org.junit.jupiter.params.provider.Arguments;
@@ -40,9 +34,9 @@ import org.junit.jupiter.params.provider.MethodSource;
 
 /**
  * Incremental scoring on live graphs against from-scratch full passes, on the float64 reference
- * kernel. Graphs: R-MAT ({@link RmatGenerator}: Chakrabarti, Zhan, Faloutsos, "R-MAT: A Recursive
- * Model for Graph Mining", SDM 2004, Graph500 initiator) and Zachary's karate club (W. W. Zachary,
- * "An Information Flow Model for Conflict and Fission in Small Groups", Journal of Anthropological
+ * kernel. Graphs: R-MAT (RmatGenerator: Chakrabarti, Zhan, Faloutsos, "R-MAT: A Recursive Model for
+ * Graph Mining", SDM 2004, Graph500 initiator) and Zachary's karate club (W. W. Zachary, "An
+ * Information Flow Model for Conflict and Fission in Small Groups", Journal of Anthropological
  * Research 33(4), 1977; structure from JGraphT's NamedGraphGenerator), symmetrised and directed.
  * The fact under test: an attention layer's output at v reads v's row and the previous layer's
  * outputs at v and its in-neighbours, so refreshing the nodes reached from the changed rows and
@@ -60,29 +54,13 @@ class IncrementalScorerTest {
   private record Edges(String name, int n, int[] sources, int[] targets) {}
 
   private static Edges rmat(long seed) {
-    int scale = 8;
-    int e = 4 << scale;
-    int[] s = new int[e];
-    int[] t = new int[e];
-    RmatGenerator.withScale(scale).edgeCount(e).seed(seed).generateInto(s, t);
-    return new Edges("R-MAT scale 8", 1 << scale, s, t);
+    int[][] e = LiveScoringChecks.rmatEdges(8, 4, seed);
+    return new Edges("R-MAT scale 8", 1 << 8, e[0], e[1]);
   }
 
   private static Edges karate() {
-    Graph<Integer, DefaultEdge> karate =
-        new SimpleGraph<>(
-            SupplierUtil.createIntegerSupplier(), SupplierUtil.DEFAULT_EDGE_SUPPLIER, false);
-    new NamedGraphGenerator<Integer, DefaultEdge>().generateZacharyKarateClubGraph(karate);
-    List<Integer> members = new ArrayList<>(new TreeSet<>(karate.vertexSet()));
-    int m = karate.edgeSet().size();
-    int[] s = new int[m];
-    int[] t = new int[m];
-    int k = 0;
-    for (DefaultEdge edge : karate.edgeSet()) {
-      s[k] = members.indexOf(karate.getEdgeSource(edge));
-      t[k++] = members.indexOf(karate.getEdgeTarget(edge));
-    }
-    return new Edges("karate club (Zachary 1977)", members.size(), s, t);
+    int[][] e = LiveScoringChecks.karateEdges();
+    return new Edges("karate club (Zachary 1977)", 34, e[0], e[1]);
   }
 
   /** A model and how many attention layers it has. */

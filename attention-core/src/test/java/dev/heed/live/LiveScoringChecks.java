@@ -8,12 +8,21 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.SelfLoopPolicy;
+import dev.heed.graph.generate.RmatGenerator;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.ModelOutput;
 import dev.heed.model.PathChoice;
+import java.util.ArrayList;
 import java.util.HashSet;
+import java.util.List;
 import java.util.Set;
 import java.util.SplittableRandom;
+import java.util.TreeSet;
+import org.jgrapht.Graph;
+import org.jgrapht.generate.NamedGraphGenerator;
+import org.jgrapht.graph.DefaultEdge;
+import org.jgrapht.graph.SimpleGraph;
+import org.jgrapht.util.SupplierUtil;
 
 /**
  * Shared checks for incremental scoring on live graphs: loading a graph whose node ids are their
@@ -131,6 +140,47 @@ public final class LiveScoringChecks {
       return ((long) b << 32) | a;
     }
     return ((long) a << 32) | b;
+  }
+
+  /**
+   * Zachary's karate club (W. W. Zachary, "An Information Flow Model for Conflict and Fission in
+   * Small Groups", Journal of Anthropological Research 33(4), 1977; structure from JGraphT's
+   * NamedGraphGenerator): 34 members, 78 ties, as {sources, targets} over members 0..33.
+   *
+   * @return the ties, each once
+   */
+  public static int[][] karateEdges() {
+    Graph<Integer, DefaultEdge> karate =
+        new SimpleGraph<>(
+            SupplierUtil.createIntegerSupplier(), SupplierUtil.DEFAULT_EDGE_SUPPLIER, false);
+    new NamedGraphGenerator<Integer, DefaultEdge>().generateZacharyKarateClubGraph(karate);
+    List<Integer> members = new ArrayList<>(new TreeSet<>(karate.vertexSet()));
+    int m = karate.edgeSet().size();
+    int[] s = new int[m];
+    int[] t = new int[m];
+    int k = 0;
+    for (DefaultEdge edge : karate.edgeSet()) {
+      s[k] = members.indexOf(karate.getEdgeSource(edge));
+      t[k++] = members.indexOf(karate.getEdgeTarget(edge));
+    }
+    return new int[][] {s, t};
+  }
+
+  /**
+   * R-MAT edges ({@link RmatGenerator}: Chakrabarti, Zhan, Faloutsos, "R-MAT: A Recursive Model for
+   * Graph Mining", SDM 2004, Graph500 initiator, scrambled ids) over {@code 2^scale} nodes.
+   *
+   * @param scale log2 of the node count
+   * @param edgeFactor generated edges per node
+   * @param seed the seed
+   * @return {sources, targets}
+   */
+  public static int[][] rmatEdges(int scale, int edgeFactor, long seed) {
+    int e = edgeFactor << scale;
+    int[] s = new int[e];
+    int[] t = new int[e];
+    RmatGenerator.withScale(scale).edgeCount(e).seed(seed).generateInto(s, t);
+    return new int[][] {s, t};
   }
 
   /**
