@@ -68,14 +68,25 @@ import org.slf4j.LoggerFactory;
  * #score} sees them), in the order the listeners subscribed. A listener that throws is logged
  * through SLF4J at warning level and skipped; the refresh and the other listeners go on.
  *
- * <p><b>Memory</b> ({@link #stateBytes()}): per node, 4 bytes per output value of every stage (the
- * demo-sized 2-layer GAT of 8 heads × 8 dims and 4 classes: 4·(64 + 4) = 272 bytes), 4 bytes of
- * scratch, and 2 bits per stage plus 2; a directed graph adds its reverse adjacency, about 4 to 6
- * bytes per entry plus 24 per node. The snapshot the scorer reflects is held too.
+ * <p><b>Kept projections.</b> A GAT or GATv2 layer that starts a stage computes, from each input
+ * row alone, the node's projection (GAT: the projected features and each head's source and target
+ * terms; GATv2: the source and target projections). The scorer keeps these per node and recomputes
+ * a node's projection only when its input row changes, so recomputing a row reads its
+ * in-neighbours' kept projections instead of projecting every neighbour again: without this, a
+ * refresh that touches a hub's row re-projected all of the hub's in-neighbours (64 × 64
+ * multiply-adds each for the benchmark model). Other attention layers (graph-masked self-attention,
+ * or an attention layer after per-node layers in the first stage) project every row they read.
  *
- * <p><b>Cost</b> of a refresh: for each stage, O(Σ deg) over the rows recomputed and their
- * in-neighbours, plus the layers' work over those rows (the first layer projects every row read).
- * Creating the scorer costs one full pass over the graph.
+ * <p><b>Memory</b> ({@link #stateBytes()}): per node, 4 bytes per output value of every stage and
+ * per value of every kept projection (a 2-layer GAT of 8 heads × 8 dims over 64 features with 4
+ * classes: 4·(64 + 4 + 80 + 80) = 912 bytes), 4 bytes of scratch, and 2 bits per stage plus 2; a
+ * directed graph adds its reverse adjacency, about 4 to 6 bytes per entry plus 24 per node. The
+ * snapshot the scorer reflects is held too.
+ *
+ * <p><b>Cost</b> of a refresh: for each stage, O(Σ deg) over the rows recomputed (gathering their
+ * sources' kept projections, the attention, the per-node layers), plus projecting each recomputed
+ * row once for the next stage; without kept projections, also projecting every row read. Creating
+ * the scorer costs one full pass over the graph.
  *
  * <p>Thread safety: safe for any number of threads. Refreshes run one at a time (a second caller
  * waits). {@link #score} never blocks a refresh for long and is never blocked for long: it reads
@@ -128,22 +139,34 @@ public final class IncrementalScorer<K> implements AutoCloseable {
 
   /** One attention layer with the per-node layers around it, and every node's output of it. */
   private static final class Stage {
+    final int index;
     final int from;
     final int to;
     final boolean attends;
     final int inWidth;
     final int outWidth;
+    final int projectionWidth; // 0: the attention layer's projections are not kept
     float[] out = new float[0];
+    float[] projections = new float[0]; // per node, the attention layer's projection of its input
     long[] need = new long[0];
     int needCount;
     long[] missing = new long[0];
 
-    Stage(int from, int to, boolean attends, int inWidth, int outWidth) {
+    Stage(
+        int index,
+        int from,
+        int to,
+        boolean attends,
+        int inWidth,
+        int outWidth,
+        int projectionWidth) {
+      this.index = index;
       this.from = from;
       this.to = to;
       this.attends = attends;
       this.inWidth = inWidth;
       this.outWidth = outWidth;
+      this.projectionWidth = projectionWidth;
     }
   }
 
@@ -166,6 +189,9 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         graph.direction() == DirectionPolicy.SYMMETRISE ? null : new OutNeighbours(start);
     int n = start.nodeCount();
     grow(n);
+    int[] all = new int[n];
+    Arrays.setAll(all, i -> i);
+    keepProjections(stages[0], start, all, n);
     for (Stage stage : stages) {
       for (int v = 0; v < n; v++) {
         set(stage.need, v);
@@ -261,9 +287,16 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       for (int l = from; l < to; l++) {
         attends |= steps.reads(model, l) == ModelSteps.READS_IN_NEIGHBOURS;
       }
+      boolean startsWithAttention = steps.reads(model, from) == ModelSteps.READS_IN_NEIGHBOURS;
       out[s] =
           new Stage(
-              from, to, attends, layers.get(from).inputWidth(), layers.get(to - 1).outputWidth());
+              s,
+              from,
+              to,
+              attends,
+              layers.get(from).inputWidth(),
+              layers.get(to - 1).outputWidth(),
+              startsWithAttention ? steps.projectionWidth(model, from) : 0);
     }
     return out;
   }
@@ -470,6 +503,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       for (Stage stage : stages) {
         total +=
             Layout.arrayBytes(stage.out.length, 4)
+                + Layout.arrayBytes(stage.projections.length, 4)
                 + Layout.arrayBytes(stage.need.length, 8)
                 + Layout.arrayBytes(stage.missing.length, 8);
       }
@@ -532,6 +566,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     }
     int[] rows = unionOf(batches, true);
     int[] features = unionOf(batches, false);
+    keepProjections(stages[0], next, features, features.length);
     if (outNeighbours != null) {
       outNeighbours.grow(n);
       int[] before = new int[16];
@@ -655,6 +690,8 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     int words = (next + 63) >>> 6;
     for (Stage stage : stages) {
       stage.out = Arrays.copyOf(stage.out, Math.multiplyExact(next, stage.outWidth));
+      stage.projections =
+          Arrays.copyOf(stage.projections, Math.multiplyExact(next, stage.projectionWidth));
       stage.need = Arrays.copyOf(stage.need, words);
       stage.missing = Arrays.copyOf(stage.missing, words);
     }
@@ -753,7 +790,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     } else {
       System.arraycopy(targets, 0, readIds, 0, k);
     }
-    float[] input = gather(stage, snapshot, readIds, rowsIn);
+    markMissingInputs(stage, snapshot, readIds, rowsIn);
     boolean[] missingOut = new boolean[k];
     for (int i = 0; i < k; i++) {
       boolean missing = missingIn[i];
@@ -767,8 +804,29 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     for (int r = 0; r < rowsIn; r++) {
       localOf[readIds[r]] = -1;
     }
-    float[] result =
-        steps.run(model, stage.from, stage.to, pattern, rowsIn, k, input, options.path());
+    float[] result;
+    if (stage.projectionWidth > 0) {
+      int w = stage.projectionWidth;
+      float[] projected = new float[Math.multiplyExact(rowsIn, w)];
+      for (int r = 0; r < rowsIn; r++) {
+        System.arraycopy(stage.projections, readIds[r] * w, projected, r * w, w);
+      }
+      float[] targetInput = inputs(stage, snapshot, readIds, k);
+      result =
+          steps.runProjected(
+              model,
+              stage.from,
+              stage.to,
+              pattern,
+              rowsIn,
+              k,
+              projected,
+              targetInput,
+              options.path());
+    } else {
+      float[] input = inputs(stage, snapshot, readIds, rowsIn);
+      result = steps.run(model, stage.from, stage.to, pattern, rowsIn, k, input, options.path());
+    }
     commit(stage, snapshot, targets, k, result, missingOut);
   }
 
@@ -778,7 +836,8 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     int[] all = new int[n];
     Arrays.setAll(all, i -> i);
     ensureReads(n);
-    float[] input = gather(stage, snapshot, all, n);
+    markMissingInputs(stage, snapshot, all, n);
+    float[] input = inputs(stage, snapshot, all, n);
     boolean[] missingOut = Arrays.copyOf(missingIn, n);
     CsrGraph pattern = null;
     long work = n;
@@ -799,26 +858,48 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     return work;
   }
 
-  /** The stage's input rows for the given nodes; fills {@link #missingIn}. */
-  private float[] gather(Stage stage, LiveSnapshot<K> snapshot, int[] ids, int rows) {
+  /** Sets {@link #missingIn} for the given nodes: whether each one's stage input is missing. */
+  private void markMissingInputs(Stage stage, LiveSnapshot<K> snapshot, int[] ids, int rows) {
+    Stage before = stage.index == 0 ? null : stages[stage.index - 1];
+    for (int r = 0; r < rows; r++) {
+      missingIn[r] = before == null ? !snapshot.hasFeatures(ids[r]) : get(before.missing, ids[r]);
+    }
+  }
+
+  /** The stage's input rows for the given nodes (zeros for a node without features). */
+  private float[] inputs(Stage stage, LiveSnapshot<K> snapshot, int[] ids, int rows) {
     int w = stage.inWidth;
     float[] x = new float[Math.multiplyExact(rows, w)];
-    int index = indexOf(stage);
-    Stage before = index == 0 ? null : stages[index - 1];
+    Stage before = stage.index == 0 ? null : stages[stage.index - 1];
     for (int r = 0; r < rows; r++) {
       int v = ids[r];
-      if (before == null) {
-        boolean has = snapshot.hasFeatures(v);
-        missingIn[r] = !has;
-        if (has) {
-          snapshot.copyRow(v, x, r * w);
-        }
-      } else {
-        missingIn[r] = get(before.missing, v);
+      if (before != null) {
         System.arraycopy(before.out, v * w, x, r * w, w);
+      } else if (snapshot.hasFeatures(v)) {
+        snapshot.copyRow(v, x, r * w);
       }
     }
     return x;
+  }
+
+  /**
+   * Recomputes the kept projections of {@code stage}'s attention layer for the given nodes, from
+   * their current stage inputs, in blocks of {@link #CHUNK_WORK} rows.
+   */
+  private void keepProjections(Stage stage, LiveSnapshot<K> snapshot, int[] nodes, int count) {
+    int w = stage.projectionWidth;
+    if (w == 0) {
+      return;
+    }
+    for (int start = 0; start < count; start += CHUNK_WORK) {
+      int rows = Math.min(CHUNK_WORK, count - start);
+      int[] block = Arrays.copyOfRange(nodes, start, start + rows);
+      float[] projected =
+          steps.project(model, stage.from, inputs(stage, snapshot, block, rows), rows);
+      for (int r = 0; r < rows; r++) {
+        System.arraycopy(projected, r * w, stage.projections, block[r] * w, w);
+      }
+    }
   }
 
   /** Stores a stage's new rows and clears their marks; the last stage publishes under the lock. */
@@ -831,6 +912,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       boolean[] missingOut) {
     if (stage != last) {
       store(stage, targets, k, result, missingOut);
+      keepProjections(stages[stage.index + 1], snapshot, targets, k);
       return;
     }
     if (!labelWatches.isEmpty() || !thresholdWatches.isEmpty()) {
@@ -906,15 +988,6 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     } catch (RuntimeException e) {
       LOG.warn("a score listener threw on {}; the refresh goes on", event, e);
     }
-  }
-
-  private int indexOf(Stage stage) {
-    for (int s = 0; s < stages.length; s++) {
-      if (stages[s] == stage) {
-        return s;
-      }
-    }
-    throw new IllegalStateException();
   }
 
   private void ensureReads(int rows) {

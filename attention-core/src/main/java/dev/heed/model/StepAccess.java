@@ -42,4 +42,37 @@ final class StepAccess extends ModelSteps {
     }
     return x;
   }
+
+  @Override
+  public int projectionWidth(AttentionModel model, int layer) {
+    return model.layers().get(layer) instanceof GraphAttentionLayer gat ? gat.projectionWidth() : 0;
+  }
+
+  @Override
+  public float[] project(AttentionModel model, int layer, float[] input, int rows) {
+    return ((GraphAttentionLayer) model.layers().get(layer)).project(input, rows);
+  }
+
+  @Override
+  public float[] runProjected(
+      AttentionModel model,
+      int from,
+      int to,
+      AttentionPattern pattern,
+      int rowsIn,
+      int rowsOut,
+      float[] projected,
+      float[] targetInput,
+      PathChoice path) {
+    List<Layer> layers = model.layers();
+    ForwardPass pass = new ForwardPass(pattern, rowsIn, path, model.kernelSource());
+    pass.rowsOut = rowsOut;
+    float[] x =
+        ((GraphAttentionLayer) layers.get(from)).forwardProjected(projected, targetInput, pass);
+    pass.rowsIn = rowsOut;
+    for (int index = from + 1; index < to; index++) {
+      x = layers.get(index).forward(x, pass);
+    }
+    return x;
+  }
 }

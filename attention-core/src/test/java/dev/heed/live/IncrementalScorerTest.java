@@ -591,8 +591,10 @@ class IncrementalScorerTest {
         IncrementalScorer<Integer> scorer =
             IncrementalScorer.create(model.model(), graph, SPARSE)) {
       int n = graph.snapshot().nodeCount();
-      // stages: GAT (3 heads × 4, concatenated: 12 values), then GATv2, dense and softmax (4)
-      long outputs = 4L * n * (12 + CLASSES);
+      // stage 1: GAT (3 heads × 4, concatenated): 12 outputs; its kept projection 12 values and
+      // 3 + 3 head terms. Stage 2: GATv2 (2 heads × 5), dense, softmax: 4 outputs; projection
+      // 2 × 10 values.
+      long outputs = 4L * n * (12 + 18 + CLASSES + 20);
       long bytes = scorer.stateBytes();
       assertTrue(bytes >= outputs, bytes + " < " + outputs);
       assertTrue(bytes <= outputs + 5L * n + 256, bytes + " for " + n + " nodes");

@@ -94,4 +94,53 @@ public abstract class ModelSteps {
       int rowsOut,
       float[] input,
       PathChoice path);
+
+  /**
+   * Returns how many values a layer's per-node projection holds (what the layer computes from each
+   * input row alone, which a caller may keep between calls), or 0 if the layer has none to offer.
+   *
+   * @param model the model
+   * @param layer a layer index
+   * @return the width, or 0
+   */
+  public abstract int projectionWidth(AttentionModel model, int layer);
+
+  /**
+   * Computes a layer's per-node projection of {@code rows} input rows.
+   *
+   * @param model the model
+   * @param layer a layer index with a non-zero {@link #projectionWidth}
+   * @param input rows × the layer's input width, not modified
+   * @param rows the rows
+   * @return a new rows × projectionWidth array
+   */
+  public abstract float[] project(AttentionModel model, int layer, float[] input, int rows);
+
+  /**
+   * {@link #run} for a range whose first layer reads in-neighbours and has a projection: that layer
+   * reads the kept projections of all {@code rowsIn} rows and the input rows of the first {@code
+   * rowsOut} (for its residual) instead of projecting every input row; the layers after it map the
+   * {@code rowsOut} rows.
+   *
+   * @param model the model
+   * @param from the attention layer, inclusive
+   * @param to last layer, exclusive
+   * @param pattern square over {@code rowsIn}, rows past {@code rowsOut} empty
+   * @param rowsIn rows read
+   * @param rowsOut rows computed
+   * @param projected rowsIn × projectionWidth, not modified
+   * @param targetInput rowsOut × the layer's input width, not modified
+   * @param path the attention path
+   * @return a new rowsOut × the last layer's output width array
+   */
+  public abstract float[] runProjected(
+      AttentionModel model,
+      int from,
+      int to,
+      AttentionPattern pattern,
+      int rowsIn,
+      int rowsOut,
+      float[] projected,
+      float[] targetInput,
+      PathChoice path);
 }
