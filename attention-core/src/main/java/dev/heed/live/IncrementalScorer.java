@@ -53,7 +53,9 @@ import org.slf4j.LoggerFactory;
  * ingested: a pending node is {@link ScoreState#PENDING} and carries no probabilities, so a stale
  * score is never served as fresh; so is a node added to the graph but not ingested yet. Ingesting
  * and marking is not budgeted: it costs O(Σ out-degree) over the newly affected nodes of each
- * stage.
+ * stage. Batch results wait in a queue until the next refresh (a few dozen bytes plus their
+ * changed-node lists each), so call {@link #refresh()} regularly, for example after every batch or
+ * on a timer.
  *
  * <p><b>Nodes without features</b>, and nodes with such a node in their receptive field, are {@link
  * ScoreState#NOT_SCORABLE} (never a made-up score) until the features arrive.
