@@ -770,18 +770,31 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         if (columns.length < base + d) {
           columns = Arrays.copyOf(columns, Math.max(base + d, columns.length * 2));
         }
+        ensureReads(rowsIn + d);
+        // Ids numbered in this row are increasing and above all earlier ones, so only the earlier
+        // ids (moved to the front of the row buffer, behind the read position) need sorting.
+        int threshold = rowsIn;
+        int older = 0;
+        int fresh = 0;
         for (int j = 0; j < d; j++) {
           int u = rowBuffer[j];
           int local = localOf[u];
           if (local < 0) {
-            ensureReads(rowsIn + 1);
             local = rowsIn;
             localOf[u] = local;
             readIds[rowsIn++] = u;
           }
-          columns[base + j] = local;
+          if (local < threshold) {
+            rowBuffer[older++] = local;
+          } else {
+            columns[base + fresh++] = local;
+          }
         }
-        Arrays.sort(columns, base, base + d);
+        if (older > 0) {
+          Arrays.sort(rowBuffer, 0, older);
+          System.arraycopy(columns, base, columns, base + older, fresh);
+          System.arraycopy(rowBuffer, 0, columns, base, older);
+        }
         offsets[i + 1] = base + d;
       }
       int entries = offsets[k];
@@ -808,11 +821,6 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     }
     float[] result;
     if (stage.projectionWidth > 0) {
-      int w = stage.projectionWidth;
-      float[] projected = new float[Math.multiplyExact(rowsIn, w)];
-      for (int r = 0; r < rowsIn; r++) {
-        System.arraycopy(stage.projections, readIds[r] * w, projected, r * w, w);
-      }
       float[] targetInput = inputs(stage, snapshot, readIds, k);
       result =
           steps.runProjected(
@@ -822,7 +830,8 @@ public final class IncrementalScorer<K> implements AutoCloseable {
               pattern,
               rowsIn,
               k,
-              projected,
+              stage.projections,
+              readIds,
               targetInput,
               options.path());
     } else {

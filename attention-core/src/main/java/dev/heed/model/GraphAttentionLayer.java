@@ -458,11 +458,12 @@ public final class GraphAttentionLayer extends Layer {
   }
 
   /**
-   * {@link #forward} from kept projections: {@code projected} holds {@code pass.rowsIn} rows of
-   * {@link #project} output, {@code targetInput} the first {@code pass.rowsOut} input rows (for the
-   * residual). Same arithmetic as {@link #forward}.
+   * {@link #forward} from kept projections: local row r reads row {@code rows[r]} of {@code table}
+   * (every node's {@link #project} output, row-major), for {@code pass.rowsIn} rows; {@code
+   * targetInput} holds the first {@code pass.rowsOut} input rows (for the residual). Same
+   * arithmetic as {@link #forward}.
    */
-  float[] forwardProjected(float[] projected, float[] targetInput, ForwardPass pass) {
+  float[] forwardProjected(float[] table, int[] rows, float[] targetInput, ForwardPass pass) {
     int n = pass.rowsIn;
     int m = pass.rowsOut;
     int hd = heads * headWidth;
@@ -473,21 +474,22 @@ public final class GraphAttentionLayer extends Layer {
     if (gatv2) {
       query = new float[n * hd];
       for (int i = 0; i < n; i++) {
-        System.arraycopy(projected, i * width, value, i * hd, hd);
+        System.arraycopy(table, rows[i] * width, value, i * hd, hd);
       }
       for (int i = 0; i < m; i++) {
-        System.arraycopy(projected, i * width + hd, query, i * hd, hd);
+        System.arraycopy(table, rows[i] * width + hd, query, i * hd, hd);
       }
       key = value;
     } else {
       key = new float[n * heads];
       query = new float[n * heads];
       for (int i = 0; i < n; i++) {
-        System.arraycopy(projected, i * width, value, i * hd, hd);
-        System.arraycopy(projected, i * width + hd, key, i * heads, heads);
+        int at = rows[i] * width;
+        System.arraycopy(table, at, value, i * hd, hd);
+        System.arraycopy(table, at + hd, key, i * heads, heads);
       }
       for (int i = 0; i < m; i++) {
-        System.arraycopy(projected, i * width + hd + heads, query, i * heads, heads);
+        System.arraycopy(table, rows[i] * width + hd + heads, query, i * heads, heads);
       }
     }
     return attendAndFinish(pass, query, key, value, targetInput);

@@ -61,14 +61,15 @@ final class StepAccess extends ModelSteps {
       AttentionPattern pattern,
       int rowsIn,
       int rowsOut,
-      float[] projected,
+      float[] table,
+      int[] rows,
       float[] targetInput,
       PathChoice path) {
     List<Layer> layers = model.layers();
     ForwardPass pass = new ForwardPass(pattern, rowsIn, path, model.kernelSource());
     pass.rowsOut = rowsOut;
     float[] x =
-        ((GraphAttentionLayer) layers.get(from)).forwardProjected(projected, targetInput, pass);
+        ((GraphAttentionLayer) layers.get(from)).forwardProjected(table, rows, targetInput, pass);
     pass.rowsIn = rowsOut;
     for (int index = from + 1; index < to; index++) {
       x = layers.get(index).forward(x, pass);

@@ -118,9 +118,9 @@ public abstract class ModelSteps {
 
   /**
    * {@link #run} for a range whose first layer reads in-neighbours and has a projection: that layer
-   * reads the kept projections of all {@code rowsIn} rows and the input rows of the first {@code
-   * rowsOut} (for its residual) instead of projecting every input row; the layers after it map the
-   * {@code rowsOut} rows.
+   * reads the kept projections of its {@code rowsIn} rows straight from the caller's table, and the
+   * input rows of the first {@code rowsOut} (for its residual), instead of projecting every input
+   * row; the layers after it map the {@code rowsOut} rows.
    *
    * @param model the model
    * @param from the attention layer, inclusive
@@ -128,7 +128,8 @@ public abstract class ModelSteps {
    * @param pattern square over {@code rowsIn}, rows past {@code rowsOut} empty
    * @param rowsIn rows read
    * @param rowsOut rows computed
-   * @param projected rowsIn × projectionWidth, not modified
+   * @param table every node's projection, row-major (projectionWidth values each), not modified
+   * @param rows local row r is row {@code rows[r]} of the table, for r in {@code 0..rowsIn-1}
    * @param targetInput rowsOut × the layer's input width, not modified
    * @param path the attention path
    * @return a new rowsOut × the last layer's output width array
@@ -140,7 +141,8 @@ public abstract class ModelSteps {
       AttentionPattern pattern,
       int rowsIn,
       int rowsOut,
-      float[] projected,
+      float[] table,
+      int[] rows,
       float[] targetInput,
       PathChoice path);
 }
