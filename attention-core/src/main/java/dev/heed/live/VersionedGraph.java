@@ -6,8 +6,11 @@ import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.SelfLoopPolicy;
+import java.util.List;
 import java.util.Objects;
+import java.util.concurrent.CopyOnWriteArrayList;
 import java.util.concurrent.locks.ReentrantLock;
+import java.util.function.Consumer;
 import org.slf4j.Logger;
 import org.slf4j.LoggerFactory;
 
@@ -108,6 +111,7 @@ public final class VersionedGraph<K> implements AutoCloseable {
   private final ReentrantLock compactionLock = new ReentrantLock();
   private final NodeIdTable<K> idTable = new NodeIdTable<>(); // guarded by writeLock
   private ChangeLog changeLog; // guarded by writeLock; set while a compaction runs
+  private final List<Consumer<BatchResult>> followers = new CopyOnWriteArrayList<>();
   private volatile LiveSnapshot<K> current;
   private volatile boolean closed;
   private volatile long finishUnderLock = FINISH_UNDER_LOCK;
@@ -223,6 +227,9 @@ public final class VersionedGraph<K> implements AutoCloseable {
         stage.stage();
       }
       next = stage.commit(result);
+      for (Consumer<BatchResult> follower : followers) {
+        follower.accept(result[0]); // before publishing, so a follower never lags a snapshot
+      }
       current = next;
       if (changeLog != null) {
         changeLog.record(result[0]);
@@ -249,6 +256,30 @@ public final class VersionedGraph<K> implements AutoCloseable {
    */
   public LiveSnapshot<K> snapshot() {
     return current;
+  }
+
+  /**
+   * Registers {@code follower} to receive every batch's result from now on, and returns the version
+   * it follows from, atomically: the follower sees exactly the batches after that snapshot, each
+   * before any snapshot that includes it is published. The follower runs under the write lock, so
+   * it must be O(1) and must not throw (an incremental scorer queues the result).
+   *
+   * @throws IllegalStateException if the graph is closed
+   */
+  LiveSnapshot<K> follow(Consumer<BatchResult> follower) {
+    writeLock.lock();
+    try {
+      ensureOpen("follow");
+      followers.add(follower);
+      return current;
+    } finally {
+      writeLock.unlock();
+    }
+  }
+
+  /** Stops sending batch results to {@code follower}; no-op if it was not registered. */
+  void unfollow(Consumer<BatchResult> follower) {
+    followers.remove(follower);
   }
 
   /**

@@ -29,6 +29,10 @@ import java.util.Set;
  */
 public final class AttentionModel {
 
+  static {
+    dev.heed.internal.model.ModelSteps.install(new StepAccess());
+  }
+
   private final int inputFeatureCount;
   private final List<String> featureNames;
   private final List<String> classLabels;
@@ -294,6 +298,11 @@ public final class AttentionModel {
   /** The profile a call with {@code choice} needs: none unless AUTO. */
   private PathCosts autoCosts(PathChoice choice) {
     return choice == PathChoice.AUTO ? pathCosts() : null;
+  }
+
+  /** The model's kernels. */
+  KernelSource kernelSource() {
+    return kernels;
   }
 
   /** The same model with kernels from {@code source}; for tests and the reference check. */

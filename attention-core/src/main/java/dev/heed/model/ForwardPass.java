@@ -59,6 +59,17 @@ final class ForwardPass {
     this(null, graph, choice, kernels, costs, threads, keepAttention);
   }
 
+  /**
+   * A pass over caller-chosen local rows: {@code rowsIn} rows in and out until the caller sets
+   * {@code rowsOut} (incremental scoring runs a few layers at a time this way).
+   */
+  ForwardPass(AttentionPattern pattern, int rowsIn, PathChoice choice, KernelSource kernels) {
+    this(null, null, choice, kernels, false);
+    this.rowsIn = rowsIn;
+    this.rowsOut = rowsIn;
+    this.pattern = pattern;
+  }
+
   /** A pass over {@code field}'s rows. */
   ForwardPass(
       ReceptiveField field,

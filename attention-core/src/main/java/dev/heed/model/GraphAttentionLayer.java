@@ -400,7 +400,6 @@ public final class GraphAttentionLayer extends Layer {
     float[] query;
     float[] key;
     float[] value;
-    HeadShape shape;
     if (gatv2) {
       query =
           ModelMath.padTo(
@@ -408,13 +407,104 @@ public final class GraphAttentionLayer extends Layer {
               n * hd);
       value = ModelMath.project(input, n, in, tensors.get(SOURCE_WEIGHT).values(), hd, null);
       key = value;
-      shape = new HeadShape(heads, headWidth, headWidth);
     } else {
       value = ModelMath.project(input, n, in, tensors.get(WEIGHT).values(), hd, null);
       query = headDots(value, m, n, tensors.get(TARGET_ATTENTION).values());
       key = headDots(value, n, n, tensors.get(SOURCE_ATTENTION).values());
-      shape = new HeadShape(heads, 1, headWidth);
     }
+    return attendAndFinish(pass, query, key, value, input);
+  }
+
+  /**
+   * Returns how many values {@link #project} keeps per node: GAT, the projected features (heads ×
+   * headWidth) and the source and target terms of each head; GATv2, the source and target
+   * projections (2 × heads × headWidth).
+   */
+  int projectionWidth() {
+    int hd = heads * headWidth;
+    return gatv2 ? 2 * hd : hd + 2 * heads;
+  }
+
+  /**
+   * The per-node part of the layer: what {@link #forward} computes from each input row alone,
+   * {@code rows} × {@link #projectionWidth()} values, row-major. A node's row depends only on its
+   * own input row, so incremental scoring keeps it and recomputes it only when that row changes.
+   */
+  float[] project(float[] input, int rows) {
+    int in = inputWidth();
+    int hd = heads * headWidth;
+    int width = projectionWidth();
+    float[] out = new float[rows * width];
+    if (gatv2) {
+      float[] source =
+          ModelMath.project(input, rows, in, tensors.get(SOURCE_WEIGHT).values(), hd, null);
+      float[] target =
+          ModelMath.project(input, rows, in, tensors.get(TARGET_WEIGHT).values(), hd, null);
+      for (int i = 0; i < rows; i++) {
+        System.arraycopy(source, i * hd, out, i * width, hd);
+        System.arraycopy(target, i * hd, out, i * width + hd, hd);
+      }
+    } else {
+      float[] value = ModelMath.project(input, rows, in, tensors.get(WEIGHT).values(), hd, null);
+      float[] key = headDots(value, rows, rows, tensors.get(SOURCE_ATTENTION).values());
+      float[] query = headDots(value, rows, rows, tensors.get(TARGET_ATTENTION).values());
+      for (int i = 0; i < rows; i++) {
+        System.arraycopy(value, i * hd, out, i * width, hd);
+        System.arraycopy(key, i * heads, out, i * width + hd, heads);
+        System.arraycopy(query, i * heads, out, i * width + hd + heads, heads);
+      }
+    }
+    return out;
+  }
+
+  /**
+   * {@link #forward} from kept projections: local row r reads row {@code rows[r]} of {@code table}
+   * (every node's {@link #project} output, row-major), for {@code pass.rowsIn} rows; {@code
+   * targetInput} holds the first {@code pass.rowsOut} input rows (for the residual). Same
+   * arithmetic as {@link #forward}.
+   */
+  float[] forwardProjected(float[] table, int[] rows, float[] targetInput, ForwardPass pass) {
+    int n = pass.rowsIn;
+    int m = pass.rowsOut;
+    int hd = heads * headWidth;
+    int width = projectionWidth();
+    float[] value = new float[n * hd];
+    float[] query;
+    float[] key;
+    if (gatv2) {
+      query = new float[n * hd];
+      for (int i = 0; i < n; i++) {
+        System.arraycopy(table, rows[i] * width, value, i * hd, hd);
+      }
+      for (int i = 0; i < m; i++) {
+        System.arraycopy(table, rows[i] * width + hd, query, i * hd, hd);
+      }
+      key = value;
+    } else {
+      key = new float[n * heads];
+      query = new float[n * heads];
+      for (int i = 0; i < n; i++) {
+        int at = rows[i] * width;
+        System.arraycopy(table, at, value, i * hd, hd);
+        System.arraycopy(table, at + hd, key, i * heads, heads);
+      }
+      for (int i = 0; i < m; i++) {
+        System.arraycopy(table, rows[i] * width + hd + heads, query, i * heads, heads);
+      }
+    }
+    return attendAndFinish(pass, query, key, value, targetInput);
+  }
+
+  /**
+   * Attends, combines the heads, adds bias and residual (from the first m input rows), activates.
+   */
+  private float[] attendAndFinish(
+      ForwardPass pass, float[] query, float[] key, float[] value, float[] input) {
+    int m = pass.rowsOut;
+    int in = inputWidth();
+    int hd = heads * headWidth;
+    HeadShape shape =
+        gatv2 ? new HeadShape(heads, headWidth, headWidth) : new HeadShape(heads, 1, headWidth);
     float[] attended = pass.attend(this, pass.pattern, score, shape, query, key, value);
     float[] out;
     if (concat) {

@@ -1,5 +1,6 @@
 /**
  * JMH benchmark and memory measurement for the live graph ({@code dev.heed.live}): ingest rate with
- * concurrent snapshot readers, and bytes per edge live against a compacted CSR graph.
+ * concurrent snapshot readers, bytes per edge live against a compacted CSR graph, and keeping every
+ * node's scores fresh after an edge insert ({@code LiveRefreshBenchmark}).
  */
 package dev.heed.bench.live;

@@ -138,7 +138,16 @@ public class TargetedScoringBenchmark {
     next = 0;
   }
 
-  private static AttentionModel model(SplittableRandom random) throws ModelFormatException {
+  /**
+   * The benchmark model: two GAT layers of 8 heads × 8 dims (concatenated; ELU after the first), a
+   * dense layer to 4 classes and the softmax head, 64 input features, seeded Gaussian weights
+   * scaled by 1/√fan-in. Also used by the live-graph refresh benchmark.
+   *
+   * @param random the weights' source
+   * @return the model
+   * @throws ModelFormatException never for these parts
+   */
+  public static AttentionModel model(SplittableRandom random) throws ModelFormatException {
     Map<String, NpyArray> tensors = new LinkedHashMap<>();
     int hd = HEADS * HEAD_WIDTH;
     tensors.put("gat1.weight", gaussianTensor(random, FEATURES, FEATURES, hd));
@@ -185,8 +194,13 @@ public class TargetedScoringBenchmark {
     return NpyArray.ofFloats(v, shape);
   }
 
-  /** A standard normal value (Box-Muller, common practice). */
-  private static double gaussian(SplittableRandom random) {
+  /**
+   * A standard normal value (Box-Muller, common practice).
+   *
+   * @param random the source
+   * @return the value
+   */
+  public static double gaussian(SplittableRandom random) {
     double u = 1.0 - random.nextDouble();
     return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * random.nextDouble());
   }

@@ -1,0 +1,79 @@
+package dev.heed.model;
+
+import dev.heed.graph.AttentionPattern;
+import dev.heed.internal.model.ModelSteps;
+import java.util.List;
+
+/** The implementation of {@link ModelSteps}, installed by {@link AttentionModel}. Stateless. */
+final class StepAccess extends ModelSteps {
+
+  @Override
+  public int reads(AttentionModel model, int layer) {
+    return switch (model.layers().get(layer).reach()) {
+      case SELF -> READS_SELF;
+      case IN_NEIGHBOURS -> READS_IN_NEIGHBOURS;
+      case EVERY_NODE -> READS_EVERY_NODE;
+    };
+  }
+
+  @Override
+  public float[] run(
+      AttentionModel model,
+      int from,
+      int to,
+      AttentionPattern pattern,
+      int rowsIn,
+      int rowsOut,
+      float[] input,
+      PathChoice path) {
+    List<Layer> layers = model.layers();
+    assert input.length == rowsIn * layers.get(from).inputWidth();
+    ForwardPass pass = new ForwardPass(pattern, rowsIn, path, model.kernelSource());
+    float[] x = input;
+    for (int index = from; index < to; index++) {
+      Layer layer = layers.get(index);
+      if (layer.reach() == Layer.Reach.IN_NEIGHBOURS) {
+        pass.rowsOut = rowsOut;
+        x = layer.forward(x, pass);
+        pass.rowsIn = rowsOut;
+      } else {
+        x = layer.forward(x, pass);
+      }
+    }
+    return x;
+  }
+
+  @Override
+  public int projectionWidth(AttentionModel model, int layer) {
+    return model.layers().get(layer) instanceof GraphAttentionLayer gat ? gat.projectionWidth() : 0;
+  }
+
+  @Override
+  public float[] project(AttentionModel model, int layer, float[] input, int rows) {
+    return ((GraphAttentionLayer) model.layers().get(layer)).project(input, rows);
+  }
+
+  @Override
+  public float[] runProjected(
+      AttentionModel model,
+      int from,
+      int to,
+      AttentionPattern pattern,
+      int rowsIn,
+      int rowsOut,
+      float[] table,
+      int[] rows,
+      float[] targetInput,
+      PathChoice path) {
+    List<Layer> layers = model.layers();
+    ForwardPass pass = new ForwardPass(pattern, rowsIn, path, model.kernelSource());
+    pass.rowsOut = rowsOut;
+    float[] x =
+        ((GraphAttentionLayer) layers.get(from)).forwardProjected(table, rows, targetInput, pass);
+    pass.rowsIn = rowsOut;
+    for (int index = from + 1; index < to; index++) {
+      x = layers.get(index).forward(x, pass);
+    }
+    return x;
+  }
+}
