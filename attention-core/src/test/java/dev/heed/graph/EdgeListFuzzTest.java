@@ -6,6 +6,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import com.code_intelligence.jazzer.api.FuzzedDataProvider;
 import com.code_intelligence.jazzer.junit.FuzzTest;
+import dev.heed.attention.MemoryBudgetExceededException;
 import java.io.IOException;
 import java.io.UncheckedIOException;
 import java.nio.file.Files;
@@ -14,7 +15,8 @@ import java.nio.file.Path;
 /**
  * Fuzz target for the edge-list reader (Jazzer): the options come from the input's last bytes, the
  * file from the rest. Allowed outcomes: a validated graph whose entries fit the lines read, {@link
- * EdgeListFormatException} with a message, or (under {@link DuplicatePolicy#REJECT} only) {@link
+ * EdgeListFormatException} with a message, {@link MemoryBudgetExceededException} (a huge index id
+ * asks for huge row counts), or (under {@link DuplicatePolicy#REJECT} only) {@link
  * IllegalArgumentException} naming the repeated edge. Anything else is a finding. Seeds and saved
  * findings: {@code EdgeListFuzzTestInputs/readEdgeList/} in the test resources.
  */
@@ -65,6 +67,10 @@ class EdgeListFuzzTest {
       result = builder.build();
     } catch (EdgeListFormatException e) {
       assertFalse(e.getMessage().isBlank(), "an error without a message");
+      return;
+    } catch (MemoryBudgetExceededException e) {
+      // index ids up to 2^31 - 1 ask for row counts of up to 8 GiB
+      assertTrue(e.getMessage().contains("raise -Xmx"), e.getMessage());
       return;
     } catch (IllegalArgumentException e) {
       if (duplicates != DuplicatePolicy.REJECT) {
