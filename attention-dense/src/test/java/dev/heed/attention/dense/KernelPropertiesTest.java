@@ -38,7 +38,7 @@ import net.jqwik.api.constraints.IntRange;
  *
  * Tolerance: 1e-5 norm-wise relative error (float32 accumulation over rows of up to 300 entries).
  */
-class KernelProperties {
+class KernelPropertiesTest {
 
   private static final double TOLERANCE = 1e-5;
 

@@ -24,7 +24,7 @@ import net.jqwik.api.constraints.IntRange;
  * before and after compaction. Random and degenerate histories: no nodes, nodes without edges, all
  * self-loops, one hub, edges added twice, edges removed and added again.
  */
-class LiveGraphProperties {
+class LiveGraphPropertiesTest {
 
   private static final int FEATURES = 2;
 

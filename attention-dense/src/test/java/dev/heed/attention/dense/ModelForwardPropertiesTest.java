@@ -41,7 +41,7 @@ import net.jqwik.api.Provide;
  *
  * Tolerance: 1e-4 norm-wise relative error per pass (three float32 layers).
  */
-class ModelForwardProperties {
+class ModelForwardPropertiesTest {
 
   private static final double TOLERANCE = 1e-4;
   private static final int FEATURES = 5;

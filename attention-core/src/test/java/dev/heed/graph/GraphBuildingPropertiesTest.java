@@ -14,7 +14,7 @@ import net.jqwik.api.Provide;
  * the degenerate shapes random lists rarely hit), checked against {@link NaiveCsr}, a sorted set
  * per row filled straight from the policies' definitions.
  */
-class GraphBuildingProperties {
+class GraphBuildingPropertiesTest {
 
   @Provide
   Arbitrary<GraphArbitraries.EdgeList> edgeLists() {
