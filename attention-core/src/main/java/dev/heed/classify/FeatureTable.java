@@ -1,5 +1,6 @@
 package dev.heed.classify;
 
+import dev.heed.attention.MemoryBudget;
 import dev.heed.graph.NodeIndex;
 import dev.heed.npy.Npy;
 import dev.heed.npy.NpyArray;
@@ -342,6 +343,7 @@ public final class FeatureTable<K> {
       throw new IllegalArgumentException(
           m.append("; ids are matched exactly, as written in the edge list").toString());
     }
+    MemoryBudget.check("node features (" + n + " × " + f + ")", 4L * n * f);
     float[] values = new float[Math.multiplyExact(n, f)];
     for (int i = 0; i < n; i++) {
       rows.copyRow(rowOf[i], values, i * f);

@@ -1,5 +1,6 @@
 package dev.heed.classify;
 
+import dev.heed.attention.MemoryBudget;
 import dev.heed.graph.NodeIndex;
 import dev.heed.npy.Npy;
 import dev.heed.npy.NpyArray;
@@ -37,6 +38,8 @@ public final class NodeFeatures implements FeatureRows {
    *
    * @param rows input, not modified: one row per node, all of the same length (at least 1)
    * @return the features
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the matrix would not fit the heap
+   *     budget ({@link dev.heed.attention.MemoryBudget})
    * @throws IllegalArgumentException if rows are ragged or empty, or a value is NaN or infinite
    *     (the message names the node and feature)
    */
@@ -47,6 +50,7 @@ public final class NodeFeatures implements FeatureRows {
       throw new IllegalArgumentException(
           "need at least one node and one feature, got " + rows.length + " rows of length " + f);
     }
+    MemoryBudget.check("node features (" + rows.length + " × " + f + ")", 4L * rows.length * f);
     float[] values = new float[Math.multiplyExact(rows.length, f)];
     for (int i = 0; i < rows.length; i++) {
       float[] row = rows[i];

@@ -1,5 +1,6 @@
 package dev.heed.graph;
 
+import dev.heed.attention.MemoryBudget;
 import java.util.Arrays;
 
 /**
@@ -62,7 +63,7 @@ final class CsrAssembler {
     int entries = running;
 
     // Pass 2: place each source at the end of its row, moving backwards.
-    int[] columns = new int[entries];
+    int[] columns = allocate("the graph's column array (" + entries + " entries)", entries);
     Filler filler = new Filler(offsets, columns, symmetrise);
     try {
       source.forEachEdge(filler);
@@ -114,6 +115,17 @@ final class CsrAssembler {
       columns = Arrays.copyOf(columns, write);
     }
     return CsrGraph.adopt(offsets, columns);
+  }
+
+  /** One input-sized array, checked against the heap budget first (see {@link MemoryBudget}). */
+  static int[] allocate(String what, int length) {
+    long bytes = 16 + 4L * length;
+    MemoryBudget.check(what, bytes);
+    try {
+      return new int[length];
+    } catch (OutOfMemoryError e) {
+      throw MemoryBudget.exceeded(what, bytes);
+    }
   }
 
   private static int[] resize(Counter counter, int n) {
@@ -185,7 +197,7 @@ final class CsrAssembler {
     long checksum;
 
     Counter(int capacity, boolean symmetrise) {
-      this.counts = new int[capacity];
+      this.counts = allocate("the graph's row counts (" + capacity + " nodes)", capacity);
       this.symmetrise = symmetrise;
     }
 
@@ -193,9 +205,10 @@ final class CsrAssembler {
     public void edge(long position, int source, int target) {
       int high = Math.max(source, target);
       if (high >= counts.length - 1) {
-        counts =
-            Arrays.copyOf(
-                counts, (int) Math.min(MAX_ENTRIES, Math.max(high + 2L, counts.length * 3L / 2)));
+        int length = (int) Math.min(MAX_ENTRIES, Math.max(high + 2L, counts.length * 3L / 2));
+        int[] grown = allocate("the graph's row counts (" + length + " nodes)", length);
+        System.arraycopy(counts, 0, grown, 0, counts.length);
+        counts = grown;
       }
       counts[target]++;
       total++;

@@ -129,6 +129,8 @@ public final class CsrGraphBuilder {
    * Validates the edges and builds the graph. O(n + E).
    *
    * @return the graph; rows are targets, columns sources, sorted, no duplicates
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the graph would not fit the heap
+   *     budget ({@link dev.heed.attention.MemoryBudget}); checked before allocating
    * @throws IllegalArgumentException if an edge endpoint is outside {@code 0..n-1} (naming the
    *     array, index and value), if an edge is repeated under {@link DuplicatePolicy#REJECT}
    *     (naming the edge and both indices), or if the graph would exceed {@link Integer#MAX_VALUE}

@@ -396,6 +396,8 @@ public final class EdgeListFileBuilder<V> {
    * @throws EdgeListFormatException naming file, line and fault for a malformed line (not in
    *     lenient mode)
    * @throws IOException if the file cannot be read or changed between the two passes
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the graph or its id map would not
+   *     fit the heap budget ({@link dev.heed.attention.MemoryBudget}); checked before allocating
    * @throws IllegalArgumentException if an edge is repeated under {@link DuplicatePolicy#REJECT}
    *     (naming the edge by its ids and both line numbers)
    */

@@ -1,5 +1,6 @@
 package dev.heed.graph;
 
+import dev.heed.attention.MemoryBudget;
 import java.util.Arrays;
 
 /**
@@ -49,7 +50,9 @@ final class LongIdTable {
     }
     int index = size;
     if (index == ids.length) {
-      ids = Arrays.copyOf(ids, (int) Math.min(Integer.MAX_VALUE - 8L, index + (index >> 1) + 16L));
+      int length = (int) Math.min(Integer.MAX_VALUE - 8L, index + (index >> 1) + 16L);
+      MemoryBudget.check("the node id map (" + length + " ids)", 8L * length);
+      ids = Arrays.copyOf(ids, length);
     }
     ids[index] = id;
     table[slot] = index + 1;
@@ -64,7 +67,7 @@ final class LongIdTable {
     if (capacity <= 0 || capacity > 1 << 30) {
       throw new IllegalArgumentException("too many distinct node ids: " + size);
     }
-    int[] next = new int[capacity];
+    int[] next = CsrAssembler.allocate("the node id map (" + size + " ids)", capacity);
     int mask = capacity - 1;
     for (int i = 0; i < size; i++) {
       int slot = hash(ids[i]) & mask;

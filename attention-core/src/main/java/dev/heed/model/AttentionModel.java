@@ -414,7 +414,7 @@ public final class AttentionModel {
    *     a feature is NaN or infinite (the message names the node and feature)
    * @throws IllegalStateException if the path's kernel is not on the class path
    * @throws dev.heed.attention.MemoryBudgetExceededException if the dense path would exceed its
-   *     budget
+   *     budget, or a layer's arrays the heap budget ({@link dev.heed.attention.MemoryBudget})
    */
   public ModelOutput forward(
       AttentionPattern graph, float[] features, PathChoice path, boolean keepAttention) {
@@ -517,7 +517,7 @@ public final class AttentionModel {
    *     not fit it (length, or a value that is NaN or infinite: the message names the node)
    * @throws IllegalStateException if the path's kernel is not on the class path
    * @throws dev.heed.attention.MemoryBudgetExceededException if the dense path would exceed its
-   *     budget
+   *     budget, or a layer's arrays the heap budget ({@link dev.heed.attention.MemoryBudget})
    */
   public FieldOutput forward(
       ReceptiveField field, float[] features, PathChoice path, boolean keepAttention) {

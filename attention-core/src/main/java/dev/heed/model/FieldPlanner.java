@@ -1,5 +1,6 @@
 package dev.heed.model;
 
+import dev.heed.attention.MemoryBudget;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.NeighbourRows;
@@ -103,6 +104,9 @@ final class FieldPlanner {
       offsets[v + 1] = (int) end;
     }
     checkWhole(layers, n, offsets[n], targets, cap, reason);
+    MemoryBudget.check(
+        "the receptive field's rows (" + n + " nodes, " + offsets[n] + " entries)",
+        4L * offsets[n]);
     int[] columns = new int[offsets[n]];
     for (int v = 0; v < n; v++) {
       int written = graph.copyRow(v, columns, offsets[v]);

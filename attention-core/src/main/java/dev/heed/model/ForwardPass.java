@@ -3,6 +3,7 @@ package dev.heed.model;
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
+import dev.heed.attention.MemoryBudget;
 import dev.heed.attention.PathCosts;
 import dev.heed.attention.PathEstimate;
 import dev.heed.attention.ScoreFunction;
@@ -153,10 +154,20 @@ final class ForwardPass {
     AttentionKernel kernel = kernelFor(layer, pattern, score, shape);
     layerPath = kernel.path();
     layerEntries += pattern.entryCount();
+    long outFloats = (long) pattern.nodeCount() * shape.valueWidth();
+    long weightFloats = keepAttention ? pattern.entryCount() * shape.heads() : 0;
+    MemoryBudget.check(
+        "layer '"
+            + layer.name()
+            + "' over "
+            + pattern.nodeCount()
+            + " nodes"
+            + (keepAttention ? " and " + pattern.entryCount() + " kept attention entries" : ""),
+        4 * (outFloats + weightFloats));
     float[] out = new float[pattern.nodeCount() * shape.valueWidth()];
     float[] weights = null;
     if (keepAttention) {
-      long size = pattern.entryCount() * shape.heads();
+      long size = weightFloats;
       if (size > Integer.MAX_VALUE - 8) {
         throw new IllegalArgumentException(
             "cannot keep attention weights for layer '"

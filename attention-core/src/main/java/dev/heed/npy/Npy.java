@@ -1,5 +1,6 @@
 package dev.heed.npy;
 
+import dev.heed.attention.MemoryBudget;
 import java.io.BufferedInputStream;
 import java.io.ByteArrayOutputStream;
 import java.io.IOException;
@@ -67,6 +68,8 @@ public final class Npy {
    * @return the array
    * @throws NpyFormatException if the file is malformed or not accepted (see the class comment)
    * @throws IOException if the file cannot be read
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the data would not fit the heap
+   *     budget ({@link dev.heed.attention.MemoryBudget})
    */
   public static NpyArray read(Path file) throws IOException {
     return read(file, NpyLimits.defaults());
@@ -80,6 +83,8 @@ public final class Npy {
    * @return the array
    * @throws NpyFormatException if the file is malformed, not accepted or over a limit
    * @throws IOException if the file cannot be read
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the data would not fit the heap
+   *     budget ({@link dev.heed.attention.MemoryBudget})
    */
   public static NpyArray read(Path file, NpyLimits limits) throws IOException {
     Objects.requireNonNull(file, "file");
@@ -148,6 +153,13 @@ public final class Npy {
               + (knownSize - header.headerBytes)
               + " bytes after the header"
               + (knownSize - header.headerBytes < dataBytes ? " (truncated file?)" : ""));
+    }
+    if (knownSize >= 0) {
+      // the data is there (a stream of unknown length allocates only as bytes arrive); reading
+      // collects it in chunks and then copies them into one array: twice the data
+      MemoryBudget.check(
+          name + ": array of shape " + Arrays.toString(header.shape) + " (" + dataBytes + " bytes)",
+          2 * dataBytes);
     }
     byte[] data = in.readNBytes((int) dataBytes);
     if (data.length != dataBytes) {

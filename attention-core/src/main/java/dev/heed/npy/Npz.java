@@ -116,7 +116,7 @@ public final class Npz {
     ZipInputStream zip = new ZipInputStream(new ByteArrayInputStream(archive));
     try {
       ZipEntry entry;
-      while ((entry = zip.getNextEntry()) != null) {
+      while ((entry = nextEntry(zip, current)) != null) {
         String entryName = entry.getName();
         current = name + ":" + entryName;
         entries++;
@@ -179,6 +179,19 @@ public final class Npz {
               + " were found; the archive is truncated or damaged");
     }
     return new NpzContents(arrays, others);
+  }
+
+  /**
+   * The next entry's header. {@link ZipInputStream} decodes names as UTF-8 and throws an unchecked
+   * exception for bytes that are not; that is a malformed archive here, not a bug.
+   */
+  private static ZipEntry nextEntry(ZipInputStream zip, String after) throws IOException {
+    try {
+      return zip.getNextEntry();
+    } catch (IllegalArgumentException e) {
+      throw new NpyFormatException(
+          after, "the next entry's name is not valid UTF-8: " + e.getMessage(), e);
+    }
   }
 
   private static final int EOCD_SIGNATURE = 0x06054b50;

@@ -5,7 +5,6 @@ import dev.heed.demo.DemoTraining;
 import dev.heed.demo.PaymentsNetwork;
 import dev.heed.demo.PaymentsNetworkGenerator;
 import dev.heed.graph.CsrGraph;
-import dev.heed.graph.NodeIndex;
 import dev.heed.model.Activation;
 import dev.heed.model.ModelFile;
 import dev.heed.train.EpochProgress;
@@ -27,11 +26,8 @@ import java.io.PrintWriter;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
-import java.util.Arrays;
 import java.util.List;
 import java.util.Locale;
-import java.util.SplittableRandom;
-import java.util.TreeSet;
 import java.util.concurrent.Callable;
 import me.tongfei.progressbar.ConsoleProgressBarConsumer;
 import me.tongfei.progressbar.ProgressBar;
@@ -248,11 +244,13 @@ final class TrainCommand implements Callable<Integer> {
     for (int i = 0; i < n; i++) {
       g.features().copyRow(i, values, i * width);
     }
-    LabelTable labelTable = readLabels(g.nodes(), n);
-    int classes = labelTable.classes.size();
+    ClassifyRun.requireFile(labels, "--labels");
+    LabelFiles.Table labelTable =
+        LabelFiles.read(labels, graphOptions.delimiterSetting(), g.nodes(), n, seed);
+    int classes = labelTable.classes().size();
     if (classes < 2) {
       throw new CliException(
-          labels + ": needs at least two distinct labels, got " + labelTable.classes,
+          labels + ": needs at least two distinct labels, got " + labelTable.classes(),
           HeedCli.EXIT_USER_ERROR);
     }
     TrainingData data =
@@ -261,9 +259,9 @@ final class TrainCommand implements Callable<Integer> {
             width,
             values,
             classes,
-            labelTable.label,
-            labelTable.train,
-            labelTable.validation);
+            labelTable.label(),
+            labelTable.train(),
+            labelTable.validation());
     if (balanced) {
       data = data.withBalancedClassWeights();
     }
@@ -285,12 +283,12 @@ final class TrainCommand implements Callable<Integer> {
         graphOptions.describePolicies(),
         width,
         g.featuresHow(),
-        labelTable.classes,
-        labelTable.train.length,
-        labelTable.validation.length,
-        labelTable.test.length);
-    if (labelTable.header != null) {
-      out.println("labels: line 1 read as a header " + labelTable.header);
+        labelTable.classes(),
+        labelTable.train().length,
+        labelTable.validation().length,
+        labelTable.test().length);
+    if (labelTable.header() != null) {
+      out.println("labels: line 1 read as a header " + labelTable.header());
     }
     out.flush();
     var kernel = FullBatchTrainer.defaultKernel();
@@ -300,11 +298,11 @@ final class TrainCommand implements Callable<Integer> {
     }
     ModelFile.write(
         network
-            .toModel(labelTable.classes, g.featureNames())
+            .toModel(labelTable.classes(), g.featureNames())
             .withGraphPolicies(graphOptions.policies()),
         this.out);
     out.println("training: " + describe(report));
-    if (labelTable.test.length > 0) {
+    if (labelTable.test().length > 0) {
       double[] logits =
           network.forward(
               data.features(),
@@ -368,109 +366,20 @@ final class TrainCommand implements Callable<Integer> {
     return TrainingNetwork.of(list);
   }
 
-  private record LabelTable(
-      List<String> classes,
-      int[] label,
-      int[] train,
-      int[] validation,
-      int[] test,
-      List<String> header) {}
-
-  private LabelTable readLabels(NodeIndex<String> nodes, int n) throws IOException {
-    ClassifyRun.requireFile(labels, "--labels");
-    char delimiter = TextFields.delimiterOf(labels, graphOptions.delimiterSetting());
-    List<TextFields.Row> rows = new ArrayList<>();
-    List<List<String>> header = new ArrayList<>();
-    TextFields.readRows(
-        labels,
-        delimiter,
-        row -> {
-          List<String> f = row.fields();
-          if (rows.isEmpty() && header.isEmpty() && !f.isEmpty() && nodes.indexOf(f.get(0)) < 0) {
-            header.add(f); // the first id is not a node: a header, whatever its names
-            return;
-          }
-          if (f.size() != 2 && f.size() != 3) {
-            throw userError(
-                labels,
-                row.line(),
-                f.size()
-                    + " fields, expected id,label[,split] separated by "
-                    + TextFields.describe(delimiter)
-                    + FeatureFiles.delimiterHint(f, delimiter));
-          }
-          rows.add(row);
-        });
-    TreeSet<String> classSet = new TreeSet<>();
-    for (TextFields.Row r : rows) {
-      classSet.add(r.fields().get(1));
-    }
-    List<String> classes = List.copyOf(classSet);
-    int[] label = new int[n];
-    Arrays.fill(label, -1);
-    List<Integer> train = new ArrayList<>();
-    List<Integer> validation = new ArrayList<>();
-    List<Integer> test = new ArrayList<>();
-    List<Integer> unsplit = new ArrayList<>();
-    for (TextFields.Row r : rows) {
-      List<String> f = r.fields();
-      int node = nodes.indexOf(f.get(0));
-      if (node < 0) {
-        throw userError(labels, r.line(), "id '" + f.get(0) + "' is not in the graph");
-      }
-      if (label[node] >= 0) {
-        throw userError(labels, r.line(), "id '" + f.get(0) + "' is labelled twice");
-      }
-      if (f.get(1).isEmpty()) {
-        throw userError(labels, r.line(), "the label of '" + f.get(0) + "' is empty");
-      }
-      label[node] = classes.indexOf(f.get(1));
-      String split = f.size() == 3 ? f.get(2).toLowerCase(Locale.ROOT) : "";
-      switch (split) {
-        case "train" -> train.add(node);
-        case "validation" -> validation.add(node);
-        case "test" -> test.add(node);
-        case "" -> unsplit.add(node);
-        default ->
-            throw userError(
-                labels, r.line(), "split '" + f.get(2) + "'; expected train, validation or test");
-      }
-    }
-    // labelled nodes without a split: VALIDATION_PERCENT % validation, the rest training, by seed
-    SplittableRandom random = new SplittableRandom(seed);
-    for (int node : unsplit) {
-      (random.nextInt(100) < VALIDATION_PERCENT ? validation : train).add(node);
-    }
-    if (train.isEmpty()) {
-      throw new CliException(labels + ": no training nodes", HeedCli.EXIT_USER_ERROR);
-    }
-    return new LabelTable(
-        classes,
-        label,
-        ints(train),
-        ints(validation),
-        ints(test),
-        header.isEmpty() ? null : header.get(0));
-  }
-
-  private static int[] ints(List<Integer> list) {
-    return list.stream().mapToInt(Integer::intValue).toArray();
-  }
-
-  private static String testScore(double[] logits, int classes, LabelTable t) {
+  private static String testScore(double[] logits, int classes, LabelFiles.Table t) {
     int[] count = new int[classes];
     int[] hit = new int[classes];
     int correct = 0;
-    for (int node : t.test) {
+    for (int node : t.test()) {
       int best = 0;
       for (int c = 1; c < classes; c++) {
         if (logits[node * classes + c] > logits[node * classes + best]) {
           best = c;
         }
       }
-      count[t.label[node]]++;
-      if (best == t.label[node]) {
-        hit[t.label[node]]++;
+      count[t.label()[node]]++;
+      if (best == t.label()[node]) {
+        hit[t.label()[node]]++;
         correct++;
       }
     }
@@ -479,15 +388,15 @@ final class TrainCommand implements Callable<Integer> {
             String.format(
                 Locale.ROOT,
                 "test split: %d nodes, accuracy %.4f; recall",
-                t.test.length,
-                (double) correct / t.test.length));
+                t.test().length,
+                (double) correct / t.test().length));
     for (int c = 0; c < classes; c++) {
       b.append(
           String.format(
               Locale.ROOT,
               "%s %s %s (%d)",
               c == 0 ? "" : ",",
-              t.classes.get(c),
+              t.classes().get(c),
               count[c] == 0
                   ? "n/a"
                   : String.format(Locale.ROOT, "%.4f", (double) hit[c] / count[c]),
@@ -509,10 +418,6 @@ final class TrainCommand implements Callable<Integer> {
         r.validationLoss(),
         r.validationAccuracy(),
         r.seconds());
-  }
-
-  private static CliException userError(Path file, long line, String problem) {
-    return new CliException(file + ", line " + line + ": " + problem, HeedCli.EXIT_USER_ERROR);
   }
 
   /** The progress bar on stderr, fed by the trainer's listener. */

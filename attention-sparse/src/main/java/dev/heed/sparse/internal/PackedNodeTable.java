@@ -2,6 +2,7 @@ package dev.heed.sparse.internal;
 
 import static dev.heed.sparse.internal.AllHeadsMath.HEADS;
 
+import dev.heed.attention.MemoryBudget;
 import java.lang.ref.SoftReference;
 import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicReference;
@@ -143,20 +144,23 @@ public final class PackedNodeTable {
       return table;
     }
     table = null; // a spare too small for n can be collected before the new table is allocated
-    try {
-      return new float[length(n)];
-    } catch (OutOfMemoryError e) {
-      // one large allocation that failed, with nothing else half done: safe to carry on without
-      if (warnedNoRoom.compareAndSet(false, true)) {
-        LOG.warn(
-            "the sparse kernel's packed node table ({} MiB for {} nodes) does not fit in the heap;"
-                + " reading keys and values in place instead (same results, slower). Raise -Xmx"
-                + " to use it.",
-            bytes(n) >> 20,
-            n);
+    if (MemoryBudget.fits(bytes(n))) {
+      try {
+        return new float[length(n)];
+      } catch (OutOfMemoryError e) {
+        // one large allocation that failed, with nothing else half done: safe to carry on without
       }
-      return null;
     }
+    if (warnedNoRoom.compareAndSet(false, true)) {
+      LOG.warn(
+          "the sparse kernel's packed node table ({} MiB for {} nodes) does not fit in the heap"
+              + " budget; reading keys and values in place instead (same results, slower). Raise"
+              + " -Xmx (or -D{}) to use it.",
+          bytes(n) >> 20,
+          n,
+          MemoryBudget.MAX_BYTES_PROPERTY);
+    }
+    return null;
   }
 
   /** Keeps {@code table} as the spare for the next call, replacing any spare now held. */
