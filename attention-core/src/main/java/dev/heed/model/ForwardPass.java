@@ -72,6 +72,14 @@ final class ForwardPass {
     }
   }
 
+  /** A pass over {@code rows} rows without a graph, for layers that compute each row alone. */
+  static ForwardPass perNode(int rows) {
+    ForwardPass pass = new ForwardPass(null, null, PathChoice.AUTO, null, false);
+    pass.rowsIn = rows;
+    pass.rowsOut = rows;
+    return pass;
+  }
+
   void startLayer(int index) {
     this.layerIndex = index;
     this.layerPath = null;
