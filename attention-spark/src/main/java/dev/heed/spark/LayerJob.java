@@ -44,6 +44,9 @@ final class LayerJob {
       int partitions,
       List<Dataset<?>> held) {
     long started = System.nanoTime();
+    String name = steps.model().layers().get(l).name();
+    // Names this layer's jobs in Spark's UI and event log (and in listeners' job properties).
+    nodes.sparkSession().sparkContext().setJobDescription("heed layer " + l + " '" + name + "'");
     StructType projected =
         new StructType()
             .add("id", idType, false)
@@ -133,7 +136,7 @@ final class LayerJob {
     LOG.info(
         "layer {} ('{}'): {} rows in {} ms",
         l,
-        steps.model().layers().get(l).name(),
+        name,
         rows,
         (System.nanoTime() - started) / 1_000_000);
     return next;

@@ -265,6 +265,7 @@ public final class SparkNodeClassifier {
    *     how to fix it)
    */
   public SparkScores classify(SparkSession spark, Dataset<Row> edges, Dataset<Row> features) {
+    spark.sparkContext().setJobDescription("heed input checks");
     List<String> columns = InputChecks.featureColumns(model, features, idColumn, featureColumns);
     DataType idType = InputChecks.idType(features, idColumn);
     Dataset<Row> nodeFeatures = InputChecks.castFeatures(features, idColumn, columns);
@@ -301,6 +302,7 @@ public final class SparkNodeClassifier {
                     .as("part"))
             .persist(StorageLevel.MEMORY_AND_DISK());
     held.add(parted);
+    spark.sparkContext().setJobDescription("heed graph conventions");
     long entryCount = parted.count();
     hubs = hubs.persist(StorageLevel.MEMORY_AND_DISK());
     held.add(hubs);
@@ -321,6 +323,7 @@ public final class SparkNodeClassifier {
     for (int l = first; l < steps.layerCount(); l = ExecutorModel.nextAttention(steps, l + 1)) {
       current = LayerJob.run(bytes, steps, l, current, parted, hubs, idType, shuffle, held);
     }
+    spark.sparkContext().setJobDescription(null);
     StructType out = predictionSchema(idType, model.classLabels());
     Dataset<Row> predictions =
         current.mapPartitions(NodeRowSteps.predictions(model.classLabels()), Encoders.row(out));

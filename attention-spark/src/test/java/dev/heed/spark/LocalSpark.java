@@ -10,6 +10,8 @@ import java.util.ArrayList;
 import java.util.HashMap;
 import java.util.List;
 import java.util.Map;
+import org.apache.spark.api.java.JavaRDD;
+import org.apache.spark.api.java.JavaSparkContext;
 import org.apache.spark.sql.Dataset;
 import org.apache.spark.sql.Row;
 import org.apache.spark.sql.RowFactory;
@@ -46,6 +48,14 @@ final class LocalSpark {
     return session;
   }
 
+  /**
+   * Rows as an RDD-backed frame's input: a frame made from a local list keeps the rows in its plan,
+   * which Spark's analyser then copies with every derived plan.
+   */
+  static JavaRDD<Row> rdd(List<Row> rows) {
+    return JavaSparkContext.fromSparkContext(session().sparkContext()).parallelize(rows);
+  }
+
   /** Edges (source, target) with long ids. */
   static Dataset<Row> edges(int[] sources, int[] targets) {
     List<Row> rows = new ArrayList<>(sources.length);
@@ -54,7 +64,7 @@ final class LocalSpark {
     }
     StructType schema =
         new StructType().add("source", DataTypes.LongType).add("target", DataTypes.LongType);
-    return session().createDataFrame(rows, schema);
+    return session().createDataFrame(rdd(rows), schema);
   }
 
   /** Features (id, f0 .. f{w-1}) with long ids 0..n-1, rows in the given order of ids. */
@@ -72,7 +82,7 @@ final class LocalSpark {
     for (String name : names) {
       schema = schema.add(name, DataTypes.FloatType);
     }
-    return session().createDataFrame(rows, schema);
+    return session().createDataFrame(rdd(rows), schema);
   }
 
   /** Single-machine Heed over the same edges: class probabilities, row-major. */

@@ -71,8 +71,8 @@ class SparkNodeClassifierTest {
             .add("from", DataTypes.StringType)
             .add("to", DataTypes.StringType)
             .add("amount", DataTypes.DoubleType);
-    Dataset<Row> edges = LocalSpark.session().createDataFrame(edgeRows, es);
-    Dataset<Row> features = LocalSpark.session().createDataFrame(featureRows, fs);
+    Dataset<Row> edges = LocalSpark.session().createDataFrame(LocalSpark.rdd(edgeRows), es);
+    Dataset<Row> features = LocalSpark.session().createDataFrame(LocalSpark.rdd(featureRows), fs);
 
     SparkNodeClassifier classifier =
         SparkNodeClassifier.builder(model)
