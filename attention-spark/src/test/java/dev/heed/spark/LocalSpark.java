@@ -41,6 +41,9 @@ final class LocalSpark {
               .config("spark.driver.bindAddress", "127.0.0.1")
               .config("spark.ui.enabled", "false")
               .config("spark.sql.adaptive.enabled", "false")
+              // Test frames are small: compiling generated code for every stage costs more than
+              // interpreting it.
+              .config("spark.sql.codegen.wholeStage", "false")
               .config("spark.driver.memory", "1g")
               .getOrCreate();
       Runtime.getRuntime().addShutdownHook(new Thread(session::stop));
