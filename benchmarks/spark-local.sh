@@ -11,7 +11,7 @@ graph=${1:-demo}; rounds=${2:-3}; cores=${3:-1}
 out=${4:-benchmarks/target/spark-local-${graph//:/-}-${cores}.csv}
 mkdir -p "$(dirname "$out")"
 mvn -B -q -o -pl attention-spark -am test-compile dependency:build-classpath \
-  -Dmdep.outputFile=target/test-classpath.txt -Dmdep.includeScope=test >/dev/null
+  -Dmdep.outputFile=target/test-classpath.txt -Dmdep.includeScope=test
 opens=""
 for p in java.lang java.lang.invoke java.lang.reflect java.io java.net java.nio java.util \
          java.util.concurrent java.util.concurrent.atomic jdk.internal.ref sun.nio.ch sun.nio.cs \
