@@ -26,9 +26,10 @@ import org.apache.spark.sql.RowFactory;
  * node's next input. A part of a split row folds its entries into a {@link PartialSoftmax} in
  * float64 and yields a {@code PARTIAL} record, merged later by {@link SplitRowMerge}.
  *
- * <p>Memory per task: one block, about {@code BLOCK_ENTRIES·4·(keyWidth + valueWidth)} bytes plus
- * its rows' query, input and output rows; a row longer than a block comes whole, and rows longer
- * than the split threshold never do (they are split).
+ * <p>Memory per task: one block of at most {@code BLOCK_ENTRIES} entries plus one row (rows longer
+ * than the split threshold never come whole), about {@code 4·4·(keyWidth + valueWidth)} bytes per
+ * entry (buffers grown by doubling, the kernel's padded copies, its output) plus its rows' query,
+ * input and output rows and the kernel's own scratch.
  */
 final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
 
