@@ -296,7 +296,7 @@ public final class AttentionModel {
   }
 
   /** The profile a call with {@code choice} needs: none unless AUTO. */
-  private PathCosts autoCosts(PathChoice choice) {
+  PathCosts autoCosts(PathChoice choice) {
     return choice == PathChoice.AUTO ? pathCosts() : null;
   }
 

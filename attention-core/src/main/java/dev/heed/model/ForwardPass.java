@@ -64,8 +64,14 @@ final class ForwardPass {
    * A pass over caller-chosen local rows: {@code rowsIn} rows in and out until the caller sets
    * {@code rowsOut} (incremental scoring runs a few layers at a time this way).
    */
-  ForwardPass(AttentionPattern pattern, int rowsIn, PathChoice choice, KernelSource kernels) {
-    this(null, null, choice, kernels, false);
+  ForwardPass(
+      AttentionPattern pattern,
+      int rowsIn,
+      PathChoice choice,
+      KernelSource kernels,
+      PathCosts costs,
+      int threads) {
+    this(null, null, choice, kernels, costs, threads, false);
     this.rowsIn = rowsIn;
     this.rowsOut = rowsIn;
     this.pattern = pattern;
@@ -102,6 +108,15 @@ final class ForwardPass {
       this.rowsOut = graph.nodeCount();
       this.pattern = graph;
     }
+  }
+
+  /** A pass over {@code rows} rows without a graph, for layers that compute each row alone. */
+  static ForwardPass perNode(int rows) {
+    // no attention layer runs in it, so no path is chosen
+    ForwardPass pass = new ForwardPass(null, null, PathChoice.SPARSE, null, null, 1, false);
+    pass.rowsIn = rows;
+    pass.rowsOut = rows;
+    return pass;
   }
 
   void startLayer(int index) {

@@ -393,26 +393,30 @@ public final class GraphAttentionLayer extends Layer {
 
   @Override
   float[] forward(float[] input, ForwardPass pass) {
-    int n = pass.rowsIn;
-    int m = pass.rowsOut;
+    AttentionInputs in = prepareAttention(input, pass.rowsIn, pass.rowsOut);
+    float[] attended =
+        pass.attend(this, pass.pattern, in.score(), in.shape(), in.query(), in.key(), in.value());
+    return finishAttention(input, attended, pass.rowsOut);
+  }
+
+  @Override
+  AttentionInputs prepareAttention(float[] input, int n, int m) {
     int in = inputWidth();
     int hd = heads * headWidth;
-    float[] query;
-    float[] key;
-    float[] value;
     if (gatv2) {
-      query =
+      float[] query =
           ModelMath.padTo(
               ModelMath.project(input, m, in, tensors.get(TARGET_WEIGHT).values(), hd, null),
               n * hd);
-      value = ModelMath.project(input, n, in, tensors.get(SOURCE_WEIGHT).values(), hd, null);
-      key = value;
-    } else {
-      value = ModelMath.project(input, n, in, tensors.get(WEIGHT).values(), hd, null);
-      query = headDots(value, m, n, tensors.get(TARGET_ATTENTION).values());
-      key = headDots(value, n, n, tensors.get(SOURCE_ATTENTION).values());
+      float[] value =
+          ModelMath.project(input, n, in, tensors.get(SOURCE_WEIGHT).values(), hd, null);
+      return new AttentionInputs(
+          score, new HeadShape(heads, headWidth, headWidth), query, value, value);
     }
-    return attendAndFinish(pass, query, key, value, input);
+    float[] value = ModelMath.project(input, n, in, tensors.get(WEIGHT).values(), hd, null);
+    float[] query = headDots(value, m, n, tensors.get(TARGET_ATTENTION).values());
+    float[] key = headDots(value, n, n, tensors.get(SOURCE_ATTENTION).values());
+    return new AttentionInputs(score, new HeadShape(heads, 1, headWidth), query, key, value);
   }
 
   /**
@@ -495,17 +499,19 @@ public final class GraphAttentionLayer extends Layer {
     return attendAndFinish(pass, query, key, value, targetInput);
   }
 
-  /**
-   * Attends, combines the heads, adds bias and residual (from the first m input rows), activates.
-   */
+  /** Attends over the pass's pattern, then {@link #finishAttention}. */
   private float[] attendAndFinish(
       ForwardPass pass, float[] query, float[] key, float[] value, float[] input) {
-    int m = pass.rowsOut;
-    int in = inputWidth();
-    int hd = heads * headWidth;
     HeadShape shape =
         gatv2 ? new HeadShape(heads, headWidth, headWidth) : new HeadShape(heads, 1, headWidth);
     float[] attended = pass.attend(this, pass.pattern, score, shape, query, key, value);
+    return finishAttention(input, attended, pass.rowsOut);
+  }
+
+  @Override
+  float[] finishAttention(float[] input, float[] attended, int m) {
+    int in = inputWidth();
+    int hd = heads * headWidth;
     float[] out;
     if (concat) {
       out = attended.length == m * hd ? attended : Arrays.copyOf(attended, m * hd);

@@ -1,6 +1,8 @@
 package dev.heed.model;
 
 import com.fasterxml.jackson.databind.node.ObjectNode;
+import dev.heed.attention.HeadShape;
+import dev.heed.attention.ScoreFunction;
 import java.util.List;
 import java.util.Map;
 
@@ -105,6 +107,32 @@ public abstract sealed class Layer
    * @return a new rowsOut × outputWidth array
    */
   abstract float[] forward(float[] input, ForwardPass pass);
+
+  /**
+   * The inputs of an attention layer's kernel call: node-major, head-contiguous rows (see {@link
+   * HeadShape}).
+   */
+  record AttentionInputs(
+      ScoreFunction score, HeadShape shape, float[] query, float[] key, float[] value) {}
+
+  /**
+   * Attention layers: the per-node steps before the kernel call, over {@code rowsIn} input rows of
+   * which the first {@code rowsOut} are targets (their query rows; the rest are zero).
+   */
+  AttentionInputs prepareAttention(float[] input, int rowsIn, int rowsOut) {
+    throw new UnsupportedOperationException(this + " does not attend");
+  }
+
+  /**
+   * Attention layers: the per-node steps after the kernel call, for the first {@code rows} rows.
+   *
+   * @param input the layer's input, at least rows × inputWidth, not modified
+   * @param attended the kernel's output, at least rows × value width; may be reused as the output
+   * @return rows × outputWidth
+   */
+  float[] finishAttention(float[] input, float[] attended, int rows) {
+    throw new UnsupportedOperationException(this + " does not attend");
+  }
 
   /** The layer's tensors by role, in the order the format lists them. */
   abstract Map<String, Tensor> tensors();

@@ -480,11 +480,17 @@ public final class SelfAttentionLayer extends Layer {
   @Override
   float[] forward(float[] x, ForwardPass pass) {
     int n = pass.rowsIn;
-    int rows = pass.rowsOut;
+    AttentionInputs in = prepareAttention(x, n, pass.rowsOut);
+    AttentionPattern pattern = complete ? CompletePattern.of(n) : pass.pattern;
+    float[] attended =
+        pass.attend(this, pattern, in.score(), in.shape(), in.query(), in.key(), in.value());
+    return finishAttention(x, attended, pass.rowsOut);
+  }
+
+  @Override
+  AttentionInputs prepareAttention(float[] x, int n, int rows) {
     int m = inputWidth();
-    boolean pre = normalization == Normalization.PRE;
-    boolean post = normalization == Normalization.POST;
-    float[] a = pre ? norm(x, ATTENTION_NORM) : x;
+    float[] a = normalization == Normalization.PRE ? norm(x, ATTENTION_NORM) : x;
     float[] q =
         ModelMath.padTo(
             ModelMath.project(
@@ -493,16 +499,15 @@ public final class SelfAttentionLayer extends Layer {
     float[] k = ModelMath.project(a, n, m, values(KEY_WEIGHT), heads * keyWidth, values(KEY_BIAS));
     float[] v =
         ModelMath.project(a, n, m, values(VALUE_WEIGHT), heads * valueWidth, values(VALUE_BIAS));
-    AttentionPattern pattern = complete ? CompletePattern.of(n) : pass.pattern;
-    float[] attended =
-        pass.attend(
-            this,
-            pattern,
-            ScoreFunction.scaledDotProduct(),
-            new HeadShape(heads, keyWidth, valueWidth),
-            q,
-            k,
-            v);
+    return new AttentionInputs(
+        ScoreFunction.scaledDotProduct(), new HeadShape(heads, keyWidth, valueWidth), q, k, v);
+  }
+
+  @Override
+  float[] finishAttention(float[] x, float[] attended, int rows) {
+    int m = inputWidth();
+    boolean pre = normalization == Normalization.PRE;
+    boolean post = normalization == Normalization.POST;
     float[] y =
         ModelMath.project(
             attended, rows, heads * valueWidth, values(OUTPUT_WEIGHT), m, values(OUTPUT_BIAS));

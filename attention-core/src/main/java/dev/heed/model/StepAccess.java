@@ -28,7 +28,14 @@ final class StepAccess extends ModelSteps {
       PathChoice path) {
     List<Layer> layers = model.layers();
     assert input.length == rowsIn * layers.get(from).inputWidth();
-    ForwardPass pass = new ForwardPass(pattern, rowsIn, path, model.kernelSource());
+    ForwardPass pass =
+        new ForwardPass(
+            pattern,
+            rowsIn,
+            path,
+            model.kernelSource(),
+            model.autoCosts(path),
+            model.kernelOptions().threads());
     float[] x = input;
     for (int index = from; index < to; index++) {
       Layer layer = layers.get(index);
@@ -66,7 +73,14 @@ final class StepAccess extends ModelSteps {
       float[] targetInput,
       PathChoice path) {
     List<Layer> layers = model.layers();
-    ForwardPass pass = new ForwardPass(pattern, rowsIn, path, model.kernelSource());
+    ForwardPass pass =
+        new ForwardPass(
+            pattern,
+            rowsIn,
+            path,
+            model.kernelSource(),
+            model.autoCosts(path),
+            model.kernelOptions().threads());
     pass.rowsOut = rowsOut;
     float[] x =
         ((GraphAttentionLayer) layers.get(from)).forwardProjected(table, rows, targetInput, pass);

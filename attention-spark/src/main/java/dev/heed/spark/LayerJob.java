@@ -1,0 +1,144 @@
+package dev.heed.spark;
+
+import static org.apache.spark.sql.functions.broadcast;
+import static org.apache.spark.sql.functions.coalesce;
+import static org.apache.spark.sql.functions.col;
+import static org.apache.spark.sql.functions.explode;
+import static org.apache.spark.sql.functions.lit;
+import static org.apache.spark.sql.functions.sequence;
+import static org.apache.spark.sql.functions.when;
+
+import dev.heed.model.LayerSteps;
+import java.util.List;
+import org.apache.spark.broadcast.Broadcast;
+import org.apache.spark.sql.Dataset;
+import org.apache.spark.sql.Encoders;
+import org.apache.spark.sql.Row;
+import org.apache.spark.sql.types.DataType;
+import org.apache.spark.sql.types.DataTypes;
+import org.apache.spark.sql.types.StructType;
+import org.apache.spark.storage.StorageLevel;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
+
+/** One attention layer as Spark steps; see {@link SparkNodeClassifier} for the plan. */
+final class LayerJob {
+
+  private static final Logger LOG = LoggerFactory.getLogger(LayerJob.class);
+
+  private LayerJob() {}
+
+  /**
+   * Runs attention layer {@code l} (and the per-node layers up to the next attention layer) over
+   * {@code nodes} (id, x); returns the persisted, materialised (id, next x). Frames it persists go
+   * into {@code held}; the previous layer's are released once this one is materialised.
+   */
+  static Dataset<Row> run(
+      Broadcast<byte[]> model,
+      LayerSteps steps,
+      int l,
+      Dataset<Row> nodes,
+      Dataset<Row> parted,
+      Dataset<Row> hubs,
+      DataType idType,
+      int partitions,
+      List<Dataset<?>> held) {
+    long started = System.nanoTime();
+    String name = steps.model().layers().get(l).name();
+    // Names this layer's jobs in Spark's UI and event log (and in listeners' job properties).
+    nodes.sparkSession().sparkContext().setJobDescription("heed layer " + l + " '" + name + "'");
+    StructType projected =
+        new StructType()
+            .add("id", idType, false)
+            .add("x", DataTypes.BinaryType, false)
+            .add("q", DataTypes.BinaryType, false)
+            .add("kv", DataTypes.BinaryType, false);
+    Dataset<Row> proj =
+        nodes
+            .mapPartitions(new ProjectStep(model, l, l), Encoders.row(projected))
+            .persist(StorageLevel.MEMORY_AND_DISK());
+
+    // Entries: each edge with its source's key and value rows, to its target's part.
+    Dataset<Row> sources = proj.select(col("id").as("src"), col("kv"));
+    Dataset<Row> entries =
+        parted
+            .join(sources, "src")
+            .select(
+                col("dst"),
+                col("part"),
+                lit(RowBlockAttention.TAG_ENTRY).as("tag"),
+                col("kv").as("vec"),
+                lit(null).cast(DataTypes.BinaryType).as("x"),
+                lit(0).as("parts"));
+    // Query records: one per target and part (parts of a split row each need the query); the
+    // layer input rides with part 0 only.
+    Dataset<Row> targets =
+        proj.join(broadcast(hubs), col("id").equalTo(col("hub")), "left")
+            .select(
+                col("id").as("dst"),
+                col("q"),
+                col("x"),
+                coalesce(col("parts"), lit(1)).as("parts"));
+    Dataset<Row> queries =
+        targets
+            .select(
+                col("dst"),
+                explode(sequence(lit(0), col("parts").minus(1))).as("part"),
+                col("q"),
+                col("x"),
+                col("parts"))
+            .select(
+                col("dst"),
+                col("part"),
+                lit(RowBlockAttention.TAG_QUERY).as("tag"),
+                col("q").as("vec"),
+                when(col("part").equalTo(0), col("x")).as("x"),
+                col("parts"));
+    Dataset<Row> parts =
+        queries
+            .unionByName(entries)
+            .repartition(partitions, col("dst"), col("part"))
+            .sortWithinPartitions("dst", "part", "tag");
+    StructType attendedSchema =
+        new StructType()
+            .add("id", idType, false)
+            .add("kind", DataTypes.IntegerType, false)
+            .add("part", DataTypes.IntegerType, false)
+            .add("x", DataTypes.BinaryType, true)
+            .add("state", DataTypes.BinaryType, true);
+    Dataset<Row> attended =
+        parts
+            .mapPartitions(new RowBlockAttention(model, l), Encoders.row(attendedSchema))
+            .persist(StorageLevel.MEMORY_AND_DISK());
+
+    StructType nodeSchema =
+        new StructType().add("id", idType, false).add("x", DataTypes.BinaryType, false);
+    Dataset<Row> whole =
+        attended.filter(col("kind").equalTo(RowBlockAttention.FINAL)).select(col("id"), col("x"));
+    Dataset<Row> merged =
+        attended
+            .filter(col("kind").equalTo(RowBlockAttention.PARTIAL))
+            .repartition(partitions, col("id"))
+            .sortWithinPartitions("id", "part")
+            .mapPartitions(new SplitRowMerge(model, l), Encoders.row(nodeSchema));
+    Dataset<Row> next = whole.unionByName(merged).persist(StorageLevel.MEMORY_AND_DISK());
+    long rows = next.count();
+    // The previous layer's frames (and this one's intermediates) are no longer read.
+    for (Dataset<?> d : held) {
+      if (d != null && d != parted && d != hubs) {
+        d.unpersist(false);
+      }
+    }
+    held.removeIf(d -> d != parted && d != hubs);
+    proj.unpersist(false);
+    attended.unpersist(false);
+    held.add(next);
+    LOG.info(
+        "layer {} ('{}'): {} rows in {} ms",
+        l,
+        name,
+        rows,
+        (System.nanoTime() - started) / 1_000_000);
+    return next;
+  }
+}
