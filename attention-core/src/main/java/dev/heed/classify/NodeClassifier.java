@@ -1,5 +1,6 @@
 package dev.heed.classify;
 
+import dev.heed.attention.KernelOptions;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.NeighbourRows;
@@ -55,9 +56,18 @@ public final class NodeClassifier {
   private final AttentionModel model;
   private final ClassifyOptions options;
 
+  /** The model the calls run: {@link #model} with the options' node-row precision. */
+  private final AttentionModel running;
+
   private NodeClassifier(AttentionModel model, ClassifyOptions options) {
     this.model = model;
     this.options = options;
+    KernelOptions kernelOptions = model.kernelOptions();
+    this.running =
+        kernelOptions.nodeRowPrecision() == options.nodeRowPrecision()
+            ? model
+            : model.withKernelOptions(
+                kernelOptions.withNodeRowPrecision(options.nodeRowPrecision()));
   }
 
   /**
@@ -114,7 +124,7 @@ public final class NodeClassifier {
   public Classification classify(AttentionPattern graph, NodeFeatures features) {
     Objects.requireNonNull(graph, "graph");
     checkFeatures(features, graph.nodeCount());
-    return run(model.wholeGraphField(graph, null, options.fieldCap()), features, null);
+    return run(running.wholeGraphField(graph, null, options.fieldCap()), features, null);
   }
 
   /**
@@ -140,8 +150,8 @@ public final class NodeClassifier {
     int[] requested = nodes.clone();
     ReceptiveField field =
         graph instanceof CsrGraph csr
-            ? model.receptiveField(csr, requested, options.fieldCap())
-            : model.wholeGraphField(graph, requested, options.fieldCap());
+            ? running.receptiveField(csr, requested, options.fieldCap())
+            : running.wholeGraphField(graph, requested, options.fieldCap());
     return run(field, features, requested);
   }
 
@@ -168,7 +178,7 @@ public final class NodeClassifier {
     Objects.requireNonNull(nodes, "nodes");
     checkFeatures(features, graph.nodeCount());
     int[] requested = nodes.clone();
-    return run(model.receptiveField(graph, requested, options.fieldCap()), features, requested);
+    return run(running.receptiveField(graph, requested, options.fieldCap()), features, requested);
   }
 
   private void checkFeatures(FeatureRows features, int graphNodes) {
@@ -198,7 +208,7 @@ public final class NodeClassifier {
    */
   private Classification run(ReceptiveField field, FeatureRows features, int[] nodes) {
     FieldOutput out =
-        model.forward(field, fieldFeatures(field, features), options.path(), options.explain());
+        running.forward(field, fieldFeatures(field, features), options.path(), options.explain());
     List<String> labels = model.classLabels();
     int k = Math.min(options.topLabels(), labels.size());
     int count = nodes == null ? field.graphNodeCount() : nodes.length;
