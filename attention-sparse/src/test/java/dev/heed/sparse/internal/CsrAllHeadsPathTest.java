@@ -34,7 +34,7 @@ class CsrAllHeadsPathTest {
   private static final ScoreFunction GAT = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
 
   /** Rows of 0 to 20 distinct sources, plus rows longer than one block (up to 2.5 blocks). */
-  private static CsrGraph graph(Random random, int n) {
+  static CsrGraph graph(Random random, int n) {
     int[] offsets = new int[n + 1];
     int[] columns = new int[n * (CsrPass.BLOCK * 3)];
     int e = 0;
@@ -543,8 +543,8 @@ class CsrAllHeadsPathTest {
       assertArrayEquals(maxS, maxV, "key maxima, " + where);
       float[] tableV = uniform(random, PackedNodeTable.length(nodes) + 3, -9f, 9f);
       float[] tableS = tableV.clone();
-      assertTrue(vector.factored().pack(key, value, 0, nodes, maxV, 0.2f, tableV), where);
-      assertTrue(scalar.factored().pack(key, value, 0, nodes, maxS, 0.2f, tableS), where);
+      assertTrue(vector.factored().pack(key, value, 0, nodes, null, maxV, 0.2f, tableV), where);
+      assertTrue(scalar.factored().pack(key, value, 0, nodes, null, maxS, 0.2f, tableS), where);
       assertArrayEquals(tableS, tableV, "factored table, " + where);
       int[] rowBase = new int[count];
       int[] rows = new int[count];
@@ -604,7 +604,7 @@ class CsrAllHeadsPathTest {
       Arrays.fill(max, Float.NEGATIVE_INFINITY);
       assertTrue(math.factored().keyMaxima(key, 0, nodes, max), math.name());
       value[99] = Float.NEGATIVE_INFINITY;
-      assertFalse(math.factored().pack(key, value, 0, nodes, max, 0.2f, table), math.name());
+      assertFalse(math.factored().pack(key, value, 0, nodes, null, max, 0.2f, table), math.name());
       value[99] = 0.25f;
     }
   }
@@ -797,7 +797,7 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  private static double relativeError(float[] reference, float[] actual) {
+  static double relativeError(float[] reference, float[] actual) {
     double[] r = new double[reference.length];
     for (int x = 0; x < r.length; x++) {
       r[x] = reference[x];
@@ -805,7 +805,7 @@ class CsrAllHeadsPathTest {
     return ReferenceAttention.relativeError(r, actual);
   }
 
-  private static float[] uniform(Random random, int length, float lo, float hi) {
+  static float[] uniform(Random random, int length, float lo, float hi) {
     float[] a = new float[length];
     for (int x = 0; x < length; x++) {
       a[x] = lo + (hi - lo) * random.nextFloat();
