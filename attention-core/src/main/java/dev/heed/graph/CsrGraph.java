@@ -38,16 +38,18 @@ public final class CsrGraph implements AttentionPattern, NeighbourRows {
 
   /**
    * Returns this graph with a {@link NodeLayout} computed by {@code method}: the same rows and node
-   * ids (the result {@linkplain #equals equals} this graph), plus a renumbering that the sparse
-   * kernel uses to run rows and store its copies of node rows so that rows read together sit
-   * together. Results computed over the returned graph come back at the caller's ids, as before;
-   * they may differ from this graph's in the last bits (each row's sources are summed in another
-   * order). Compute it once and keep the graph: the cost is the order's ({@link LocalityOrder}),
-   * and the layout holds {@code 4·(2n + 1) + 4·E} bytes.
+   * ids (the result {@linkplain #equals equals} this graph), plus a renumbering in which rows read
+   * together sit together. {@code NodeClassifier} classifies every node of such a graph in layout
+   * order (features, projections and layer outputs all in that order, predictions returned at the
+   * caller's ids), so that the sparse kernel's random reads of node rows land closer together; the
+   * results agree with the graph's own order to float rounding (each row's sources are summed in
+   * another order). Kernels called directly see the graph as it is. Compute it once and keep the
+   * graph: the cost is the order's ({@link LocalityOrder}), and the layout holds {@code 4·(3n + 1)
+   * + 4·E} bytes.
    *
    * <pre>{@code
-   * CsrGraph graph = CsrGraphBuilder.fromEdges(src, dst, n)
-   *     .withLocalityOrder(LocalityOrder.REVERSE_CUTHILL_MCKEE);
+   * CsrGraph graph = CsrGraphBuilder.fromEdges(src, dst, n).build()
+   *     .withLocalityOrder(LocalityOrder.DEGREE);
    * }</pre>
    *
    * @param method the order

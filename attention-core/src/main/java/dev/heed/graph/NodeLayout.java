@@ -6,11 +6,12 @@ import java.util.Objects;
 /**
  * A renumbering of a graph's nodes for memory locality ({@link LocalityOrder}), made once by {@link
  * CsrGraph#withLocalityOrder}: the node at each position, and the graph's rows in position order
- * with their sources given as positions. Kernels use it to run rows and store their copies of node
- * rows in that order; callers never see positions, since every result is written at the node's own
- * id.
+ * with their sources given as positions. {@code NodeClassifier} runs a whole-graph model pass over
+ * the renumbered rows, with every per-node array (features, projections, layer outputs) in position
+ * order, and returns each prediction at the node's own id; callers never see positions.
  *
- * <p>Memory: {@code 4·n} bytes for the order, {@code 4·(n + 1) + 4·E} for the renumbered rows.
+ * <p>Memory: {@code 8·n} bytes for the order and its inverse, {@code 4·(n + 1) + 4·E} for the
+ * renumbered rows.
  *
  * <p>Thread safety: immutable; safe to share between threads.
  */
@@ -18,11 +19,13 @@ public final class NodeLayout {
 
   private final LocalityOrder method;
   private final int[] nodeAt;
+  private final int[] positionOf;
   private final CsrGraph rows;
 
-  private NodeLayout(LocalityOrder method, int[] nodeAt, CsrGraph rows) {
+  private NodeLayout(LocalityOrder method, int[] nodeAt, int[] positionOf, CsrGraph rows) {
     this.method = method;
     this.nodeAt = nodeAt;
+    this.positionOf = positionOf;
     this.rows = rows;
   }
 
@@ -50,7 +53,7 @@ public final class NodeLayout {
       Arrays.sort(columns, offsets[p], at);
       offsets[p + 1] = at;
     }
-    return new NodeLayout(method, nodeAt, CsrGraph.adopt(offsets, columns));
+    return new NodeLayout(method, nodeAt, positionOf, CsrGraph.adopt(offsets, columns));
   }
 
   /**
@@ -70,6 +73,16 @@ public final class NodeLayout {
    */
   public int node(int position) {
     return nodeAt[position];
+  }
+
+  /**
+   * Returns the position of a node.
+   *
+   * @param node in {@code 0..n-1}
+   * @return its position in the layout
+   */
+  public int position(int node) {
+    return positionOf[node];
   }
 
   /**

@@ -11,6 +11,7 @@ import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
 import dev.heed.graph.CsrGraph;
+import dev.heed.graph.LocalityOrder;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.CheckVectors;
 import dev.heed.model.Layer;
@@ -125,6 +126,46 @@ class BundledDemoModelTest {
       for (String role : PaymentsNetwork.ROLES) {
         assertEquals(
             float32.recall(role), bfloat16.recall(role), 0.002, "recall " + role + ", " + split);
+      }
+    }
+  }
+
+  /**
+   * Classifying in a node layout ({@link CsrGraph#withLocalityOrder}) returns every prediction at
+   * the caller's id: the same labels and held-out scores, probabilities within float rounding (each
+   * row's sources are summed in another order), with float32 and with bfloat16 rows.
+   */
+  @Test
+  void nodeLayoutsGiveTheSamePredictionsAtTheCallersIds() throws IOException {
+    AttentionModel model = committedModel();
+    PaymentsNetwork payments = PaymentsNetworkGenerator.bundledDemo().generate();
+    CsrGraph graph = DemoGraph.build(payments);
+    int n = payments.accountCount();
+    NodeFeatures features =
+        NodeFeatures.ofRowMajor(payments.features(), n, payments.featureNames().size());
+    for (NodeRowPrecision rows : NodeRowPrecision.values()) {
+      ClassifyOptions options =
+          ClassifyOptions.defaults().withPath(PathChoice.SPARSE).withNodeRowPrecision(rows);
+      NodeClassifier classifier = NodeClassifier.of(model, options);
+      List<NodePrediction> plain = classifier.classify(graph, features).predictions();
+      for (LocalityOrder method : LocalityOrder.values()) {
+        String where = rows + ", " + method;
+        List<NodePrediction> laidOut =
+            classifier.classify(graph.withLocalityOrder(method), features).predictions();
+        int[] predicted = new int[n];
+        for (int i = 0; i < n; i++) {
+          NodePrediction a = plain.get(i);
+          NodePrediction b = laidOut.get(i);
+          assertEquals(i, b.node(), where);
+          float[] pa = a.probabilities();
+          float[] pb = b.probabilities();
+          for (int c = 0; c < pa.length; c++) {
+            assertEquals(pa[c], pb[c], 1e-5, where + ", node " + i + ", class " + c);
+          }
+          predicted[i] = b.labelIndex();
+        }
+        HeldOutScore test = HeldOutScore.of(predicted, payments, PaymentsNetwork.Split.TEST);
+        assertEquals(heldOut(model, payments, options).accuracy(), test.accuracy(), 0.002, where);
       }
     }
   }

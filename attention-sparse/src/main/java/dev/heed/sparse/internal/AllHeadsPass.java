@@ -80,11 +80,9 @@ abstract class AllHeadsPass extends CsrPass {
     this.firstRow = firstRow;
     this.firstValueRow = firstValueRow;
     this.rowStride = rowStride;
-    // in a node layout the table is in position order, the caller's arrays in node order
-    boolean callerValues = roundedValues || nodeAt != null;
-    this.exactValues = callerValues ? value : valueRows;
-    this.exactFirstValueRow = callerValues ? 0 : firstValueRow;
-    this.exactStride = callerValues ? valueWidth : rowStride;
+    this.exactValues = roundedValues ? value : valueRows;
+    this.exactFirstValueRow = roundedValues ? 0 : firstValueRow;
+    this.exactStride = roundedValues ? valueWidth : rowStride;
   }
 
   /**
@@ -185,8 +183,7 @@ abstract class AllHeadsPass extends CsrPass {
   private void shortRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     if (count == 1) {
-      math.singleEntryRow(
-          exactValues, exactValueRow(node(columns[offset])), out, node(i) * valueWidth);
+      math.singleEntryRow(exactValues, exactValueRow(columns[offset]), out, i * valueWidth);
       if (weights != null) {
         int w = (int) (firstEntry * heads);
         Arrays.fill(weights, w, w + heads, 1f);
@@ -211,29 +208,21 @@ abstract class AllHeadsPass extends CsrPass {
 
   /**
    * Row i by the exact online softmax, block by block, with keys gathered from the caller's array
-   * (or read in the table's exact layout) and values from {@link #exactValues}; in a node layout,
-   * row position i of node {@code node(i)}, its sources turned into node ids first.
+   * (or read in the table's exact layout) and values from {@link #exactValues}.
    */
   final void exactRow(int i, int start, int degree, long firstEntry, Scratch sc) {
-    int target = node(i);
     beginRow(sc);
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
       int[] columns = blockColumns(start + b, count, sc);
-      if (nodeAt != null) {
-        // positions to node ids: this row reads the caller's arrays
-        for (int t = 0; t < count; t++) {
-          columns[t] = nodeAt[columns[t]];
-        }
-      }
       float[] keys = keysInTable ? null : gatherKeys(columns, count, sc);
       if (prefetch && csr != null && b + BLOCK < degree) {
         sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
       }
-      float[] s = scores(target, columns, keys, 0, count, firstEntry + b, sc);
+      float[] s = scores(i, columns, keys, 0, count, firstEntry + b, sc);
       math.softmaxAccumulate(s, count, sc.max, sc.sum, sc.rowBase, exactValues, sc.acc, sc.work);
     }
-    finishRow(target, degree, firstEntry, sc);
+    finishRow(i, degree, firstEntry, sc);
   }
 
   /**

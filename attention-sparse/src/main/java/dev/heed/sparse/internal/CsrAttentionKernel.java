@@ -8,7 +8,6 @@ import dev.heed.attention.ScoreFunction;
 import dev.heed.attention.internal.KernelWorkers;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
-import dev.heed.graph.NodeLayout;
 import java.util.Arrays;
 import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicInteger;
@@ -28,13 +27,9 @@ import java.util.concurrent.atomic.AtomicInteger;
  * call, softly referenced); {@link ExactAllHeadsPass} for that score and shape otherwise; {@link
  * PerHeadPass} for every other score and shape.
  *
- * <p>Two choices of the caller change how the factored path stores its table (both use one for
- * every graph size): {@link dev.heed.attention.NodeRowPrecision#BFLOAT16} value rows (192 bytes per
- * node instead of 320; {@link CsrKernelVariant#nodeRows()}), and a graph with a {@link NodeLayout}
- * ({@link CsrGraph#withLocalityOrder}): the table is filled in layout order and the rows run in
- * that order, writing each output at its node's id. A call that asks for weights ignores the layout
- * (weights are indexed by the caller's entries), so its outputs can differ in the last bits from
- * the same call without weights on such a graph.
+ * <p>With {@link dev.heed.attention.NodeRowPrecision#BFLOAT16} ({@link
+ * CsrKernelVariant#nodeRows()}) the factored table holds value rows rounded to bfloat16 (192 bytes
+ * per node instead of 320) and is used at every graph size.
  *
  * <p>Cost: O(E·H·(keyDim + valueDim)) time; per thread and call, {@code 128·H·(1 + keyDim) +
  * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
@@ -150,24 +145,15 @@ public final class CsrAttentionKernel implements AttentionKernel {
     int n = pattern.nodeCount();
     AttentionKernels.checkFinite("query", query, shape.keyWidth());
     boolean allHeads = takesAllHeadsPath(score, shape);
-    // bfloat16 rows are rounded while the table is filled, and a node layout places the table's
-    // rows, so both use a table at any size (unless tables are off)
+    // bfloat16 rows are rounded while the table is filled, so they use a table at any size
+    // (unless tables are off)
     boolean bfloat16 = variant.bfloat16Rows();
-    NodeLayout layout =
-        pattern instanceof CsrGraph g
-                && weights == null
-                && variant.factoredWeights()
-                && variant.minPackedTableBytes() != Long.MAX_VALUE
-            ? g.nodeLayout().orElse(null)
-            : null;
     float[] table =
         allHeads
                 && pattern instanceof CsrGraph
                 && n > 0
                 && n <= PackedNodeTable.MAX_NODES
-                && (bfloat16
-                    || layout != null
-                    || PackedNodeTable.bytes(n) >= variant.minPackedTableBytes())
+                && (bfloat16 || PackedNodeTable.bytes(n) >= variant.minPackedTableBytes())
             ? tables.take(
                 n, bfloat16 ? PackedNodeTable.bfloat16Length(n) : PackedNodeTable.length(n))
             : null;
@@ -193,12 +179,6 @@ public final class CsrAttentionKernel implements AttentionKernel {
       return;
     }
     try {
-      AttentionPattern rows = pattern;
-      if (layout != null) {
-        // rows in layout order, sources as positions; results still at the caller's node ids
-        rows = layout.rows();
-        call = new CsrCall(rows, score, shape, query, key, value, out, null, layout.nodes());
-      }
       AllHeadsPass pass =
           variant.factoredWeights()
               ? new FactoredAllHeadsPass(
@@ -210,7 +190,7 @@ public final class CsrAttentionKernel implements AttentionKernel {
         AttentionKernels.checkFinite("value", value, shape.valueWidth());
         throw new AssertionError("the packed copy flagged a value that the full check passed");
       }
-      run(pass, rows, useThreads);
+      run(pass, pattern, useThreads);
     } finally {
       tables.giveBack(table);
     }

@@ -52,9 +52,6 @@ abstract class CsrPass {
   final float[] out;
   final float[] weights;
 
-  /** The node at each row position (a node layout), or null: positions are node ids. */
-  final int[] nodeAt;
-
   /** Whether rows of the next block or group are loaded ahead (see the subclasses). */
   final boolean prefetch;
 
@@ -73,8 +70,6 @@ abstract class CsrPass {
     this.value = call.value();
     this.out = call.out();
     this.weights = call.weights();
-    this.nodeAt = call.nodeAt();
-    assert nodeAt == null || weights == null : "weights are indexed by the caller's entries";
     this.prefetch = prefetch;
   }
 
@@ -134,17 +129,12 @@ abstract class CsrPass {
     return columns;
   }
 
-  /** The node at row position p: p itself unless the call runs in a node layout. */
-  final int node(int p) {
-    return nodeAt == null ? p : nodeAt[p];
-  }
-
   /** Computes row i on its own: zeros for a node without sources, else {@link #sourcesRow}. */
   final void row(int i, Scratch sc) {
     int start = csr == null ? 0 : csr.rowStart(i);
     int degree = csr == null ? n : csr.rowEnd(i) - start;
     if (degree == 0) {
-      int outBase = node(i) * valueWidth;
+      int outBase = i * valueWidth;
       Arrays.fill(out, outBase, outBase + valueWidth, 0f);
       return;
     }

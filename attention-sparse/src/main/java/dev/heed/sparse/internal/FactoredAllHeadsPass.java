@@ -69,8 +69,8 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
   @Override
   boolean pack(int from, int to) {
     return bfloat16
-        ? factored.packBfloat16(key, value, from, to, nodeAt, keyMax, slope, table)
-        : factored.pack(key, value, from, to, nodeAt, keyMax, slope, table);
+        ? factored.packBfloat16(key, value, from, to, keyMax, slope, table)
+        : factored.pack(key, value, from, to, keyMax, slope, table);
   }
 
   /** Factored rows read no key terms. */
@@ -87,9 +87,8 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
       rowBase[t] = valueRow(columns[offset + t]);
     }
     float[] s = sc.scores;
-    int target = node(i);
-    int q = target * keyWidth;
-    int o = target * valueWidth;
+    int q = i * keyWidth;
+    int o = i * valueWidth;
     if (!(bfloat16
         ? factored.rowBfloat16(query, q, keyMax, slope, table, rowBase, count, s, out, o)
         : factored.row(query, q, keyMax, slope, table, rowBase, count, s, out, o))) {
@@ -127,7 +126,7 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
       if (prefetch && b + BLOCK < degree) {
         sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
       }
-      int q = node(i) * keyWidth;
+      int q = i * keyWidth;
       if (bfloat16) {
         factored.blockBfloat16(query, q, keyMax, slope, table, rowBase, count, sc.scores, sum, acc);
       } else {
@@ -150,7 +149,7 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
         }
       }
     }
-    int outBase = node(i) * valueWidth;
+    int outBase = i * valueWidth;
     for (int h = 0; h < heads; h++) {
       float total = sum[h];
       for (int k = h * valueDim, end = k + valueDim; k < end; k++) {

@@ -56,8 +56,6 @@ public interface FactoredMath {
    * @param value input, not modified: 64 value floats per node
    * @param from first node
    * @param to one past the last node, at least {@code from + 1}
-   * @param nodeAt input, not modified: the node whose row goes at each table position (a node
-   *     layout), or null: table row c is node c's; {@code from} and {@code to} are then positions
    * @param keyMax input, not modified: per head, the largest key term over all nodes
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
    * @param table output: the factored rows of nodes {@code from..to-1}
@@ -68,7 +66,6 @@ public interface FactoredMath {
       float[] value,
       int from,
       int to,
-      int[] nodeAt,
       float[] keyMax,
       float negativeSlope,
       float[] table);
@@ -145,8 +142,6 @@ public interface FactoredMath {
    * @param value input, not modified: 64 value floats per node
    * @param from first node
    * @param to one past the last node, at least {@code from + 1}
-   * @param nodeAt input, not modified: the node whose row goes at each table position (a node
-   *     layout), or null: table row c is node c's; {@code from} and {@code to} are then positions
    * @param keyMax input, not modified: per head, the largest key term over all nodes
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
    * @param table output: the rows of nodes {@code from..to-1}
@@ -157,7 +152,6 @@ public interface FactoredMath {
       float[] value,
       int from,
       int to,
-      int[] nodeAt,
       float[] keyMax,
       float negativeSlope,
       float[] table);

@@ -36,14 +36,12 @@ final class ScalarFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
-      int[] nodeAt,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
     boolean finite = true;
-    for (int position = from; position < to; position++) {
-      int c = nodeAt == null ? position : nodeAt[position];
-      int p = PackedNodeTable.factoredValueRow(position);
+    for (int c = from; c < to; c++) {
+      int p = PackedNodeTable.factoredValueRow(c);
       factors(key, c, keyMax, negativeSlope, table, p);
       finite &= ScalarAllHeadsMath.copyValueRow(value, c, table, p);
     }
@@ -56,15 +54,13 @@ final class ScalarFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
-      int[] nodeAt,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
     boolean finite = true;
     int half = HEADS * HEADS / 2;
-    for (int position = from; position < to; position++) {
-      int c = nodeAt == null ? position : nodeAt[position];
-      int p = PackedNodeTable.bfloat16ValueRow(position);
+    for (int c = from; c < to; c++) {
+      int p = PackedNodeTable.bfloat16ValueRow(c);
       factors(key, c, keyMax, negativeSlope, table, p);
       int v = c * HEADS * HEADS;
       for (int j = 0; j < half; j++) {

@@ -52,16 +52,14 @@ final class VectorFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
-      int[] nodeAt,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
     assert WIDE_LANES == HEADS;
     FloatVector top = FloatVector.fromArray(WIDE, keyMax, 0);
     FloatVector check = FloatVector.zero(WIDE);
-    for (int position = from; position < to; position++) {
-      int c = nodeAt == null ? position : nodeAt[position];
-      int p = PackedNodeTable.factoredValueRow(position);
+    for (int c = from; c < to; c++) {
+      int p = PackedNodeTable.factoredValueRow(c);
       int v = c * HEADS * HEADS;
       FloatVector d = FloatVector.fromArray(WIDE, key, c * HEADS).sub(top);
       VectorExp.expNonPositive(d).intoArray(table, p - PackedNodeTable.FACTORED_E_BEFORE_VALUES);
@@ -103,7 +101,6 @@ final class VectorFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
-      int[] nodeAt,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
@@ -112,9 +109,8 @@ final class VectorFactoredMath implements FactoredMath {
     FloatVector check = FloatVector.zero(WIDE);
     float limit = Bfloat16.LARGEST_ROUNDED_FINITE;
     int half = HEADS * HEADS / 2;
-    for (int position = from; position < to; position++) {
-      int c = nodeAt == null ? position : nodeAt[position];
-      int p = PackedNodeTable.bfloat16ValueRow(position);
+    for (int c = from; c < to; c++) {
+      int p = PackedNodeTable.bfloat16ValueRow(c);
       int v = c * HEADS * HEADS;
       FloatVector d = FloatVector.fromArray(WIDE, key, c * HEADS).sub(top);
       VectorExp.expNonPositive(d).intoArray(table, p - PackedNodeTable.FACTORED_E_BEFORE_VALUES);

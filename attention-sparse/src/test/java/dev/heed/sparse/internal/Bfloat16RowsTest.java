@@ -101,10 +101,8 @@ class Bfloat16RowsTest {
       float[] tableV =
           CsrAllHeadsPathTest.uniform(random, PackedNodeTable.bfloat16Length(nodes) + 3, -9f, 9f);
       float[] tableS = tableV.clone();
-      assertTrue(
-          vector.factored().packBfloat16(key, value, 0, nodes, null, max, 0.2f, tableV), where);
-      assertTrue(
-          scalar.factored().packBfloat16(key, value, 0, nodes, null, max, 0.2f, tableS), where);
+      assertTrue(vector.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, tableV), where);
+      assertTrue(scalar.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, tableS), where);
       assertArrayEquals(bits(tableS), bits(tableV), "bfloat16 table, " + where);
       int row0 = PackedNodeTable.bfloat16ValueRow(0);
       assertEquals(0x7F7F, Float.floatToRawIntBits(tableV[row0 + 7]) & 0xFFFF, "clamped, " + where);
@@ -149,11 +147,11 @@ class Bfloat16RowsTest {
     assertTrue(scalar.factored().keyMaxima(key, 0, nodes, max));
     for (RowMath math : List.of(vector, scalar)) {
       value[99] = Float.NaN;
-      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, null, max, 0.2f, table));
+      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, table));
       value[99] = Float.POSITIVE_INFINITY;
-      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, null, max, 0.2f, table));
+      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, table));
       value[99] = 0.5f;
-      assertTrue(math.factored().packBfloat16(key, value, 0, nodes, null, max, 0.2f, table));
+      assertTrue(math.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, table));
     }
   }
 

@@ -543,8 +543,8 @@ class CsrAllHeadsPathTest {
       assertArrayEquals(maxS, maxV, "key maxima, " + where);
       float[] tableV = uniform(random, PackedNodeTable.length(nodes) + 3, -9f, 9f);
       float[] tableS = tableV.clone();
-      assertTrue(vector.factored().pack(key, value, 0, nodes, null, maxV, 0.2f, tableV), where);
-      assertTrue(scalar.factored().pack(key, value, 0, nodes, null, maxS, 0.2f, tableS), where);
+      assertTrue(vector.factored().pack(key, value, 0, nodes, maxV, 0.2f, tableV), where);
+      assertTrue(scalar.factored().pack(key, value, 0, nodes, maxS, 0.2f, tableS), where);
       assertArrayEquals(tableS, tableV, "factored table, " + where);
       int[] rowBase = new int[count];
       int[] rows = new int[count];
@@ -604,7 +604,7 @@ class CsrAllHeadsPathTest {
       Arrays.fill(max, Float.NEGATIVE_INFINITY);
       assertTrue(math.factored().keyMaxima(key, 0, nodes, max), math.name());
       value[99] = Float.NEGATIVE_INFINITY;
-      assertFalse(math.factored().pack(key, value, 0, nodes, null, max, 0.2f, table), math.name());
+      assertFalse(math.factored().pack(key, value, 0, nodes, max, 0.2f, table), math.name());
       value[99] = 0.25f;
     }
   }
