@@ -1,5 +1,6 @@
 package dev.heed.classify;
 
+import dev.heed.attention.NodeRowPrecision;
 import dev.heed.model.FieldCap;
 import dev.heed.model.PathChoice;
 import java.util.Objects;
@@ -20,9 +21,17 @@ import java.util.Objects;
  *     entries touched); a call whose field passes it fails with {@link
  *     dev.heed.model.ReceptiveFieldTooLargeException} before any layer runs. The bounds apply to
  *     whole-graph calls too (classifying every node: n nodes). Default {@link FieldCap#NONE}
+ * @param nodeRowPrecision how the sparse kernel stores the node rows it gathers ({@link
+ *     NodeRowPrecision}: where it applies and its error bound); replaces the model's kernel option
+ *     for this classifier's calls. Default {@link NodeRowPrecision#FLOAT32}
  */
 public record ClassifyOptions(
-    PathChoice path, int topLabels, boolean explain, int explainNeighbours, FieldCap fieldCap) {
+    PathChoice path,
+    int topLabels,
+    boolean explain,
+    int explainNeighbours,
+    FieldCap fieldCap,
+    NodeRowPrecision nodeRowPrecision) {
 
   /** Default number of labels per prediction: 3. */
   public static final int DEFAULT_TOP_LABELS = 3;
@@ -38,11 +47,13 @@ public record ClassifyOptions(
    * @param explain whether to explain predictions
    * @param explainNeighbours neighbours per explained layer, at least 1
    * @param fieldCap bounds on each call's receptive field
+   * @param nodeRowPrecision how the sparse kernel stores gathered node rows
    * @throws IllegalArgumentException if a count is below 1
    */
   public ClassifyOptions {
     Objects.requireNonNull(path, "path");
     Objects.requireNonNull(fieldCap, "fieldCap");
+    Objects.requireNonNull(nodeRowPrecision, "nodeRowPrecision");
     if (topLabels < 1) {
       throw new IllegalArgumentException("topLabels must be at least 1, got " + topLabels);
     }
@@ -66,14 +77,34 @@ public record ClassifyOptions(
   }
 
   /**
+   * Creates options with float32 node rows ({@link NodeRowPrecision#FLOAT32}).
+   *
+   * @param path which attention kernel to use
+   * @param topLabels labels per prediction, at least 1
+   * @param explain whether to explain predictions
+   * @param explainNeighbours neighbours per explained layer, at least 1
+   * @param fieldCap bounds on each call's receptive field
+   * @throws IllegalArgumentException if a count is below 1
+   */
+  public ClassifyOptions(
+      PathChoice path, int topLabels, boolean explain, int explainNeighbours, FieldCap fieldCap) {
+    this(path, topLabels, explain, explainNeighbours, fieldCap, NodeRowPrecision.FLOAT32);
+  }
+
+  /**
    * Returns the defaults: {@link PathChoice#AUTO}, 3 labels, no explanations, 5 neighbours, no
-   * field cap.
+   * field cap, float32 node rows.
    *
    * @return the defaults
    */
   public static ClassifyOptions defaults() {
     return new ClassifyOptions(
-        PathChoice.AUTO, DEFAULT_TOP_LABELS, false, DEFAULT_EXPLAIN_NEIGHBOURS, FieldCap.NONE);
+        PathChoice.AUTO,
+        DEFAULT_TOP_LABELS,
+        false,
+        DEFAULT_EXPLAIN_NEIGHBOURS,
+        FieldCap.NONE,
+        NodeRowPrecision.FLOAT32);
   }
 
   /**
@@ -83,7 +114,8 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withPath(PathChoice newPath) {
-    return new ClassifyOptions(newPath, topLabels, explain, explainNeighbours, fieldCap);
+    return new ClassifyOptions(
+        newPath, topLabels, explain, explainNeighbours, fieldCap, nodeRowPrecision);
   }
 
   /**
@@ -93,7 +125,7 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withTopLabels(int k) {
-    return new ClassifyOptions(path, k, explain, explainNeighbours, fieldCap);
+    return new ClassifyOptions(path, k, explain, explainNeighbours, fieldCap, nodeRowPrecision);
   }
 
   /**
@@ -103,7 +135,7 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withExplanations(int k) {
-    return new ClassifyOptions(path, topLabels, true, k, fieldCap);
+    return new ClassifyOptions(path, topLabels, true, k, fieldCap, nodeRowPrecision);
   }
 
   /**
@@ -112,7 +144,8 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withoutExplanations() {
-    return new ClassifyOptions(path, topLabels, false, explainNeighbours, fieldCap);
+    return new ClassifyOptions(
+        path, topLabels, false, explainNeighbours, fieldCap, nodeRowPrecision);
   }
 
   /**
@@ -123,6 +156,18 @@ public record ClassifyOptions(
    * @return new options
    */
   public ClassifyOptions withFieldCap(FieldCap cap) {
-    return new ClassifyOptions(path, topLabels, explain, explainNeighbours, cap);
+    return new ClassifyOptions(path, topLabels, explain, explainNeighbours, cap, nodeRowPrecision);
+  }
+
+  /**
+   * Returns a copy whose calls store the node rows the sparse kernel gathers at another precision,
+   * for example {@code withNodeRowPrecision(NodeRowPrecision.BFLOAT16)}: fewer bytes per neighbour
+   * on large graphs, with the error bound of {@link NodeRowPrecision#BFLOAT16}.
+   *
+   * @param precision the precision
+   * @return new options
+   */
+  public ClassifyOptions withNodeRowPrecision(NodeRowPrecision precision) {
+    return new ClassifyOptions(path, topLabels, explain, explainNeighbours, fieldCap, precision);
   }
 }

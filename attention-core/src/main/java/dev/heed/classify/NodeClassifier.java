@@ -1,8 +1,10 @@
 package dev.heed.classify;
 
+import dev.heed.attention.KernelOptions;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.NeighbourRows;
+import dev.heed.graph.NodeLayout;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.FieldOutput;
 import dev.heed.model.LayerAttention;
@@ -55,9 +57,18 @@ public final class NodeClassifier {
   private final AttentionModel model;
   private final ClassifyOptions options;
 
+  /** The model the calls run: {@link #model} with the options' node-row precision. */
+  private final AttentionModel running;
+
   private NodeClassifier(AttentionModel model, ClassifyOptions options) {
     this.model = model;
     this.options = options;
+    KernelOptions kernelOptions = model.kernelOptions();
+    this.running =
+        kernelOptions.nodeRowPrecision() == options.nodeRowPrecision()
+            ? model
+            : model.withKernelOptions(
+                kernelOptions.withNodeRowPrecision(options.nodeRowPrecision()));
   }
 
   /**
@@ -101,7 +112,11 @@ public final class NodeClassifier {
   }
 
   /**
-   * Classifies every node: one model pass over the whole graph.
+   * Classifies every node: one model pass over the whole graph. On a {@link CsrGraph} with a {@link
+   * NodeLayout} ({@link CsrGraph#withLocalityOrder}) and without explanations, the pass runs over
+   * the layout's renumbered rows with every per-node array in layout order (the features are
+   * gathered into that order once per call), and each prediction comes back at its node's id; the
+   * probabilities agree with the graph's own order to float rounding.
    *
    * @param graph the graph (target i attends to the sources in row i); n nodes
    * @param features n × the model's input feature count, not modified
@@ -114,7 +129,32 @@ public final class NodeClassifier {
   public Classification classify(AttentionPattern graph, NodeFeatures features) {
     Objects.requireNonNull(graph, "graph");
     checkFeatures(features, graph.nodeCount());
-    return run(model.wholeGraphField(graph, null, options.fieldCap()), features, null);
+    NodeLayout layout =
+        graph instanceof CsrGraph csr && !options.explain() ? csr.nodeLayout().orElse(null) : null;
+    if (layout != null) {
+      // the whole pass in layout order; explanations name sources, so they keep the graph's order
+      ReceptiveField field = running.wholeGraphField(layout.rows(), null, options.fieldCap());
+      return run(field, new LaidOutFeatures(features, layout), null, layout);
+    }
+    return run(running.wholeGraphField(graph, null, options.fieldCap()), features, null, null);
+  }
+
+  /** Feature rows in a node layout's order: row p is node {@code layout.node(p)}'s. */
+  private record LaidOutFeatures(FeatureRows features, NodeLayout layout) implements FeatureRows {
+    @Override
+    public int nodeCount() {
+      return features.nodeCount();
+    }
+
+    @Override
+    public int featureCount() {
+      return features.featureCount();
+    }
+
+    @Override
+    public void copyRow(int position, float[] into, int offset) {
+      features.copyRow(layout.node(position), into, offset);
+    }
   }
 
   /**
@@ -140,9 +180,9 @@ public final class NodeClassifier {
     int[] requested = nodes.clone();
     ReceptiveField field =
         graph instanceof CsrGraph csr
-            ? model.receptiveField(csr, requested, options.fieldCap())
-            : model.wholeGraphField(graph, requested, options.fieldCap());
-    return run(field, features, requested);
+            ? running.receptiveField(csr, requested, options.fieldCap())
+            : running.wholeGraphField(graph, requested, options.fieldCap());
+    return run(field, features, requested, null);
   }
 
   /**
@@ -168,7 +208,8 @@ public final class NodeClassifier {
     Objects.requireNonNull(nodes, "nodes");
     checkFeatures(features, graph.nodeCount());
     int[] requested = nodes.clone();
-    return run(model.receptiveField(graph, requested, options.fieldCap()), features, requested);
+    return run(
+        running.receptiveField(graph, requested, options.fieldCap()), features, requested, null);
   }
 
   private void checkFeatures(FeatureRows features, int graphNodes) {
@@ -194,18 +235,20 @@ public final class NodeClassifier {
 
   /**
    * Runs the model over the field and builds the predictions, for {@code nodes} in order (every
-   * node when null).
+   * node when null); with a layout, the field is over its renumbered rows and node v's output is at
+   * its position.
    */
-  private Classification run(ReceptiveField field, FeatureRows features, int[] nodes) {
+  private Classification run(
+      ReceptiveField field, FeatureRows features, int[] nodes, NodeLayout layout) {
     FieldOutput out =
-        model.forward(field, fieldFeatures(field, features), options.path(), options.explain());
+        running.forward(field, fieldFeatures(field, features), options.path(), options.explain());
     List<String> labels = model.classLabels();
     int k = Math.min(options.topLabels(), labels.size());
     int count = nodes == null ? field.graphNodeCount() : nodes.length;
     List<NodePrediction> predictions = new ArrayList<>(count);
     for (int i = 0; i < count; i++) {
       int node = nodes == null ? i : nodes[i];
-      float[] p = out.row(node);
+      float[] p = out.row(layout == null ? node : layout.position(node));
       List<LabelScore> top = topLabels(p, labels, k);
       List<LayerExplanation> explanation = options.explain() ? explain(out, node) : null;
       predictions.add(new NodePrediction(node, p, top, explanation));

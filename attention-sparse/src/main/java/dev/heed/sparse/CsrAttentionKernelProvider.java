@@ -5,6 +5,7 @@ import dev.heed.attention.AttentionKernelProvider;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.KernelOptions;
 import dev.heed.sparse.internal.CsrAttentionKernel;
+import dev.heed.sparse.internal.CsrKernelVariant;
 
 /**
  * Contributes the {@link ComputePath#SPARSE} kernel to {@link
@@ -37,14 +38,16 @@ public final class CsrAttentionKernelProvider implements AttentionKernelProvider
 
   /**
    * Creates a CSR kernel using up to {@code options.threads()} threads per call (the calling thread
-   * counts as one). The dense memory budget does not apply: the kernel's scratch is at most a few
-   * hundred kilobytes per thread.
+   * counts as one), storing the node rows it gathers at {@code options.nodeRowPrecision()}. The
+   * dense memory budget does not apply: the kernel's scratch is at most a few hundred kilobytes per
+   * thread.
    *
    * @param options the caller's options
    * @return a new, immutable kernel
    */
   @Override
   public AttentionKernel create(KernelOptions options) {
-    return CsrAttentionKernel.create(options.threads());
+    return CsrAttentionKernel.create(
+        options.threads(), CsrKernelVariant.DEFAULT.withNodeRows(options.nodeRowPrecision()));
   }
 }

@@ -73,9 +73,17 @@ public final class VectorProfileWarmup {
       VectorMask<Float> below = x.lt(y);
       z = z.blend(0f, below).blend(y, z.compare(VectorOperators.GE, x));
       boolean finite = z.eq(z).allTrue();
-      // integer lanes, as in the exponential's scale bits
+      // integer lanes, as in the exponential's scale bits and the sparse kernel's bfloat16 rows
+      // (shifts both ways, and, or; the last mask keeps the bits a small finite float)
       IntVector bits = (IntVector) z.reinterpretAsInts();
-      z = bits.add(1).lanewise(VectorOperators.LSHL, 1).reinterpretAsFloats().mul(0f).add(z);
+      z =
+          bits.add(1)
+              .lanewise(VectorOperators.LSHL, 1)
+              .or(bits.lanewise(VectorOperators.LSHR, 16))
+              .and(0x3FFFFFFF)
+              .reinterpretAsFloats()
+              .mul(0f)
+              .add(z);
       // lane permutations and reductions, as in the horizontal sums
       z = z.add(z.rearrange(swap));
       z.intoArray(b, 0);

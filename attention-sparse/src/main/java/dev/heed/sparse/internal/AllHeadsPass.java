@@ -35,11 +35,19 @@ abstract class AllHeadsPass extends CsrPass {
   /** Where value rows are read: the table, or the caller's value array. */
   final float[] valueRows;
 
+  /**
+   * Where the exact softmax and one-entry rows read value rows: {@link #valueRows}, or the caller's
+   * value array where the table holds rounded values (those rows then read the exact floats).
+   */
+  final float[] exactValues;
+
   private final PerHeadMath spans;
   private final boolean keysInTable;
   private final int firstRow;
   private final int firstValueRow;
   private final int rowStride;
+  private final int exactFirstValueRow;
+  private final int exactStride;
 
   /**
    * Creates the pass; node c's row starts at {@code firstRow + c · rowStride} of {@code table} (or
@@ -47,6 +55,8 @@ abstract class AllHeadsPass extends CsrPass {
    * firstRow} floats later.
    *
    * @param keysInTable whether the exact path reads key terms from the table in place
+   * @param roundedValues whether the table's values are rounded (bfloat16): the exact softmax and
+   *     one-entry rows then read the caller's value array
    */
   AllHeadsPass(
       CsrCall call,
@@ -56,7 +66,8 @@ abstract class AllHeadsPass extends CsrPass {
       boolean keysInTable,
       int firstRow,
       int firstValueRow,
-      int rowStride) {
+      int rowStride,
+      boolean roundedValues) {
     super(call, prefetch);
     assert applies(call.score(), call.shape()) && rowMath.servesAllHeads();
     assert !keysInTable || table != null;
@@ -69,6 +80,9 @@ abstract class AllHeadsPass extends CsrPass {
     this.firstRow = firstRow;
     this.firstValueRow = firstValueRow;
     this.rowStride = rowStride;
+    this.exactValues = roundedValues ? value : valueRows;
+    this.exactFirstValueRow = roundedValues ? 0 : firstValueRow;
+    this.exactStride = roundedValues ? valueWidth : rowStride;
   }
 
   /**
@@ -91,6 +105,11 @@ abstract class AllHeadsPass extends CsrPass {
   /** Start of node c's value row in {@link #valueRows}. */
   final int valueRow(int c) {
     return firstValueRow + c * rowStride;
+  }
+
+  /** Start of node c's value row in {@link #exactValues}. */
+  final int exactValueRow(int c) {
+    return exactFirstValueRow + c * exactStride;
   }
 
   @Override
@@ -164,7 +183,7 @@ abstract class AllHeadsPass extends CsrPass {
   private void shortRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     if (count == 1) {
-      math.singleEntryRow(valueRows, valueRow(columns[offset]), out, i * valueWidth);
+      math.singleEntryRow(exactValues, exactValueRow(columns[offset]), out, i * valueWidth);
       if (weights != null) {
         int w = (int) (firstEntry * heads);
         Arrays.fill(weights, w, w + heads, 1f);
@@ -189,7 +208,7 @@ abstract class AllHeadsPass extends CsrPass {
 
   /**
    * Row i by the exact online softmax, block by block, with keys gathered from the caller's array
-   * (or read in the table's exact layout) and values from {@link #valueRows}.
+   * (or read in the table's exact layout) and values from {@link #exactValues}.
    */
   final void exactRow(int i, int start, int degree, long firstEntry, Scratch sc) {
     beginRow(sc);
@@ -201,7 +220,7 @@ abstract class AllHeadsPass extends CsrPass {
         sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
       }
       float[] s = scores(i, columns, keys, 0, count, firstEntry + b, sc);
-      math.softmaxAccumulate(s, count, sc.max, sc.sum, sc.rowBase, valueRows, sc.acc, sc.work);
+      math.softmaxAccumulate(s, count, sc.max, sc.sum, sc.rowBase, exactValues, sc.acc, sc.work);
     }
     finishRow(i, degree, firstEntry, sc);
   }
@@ -209,7 +228,7 @@ abstract class AllHeadsPass extends CsrPass {
   /**
    * The scores of a block of row i (arguments as {@link #shortRow}), edge-major into the scratch
    * (and into the weights array if asked for), and the start of each entry's value row into {@code
-   * sc.rowBase}.
+   * sc.rowBase} (in {@link #exactValues}).
    */
   final float[] scores(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
@@ -217,7 +236,7 @@ abstract class AllHeadsPass extends CsrPass {
     int qb = i * keyWidth;
     int[] rowBase = sc.rowBase;
     for (int t = 0; t < count; t++) {
-      rowBase[t] = valueRow(columns[offset + t]);
+      rowBase[t] = exactValueRow(columns[offset + t]);
     }
     boolean finite =
         keys != null
@@ -254,13 +273,22 @@ abstract class AllHeadsPass extends CsrPass {
    * loads are not dropped. Java has no prefetch instruction; a tight loop of independent loads puts
    * many of the next block's cache misses in flight at once (the score and softmax work between a
    * block's own loads would not), and that block then finds its rows in cache. A table row is 5
-   * lines (its first float, every 16th and its last); in the caller's arrays a value row is 5 lines
-   * at most, a key row 2. Written out, not as a loop over lines: a loop with a running sum measured
-   * 2× slower than no loads ahead at all.
+   * lines (its first float, every 16th and its last), a bfloat16 table row 3 (its first float and
+   * every 16th); in the caller's arrays a value row is 5 lines at most, a key row 2. Written out,
+   * not as a loop over lines: a loop with a running sum measured 2× slower than no loads ahead at
+   * all.
    */
   final float prefetch(int first, int end) {
     int last = Math.min(end, first + BLOCK);
     float s = 0f;
+    if (table != null && rowStride == PackedNodeTable.BFLOAT16_ROW) {
+      float[] t = table;
+      for (int e = first; e < last; e++) {
+        int p = firstRow + csr.column(e) * rowStride;
+        s += t[p] + t[p + 16] + t[p + 32];
+      }
+      return s;
+    }
     if (table != null) {
       float[] t = table;
       int lastFloat = rowStride - 1;

@@ -27,6 +27,10 @@ import java.util.concurrent.atomic.AtomicInteger;
  * call, softly referenced); {@link ExactAllHeadsPass} for that score and shape otherwise; {@link
  * PerHeadPass} for every other score and shape.
  *
+ * <p>With {@link dev.heed.attention.NodeRowPrecision#BFLOAT16} ({@link
+ * CsrKernelVariant#nodeRows()}) the factored table holds value rows rounded to bfloat16 (192 bytes
+ * per node instead of 320) and is used at every graph size.
+ *
  * <p>Cost: O(E·H·(keyDim + valueDim)) time; per thread and call, {@code 128·H·(1 + keyDim) +
  * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
  * neighbour costs one random access to its key row and one to its value row, since a node's data
@@ -141,13 +145,17 @@ public final class CsrAttentionKernel implements AttentionKernel {
     int n = pattern.nodeCount();
     AttentionKernels.checkFinite("query", query, shape.keyWidth());
     boolean allHeads = takesAllHeadsPath(score, shape);
+    // bfloat16 rows are rounded while the table is filled, so they use a table at any size
+    // (unless tables are off)
+    boolean bfloat16 = variant.bfloat16Rows();
     float[] table =
         allHeads
                 && pattern instanceof CsrGraph
                 && n > 0
                 && n <= PackedNodeTable.MAX_NODES
-                && PackedNodeTable.bytes(n) >= variant.minPackedTableBytes()
-            ? tables.take(n)
+                && (bfloat16 || PackedNodeTable.bytes(n) >= variant.minPackedTableBytes())
+            ? tables.take(
+                n, bfloat16 ? PackedNodeTable.bfloat16Length(n) : PackedNodeTable.length(n))
             : null;
     if (table == null) {
       // the packed path checks key and value while it copies them
@@ -174,7 +182,7 @@ public final class CsrAttentionKernel implements AttentionKernel {
       AllHeadsPass pass =
           variant.factoredWeights()
               ? new FactoredAllHeadsPass(
-                  call, math, variant.prefetch(), table, keyMaxima(key, n, shape))
+                  call, math, variant.prefetch(), table, keyMaxima(key, n, shape), bfloat16)
               : new ExactAllHeadsPass(call, math, variant.prefetch(), table);
       if (!pack(pass, n, useThreads)) {
         // the first bad value, with checkCall's message

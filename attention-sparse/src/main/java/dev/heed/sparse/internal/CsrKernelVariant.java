@@ -1,5 +1,8 @@
 package dev.heed.sparse.internal;
 
+import dev.heed.attention.NodeRowPrecision;
+import java.util.Objects;
+
 /**
  * Which of its variants a CSR kernel runs, for tests and A/B benchmarks: {@link #DEFAULT} is what
  * {@code AttentionKernels.forPath(ComputePath.SPARSE, options)} gives, and each other value
@@ -24,6 +27,10 @@ package dev.heed.sparse.internal;
  *     run the factored path (default); false: its exact layout and the exact softmax
  * @param minCostPerThread below this many cost units (entries + rows) per thread, a call uses fewer
  *     threads; 1 uses every thread even for tiny calls (tests)
+ * @param nodeRows the precision of the value rows in the factored table ({@link NodeRowPrecision});
+ *     {@link NodeRowPrecision#BFLOAT16} uses the table for every call that the factored path
+ *     applies to, whatever {@code minPackedTableBytes} says, unless that is {@code Long.MAX_VALUE}
+ *     (never a table): the rounding happens when the table is filled
  */
 public record CsrKernelVariant(
     boolean vectorLoops,
@@ -31,7 +38,8 @@ public record CsrKernelVariant(
     boolean prefetch,
     long minPackedTableBytes,
     boolean factoredWeights,
-    long minCostPerThread) {
+    long minCostPerThread,
+    NodeRowPrecision nodeRows) {
 
   /**
    * Calls whose packed node table would be smaller than this many bytes read the caller's key and
@@ -65,15 +73,18 @@ public record CsrKernelVariant(
               ? Long.MAX_VALUE
               : DEFAULT_MIN_PACKED_TABLE_BYTES,
           true,
-          DEFAULT_MIN_COST_PER_THREAD);
+          DEFAULT_MIN_COST_PER_THREAD,
+          NodeRowPrecision.FLOAT32);
 
   /**
    * Checks the thresholds.
    *
    * @throws IllegalArgumentException if {@code minPackedTableBytes} is negative or {@code
    *     minCostPerThread} is below 1
+   * @throws NullPointerException if {@code nodeRows} is null
    */
   public CsrKernelVariant {
+    Objects.requireNonNull(nodeRows, "nodeRows");
     if (minPackedTableBytes < 0) {
       throw new IllegalArgumentException(
           "minPackedTableBytes must be at least 0 (0: always), got " + minPackedTableBytes);
@@ -92,7 +103,7 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withVectorLoops(boolean on) {
     return new CsrKernelVariant(
-        on, allHeads, prefetch, minPackedTableBytes, factoredWeights, minCostPerThread);
+        on, allHeads, prefetch, minPackedTableBytes, factoredWeights, minCostPerThread, nodeRows);
   }
 
   /**
@@ -103,7 +114,13 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withAllHeads(boolean on) {
     return new CsrKernelVariant(
-        vectorLoops, on, prefetch, minPackedTableBytes, factoredWeights, minCostPerThread);
+        vectorLoops,
+        on,
+        prefetch,
+        minPackedTableBytes,
+        factoredWeights,
+        minCostPerThread,
+        nodeRows);
   }
 
   /**
@@ -114,7 +131,13 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withPrefetch(boolean on) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, on, minPackedTableBytes, factoredWeights, minCostPerThread);
+        vectorLoops,
+        allHeads,
+        on,
+        minPackedTableBytes,
+        factoredWeights,
+        minCostPerThread,
+        nodeRows);
   }
 
   /**
@@ -125,7 +148,7 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withMinPackedTableBytes(long bytes) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, prefetch, bytes, factoredWeights, minCostPerThread);
+        vectorLoops, allHeads, prefetch, bytes, factoredWeights, minCostPerThread, nodeRows);
   }
 
   /**
@@ -136,7 +159,7 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withFactoredWeights(boolean on) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, prefetch, minPackedTableBytes, on, minCostPerThread);
+        vectorLoops, allHeads, prefetch, minPackedTableBytes, on, minCostPerThread, nodeRows);
   }
 
   /**
@@ -147,6 +170,30 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withMinCostPerThread(long cost) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, prefetch, minPackedTableBytes, factoredWeights, cost);
+        vectorLoops, allHeads, prefetch, minPackedTableBytes, factoredWeights, cost, nodeRows);
+  }
+
+  /**
+   * Returns this variant with another precision for the factored table's value rows.
+   *
+   * @param precision {@link NodeRowPrecision#BFLOAT16} for 16-bit value rows
+   * @return the new variant
+   */
+  public CsrKernelVariant withNodeRows(NodeRowPrecision precision) {
+    return new CsrKernelVariant(
+        vectorLoops,
+        allHeads,
+        prefetch,
+        minPackedTableBytes,
+        factoredWeights,
+        minCostPerThread,
+        precision);
+  }
+
+  /** Whether calls on the factored path fill a table of bfloat16 value rows. */
+  boolean bfloat16Rows() {
+    return nodeRows == NodeRowPrecision.BFLOAT16
+        && factoredWeights
+        && minPackedTableBytes != Long.MAX_VALUE;
   }
 }

@@ -29,7 +29,8 @@ final class ExactAllHeadsPass extends AllHeadsPass {
         table != null,
         table == null ? 0 : PackedNodeTable.EXACT_OFFSET,
         table == null ? 0 : PackedNodeTable.exactValueRow(0),
-        table == null ? AllHeadsMath.HEADS * AllHeadsMath.HEADS : PackedNodeTable.EXACT_ROW);
+        table == null ? AllHeadsMath.HEADS * AllHeadsMath.HEADS : PackedNodeTable.EXACT_ROW,
+        false);
   }
 
   @Override

@@ -20,12 +20,18 @@ import java.util.Arrays;
  * to rounding (inputs near {@link Float#MAX_VALUE}), the factored weights keep them and the two
  * paths can differ by more; both stay finite convex combinations.
  *
+ * <p>With bfloat16 value rows ({@link dev.heed.attention.NodeRowPrecision#BFLOAT16}) the table
+ * holds the same factors and the values rounded to 8 significand bits (192 bytes per node, three
+ * cache lines instead of five); the weights are the same bits as with float32 rows, and only the
+ * weighted sum sees the rounding.
+ *
  * <p>Thread safety: as {@link CsrPass}.
  */
 final class FactoredAllHeadsPass extends AllHeadsPass {
 
   private final FactoredMath factored;
   private final float[] keyMax;
+  private final boolean bfloat16;
 
   /**
    * Creates the pass over a CSR graph.
@@ -33,9 +39,17 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
    * @param table the packed node table, filled in its factored layout by {@link #pack} before any
    *     row runs
    * @param keyMax input, not modified: each head's largest key term over all nodes
+   * @param bfloat16 whether the table holds its value rows as bfloat16 ({@link
+   *     PackedNodeTable#BFLOAT16_ROW}); rows recomputed exactly, and rows of one entry, then read
+   *     the caller's float32 values
    */
   FactoredAllHeadsPass(
-      CsrCall call, RowMath math, boolean prefetch, float[] table, float[] keyMax) {
+      CsrCall call,
+      RowMath math,
+      boolean prefetch,
+      float[] table,
+      float[] keyMax,
+      boolean bfloat16) {
     super(
         call,
         math,
@@ -43,16 +57,20 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
         table,
         false,
         PackedNodeTable.FACTORED_OFFSET,
-        PackedNodeTable.factoredValueRow(0),
-        PackedNodeTable.FACTORED_ROW);
+        bfloat16 ? PackedNodeTable.bfloat16ValueRow(0) : PackedNodeTable.factoredValueRow(0),
+        bfloat16 ? PackedNodeTable.BFLOAT16_ROW : PackedNodeTable.FACTORED_ROW,
+        bfloat16);
     assert csr != null && table != null && keyMax.length == AllHeadsMath.HEADS;
     this.factored = math.factored();
     this.keyMax = keyMax;
+    this.bfloat16 = bfloat16;
   }
 
   @Override
   boolean pack(int from, int to) {
-    return factored.pack(key, value, from, to, keyMax, slope, table);
+    return bfloat16
+        ? factored.packBfloat16(key, value, from, to, keyMax, slope, table)
+        : factored.pack(key, value, from, to, keyMax, slope, table);
   }
 
   /** Factored rows read no key terms. */
@@ -69,8 +87,11 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
       rowBase[t] = valueRow(columns[offset + t]);
     }
     float[] s = sc.scores;
-    if (!factored.row(
-        query, i * keyWidth, keyMax, slope, table, rowBase, count, s, out, i * valueWidth)) {
+    int q = i * keyWidth;
+    int o = i * valueWidth;
+    if (!(bfloat16
+        ? factored.rowBfloat16(query, q, keyMax, slope, table, rowBase, count, s, out, o)
+        : factored.row(query, q, keyMax, slope, table, rowBase, count, s, out, o))) {
       // reuses the scratch's first count columns: the later rows of a group sit after this one's
       exactRow(i, csr.rowStart(i), count, firstEntry, sc);
     } else if (weights != null) {
@@ -105,8 +126,12 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
       if (prefetch && b + BLOCK < degree) {
         sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
       }
-      factored.block(
-          query, i * keyWidth, keyMax, slope, table, rowBase, count, sc.scores, sum, acc);
+      int q = i * keyWidth;
+      if (bfloat16) {
+        factored.blockBfloat16(query, q, keyMax, slope, table, rowBase, count, sc.scores, sum, acc);
+      } else {
+        factored.block(query, q, keyMax, slope, table, rowBase, count, sc.scores, sum, acc);
+      }
       if (weights != null) {
         System.arraycopy(sc.scores, 0, weights, (start + b) * heads, count * heads);
       }

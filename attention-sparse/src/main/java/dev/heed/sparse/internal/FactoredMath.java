@@ -131,4 +131,83 @@ public interface FactoredMath {
       float[] s,
       float[] sum,
       float[] acc);
+
+  /**
+   * {@link #pack} for the factored layout with bfloat16 values ({@link
+   * PackedNodeTable#bfloat16ValueRow}): the same E and F factors as float32, then the node's 64
+   * values rounded by {@link Bfloat16#round}, value {@code j} and {@code j + 32} in word {@code j};
+   * reports whether every value float is finite.
+   *
+   * @param key input, not modified: 8 key terms per node
+   * @param value input, not modified: 64 value floats per node
+   * @param from first node
+   * @param to one past the last node, at least {@code from + 1}
+   * @param keyMax input, not modified: per head, the largest key term over all nodes
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @param table output: the rows of nodes {@code from..to-1}
+   * @return true if every value float is finite
+   */
+  boolean packBfloat16(
+      float[] key,
+      float[] value,
+      int from,
+      int to,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table);
+
+  /**
+   * {@link #row} over the factored layout with bfloat16 values: the same weights and sums, and the
+   * weighted sum of the decoded values ({@code fma(p, value, acc)} in order of t, float32).
+   *
+   * @param q input, not modified: the target's query terms
+   * @param qOffset offset of head 0's term in {@code q}
+   * @param keyMax input, not modified: the table's per-head key maxima
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @param table input, not modified: the table ({@link #packBfloat16})
+   * @param rowBase input, not modified: the start of each entry's value words in {@code table}
+   * @param count number of entries, at least 1
+   * @param s work array of at least {@code (count + 1) · 8} floats, contents ignored; holds the
+   *     weights and their sums afterwards
+   * @param out output: the row's 64 output floats at {@code outOffset}, if true is returned
+   * @param outOffset start of the row in {@code out}
+   * @return false if a head's sum is too small (or not a number), and the row must be recomputed
+   */
+  boolean rowBfloat16(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] out,
+      int outOffset);
+
+  /**
+   * {@link #block} over the factored layout with bfloat16 values.
+   *
+   * @param q input, not modified: the target's query terms
+   * @param qOffset offset of head 0's term in {@code q}
+   * @param keyMax input, not modified: the table's per-head key maxima
+   * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
+   * @param table input, not modified: the table ({@link #packBfloat16})
+   * @param rowBase input, not modified: the start of each entry's value words in {@code table}
+   * @param count number of entries, at least 1
+   * @param s work array of at least {@code count · 8} floats, contents ignored
+   * @param sum input and output: the 8 running sums
+   * @param acc input and output: the 64-float accumulator
+   */
+  void blockBfloat16(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] sum,
+      float[] acc);
 }

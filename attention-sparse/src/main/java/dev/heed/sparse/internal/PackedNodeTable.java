@@ -18,9 +18,16 @@ import org.slf4j.LoggerFactory;
  * {@code + c · 72}. <b>Factored layout</b> ({@link FactoredAllHeadsPass}): per node, its 8 factors
  * {@code E = exp(k - K)}, its 8 factors {@code F = exp(slope · (k - K))}, then its 64 value floats,
  * {@link #FACTORED_ROW} = 80 floats (320 bytes), at {@link #FACTORED_OFFSET} {@code + c · 80}. A
- * table is sized for either. Row positions are given as the start of a node's value row ({@link
- * #exactValueRow}, {@link #factoredValueRow}); the other terms lie a fixed number of floats before
- * it.
+ * table is sized for either. <b>Factored layout with bfloat16 values</b> ({@link
+ * dev.heed.attention.NodeRowPrecision#BFLOAT16}): the same 8 E and 8 F factors as float32, then 32
+ * words that each hold two bfloat16 values ({@link Bfloat16}), {@link #BFLOAT16_ROW} = 48 floats
+ * (192 bytes, exactly three cache lines) at {@link #FACTORED_OFFSET} {@code + c · 48}: word {@code
+ * j} holds value {@code j} in its low 16 bits and value {@code j + 32} in its high 16 bits, so one
+ * 8-word vector load gives head {@code g} (a 16-bit shift) and head {@code g + 4} (a mask). The
+ * words are stored in the {@code float[]} by their bits; a high half is a finite bfloat16, so no
+ * word is a NaN pattern and every copy keeps its bits. Row positions are given as the start of a
+ * node's value row ({@link #exactValueRow}, {@link #factoredValueRow}); the other terms lie a fixed
+ * number of floats before it.
  *
  * <p>Why: each entry of a row reads its source's key terms and value row at random. From the
  * caller's two arrays that is two random accesses, and as many cache lines as the arrays' alignment
@@ -77,6 +84,12 @@ public final class PackedNodeTable {
   /** Floats from the start of a node's F factors to its value row. */
   public static final int FACTORED_F_BEFORE_VALUES = HEADS;
 
+  /**
+   * Floats per node in the factored layout with bfloat16 values: 8 E factors, 8 F factors, 32 words
+   * of two bfloat16 values (192 bytes).
+   */
+  public static final int BFLOAT16_ROW = 2 * HEADS + HEADS * HEADS / 2;
+
   /** Most nodes a table can hold: one Java array of {@link #length} floats. */
   public static final int MAX_NODES = (Integer.MAX_VALUE - 8 - FACTORED_OFFSET) / FACTORED_ROW;
 
@@ -110,6 +123,29 @@ public final class PackedNodeTable {
   }
 
   /**
+   * Returns the floats of a table for n nodes in the factored layout with bfloat16 values.
+   *
+   * @param n node count, at most {@link #MAX_NODES}
+   * @return the table's length
+   */
+  public static int bfloat16Length(int n) {
+    assert n <= MAX_NODES;
+    return FACTORED_OFFSET + n * BFLOAT16_ROW;
+  }
+
+  /**
+   * Returns the start of node c's 32 value words in the factored layout with bfloat16 values; its E
+   * and F factors start {@link #FACTORED_E_BEFORE_VALUES} and {@link #FACTORED_F_BEFORE_VALUES}
+   * floats before, as in the float32 factored layout.
+   *
+   * @param c the node
+   * @return the index of the node's first value word
+   */
+  public static int bfloat16ValueRow(int c) {
+    return FACTORED_OFFSET + c * BFLOAT16_ROW + FACTORED_E_BEFORE_VALUES;
+  }
+
+  /**
    * Returns the start of node c's value row in the exact layout; its key terms are the {@link
    * #EXACT_KEYS_BEFORE_VALUES} floats before.
    *
@@ -131,22 +167,29 @@ public final class PackedNodeTable {
     return FACTORED_OFFSET + c * FACTORED_ROW + FACTORED_E_BEFORE_VALUES;
   }
 
+  /** Takes a table for n nodes in either float32 layout: {@code take(n, length(n))}. */
+  float[] take(int n) {
+    return take(n, length(n));
+  }
+
   /**
-   * Takes the spare table if it holds at least n nodes, else allocates one. Its contents are
-   * undefined; the caller fills every node's row before reading any.
+   * Takes the spare table if it holds at least {@code length} floats, else allocates one. Its
+   * contents are undefined; the caller fills every node's row before reading any.
    *
+   * @param n the node count, for the warning
+   * @param length floats needed: {@link #length} or {@link #bfloat16Length} of n
    * @return the table, or null if the heap has no room for it (logged once per kernel)
    */
-  float[] take(int n) {
+  float[] take(int n, int length) {
     SoftReference<float[]> held = spare.getAndSet(null);
     float[] table = held == null ? null : held.get();
-    if (table != null && table.length >= length(n)) {
+    if (table != null && table.length >= length) {
       return table;
     }
     table = null; // a spare too small for n can be collected before the new table is allocated
-    if (MemoryBudget.fits(bytes(n))) {
+    if (MemoryBudget.fits(4L * length)) {
       try {
-        return new float[length(n)];
+        return new float[length];
       } catch (OutOfMemoryError e) {
         // one large allocation that failed, with nothing else half done: safe to carry on without
       }
@@ -156,7 +199,7 @@ public final class PackedNodeTable {
           "the sparse kernel's packed node table ({} MiB for {} nodes) does not fit in the heap"
               + " budget; reading keys and values in place instead (same results, slower). Raise"
               + " -Xmx (or -D{}) to use it.",
-          bytes(n) >> 20,
+          (4L * length) >> 20,
           n,
           MemoryBudget.MAX_BYTES_PROPERTY);
     }

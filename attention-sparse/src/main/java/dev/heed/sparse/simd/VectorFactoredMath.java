@@ -3,10 +3,12 @@ package dev.heed.sparse.simd;
 import static dev.heed.sparse.internal.AllHeadsMath.HEADS;
 
 import dev.heed.attention.simd.VectorExp;
+import dev.heed.sparse.internal.Bfloat16;
 import dev.heed.sparse.internal.FactoredMath;
 import dev.heed.sparse.internal.PackedNodeTable;
 import java.util.Arrays;
 import jdk.incubator.vector.FloatVector;
+import jdk.incubator.vector.IntVector;
 import jdk.incubator.vector.VectorOperators;
 import jdk.incubator.vector.VectorSpecies;
 
@@ -24,6 +26,9 @@ final class VectorFactoredMath implements FactoredMath {
   private static final VectorSpecies<Float> WIDE = VectorExp.SPECIES;
 
   private static final int WIDE_LANES = WIDE.length();
+
+  /** The high 16 bits of a word: its high bfloat16 as a float. */
+  private static final int HIGH_HALF = 0xFFFF0000;
 
   VectorFactoredMath() {}
 
@@ -88,6 +93,173 @@ final class VectorFactoredMath implements FactoredMath {
               .add(v7.sub(v7));
     }
     return check.eq(check).allTrue();
+  }
+
+  @Override
+  public boolean packBfloat16(
+      float[] key,
+      float[] value,
+      int from,
+      int to,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table) {
+    assert WIDE_LANES == HEADS;
+    FloatVector top = FloatVector.fromArray(WIDE, keyMax, 0);
+    FloatVector check = FloatVector.zero(WIDE);
+    float limit = Bfloat16.LARGEST_ROUNDED_FINITE;
+    int half = HEADS * HEADS / 2;
+    for (int c = from; c < to; c++) {
+      int p = PackedNodeTable.bfloat16ValueRow(c);
+      int v = c * HEADS * HEADS;
+      FloatVector d = FloatVector.fromArray(WIDE, key, c * HEADS).sub(top);
+      VectorExp.expNonPositive(d).intoArray(table, p - PackedNodeTable.FACTORED_E_BEFORE_VALUES);
+      VectorExp.expNonPositive(d.mul(negativeSlope))
+          .intoArray(table, p - PackedNodeTable.FACTORED_F_BEFORE_VALUES);
+      for (int g = 0; g < half; g += HEADS) {
+        FloatVector lo = FloatVector.fromArray(WIDE, value, v + g);
+        FloatVector hi = FloatVector.fromArray(WIDE, value, v + half + g);
+        check = check.add(lo.sub(lo)).add(hi.sub(hi));
+        // round to nearest even (Bfloat16.round): add 0x7FFF plus the kept part's lowest bit
+        IntVector a = (IntVector) lo.max(-limit).min(limit).reinterpretAsInts();
+        IntVector b = (IntVector) hi.max(-limit).min(limit).reinterpretAsInts();
+        IntVector low =
+            a.add(a.lanewise(VectorOperators.LSHR, 16).and(1))
+                .add(0x7FFF)
+                .lanewise(VectorOperators.LSHR, 16);
+        IntVector high = b.add(b.lanewise(VectorOperators.LSHR, 16).and(1)).add(0x7FFF);
+        low.or(high.and(HIGH_HALF)).reinterpretAsFloats().intoArray(table, p + g);
+      }
+    }
+    return check.eq(check).allTrue();
+  }
+
+  @Override
+  public boolean rowBfloat16(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] out,
+      int outOffset) {
+    assert WIDE_LANES == HEADS;
+    int lw = count * HEADS;
+    Arrays.fill(s, lw, lw + HEADS, 0f);
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, s, lw);
+    if (!FloatVector.fromArray(WIDE, s, lw).compare(VectorOperators.GE, MIN_SUM).allTrue()) {
+      return false;
+    }
+    FloatVector a0 = FloatVector.zero(WIDE);
+    FloatVector a1 = a0;
+    FloatVector a2 = a0;
+    FloatVector a3 = a0;
+    FloatVector a4 = a0;
+    FloatVector a5 = a0;
+    FloatVector a6 = a0;
+    FloatVector a7 = a0;
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int w = t * HEADS;
+      // word j: value j (head j / 8) in its low half, decoded by a shift (Bfloat16.low), value
+      // j + 32 (head j / 8 + 4) in its high half, decoded by a mask (Bfloat16.high)
+      IntVector w0 = (IntVector) FloatVector.fromArray(WIDE, table, r).reinterpretAsInts();
+      IntVector w1 = (IntVector) FloatVector.fromArray(WIDE, table, r + 8).reinterpretAsInts();
+      IntVector w2 = (IntVector) FloatVector.fromArray(WIDE, table, r + 16).reinterpretAsInts();
+      IntVector w3 = (IntVector) FloatVector.fromArray(WIDE, table, r + 24).reinterpretAsInts();
+      a0 =
+          w0.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w]), a0);
+      a1 =
+          w1.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w + 1]), a1);
+      a2 =
+          w2.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w + 2]), a2);
+      a3 =
+          w3.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w + 3]), a3);
+      a4 = w0.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 4]), a4);
+      a5 = w1.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 5]), a5);
+      a6 = w2.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 6]), a6);
+      a7 = w3.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 7]), a7);
+    }
+    a0.div(s[lw]).intoArray(out, outOffset);
+    a1.div(s[lw + 1]).intoArray(out, outOffset + 8);
+    a2.div(s[lw + 2]).intoArray(out, outOffset + 16);
+    a3.div(s[lw + 3]).intoArray(out, outOffset + 24);
+    a4.div(s[lw + 4]).intoArray(out, outOffset + 32);
+    a5.div(s[lw + 5]).intoArray(out, outOffset + 40);
+    a6.div(s[lw + 6]).intoArray(out, outOffset + 48);
+    a7.div(s[lw + 7]).intoArray(out, outOffset + 56);
+    return true;
+  }
+
+  @Override
+  public void blockBfloat16(
+      float[] q,
+      int qOffset,
+      float[] keyMax,
+      float negativeSlope,
+      float[] table,
+      int[] rowBase,
+      int count,
+      float[] s,
+      float[] sum,
+      float[] acc) {
+    assert WIDE_LANES == HEADS;
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, 0);
+    FloatVector a0 = FloatVector.fromArray(WIDE, acc, 0);
+    FloatVector a1 = FloatVector.fromArray(WIDE, acc, 8);
+    FloatVector a2 = FloatVector.fromArray(WIDE, acc, 16);
+    FloatVector a3 = FloatVector.fromArray(WIDE, acc, 24);
+    FloatVector a4 = FloatVector.fromArray(WIDE, acc, 32);
+    FloatVector a5 = FloatVector.fromArray(WIDE, acc, 40);
+    FloatVector a6 = FloatVector.fromArray(WIDE, acc, 48);
+    FloatVector a7 = FloatVector.fromArray(WIDE, acc, 56);
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int w = t * HEADS;
+      IntVector w0 = (IntVector) FloatVector.fromArray(WIDE, table, r).reinterpretAsInts();
+      IntVector w1 = (IntVector) FloatVector.fromArray(WIDE, table, r + 8).reinterpretAsInts();
+      IntVector w2 = (IntVector) FloatVector.fromArray(WIDE, table, r + 16).reinterpretAsInts();
+      IntVector w3 = (IntVector) FloatVector.fromArray(WIDE, table, r + 24).reinterpretAsInts();
+      a0 =
+          w0.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w]), a0);
+      a1 =
+          w1.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w + 1]), a1);
+      a2 =
+          w2.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w + 2]), a2);
+      a3 =
+          w3.lanewise(VectorOperators.LSHL, 16)
+              .reinterpretAsFloats()
+              .fma(FloatVector.broadcast(WIDE, s[w + 3]), a3);
+      a4 = w0.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 4]), a4);
+      a5 = w1.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 5]), a5);
+      a6 = w2.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 6]), a6);
+      a7 = w3.and(HIGH_HALF).reinterpretAsFloats().fma(FloatVector.broadcast(WIDE, s[w + 7]), a7);
+    }
+    a0.intoArray(acc, 0);
+    a1.intoArray(acc, 8);
+    a2.intoArray(acc, 16);
+    a3.intoArray(acc, 24);
+    a4.intoArray(acc, 32);
+    a5.intoArray(acc, 40);
+    a6.intoArray(acc, 48);
+    a7.intoArray(acc, 56);
   }
 
   @Override

@@ -34,7 +34,7 @@ class CsrAllHeadsPathTest {
   private static final ScoreFunction GAT = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
 
   /** Rows of 0 to 20 distinct sources, plus rows longer than one block (up to 2.5 blocks). */
-  private static CsrGraph graph(Random random, int n) {
+  static CsrGraph graph(Random random, int n) {
     int[] offsets = new int[n + 1];
     int[] columns = new int[n * (CsrPass.BLOCK * 3)];
     int e = 0;
@@ -797,7 +797,7 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  private static double relativeError(float[] reference, float[] actual) {
+  static double relativeError(float[] reference, float[] actual) {
     double[] r = new double[reference.length];
     for (int x = 0; x < r.length; x++) {
       r[x] = reference[x];
@@ -805,7 +805,7 @@ class CsrAllHeadsPathTest {
     return ReferenceAttention.relativeError(r, actual);
   }
 
-  private static float[] uniform(Random random, int length, float lo, float hi) {
+  static float[] uniform(Random random, int length, float lo, float hi) {
     float[] a = new float[length];
     for (int x = 0; x < length; x++) {
       a[x] = lo + (hi - lo) * random.nextFloat();

@@ -3,6 +3,7 @@ package dev.heed.bench.kernel;
 import dev.heed.attention.AttentionKernel;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.KernelOptions;
+import dev.heed.attention.NodeRowPrecision;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.DuplicatePolicy;
@@ -128,6 +129,14 @@ public class CsrAttentionBenchmark {
   @Param({"on"})
   public String factoredWeights;
 
+  /**
+   * {@code float32} (default: value rows as given) or {@code bfloat16} (the factored table holds
+   * value rows rounded to bfloat16, {@link NodeRowPrecision#BFLOAT16}), for A/B comparisons in one
+   * run.
+   */
+  @Param({"float32"})
+  public String nodeRows;
+
   /** Seed of the graph and the inputs. */
   @Param({"20260401"})
   public long seed;
@@ -149,7 +158,11 @@ public class CsrAttentionBenchmark {
             .withVectorLoops(choose("implementation", implementation, "vector", "scalar"))
             .withAllHeads(choose("path", path, "allHeads", "perHead"))
             .withPrefetch(choose("prefetch", prefetch, "on", "off"))
-            .withFactoredWeights(choose("factoredWeights", factoredWeights, "on", "off"));
+            .withFactoredWeights(choose("factoredWeights", factoredWeights, "on", "off"))
+            .withNodeRows(
+                choose("nodeRows", nodeRows, "bfloat16", "float32")
+                    ? NodeRowPrecision.BFLOAT16
+                    : NodeRowPrecision.FLOAT32);
     if (!choose("packedTable", packedTable, "auto", "off")) {
       variant = variant.withMinPackedTableBytes(Long.MAX_VALUE);
     }
