@@ -282,7 +282,7 @@ public final class SparkNodeClassifier {
     List<Dataset<?>> held = new ArrayList<>();
 
     Dataset<Row> graph =
-        GraphConventions.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies);
+        EdgePolicyFrames.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies);
     Dataset<Row> hubs =
         graph
             .groupBy("dst")

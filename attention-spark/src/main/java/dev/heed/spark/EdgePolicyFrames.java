@@ -18,9 +18,9 @@ import org.apache.spark.sql.Row;
  * symmetrised, in either direction), {@code merge} keeps it once; {@code add} gives every node
  * exactly one self-loop, whether or not the edges had one, {@code as-given} keeps the edges' own.
  */
-final class GraphConventions {
+final class EdgePolicyFrames {
 
-  private GraphConventions() {}
+  private EdgePolicyFrames() {}
 
   /**
    * @param edges (src, dst), ids checked
