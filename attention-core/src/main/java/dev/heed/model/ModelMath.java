@@ -23,6 +23,16 @@ final class ModelMath {
   /** Fewest rows sent to BLAS: below this, copying the weights costs more than it saves. */
   static final int GEMM_MIN_ROWS = 64;
 
+  /**
+   * Fewest columns of x (in) and of w (out) sent to BLAS. With a narrow side, the product is a
+   * streaming loop bound by memory, so BLAS gains little (its blocking needs both sides wide),
+   * while the first call would pay ND4J's one-off start-up (native libraries and over 800 classes;
+   * 1-2 s on the reference machine, measured with {@code -Xlog:class+load}). This keeps narrow
+   * layers, such as the demo model's 6 input features and 3 classes, off ND4J. A round guess, not a
+   * calibration.
+   */
+  static final int GEMM_MIN_WIDTH = 32;
+
   private ModelMath() {}
 
   /**
@@ -31,11 +41,25 @@ final class ModelMath {
    * MatrixProduct} if there is one, small ones (and all, without one) {@link #projectInJava}.
    */
   static float[] project(float[] x, int n, int in, float[] w, int out, float[] bias) {
-    MatrixProduct fast = LargeProducts.PLUGGED_IN;
-    if (fast != null && n >= GEMM_MIN_ROWS && (long) n * in * out >= GEMM_MIN_MULTIPLY_ADDS) {
-      return projectWith(fast, x, n, in, w, out, bias);
+    if (worthPlugIn(n, in, out)) {
+      MatrixProduct fast = LargeProducts.PLUGGED_IN; // first use: the ServiceLoader lookup
+      if (fast != null) {
+        return projectWith(fast, x, n, in, w, out, bias);
+      }
     }
     return projectInJava(x, n, in, w, out, bias);
+  }
+
+  /**
+   * Whether an n × in by in × out product is large enough for the plugged-in {@link MatrixProduct}
+   * (see {@link #GEMM_MIN_MULTIPLY_ADDS}, {@link #GEMM_MIN_ROWS}, {@link #GEMM_MIN_WIDTH}). Smaller
+   * products never look the plug-in up, so a model made of them never loads it.
+   */
+  static boolean worthPlugIn(int n, int in, int out) {
+    return n >= GEMM_MIN_ROWS
+        && in >= GEMM_MIN_WIDTH
+        && out >= GEMM_MIN_WIDTH
+        && (long) n * in * out >= GEMM_MIN_MULTIPLY_ADDS;
   }
 
   /** The product with a plugged-in implementation, then the bias. */

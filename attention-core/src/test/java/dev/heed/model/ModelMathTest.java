@@ -1,5 +1,6 @@
 package dev.heed.model;
 
+import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertNull;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
@@ -53,6 +54,22 @@ class ModelMathTest {
       assertTrue(javaError < 1e-5, "java " + where + ": " + javaError);
       assertTrue(projectError < 1e-5, "project " + where + ": " + projectError);
     }
+  }
+
+  @Test
+  void narrowOrShortProductsNeverReachThePlugIn() {
+    // enough multiply-adds, but a narrow side (a first layer over a few features, a last layer
+    // over a few classes): stays in Java
+    assertTrue(50_000L * 6 * 64 >= ModelMath.GEMM_MIN_MULTIPLY_ADDS);
+    assertFalse(ModelMath.worthPlugIn(50_000, 6, 64));
+    assertFalse(ModelMath.worthPlugIn(50_000, 64, 3));
+    assertFalse(ModelMath.worthPlugIn(50_000, ModelMath.GEMM_MIN_WIDTH - 1, 1024));
+    assertFalse(ModelMath.worthPlugIn(50_000, 1024, ModelMath.GEMM_MIN_WIDTH - 1));
+    // too few rows, or too few multiply-adds
+    assertFalse(ModelMath.worthPlugIn(ModelMath.GEMM_MIN_ROWS - 1, 4096, 4096));
+    assertFalse(ModelMath.worthPlugIn(1024, 64, 64));
+    // large on every count
+    assertTrue(ModelMath.worthPlugIn(50_000, ModelMath.GEMM_MIN_WIDTH, ModelMath.GEMM_MIN_WIDTH));
   }
 
   @Test

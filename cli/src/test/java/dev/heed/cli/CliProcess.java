@@ -24,6 +24,12 @@ final class CliProcess {
   private CliProcess() {}
 
   static Result run(Path workDir, String... args) throws IOException, InterruptedException {
+    return runWithJvmOptions(workDir, List.of(), args);
+  }
+
+  /** As {@link #run}, with extra JVM options (before {@code -jar}). */
+  static Result runWithJvmOptions(Path workDir, List<String> jvmOptions, String... args)
+      throws IOException, InterruptedException {
     String jar = System.getProperty("heed.cli.jar");
     assertTrue(jar != null && Files.isRegularFile(Path.of(jar)), "heed.jar not built: " + jar);
     List<String> command = new ArrayList<>();
@@ -32,6 +38,7 @@ final class CliProcess {
     command.add("jdk.incubator.vector");
     command.add("-Xmx1g");
     command.add("-Dorg.bytedeco.javacpp.maxphysicalbytes=3g");
+    command.addAll(jvmOptions);
     command.add("-jar");
     command.add(jar);
     command.addAll(List.of(args));

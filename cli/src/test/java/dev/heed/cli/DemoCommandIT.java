@@ -1,6 +1,7 @@
 package dev.heed.cli;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
@@ -128,12 +129,24 @@ class DemoCommandIT {
           jar.getEntry(DemoRun.MODEL_RESOURCE.substring(1)) != null,
           "awaits the bundled demo model " + DemoRun.MODEL_RESOURCE);
     }
+    Path classLog = shared.resolve("demo-classes.log");
     CliProcess.Result r =
-        CliProcess.run(
-            shared, "classify", "--demo", "--demo-dir", shared.resolve("demo").toString());
+        CliProcess.runWithJvmOptions(
+            shared,
+            List.of("-Xlog:class+load=info:file=" + classLog),
+            "classify",
+            "--demo",
+            "--demo-dir",
+            shared.resolve("demo").toString());
     assertEquals(0, r.exitCode(), r.toString());
     String out = r.stdout();
     assertTrue(out.contains("Caution"), r.toString());
+    // the demo runs on the sparse path with a 6-feature first layer: nothing in it needs BLAS, so
+    // ND4J (native libraries, over 800 classes) must not even be loaded
+    String classes = Files.readString(classLog, StandardCharsets.UTF_8);
+    assertTrue(classes.contains("dev.heed.cli.DemoRun"), "class log not written: " + classLog);
+    assertFalse(classes.contains("org.nd4j."), "the sparse demo loaded ND4J classes");
+    assertFalse(classes.contains("org.bytedeco."), "the sparse demo loaded JavaCPP classes");
 
     PaymentsNetwork network = PaymentsNetworkGenerator.bundledDemo().generate();
     AttentionModel model;
