@@ -65,26 +65,17 @@ final class StepAccess extends ModelSteps {
       AttentionModel model,
       int from,
       int to,
-      AttentionPattern pattern,
-      int rowsIn,
       int rowsOut,
+      int[] offsets,
+      int[] columns,
       float[] table,
       int[] rows,
-      float[] targetInput,
-      PathChoice path) {
+      float[] targetInput) {
     List<Layer> layers = model.layers();
-    ForwardPass pass =
-        new ForwardPass(
-            pattern,
-            rowsIn,
-            path,
-            model.kernelSource(),
-            model.autoCosts(path),
-            model.kernelOptions().threads());
-    pass.rowsOut = rowsOut;
     float[] x =
-        ((GraphAttentionLayer) layers.get(from)).forwardProjected(table, rows, targetInput, pass);
-    pass.rowsIn = rowsOut;
+        ((GraphAttentionLayer) layers.get(from))
+            .forwardProjectedRows(table, rows, rowsOut, offsets, columns, targetInput);
+    ForwardPass pass = ForwardPass.perNode(rowsOut);
     for (int index = from + 1; index < to; index++) {
       x = layers.get(index).forward(x, pass);
     }
