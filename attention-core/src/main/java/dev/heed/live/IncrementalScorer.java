@@ -139,6 +139,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   private int[] offsets = new int[65];
   private int[] columns = new int[64];
   private boolean[] missingIn = new boolean[64];
+  private final int[] chunkTargets = new int[CHUNK_ROWS];
   private List<Runnable> deliveries = new ArrayList<>();
 
   /** One attention layer with the per-node layers around it, and every node's output of it. */
@@ -719,7 +720,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     int refreshed = 0;
     LiveSnapshot<K> snapshot = reflected;
     int n = snapshot.nodeCount();
-    int[] targets = new int[CHUNK_ROWS];
+    int[] targets = chunkTargets;
     for (Stage stage : stages) {
       int cursor = 0;
       while (stage.needCount > 0) {

@@ -468,22 +468,18 @@ public final class GraphAttentionLayer extends Layer {
    * columns[offsets[i] .. offsets[i+1])}, local ids whose kept projection is row {@code
    * rows[column]} of {@code table}. Reads the table in place (nothing is gathered), runs on the
    * calling thread, and follows the kernel contract of {@link dev.heed.attention.AttentionKernel}:
-   * float32 scores, a max-subtracted softmax with {@link FastExp}, sums in a fixed order (source
-   * order, then head); a row whose scores or weighted sums overflow float32 is recomputed in
-   * float64 with each score clamped to ±{@link Float#MAX_VALUE}; a target without sources gets
-   * zeros from attention. Cost O(Σ deg · H · d) over the m rows.
+   * float32 scores, a max-subtracted softmax with {@link FastExp} computed in one pass over each
+   * row's sources (a running maximum per head), sums in a fixed order (source order, then head); a
+   * row whose scores or weighted sums overflow float32 is recomputed in float64 with each score
+   * clamped to ±{@link Float#MAX_VALUE}; a target without sources gets zeros from attention. Cost
+   * O(Σ deg · H · d) over the m rows.
    *
    * @throws IllegalArgumentException if a kept projection the rows read holds NaN or an infinity
    */
   float[] forwardProjectedRows(
       float[] table, int[] rows, int m, int[] offsets, int[] columns, float[] targetInput) {
     int hd = heads * headWidth;
-    int maxDegree = 0;
-    for (int i = 0; i < m; i++) {
-      maxDegree = Math.max(maxDegree, offsets[i + 1] - offsets[i]);
-    }
-    RowAttention rowAttention =
-        new RowAttention(table, rows, offsets, columns, new float[m * hd], maxDegree);
+    RowAttention rowAttention = new RowAttention(table, rows, offsets, columns, new float[m * hd]);
     for (int i = 0; i < m; i++) {
       if (offsets[i] < offsets[i + 1] && !rowAttention.attendRow(i)) {
         rowAttention.attendRowWide(i);
@@ -504,30 +500,33 @@ public final class GraphAttentionLayer extends Layer {
     final float[] attention = gatv2 ? tensors.get(ATTENTION).values() : null;
     final int hd = heads * headWidth;
     final int width = projectionWidth();
-    final float[] scores;
+    final float[] weights = new float[heads * headWidth];
     final float[] max = new float[heads];
     final float[] sum = new float[heads];
 
-    RowAttention(
-        float[] table, int[] rows, int[] offsets, int[] columns, float[] attended, int maxDegree) {
+    RowAttention(float[] table, int[] rows, int[] offsets, int[] columns, float[] attended) {
       this.table = table;
       this.rows = rows;
       this.offsets = offsets;
       this.columns = columns;
       this.attended = attended;
-      this.scores = new float[maxDegree * heads];
     }
 
-    /** One target row in float32; false (output row not final) if anything overflowed. */
+    /**
+     * One target row in float32, in one pass over its sources (each source's kept projection is
+     * read once; the softmax keeps a running maximum per head and rescales the sums when it grows);
+     * false (output row not final) if anything overflowed.
+     */
     boolean attendRow(int i) {
       int start = offsets[i];
       int end = offsets[i + 1];
       int target = rows[i] * width;
+      int out = i * hd;
       float slope = (float) leakyReluSlope;
       Arrays.fill(max, Float.NEGATIVE_INFINITY);
+      Arrays.fill(sum, 0f);
       for (int e = start; e < end; e++) {
         int source = rows[columns[e]] * width;
-        int at = (e - start) * heads;
         for (int h = 0; h < heads; h++) {
           float s;
           if (gatv2) {
@@ -545,23 +544,21 @@ public final class GraphAttentionLayer extends Layer {
           if (!Float.isFinite(s)) {
             return false;
           }
-          scores[at + h] = s;
-          max[h] = Math.max(max[h], s);
-        }
-      }
-      int out = i * hd;
-      Arrays.fill(sum, 0f);
-      for (int e = start; e < end; e++) {
-        int source = rows[columns[e]] * width;
-        int at = (e - start) * heads;
-        for (int h = 0; h < heads; h++) {
-          float p = FastExp.expNonPositive(scores[at + h] - max[h]);
-          sum[h] += p;
           int o = out + h * headWidth;
-          int v = source + h * headWidth;
-          for (int c = 0; c < headWidth; c++) {
-            attended[o + c] = Math.fma(p, table[v + c], attended[o + c]);
+          if (s > max[h]) {
+            float f = FastExp.expNonPositive(max[h] - s);
+            sum[h] *= f;
+            for (int c = 0; c < headWidth; c++) {
+              attended[o + c] *= f;
+            }
+            max[h] = s;
           }
+          float p = FastExp.expNonPositive(s - max[h]);
+          sum[h] += p;
+          Arrays.fill(weights, h * headWidth, (h + 1) * headWidth, p);
+        }
+        for (int c = 0; c < hd; c++) {
+          attended[out + c] = Math.fma(weights[c], table[source + c], attended[out + c]);
         }
       }
       for (int h = 0; h < heads; h++) {
@@ -570,7 +567,6 @@ public final class GraphAttentionLayer extends Layer {
         for (int c = 0; c < headWidth; c++) {
           float y = attended[o + c] * inv;
           if (!Float.isFinite(y)) {
-            Arrays.fill(attended, out, out + hd, 0f);
             return false;
           }
           attended[o + c] = y;
