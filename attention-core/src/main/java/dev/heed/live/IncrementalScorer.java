@@ -74,12 +74,10 @@ import org.slf4j.LoggerFactory;
  * row alone, the node's projection (GAT: the projected features and each head's source and target
  * terms; GATv2: the source and target projections). The scorer keeps these per node and recomputes
  * a node's projection only when its input row changes, so recomputing a row reads its
- * in-neighbours' kept projections in place, row by row on the refreshing thread (no kernel call
- * over a local pattern, no copies, no kernel worker threads; the kernel contract's overflow and
- * determinism rules hold), instead of projecting every neighbour again: without this, a refresh
- * that touches a hub's row re-projected all of the hub's in-neighbours (64 × 64 multiply-adds each
- * for the benchmark model). Other attention layers (graph-masked self-attention, or an attention
- * layer after per-node layers in the first stage) project every row they read.
+ * in-neighbours' kept projections instead of projecting every neighbour again: without this, a
+ * refresh that touches a hub's row re-projected all of the hub's in-neighbours (64 × 64
+ * multiply-adds each for the benchmark model). Other attention layers (graph-masked self-attention,
+ * or an attention layer after per-node layers in the first stage) project every row they read.
  *
  * <p><b>Memory</b> ({@link #stateBytes()}): per node, 4 bytes per output value of every stage and
  * per value of every kept projection (a 2-layer GAT of 8 heads × 8 dims over 64 features with 4
@@ -139,7 +137,6 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   private int[] offsets = new int[65];
   private int[] columns = new int[64];
   private boolean[] missingIn = new boolean[64];
-  private final int[] chunkTargets = new int[CHUNK_ROWS];
   private List<Runnable> deliveries = new ArrayList<>();
 
   /** One attention layer with the per-node layers around it, and every node's output of it. */
@@ -720,7 +717,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     int refreshed = 0;
     LiveSnapshot<K> snapshot = reflected;
     int n = snapshot.nodeCount();
-    int[] targets = chunkTargets;
+    int[] targets = new int[CHUNK_ROWS];
     for (Stage stage : stages) {
       int cursor = 0;
       while (stage.needCount > 0) {
@@ -800,13 +797,11 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         }
         offsets[i + 1] = base + d;
       }
-      if (stage.projectionWidth == 0) {
-        int entries = offsets[k];
-        int[] patternOffsets = new int[rowsIn + 1];
-        System.arraycopy(offsets, 0, patternOffsets, 0, k + 1);
-        Arrays.fill(patternOffsets, k + 1, rowsIn + 1, entries);
-        pattern = CsrGraph.of(patternOffsets, Arrays.copyOf(columns, entries));
-      }
+      int entries = offsets[k];
+      int[] patternOffsets = new int[rowsIn + 1];
+      System.arraycopy(offsets, 0, patternOffsets, 0, k + 1);
+      Arrays.fill(patternOffsets, k + 1, rowsIn + 1, entries);
+      pattern = CsrGraph.of(patternOffsets, Arrays.copyOf(columns, entries));
     } else {
       System.arraycopy(targets, 0, readIds, 0, k);
     }
@@ -832,12 +827,13 @@ public final class IncrementalScorer<K> implements AutoCloseable {
               model,
               stage.from,
               stage.to,
+              pattern,
+              rowsIn,
               k,
-              offsets,
-              columns,
               stage.projections,
               readIds,
-              targetInput);
+              targetInput,
+              options.path());
     } else {
       float[] input = inputs(stage, snapshot, readIds, rowsIn);
       result = steps.run(model, stage.from, stage.to, pattern, rowsIn, k, input, options.path());

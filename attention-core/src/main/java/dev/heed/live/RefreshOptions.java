@@ -39,11 +39,8 @@ public final class RefreshOptions {
   }
 
   /**
-   * Returns these options with another attention path: the path of the scorer's full passes (at
-   * creation) and of attention layers whose projections the scorer does not keep. The rows a
-   * refresh recomputes in a GAT or GATv2 layer whose projections are kept are computed row by row
-   * over those projections on the calling thread, whatever the path. The dense path masks each
-   * local pattern (cost quadratic in the rows a refresh reads), so live graphs normally use {@link
+   * Returns these options with another attention path. The dense path masks each local pattern
+   * (cost quadratic in the rows a refresh reads), so live graphs normally use {@link
    * PathChoice#SPARSE} or {@link PathChoice#AUTO}.
    *
    * @param path the path

@@ -3,7 +3,6 @@ package dev.heed.model;
 import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
-import dev.heed.attention.internal.FastExp;
 import java.util.Arrays;
 import java.util.List;
 import java.util.Map;
@@ -463,191 +462,50 @@ public final class GraphAttentionLayer extends Layer {
   }
 
   /**
-   * {@link #forward} from kept projections, for {@code m} target rows only, without a kernel call
-   * or a square pattern: target row i (local, {@code 0 <= i < m}) attends over the sources {@code
-   * columns[offsets[i] .. offsets[i+1])}, local ids whose kept projection is row {@code
-   * rows[column]} of {@code table}. Reads the table in place (nothing is gathered), runs on the
-   * calling thread, and follows the kernel contract of {@link dev.heed.attention.AttentionKernel}:
-   * float32 scores, a max-subtracted softmax with {@link FastExp} computed in one pass over each
-   * row's sources (a running maximum per head), sums in a fixed order (source order, then head); a
-   * row whose scores or weighted sums overflow float32 is recomputed in float64 with each score
-   * clamped to ±{@link Float#MAX_VALUE}; a target without sources gets zeros from attention. Cost
-   * O(Σ deg · H · d) over the m rows.
-   *
-   * @throws IllegalArgumentException if a kept projection the rows read holds NaN or an infinity
+   * {@link #forward} from kept projections: local row r reads row {@code rows[r]} of {@code table}
+   * (every node's {@link #project} output, row-major), for {@code pass.rowsIn} rows; {@code
+   * targetInput} holds the first {@code pass.rowsOut} input rows (for the residual). Same
+   * arithmetic as {@link #forward}.
    */
-  float[] forwardProjectedRows(
-      float[] table, int[] rows, int m, int[] offsets, int[] columns, float[] targetInput) {
+  float[] forwardProjected(float[] table, int[] rows, float[] targetInput, ForwardPass pass) {
+    int n = pass.rowsIn;
+    int m = pass.rowsOut;
     int hd = heads * headWidth;
-    RowAttention rowAttention = new RowAttention(table, rows, offsets, columns, new float[m * hd]);
-    for (int i = 0; i < m; i++) {
-      if (offsets[i] < offsets[i + 1] && !rowAttention.attendRow(i)) {
-        rowAttention.attendRowWide(i);
+    int width = projectionWidth();
+    float[] value = new float[n * hd];
+    float[] query;
+    float[] key;
+    if (gatv2) {
+      query = new float[n * hd];
+      for (int i = 0; i < n; i++) {
+        System.arraycopy(table, rows[i] * width, value, i * hd, hd);
+      }
+      for (int i = 0; i < m; i++) {
+        System.arraycopy(table, rows[i] * width + hd, query, i * hd, hd);
+      }
+      key = value;
+    } else {
+      key = new float[n * heads];
+      query = new float[n * heads];
+      for (int i = 0; i < n; i++) {
+        int at = rows[i] * width;
+        System.arraycopy(table, at, value, i * hd, hd);
+        System.arraycopy(table, at + hd, key, i * heads, heads);
+      }
+      for (int i = 0; i < m; i++) {
+        System.arraycopy(table, rows[i] * width + hd + heads, query, i * heads, heads);
       }
     }
-    return finishAttention(targetInput, rowAttention.attended, m);
+    return attendAndFinish(pass, query, key, value, targetInput);
   }
 
-  /**
-   * The state of one {@link #forwardProjectedRows} call: what it reads, its output and its scratch.
-   */
-  private final class RowAttention {
-    final float[] table;
-    final int[] rows;
-    final int[] offsets;
-    final int[] columns;
-    final float[] attended;
-    final float[] attention = gatv2 ? tensors.get(ATTENTION).values() : null;
-    final int hd = heads * headWidth;
-    final int width = projectionWidth();
-    final float[] weights = new float[heads * headWidth];
-    final float[] max = new float[heads];
-    final float[] sum = new float[heads];
-
-    RowAttention(float[] table, int[] rows, int[] offsets, int[] columns, float[] attended) {
-      this.table = table;
-      this.rows = rows;
-      this.offsets = offsets;
-      this.columns = columns;
-      this.attended = attended;
-    }
-
-    /**
-     * One target row in float32, in one pass over its sources (each source's kept projection is
-     * read once; the softmax keeps a running maximum per head and rescales the sums when it grows);
-     * false (output row not final) if anything overflowed.
-     */
-    boolean attendRow(int i) {
-      int start = offsets[i];
-      int end = offsets[i + 1];
-      int target = rows[i] * width;
-      int out = i * hd;
-      float slope = (float) leakyReluSlope;
-      Arrays.fill(max, Float.NEGATIVE_INFINITY);
-      Arrays.fill(sum, 0f);
-      for (int e = start; e < end; e++) {
-        int source = rows[columns[e]] * width;
-        for (int h = 0; h < heads; h++) {
-          float s;
-          if (gatv2) {
-            s = 0f;
-            int q = target + hd + h * headWidth;
-            int k = source + h * headWidth;
-            for (int c = 0; c < headWidth; c++) {
-              float x = table[q + c] + table[k + c];
-              s = Math.fma(attention[h * headWidth + c], x < 0f ? slope * x : x, s);
-            }
-          } else {
-            float x = table[target + hd + heads + h] + table[source + hd + h];
-            s = x < 0f ? slope * x : x;
-          }
-          if (!Float.isFinite(s)) {
-            return false;
-          }
-          int o = out + h * headWidth;
-          if (s > max[h]) {
-            float f = FastExp.expNonPositive(max[h] - s);
-            sum[h] *= f;
-            for (int c = 0; c < headWidth; c++) {
-              attended[o + c] *= f;
-            }
-            max[h] = s;
-          }
-          float p = FastExp.expNonPositive(s - max[h]);
-          sum[h] += p;
-          Arrays.fill(weights, h * headWidth, (h + 1) * headWidth, p);
-        }
-        for (int c = 0; c < hd; c++) {
-          attended[out + c] = Math.fma(weights[c], table[source + c], attended[out + c]);
-        }
-      }
-      for (int h = 0; h < heads; h++) {
-        float inv = 1f / sum[h];
-        int o = out + h * headWidth;
-        for (int c = 0; c < headWidth; c++) {
-          float y = attended[o + c] * inv;
-          if (!Float.isFinite(y)) {
-            return false;
-          }
-          attended[o + c] = y;
-        }
-      }
-      return true;
-    }
-
-    /**
-     * One target row in float64 with scores clamped to ±{@link Float#MAX_VALUE} (the kernel
-     * contract's overflow rule); rejects non-finite kept projections.
-     */
-    void attendRowWide(int i) {
-      int start = offsets[i];
-      int end = offsets[i + 1];
-      checkFinite(rows[i], i);
-      for (int e = start; e < end; e++) {
-        checkFinite(rows[columns[e]], columns[e]);
-      }
-      int target = rows[i] * width;
-      double slope = leakyReluSlope;
-      double[] scores = new double[end - start];
-      double[] acc = new double[headWidth];
-      for (int h = 0; h < heads; h++) {
-        double max = Double.NEGATIVE_INFINITY;
-        for (int e = start; e < end; e++) {
-          int source = rows[columns[e]] * width;
-          double s;
-          if (gatv2) {
-            s = 0;
-            int q = target + hd + h * headWidth;
-            int k = source + h * headWidth;
-            for (int c = 0; c < headWidth; c++) {
-              double x = (double) table[q + c] + table[k + c];
-              s += attention[h * headWidth + c] * (x < 0 ? slope * x : x);
-            }
-          } else {
-            double x = (double) table[target + hd + heads + h] + table[source + hd + h];
-            s = x < 0 ? slope * x : x;
-          }
-          s = Math.max(-Float.MAX_VALUE, Math.min(Float.MAX_VALUE, s));
-          scores[e - start] = s;
-          max = Math.max(max, s);
-        }
-        Arrays.fill(acc, 0);
-        double total = 0;
-        for (int e = start; e < end; e++) {
-          double p = Math.exp(scores[e - start] - max);
-          total += p;
-          int v = rows[columns[e]] * width + h * headWidth;
-          for (int c = 0; c < headWidth; c++) {
-            acc[c] += p * table[v + c];
-          }
-        }
-        int o = i * hd + h * headWidth;
-        for (int c = 0; c < headWidth; c++) {
-          attended[o + c] = (float) (acc[c] / total);
-        }
-      }
-    }
-
-    private void checkFinite(int row, int local) {
-      for (int c = 0; c < width; c++) {
-        float x = table[row * width + c];
-        if (!Float.isFinite(x)) {
-          throw new IllegalArgumentException(
-              "layer '"
-                  + name()
-                  + "': the kept projection of node row "
-                  + row
-                  + " (local row "
-                  + local
-                  + ") holds "
-                  + x
-                  + " at value "
-                  + c
-                  + "; the layer's input or weights overflow float32 there, so rescale the"
-                  + " features or the model");
-        }
-      }
-    }
+  /** Attends over the pass's pattern, then {@link #finishAttention}. */
+  private float[] attendAndFinish(
+      ForwardPass pass, float[] query, float[] key, float[] value, float[] input) {
+    HeadShape shape =
+        gatv2 ? new HeadShape(heads, headWidth, headWidth) : new HeadShape(heads, 1, headWidth);
+    float[] attended = pass.attend(this, pass.pattern, score, shape, query, key, value);
+    return finishAttention(input, attended, pass.rowsOut);
   }
 
   @Override

@@ -65,17 +65,26 @@ final class StepAccess extends ModelSteps {
       AttentionModel model,
       int from,
       int to,
+      AttentionPattern pattern,
+      int rowsIn,
       int rowsOut,
-      int[] offsets,
-      int[] columns,
       float[] table,
       int[] rows,
-      float[] targetInput) {
+      float[] targetInput,
+      PathChoice path) {
     List<Layer> layers = model.layers();
+    ForwardPass pass =
+        new ForwardPass(
+            pattern,
+            rowsIn,
+            path,
+            model.kernelSource(),
+            model.autoCosts(path),
+            model.kernelOptions().threads());
+    pass.rowsOut = rowsOut;
     float[] x =
-        ((GraphAttentionLayer) layers.get(from))
-            .forwardProjectedRows(table, rows, rowsOut, offsets, columns, targetInput);
-    ForwardPass pass = ForwardPass.perNode(rowsOut);
+        ((GraphAttentionLayer) layers.get(from)).forwardProjected(table, rows, targetInput, pass);
+    pass.rowsIn = rowsOut;
     for (int index = from + 1; index < to; index++) {
       x = layers.get(index).forward(x, pass);
     }

@@ -117,37 +117,32 @@ public abstract class ModelSteps {
   public abstract float[] project(AttentionModel model, int layer, float[] input, int rows);
 
   /**
-   * {@link #run} for a range whose first layer reads in-neighbours and has a projection, over the
-   * {@code rowsOut} recomputed rows only: that layer's output row i attends over the sources {@code
-   * columns[offsets[i] .. offsets[i+1])}, local ids whose kept projections are rows {@code
-   * rows[column]} of the caller's table, read in place; the input rows of the {@code rowsOut}
-   * targets feed its residual; the layers after it map the {@code rowsOut} rows. The attention runs
-   * row by row on the calling thread, with no square pattern, no gathered copies and no kernel
-   * worker threads, following the {@link dev.heed.attention.AttentionKernel} contract (float32
-   * scores, float64 recomputation with clamped scores for a row that overflows, fixed summation
-   * order, non-finite inputs rejected); it is the same on every path.
+   * {@link #run} for a range whose first layer reads in-neighbours and has a projection: that layer
+   * reads the kept projections of its {@code rowsIn} rows straight from the caller's table, and the
+   * input rows of the first {@code rowsOut} (for its residual), instead of projecting every input
+   * row; the layers after it map the {@code rowsOut} rows.
    *
    * @param model the model
    * @param from the attention layer, inclusive
    * @param to last layer, exclusive
+   * @param pattern square over {@code rowsIn}, rows past {@code rowsOut} empty
+   * @param rowsIn rows read
    * @param rowsOut rows computed
-   * @param offsets rowsOut + 1 row starts into {@code columns}, not modified
-   * @param columns each row's sources as local ids, not modified
    * @param table every node's projection, row-major (projectionWidth values each), not modified
-   * @param rows local id r is row {@code rows[r]} of the table (the targets are local ids {@code
-   *     0..rowsOut-1}), not modified
+   * @param rows local row r is row {@code rows[r]} of the table, for r in {@code 0..rowsIn-1}
    * @param targetInput rowsOut × the layer's input width, not modified
+   * @param path the attention path
    * @return a new rowsOut × the last layer's output width array
-   * @throws IllegalArgumentException if a kept projection read holds NaN or an infinity
    */
   public abstract float[] runProjected(
       AttentionModel model,
       int from,
       int to,
+      AttentionPattern pattern,
+      int rowsIn,
       int rowsOut,
-      int[] offsets,
-      int[] columns,
       float[] table,
       int[] rows,
-      float[] targetInput);
+      float[] targetInput,
+      PathChoice path);
 }
