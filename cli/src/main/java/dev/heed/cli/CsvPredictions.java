@@ -74,9 +74,15 @@ final class CsvPredictions implements PredictionWriter {
 
   /** Appends {@code label,probability,p_1,...,p_C} of a prediction, numbers with six decimals. */
   static void appendScores(StringBuilder line, NodePrediction p) {
-    line.append(TextFields.csv(p.label())).append(',').append(decimal(p.probability()));
-    for (float probability : p.probabilities()) {
-      line.append(',').append(decimal(probability));
+    appendScores(line, p.label(), p.probability(), p.probabilities());
+  }
+
+  /** Appends {@code label,probability,p_...} for a top label and every class probability. */
+  static void appendScores(
+      StringBuilder line, String label, float probability, float[] probabilities) {
+    line.append(TextFields.csv(label)).append(',').append(decimal(probability));
+    for (float each : probabilities) {
+      line.append(',').append(decimal(each));
     }
   }
 

@@ -86,11 +86,8 @@ final class DemoReplay {
               double time,
               dev.heed.live.LiveSnapshot<String> snapshot,
               int[] affected,
-              Classification scores) {
-            if (scores == null) {
-              return;
-            }
-            for (NodePrediction p : scores.predictions()) {
+              List<NodeScore> scores) {
+            for (NodeScore p : scores) {
               String id = snapshot.nodes().idOf(p.node());
               if (p.node() < startNodes) {
                 lastLabels[p.node()] = p.labelIndex();

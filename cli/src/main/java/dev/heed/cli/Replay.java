@@ -29,8 +29,9 @@ import java.util.Set;
 
 /**
  * The replay loop of {@code heed replay}: loads the starting graph into a {@link VersionedGraph},
- * scores every node once, then applies the stream batch by batch, asks {@link AffectedScores} for
- * the fresh scores of the nodes each batch affected, and writes those that changed enough.
+ * scores every node once, then applies the stream batch by batch, asks {@link AffectedScores} (an
+ * incremental scorer refreshed after each batch) for the fresh scores of the nodes each batch
+ * affected, and writes those that changed enough.
  *
  * <p>A node's score is written when its top label differs from the one last written for it (or held
  * at the start), or when some class probability moved by at least {@code minChange} since then;
@@ -61,16 +62,20 @@ final class Replay {
     /** The scores of every node of the starting graph, before the first batch. */
     void started(Classification start);
 
-    /** One batch applied and scored; {@code scores} is null when it affected no node. */
+    /** One batch applied and scored; {@code scores} is empty when it affected no node. */
     void batchDone(
         int batch,
         double time,
         LiveSnapshot<String> snapshot,
         int[] affected,
-        Classification scores);
+        List<NodeScore> scores);
   }
 
-  /** The figures of a finished replay. */
+  /**
+   * The figures of a finished replay; {@code affectedCounts} and {@code refreshedCounts} are the
+   * incremental scorer's per batch (every node when {@code incremental} is false: a model with full
+   * self-attention, scored whole on every snapshot).
+   */
   record Summary(
       int batches,
       int events,
@@ -78,6 +83,8 @@ final class Replay {
       long[] scoreNanos,
       long[] cpuNanos,
       int[] affectedCounts,
+      int[] refreshedCounts,
+      boolean incremental,
       long changesWritten,
       long labelChanges,
       List<String> transitions,
@@ -199,12 +206,13 @@ final class Replay {
     long[] scoreNanos = new long[ranges.size()];
     long[] cpuNanos = new long[ranges.size()];
     int[] affectedCounts = new int[ranges.size()];
+    int[] refreshedCounts = new int[ranges.size()];
     long written = 0;
     long labelChanges = 0;
     java.util.Map<String, Integer> transitions = new java.util.TreeMap<>();
     try (VersionedGraph<String> live = load(startNodes, startGraph, startFeatures, policies);
-        ProgressDisplay.Bar bar = progress.steps("replay", ranges.size(), " batches")) {
-      AffectedScores scorer = new AffectedScores(model, options, live.snapshot());
+        ProgressDisplay.Bar bar = progress.steps("replay", ranges.size(), " batches");
+        AffectedScores scorer = new AffectedScores(model, options, live)) {
       UpdateBatch<String> batch = live.newBatch();
       for (int b = 0; b < ranges.size(); b++) {
         int from = ranges.get(b)[0];
@@ -239,7 +247,8 @@ final class Replay {
         batchNanos[b] = scored - began;
         scoreNanos[b] = scored - applied;
         cpuNanos[b] = processCpuNanos() - cpuBegan;
-        affectedCounts[b] = fresh.affected().length;
+        affectedCounts[b] = fresh.refreshAffected();
+        refreshedCounts[b] = fresh.refreshed();
         double time = events.get(to - 1).time();
         int n = snapshot.nodeCount();
         if (n > reportedLabel.length) {
@@ -249,34 +258,30 @@ final class Replay {
           Arrays.fill(reportedLabel, old, grown, -1);
           reported = Arrays.copyOf(reported, grown * classes);
         }
-        if (fresh.scores() != null) {
-          for (NodePrediction p : fresh.scores().predictions()) {
-            int node = p.node();
-            int before = reportedLabel[node];
-            float[] now = p.probabilities();
-            boolean labelChanged = before != p.labelIndex();
-            if (!labelChanged && !movedBy(reported, node * classes, now, minChange)) {
-              continue;
-            }
-            writer.write(
-                new ScoreChangeWriter.Change(
-                    b + 1,
-                    result.version(),
-                    time,
-                    snapshot.nodes().idOf(node),
-                    before < 0 ? null : labels.get(before),
-                    p));
-            written++;
-            if (labelChanged) {
-              labelChanges++;
-              transitions.merge(
-                  (before < 0 ? "(new)" : labels.get(before)) + " -> " + p.label(),
-                  1,
-                  Integer::sum);
-            }
-            reportedLabel[node] = p.labelIndex();
-            System.arraycopy(now, 0, reported, node * classes, classes);
+        for (NodeScore p : fresh.scores()) {
+          int node = p.node();
+          int before = reportedLabel[node];
+          float[] now = p.probabilities();
+          boolean labelChanged = before != p.labelIndex();
+          if (!labelChanged && !movedBy(reported, node * classes, now, minChange)) {
+            continue;
           }
+          writer.write(
+              new ScoreChangeWriter.Change(
+                  b + 1,
+                  result.version(),
+                  time,
+                  snapshot.nodes().idOf(node),
+                  before < 0 ? null : labels.get(before),
+                  p));
+          written++;
+          if (labelChanged) {
+            labelChanges++;
+            transitions.merge(
+                (before < 0 ? "(new)" : labels.get(before)) + " -> " + p.label(), 1, Integer::sum);
+          }
+          reportedLabel[node] = p.labelIndex();
+          System.arraycopy(now, 0, reported, node * classes, classes);
         }
         if (listener != null) {
           listener.batchDone(b + 1, time, snapshot, fresh.affected(), fresh.scores());
@@ -292,6 +297,8 @@ final class Replay {
           scoreNanos,
           cpuNanos,
           affectedCounts,
+          refreshedCounts,
+          scorer.incremental(),
           written,
           labelChanges,
           lines,
@@ -400,6 +407,8 @@ final class Replay {
     Arrays.sort(cpu);
     int[] affected = s.affectedCounts().clone();
     Arrays.sort(affected);
+    int[] refreshed = s.refreshedCounts().clone();
+    Arrays.sort(refreshed);
     err.printf(
         Locale.ROOT,
         "heed replay: %,d events of %s in %,d batches (%s); now version %d: %,d nodes, %,d"
@@ -423,10 +432,18 @@ final class Replay {
           percentile(cpu, 0.5) / 1e6);
       err.printf(
           Locale.ROOT,
-          "  affected nodes per batch: median %,d, max %,d%n",
+          "  affected nodes per batch: median %,d, max %,d; refreshed: median %,d, max %,d%n",
           affected[affected.length / 2],
-          affected[affected.length - 1]);
+          affected[affected.length - 1],
+          refreshed[refreshed.length / 2],
+          refreshed[refreshed.length - 1]);
     }
+    err.println(
+        s.incremental()
+            ? "  scoring: incremental (every node's layer outputs kept, refreshed after each batch)"
+            : "  scoring: every node on every snapshot, by receptive field (the model has full"
+                + " self-attention, which incremental refresh refuses: every update changes every"
+                + " score)");
     err.printf(
         Locale.ROOT,
         "  score changes written: %,d, of which %,d changed the top label%s%n",

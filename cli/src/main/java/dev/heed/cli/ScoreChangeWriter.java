@@ -4,7 +4,6 @@ import com.fasterxml.jackson.core.JsonFactory;
 import com.fasterxml.jackson.core.JsonFactoryBuilder;
 import com.fasterxml.jackson.core.JsonGenerator;
 import com.fasterxml.jackson.core.StreamWriteFeature;
-import dev.heed.classify.NodePrediction;
 import java.io.IOException;
 import java.io.Writer;
 import java.util.List;
@@ -30,15 +29,10 @@ interface ScoreChangeWriter {
    * @param time the time of the batch's last event
    * @param node the node's id
    * @param oldLabel the label before, or null for a new node
-   * @param prediction the fresh prediction
+   * @param score the fresh score
    */
   record Change(
-      int batch,
-      long version,
-      double time,
-      String node,
-      String oldLabel,
-      NodePrediction prediction) {}
+      int batch, long version, double time, String node, String oldLabel, NodeScore score) {}
 
   /** Writes the header, if the format has one. */
   void begin(List<String> labels) throws IOException;
@@ -75,7 +69,7 @@ interface ScoreChangeWriter {
 
     @Override
     public void write(Change c) throws IOException {
-      NodePrediction p = c.prediction();
+      NodeScore p = c.score();
       line.setLength(0);
       line.append(c.batch())
           .append(',')
@@ -87,7 +81,7 @@ interface ScoreChangeWriter {
           .append(',')
           .append(c.oldLabel() == null ? "" : TextFields.csv(c.oldLabel()))
           .append(',');
-      CsvPredictions.appendScores(line, p);
+      CsvPredictions.appendScores(line, p.label(), p.probability(), p.probabilities());
       out.write(line.append('\n').toString());
     }
   }
@@ -117,7 +111,7 @@ interface ScoreChangeWriter {
 
     @Override
     public void write(Change c) throws IOException {
-      NodePrediction p = c.prediction();
+      NodeScore p = c.score();
       json.writeStartObject();
       json.writeNumberField("batch", c.batch());
       json.writeNumberField("version", c.version());

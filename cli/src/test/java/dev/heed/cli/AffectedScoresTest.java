@@ -2,12 +2,12 @@ package dev.heed.cli;
 
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.classify.Classification;
 import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
-import dev.heed.classify.NodePrediction;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
 import dev.heed.graph.GraphPolicies;
@@ -32,11 +32,12 @@ import org.junit.jupiter.api.Test;
 
 /**
  * The seam of {@code heed replay} is exact: after every batch of random changes, its scores for the
- * affected nodes equal a whole-graph pass over the new version, and every node outside the affected
- * set has the same whole-graph score as before the batch (which checks that the set misses
- * nothing). Graphs: random directed and symmetrised graphs, and Zachary's karate club (W. W.
- * Zachary, "An information flow model for conflict and fission in small groups", Journal of
- * Anthropological Research 33(4), 1977; structure from JGraphT's NamedGraphGenerator).
+ * affected nodes (from the incremental scorer, or from receptive-field scoring of every node for a
+ * model with full self-attention) equal a whole-graph pass over the new version, and every node
+ * outside the affected set has the same whole-graph score as before the batch (which checks that
+ * the set misses nothing). Graphs: random directed and symmetrised graphs, and Zachary's karate
+ * club (W. W. Zachary, "An information flow model for conflict and fission in small groups",
+ * Journal of Anthropological Research 33(4), 1977; structure from JGraphT's NamedGraphGenerator).
  */
 class AffectedScoresTest {
 
@@ -101,10 +102,13 @@ class AffectedScoresTest {
         batch.addEdge("n" + i, "n" + ((i + 1) % 20));
       }
       live.apply(batch);
-      AffectedScores seam = new AffectedScores(mixed, SPARSE, live.snapshot());
+      AffectedScores seam = new AffectedScores(mixed, SPARSE, live);
+      assertFalse(seam.incremental(), "the incremental scorer refuses full self-attention");
       BatchResult result = live.apply(live.newBatch().addEdge("n0", "n10"));
       AffectedScores.Refreshed fresh = seam.refresh(live.snapshot(), result);
       assertEquals(20, fresh.affected().length);
+      assertEquals(20, fresh.refreshAffected());
+      assertEquals(20, fresh.refreshed());
       assertClose(wholePass(mixed, live.snapshot()), fresh.scores(), fresh.affected(), "mixed");
       live.close();
     } finally {
@@ -124,7 +128,8 @@ class AffectedScoresTest {
       long modelSeed,
       int minPartial) {
     AttentionModel model = LiveFixtures.threeLayerModel(FEATURES, LABELS, modelSeed);
-    AffectedScores seam = new AffectedScores(model, SPARSE, live.snapshot());
+    AffectedScores seam = new AffectedScores(model, SPARSE, live);
+    assertTrue(seam.incremental(), "a model without full self-attention is scored incrementally");
     Classification before = wholePass(model, live.snapshot());
     int untouchedSeen = 0;
     int partial = 0;
@@ -136,6 +141,11 @@ class AffectedScoresTest {
       Classification after = wholePass(model, now);
       String where = "batch " + b + " (" + result + ")";
       assertClose(after, fresh.scores(), fresh.affected(), where);
+      assertEquals(
+          fresh.affected().length,
+          fresh.refreshAffected(),
+          where + ": the incremental scorer affected the same nodes");
+      assertEquals(fresh.refreshAffected(), fresh.refreshed(), where + ": nothing left pending");
       boolean[] affected = new boolean[now.nodeCount()];
       for (int node : fresh.affected()) {
         affected[node] = true;
@@ -158,6 +168,7 @@ class AffectedScoresTest {
     assertTrue(
         untouchedSeen > 0 && partial >= minPartial,
         "the affected sets left nodes out in " + partial + " of " + batches + " batches");
+    seam.close();
     live.close();
   }
 
@@ -242,12 +253,12 @@ class AffectedScoresTest {
   }
 
   private static void assertClose(
-      Classification whole, Classification seam, int[] affected, String where) {
+      Classification whole, List<NodeScore> seam, int[] affected, String where) {
     assertArrayEquals(
         affected,
-        seam.predictions().stream().mapToInt(NodePrediction::node).toArray(),
-        where + ": one prediction per affected node, in order");
-    for (NodePrediction p : seam.predictions()) {
+        seam.stream().mapToInt(NodeScore::node).toArray(),
+        where + ": one score per affected node, in order");
+    for (NodeScore p : seam) {
       assertProbabilities(
           whole.forNode(p.node()).probabilities(), p.probabilities(), where + ", node " + p.node());
     }

@@ -19,6 +19,7 @@ import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
+import java.util.Collection;
 import java.util.HashMap;
 import java.util.LinkedHashMap;
 import java.util.LinkedHashSet;
@@ -130,6 +131,54 @@ class ReplayCommandTest {
     return new CliProcess.Result(code, out.toString(), err.toString());
   }
 
+  /**
+   * Classifies a graph from scratch through {@code heed classify} (sparse path): its edge list and
+   * features are written to {@code dir}; returns each node's JSON line by node id.
+   */
+  static Map<String, JsonNode> classifyFromScratch(
+      Path dir,
+      Path model,
+      Collection<List<String>> finalEdges,
+      Map<String, float[]> finalFeatures,
+      List<String> featureNames)
+      throws IOException {
+    StringBuilder edges = new StringBuilder("source,target\n");
+    for (List<String> e : finalEdges) {
+      edges.append(e.get(0)).append(',').append(e.get(1)).append('\n');
+    }
+    StringBuilder x = new StringBuilder("id," + String.join(",", featureNames) + "\n");
+    for (Map.Entry<String, float[]> f : finalFeatures.entrySet()) {
+      x.append(f.getKey());
+      for (float v : f.getValue()) {
+        x.append(',').append(Float.toString(v));
+      }
+      x.append('\n');
+    }
+    Path finalGraph = Files.writeString(dir.resolve("final-edges.csv"), edges);
+    Path finalX = Files.writeString(dir.resolve("final-features.csv"), x);
+    Path scratch = dir.resolve("scratch.jsonl");
+    CliProcess.Result c =
+        heed(
+            "classify",
+            "--model",
+            model.toString(),
+            "--graph",
+            finalGraph.toString(),
+            "--features",
+            finalX.toString(),
+            "--path",
+            "sparse",
+            "--out",
+            scratch.toString());
+    assertEquals(0, c.exitCode(), c.toString());
+    Map<String, JsonNode> expected = new HashMap<>();
+    for (String line : Files.readAllLines(scratch, StandardCharsets.UTF_8)) {
+      JsonNode p = JSON.readTree(line);
+      expected.put(p.get("node").asText(), p);
+    }
+    return expected;
+  }
+
   private static String[] replayArgs(Path streamFile, String... more) {
     List<String> args =
         new ArrayList<>(
@@ -177,40 +226,8 @@ class ReplayCommandTest {
     assertTrue(added > 3, "the stream adds nodes: " + added);
 
     // From scratch: the final graph's edge list and features through heed classify.
-    StringBuilder edges = new StringBuilder("source,target\n");
-    for (List<String> e : finalEdges) {
-      edges.append(e.get(0)).append(',').append(e.get(1)).append('\n');
-    }
-    StringBuilder x = new StringBuilder("id," + String.join(",", FEATURES) + "\n");
-    for (Map.Entry<String, float[]> f : finalFeatures.entrySet()) {
-      x.append(f.getKey());
-      for (float v : f.getValue()) {
-        x.append(',').append(Float.toString(v));
-      }
-      x.append('\n');
-    }
-    Path finalGraph = Files.writeString(dir.resolve("final-edges.csv"), edges);
-    Path finalX = Files.writeString(dir.resolve("final-features.csv"), x);
-    Path scratch = dir.resolve("scratch.jsonl");
-    CliProcess.Result c =
-        heed(
-            "classify",
-            "--model",
-            model.toString(),
-            "--graph",
-            finalGraph.toString(),
-            "--features",
-            finalX.toString(),
-            "--path",
-            "sparse",
-            "--out",
-            scratch.toString());
-    assertEquals(0, c.exitCode(), c.toString());
-    Map<String, JsonNode> expected = new HashMap<>();
-    for (String line : Files.readAllLines(scratch, StandardCharsets.UTF_8)) {
-      JsonNode p = JSON.readTree(line);
-      expected.put(p.get("node").asText(), p);
-    }
+    Map<String, JsonNode> expected =
+        classifyFromScratch(dir, model, finalEdges, finalFeatures, FEATURES);
     assertFalse(last.isEmpty());
     for (Map.Entry<String, JsonNode> e : last.entrySet()) {
       JsonNode want = expected.get(e.getKey());

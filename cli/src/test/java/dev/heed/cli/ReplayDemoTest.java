@@ -59,6 +59,7 @@ class ReplayDemoTest {
             "--out",
             changes.toString());
     assertEquals(0, r.exitCode(), r.toString());
+    assertTrue(r.stderr().contains("scoring: incremental"), r.stderr());
 
     PaymentsNetwork network = PaymentsNetworkGenerator.bundledDemo().generate();
     PaymentsStream stream = PaymentsStream.generate(network, PaymentsStream.DEFAULT_SEED);

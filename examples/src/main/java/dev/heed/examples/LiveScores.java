@@ -1,49 +1,110 @@
 package dev.heed.examples;
 
-import dev.heed.classify.Classification;
 import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
+import dev.heed.classify.NodePrediction;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.GraphPolicies;
 import dev.heed.graph.IndexedGraph;
 import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.live.BatchResult;
+import dev.heed.live.IncrementalScorer;
+import dev.heed.live.LiveScore;
 import dev.heed.live.LiveSnapshot;
+import dev.heed.live.RefreshOptions;
+import dev.heed.live.RefreshReport;
+import dev.heed.live.ScoreState;
 import dev.heed.live.UpdateBatch;
 import dev.heed.live.VersionedGraph;
 import dev.heed.model.AttentionModel;
+import java.util.ArrayList;
 import java.util.Arrays;
+import java.util.List;
 
 /**
  * The one place {@link ScoringService} gets fresh scores after an update: given the new snapshot
- * and what the update changed, the exact scores of every node whose score may have changed. An
- * incremental scorer that keeps every node's layer outputs replaces this class and nothing else.
+ * and what the update changed, the scores of every node whose score may have changed, each exact
+ * for the new version or marked pending.
  *
- * <p>With L attention layers, a node's output reads the previous layer at itself and its
- * in-neighbours; so new features at a node reach the nodes up to L hops downstream of it (the nodes
- * that attend to it, and so on), and a changed row (an edge added or removed, a new node) reaches L
- * − 1 hops. Downstream is the reverse of the rows, kept here as lists of targets per source and
- * updated from the rows each update changed. The scores are receptive-field scores on the snapshot,
- * equal to a whole-graph pass to float rounding. A model attending over every node makes every node
- * affected.
+ * <p>The scores come from an {@link IncrementalScorer} that follows the live graph and keeps every
+ * node's layer outputs; it is refreshed after each update with no work budget, so it recomputes
+ * exactly what the update reached and leaves nothing pending. It reports counts, not nodes, so this
+ * class walks the same set to know whose scores to read: with L attention layers, a node's output
+ * reads the previous layer at itself and its in-neighbours; so new features at a node reach the
+ * nodes up to L hops downstream of it (the nodes that attend to it, and so on), and a changed row
+ * (an edge added or removed, a new node) reaches L − 1 hops. Downstream is the reverse of the rows,
+ * kept here as lists of targets per source and updated from the rows each update changed.
+ *
+ * <p>A model with full self-attention is refused by the scorer (every update changes every score);
+ * for it every node is scored again by receptive field on the snapshot (with explanations), equal
+ * to a whole-graph pass to float rounding.
  *
  * <p>Thread safety: not thread safe; the service calls it under its update lock.
  */
-final class LiveScores {
+final class LiveScores implements AutoCloseable {
 
-  private final NodeClassifier classifier;
+  /**
+   * One node's score after an update.
+   *
+   * @param node the node's index
+   * @param state fresh, or pending (the scorer has not recomputed it yet)
+   * @param labelIndex the top class; -1 when pending
+   * @param label the top class's label; null when pending
+   * @param probabilities every class's probability; empty when pending
+   * @param explained the classifier's prediction with explanations, or null when the score came
+   *     from the incremental scorer (which keeps no attention weights)
+   */
+  record Score(
+      int node,
+      ScoreState state,
+      int labelIndex,
+      String label,
+      float[] probabilities,
+      NodePrediction explained) {
+
+    /** A fresh score from the classifier, explanations included. */
+    static Score of(NodePrediction p) {
+      return new Score(p.node(), ScoreState.FRESH, p.labelIndex(), p.label(), p.probabilities(), p);
+    }
+
+    /** The probability of the top class. */
+    float probability() {
+      return probabilities[labelIndex];
+    }
+  }
+
+  private final NodeClassifier classifier; // null when incremental
+  private final IncrementalScorer<String> scorer; // null with full self-attention
   private final int hops;
-  private final boolean everyNode;
   private int[][] targets;
   private int[] targetCounts;
   private LiveSnapshot<String> seen;
 
-  LiveScores(AttentionModel model, ClassifyOptions options, LiveSnapshot<String> start) {
-    this.classifier = NodeClassifier.of(model, options);
+  /**
+   * Starts at the live graph's current version; the scorer follows the graph from there.
+   *
+   * @param model the model
+   * @param options classify options (path; explanations for the full self-attention path)
+   * @param live the live graph
+   */
+  LiveScores(AttentionModel model, ClassifyOptions options, VersionedGraph<String> live) {
     this.hops = (int) model.layers().stream().filter(l -> l.attentionHeads() > 0).count();
-    this.everyNode = model.needsEveryNode();
+    LiveSnapshot<String> start = live.snapshot();
     this.seen = start;
+    if (model.needsEveryNode()) {
+      this.classifier = NodeClassifier.of(model, options);
+      this.scorer = null;
+      return;
+    }
+    this.classifier = null;
+    this.scorer =
+        IncrementalScorer.create(
+            model,
+            live,
+            RefreshOptions.defaults()
+                .withPath(options.path())
+                .withWorkBudget(RefreshOptions.UNLIMITED));
     int n = start.nodeCount();
     targets = new int[n][];
     targetCounts = new int[n];
@@ -54,6 +115,11 @@ final class LiveScores {
         link(row[k], target);
       }
     }
+  }
+
+  /** Whether scores come from the incremental scorer (false with full self-attention). */
+  boolean incremental() {
+    return scorer != null;
   }
 
   /**
@@ -93,33 +159,62 @@ final class LiveScores {
   }
 
   /**
-   * Moves to {@code snapshot}, the version {@code batch} produced, and scores the nodes it may have
-   * changed.
+   * Moves to {@code snapshot}, the graph's latest version, which {@code batch} produced, and scores
+   * the nodes it may have changed.
    *
-   * @return their predictions in increasing node order, or null when none is affected
+   * @return their scores in increasing node order (empty when none is affected)
    */
-  Classification refresh(LiveSnapshot<String> snapshot, BatchResult batch) {
+  List<Score> refresh(LiveSnapshot<String> snapshot, BatchResult batch) {
     int n = snapshot.nodeCount();
+    List<Score> scores = new ArrayList<>();
+    if (scorer == null) {
+      seen = snapshot;
+      int[] every = new int[n];
+      Arrays.setAll(every, i -> i);
+      for (NodePrediction p :
+          classifier.classifyFromRows(snapshot, snapshot, every).predictions()) {
+        scores.add(Score.of(p));
+      }
+      return scores;
+    }
+    RefreshReport report = scorer.refresh();
+    if (report.version() != snapshot.version()) {
+      throw new IllegalStateException(
+          "the incremental scorer reflects version "
+              + report.version()
+              + ", the service's table version "
+              + snapshot.version());
+    }
     int[] changedRows = batch.changedRows();
     relink(snapshot, changedRows);
     boolean[] affected = new boolean[n];
-    if (everyNode) {
-      Arrays.fill(affected, true);
-    } else {
-      spread(batch.changedFeatures(), hops, affected);
-      spread(changedRows, Math.max(hops - 1, 0), affected);
-    }
-    int count = 0;
-    int[] nodes = new int[n];
+    spread(batch.changedFeatures(), hops, affected);
+    spread(changedRows, Math.max(hops - 1, 0), affected);
+    seen = snapshot;
     for (int node = 0; node < n; node++) {
       if (affected[node]) {
-        nodes[count++] = node;
+        LiveScore<String> s = scorer.score(snapshot.nodes().idOf(node));
+        scores.add(
+            s.isFresh()
+                ? new Score(
+                    node,
+                    ScoreState.FRESH,
+                    s.topClass(),
+                    s.topLabel().orElseThrow(),
+                    s.probabilities(),
+                    null)
+                : new Score(node, s.state(), -1, null, new float[0], null));
       }
     }
-    seen = snapshot;
-    return count == 0
-        ? null
-        : classifier.classifyFromRows(snapshot, snapshot, Arrays.copyOf(nodes, count));
+    return scores;
+  }
+
+  /** Stops the scorer following the graph. */
+  @Override
+  public void close() {
+    if (scorer != null) {
+      scorer.close();
+    }
   }
 
   /** Marks the seeds and every node up to {@code steps} hops downstream, level by level. */

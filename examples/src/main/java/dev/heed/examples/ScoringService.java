@@ -12,7 +12,6 @@ import dev.heed.classify.LayerExplanation;
 import dev.heed.classify.NeighbourWeight;
 import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
-import dev.heed.classify.NodePrediction;
 import dev.heed.demo.PaymentsNetwork;
 import dev.heed.demo.PaymentsNetworkGenerator;
 import dev.heed.graph.GraphPolicies;
@@ -20,6 +19,7 @@ import dev.heed.graph.IndexedGraph;
 import dev.heed.live.BatchResult;
 import dev.heed.live.LiveSnapshot;
 import dev.heed.live.RejectedUpdateException;
+import dev.heed.live.ScoreState;
 import dev.heed.live.UpdateBatch;
 import dev.heed.live.VersionedGraph;
 import dev.heed.model.AttentionModel;
@@ -35,6 +35,7 @@ import java.util.Arrays;
 import java.util.HashMap;
 import java.util.Iterator;
 import java.util.List;
+import java.util.Locale;
 import java.util.Map;
 import java.util.Objects;
 import java.util.Set;
@@ -64,7 +65,10 @@ import org.slf4j.LoggerFactory;
  *   <li>{@code GET /score?node=acct-000123&explain=3}: the account's label, its probability, every
  *       label's probability, the graph {@code version} they reflect, and with {@code explain=k} (0
  *       to {@value #MAX_EXPLAIN}, default 0) the k neighbours each attention layer attended to
- *       most, by account id. Served from the score table (see below).
+ *       most, by account id. Served from the score table (see below); an explanation of a score
+ *       refreshed since start-up is computed on request. A score the table does not hold yet for
+ *       its version is answered with {@code "state": "pending"} and no probabilities, never with an
+ *       older score.
  *   <li>{@code GET /score?node=acct-000123&explain=3&fresh=true}: the same, computed on request
  *       from the same version.
  *   <li>{@code POST /transfers} with a JSON body {@code {"accounts": [{"id": "acct-new",
@@ -72,7 +76,9 @@ import org.slf4j.LoggerFactory;
  *       "acct-new"}], "recalled": [{"source": ..., "target": ...}]}} (every key optional): adds the
  *       new accounts, then the transfers, then removes the recalled transfers' edges, all in one
  *       version, or none of it. The answer gives the new {@code version}, how many nodes changed
- *       and were rescored, and every account whose top label changed ({@code label_changes}).
+ *       and were rescored ({@code pending}: how many of those are not computed yet, 0 with the
+ *       unlimited refresh used here), and every account whose top label changed ({@code
+ *       label_changes}).
  *   <li>{@code GET /health}: {@code {"status":"ok","nodes":n,"version":v}}.
  * </ul>
  *
@@ -88,13 +94,16 @@ import org.slf4j.LoggerFactory;
  * <p><b>A score table, kept exact.</b> A graph attention model's answer for one node depends on its
  * neighbourhood. The service makes one forward pass at start-up (with explanations) and answers
  * from that table: each request costs a lookup and some JSON. The graph lives in a {@link
- * VersionedGraph}; an update is applied as one batch, and then the nodes it can have changed (the
- * changed nodes and those downstream of them, as many hops as the model has attention layers; see
- * {@code LiveScores}) are scored again over their receptive fields, and a new table (version,
- * snapshot, scores) is published in one step. So every answer is exact for the version it names,
- * and a reader never sees half an update. <b>On-demand</b> ({@code fresh=true}) runs the model for
- * that request on the table's version; {@link NodeClassifier} then computes only the node's
- * receptive field (its in-neighbourhood of as many hops as the model has attention layers).
+ * VersionedGraph}; an {@link dev.heed.live.IncrementalScorer} follows it, keeping every node's
+ * layer outputs. An update is applied as one batch, the scorer is refreshed (recomputing only the
+ * nodes the update reached: the changed nodes and those downstream of them, as many hops as the
+ * model has attention layers; see {@code LiveScores}), their new scores are read from it, and a new
+ * table (version, snapshot, scores) is published in one step. A model with full self-attention,
+ * which the scorer refuses, has every node scored again over its receptive field instead. So every
+ * answer is exact for the version it names, and a reader never sees half an update.
+ * <b>On-demand</b> ({@code fresh=true}) runs the model for that request on the table's version;
+ * {@link NodeClassifier} then computes only the node's receptive field (its in-neighbourhood of as
+ * many hops as the model has attention layers).
  *
  * <p><b>Concurrency.</b> The model, the classifier, the graph and the features are immutable and
  * thread safe; each classify call uses its own scratch. Updates are applied one at a time (a lock),
@@ -156,7 +165,7 @@ public final class ScoringService implements AutoCloseable {
    * What score queries read: one version of the graph and every node's scores for it, published
    * together.
    */
-  private record Table(LiveSnapshot<String> snapshot, NodePrediction[] predictions) {}
+  private record Table(LiveSnapshot<String> snapshot, LiveScores.Score[] scores) {}
 
   /** Element k explains by k neighbours (none for 0). */
   private final NodeClassifier[] onRequest;
@@ -263,9 +272,18 @@ public final class ScoringService implements AutoCloseable {
         graph.graph().nodeCount(),
         (System.nanoTime() - started) / 1_000_000);
     VersionedGraph<String> live = LiveScores.load(graph, features, policies);
-    LiveScores rescoring = new LiveScores(model, explained, live.snapshot());
+    LiveScores rescoring = new LiveScores(model, explained, live);
+    if (!rescoring.incremental()) {
+      LOG.info(
+          "the model has full self-attention, which incremental refresh refuses; every update"
+              + " scores every node again");
+    }
     Table table =
-        new Table(live.snapshot(), precomputed.predictions().toArray(new NodePrediction[0]));
+        new Table(
+            live.snapshot(),
+            precomputed.predictions().stream()
+                .map(LiveScores.Score::of)
+                .toArray(LiveScores.Score[]::new));
 
     ThreadPoolExecutor workers =
         new ThreadPoolExecutor(
@@ -281,6 +299,7 @@ public final class ScoringService implements AutoCloseable {
       server = HttpServer.create(new InetSocketAddress(InetAddress.getLoopbackAddress(), port), 0);
     } catch (IOException e) {
       workers.shutdown();
+      rescoring.close();
       live.close();
       throw e;
     }
@@ -336,6 +355,7 @@ public final class ScoringService implements AutoCloseable {
       workers.shutdownNow();
       Thread.currentThread().interrupt();
     }
+    rescoring.close();
     live.close();
     LOG.info("scoring service stopped");
   }
@@ -423,14 +443,27 @@ public final class ScoringService implements AutoCloseable {
     }
     int explain = parseExplain(query.get("explain"));
     boolean fresh = parseFresh(query.get("fresh"));
-    NodePrediction prediction =
-        fresh
-            ? onRequest[explain]
-                .classifyFromRows(now.snapshot(), now.snapshot(), node)
-                .predictions()
-                .get(0)
-            : now.predictions()[node];
-    return render(now, prediction, explain, fresh);
+    LiveScores.Score entry = now.scores()[node];
+    if (!fresh && entry.state() != ScoreState.FRESH) {
+      ObjectNode pending = JSON.createObjectNode();
+      pending.put("node", id);
+      pending.put("state", entry.state().name().toLowerCase(Locale.ROOT));
+      pending.put("version", now.snapshot().version());
+      pending.put(
+          "message", "the score of this version is not computed yet; ask again, or add fresh=true");
+      return pending;
+    }
+    // Scores refreshed by the incremental scorer carry no attention weights: explain on request.
+    boolean onRequestNow = fresh || (explain > 0 && entry.explained() == null);
+    LiveScores.Score score =
+        onRequestNow
+            ? LiveScores.Score.of(
+                onRequest[explain]
+                    .classifyFromRows(now.snapshot(), now.snapshot(), node)
+                    .predictions()
+                    .get(0))
+            : entry;
+    return render(now, score, explain, onRequestNow);
   }
 
   private static byte[] readBody(HttpExchange exchange) throws IOException, RequestProblem {
@@ -505,29 +538,34 @@ public final class ScoringService implements AutoCloseable {
         throw new RequestProblem(400, e.getMessage());
       }
       LiveSnapshot<String> snapshot = live.snapshot();
-      Classification fresh = rescoring.refresh(snapshot, result);
+      List<LiveScores.Score> fresh = rescoring.refresh(snapshot, result);
       Table before = table;
-      NodePrediction[] predictions = Arrays.copyOf(before.predictions(), snapshot.nodeCount());
+      LiveScores.Score[] scores = Arrays.copyOf(before.scores(), snapshot.nodeCount());
       ObjectNode answer = JSON.createObjectNode();
       answer.put("version", snapshot.version());
       answer.put("nodes", snapshot.nodeCount());
       answer.put("changed_nodes", result.changedNodeCount());
-      answer.put("rescored", fresh == null ? 0 : fresh.predictions().size());
+      answer.put("rescored", fresh.size());
+      int pending = 0;
       ArrayNode changes = answer.putArray("label_changes");
-      if (fresh != null) {
-        for (NodePrediction p : fresh.predictions()) {
-          NodePrediction old = predictions[p.node()];
-          if (old == null || old.labelIndex() != p.labelIndex()) {
-            ObjectNode change = changes.addObject();
-            change.put("node", snapshot.nodes().idOf(p.node()));
-            change.put("old_label", old == null ? null : old.label());
-            change.put("label", p.label());
-            change.put("probability", p.probability());
-          }
-          predictions[p.node()] = p;
+      for (LiveScores.Score p : fresh) {
+        LiveScores.Score old = scores[p.node()];
+        scores[p.node()] = p;
+        if (p.state() != ScoreState.FRESH) {
+          pending++;
+          continue;
+        }
+        boolean hadLabel = old != null && old.state() == ScoreState.FRESH;
+        if (!hadLabel || old.labelIndex() != p.labelIndex()) {
+          ObjectNode change = changes.addObject();
+          change.put("node", snapshot.nodes().idOf(p.node()));
+          change.put("old_label", hadLabel ? old.label() : null);
+          change.put("label", p.label());
+          change.put("probability", p.probability());
         }
       }
-      table = new Table(snapshot, predictions);
+      answer.put("pending", pending);
+      table = new Table(snapshot, scores);
       return answer;
     }
   }
@@ -558,9 +596,10 @@ public final class ScoringService implements AutoCloseable {
     return end < 0 ? m : m.substring(0, end);
   }
 
-  private ObjectNode render(Table now, NodePrediction p, int explain, boolean fresh) {
+  private ObjectNode render(Table now, LiveScores.Score p, int explain, boolean fresh) {
     ObjectNode out = JSON.createObjectNode();
     out.put("node", now.snapshot().nodes().idOf(p.node()));
+    out.put("state", "fresh");
     out.put("label", p.label());
     out.put("probability", p.probability());
     out.put("version", now.snapshot().version());
@@ -571,7 +610,7 @@ public final class ScoringService implements AutoCloseable {
     }
     if (explain > 0) {
       ArrayNode layers = out.putArray("explanation");
-      for (LayerExplanation layer : p.explanation().orElseThrow()) {
+      for (LayerExplanation layer : p.explained().explanation().orElseThrow()) {
         ObjectNode entry = layers.addObject();
         entry.put("layer", layer.layerName());
         ArrayNode neighbours = entry.putArray("neighbours");

@@ -183,6 +183,15 @@ class ScoringServiceUpdatesTest {
     JsonNode fresh = get("/score?node=acct-new&fresh=true");
     assertEquals("on-request", fresh.get("computed").asText());
     assertEquals(before + 1, fresh.get("version").asLong());
+    assertEquals(0, answer.get("pending").asInt(), "an unlimited refresh leaves nothing pending");
+    JsonNode table = get("/score?node=acct-new");
+    assertEquals("fresh", table.get("state").asText());
+    assertEquals("from-table", table.get("computed").asText());
+    // A refreshed score carries no attention weights: its explanation is computed on request.
+    JsonNode explained = get("/score?node=acct-new&explain=2");
+    assertEquals("on-request", explained.get("computed").asText());
+    assertEquals(before + 1, explained.get("version").asLong());
+    assertTrue(explained.get("explanation").size() > 0, explained.toString());
   }
 
   @ParameterizedTest
