@@ -35,9 +35,11 @@ import org.slf4j.LoggerFactory;
  *   <li>Scaled dot-product (Vaswani et al. 2017, eq. 1): {@code S = (1/√d)·Q_blk·K_hᵀ}, one BLAS
  *       gemm with the scale as its alpha.
  *   <li>Additive (GAT, Veličković et al. 2018, eq. 1 split into per-target and per-source terms):
- *       {@code S_ij = q_i + k_j} by broadcasting the row {@code k} and the column {@code q_blk}
- *       over the block (ND4J broadcast adds; measured about twice as fast here as a rank-2 gemm of
- *       {@code [q, 1]} by {@code [1, k]}ᵀ), then LeakyReLU in place. No n×n×d work.
+ *       {@code S_ij = LeakyReLU(q_i + k_j)}. Where the JVM reads the Vector API, formed row by row
+ *       inside the softmax pass below, so the scores never take a pass of their own over the block;
+ *       otherwise by broadcasting the row {@code k} and the column {@code q_blk} over the block
+ *       (ND4J broadcast adds; measured about twice as fast as a rank-2 gemm of {@code [q, 1]} by
+ *       {@code [1, k]}ᵀ), then LeakyReLU in place. No n×n×d work.
  *   <li>GATv2 (Brody et al. 2022): {@code S_ij = aᵀ LeakyReLU(q_i + k_j)} is inherently n×n×d and
  *       has no matrix-product form, so it is computed in Java loops (on up to {@code
  *       options.threads()} threads), one score row at a time: over the complete pattern along
@@ -45,7 +47,9 @@ import org.slf4j.LoggerFactory;
  *       Cost O(n²·H·keyDim) (complete) or O(E·H·keyDim) (mask) in Java, plus the ND4J steps.
  *   <li>A CSR pattern is a 0/1 mask: a bias block holding 0 for allowed and -∞ for other pairs is
  *       added after the score (and after LeakyReLU, so a slope of 0 never meets -∞), and softmax
- *       gives those pairs exactly 0. Rows with no allowed source get a zero output row.
+ *       gives those pairs exactly 0. Rows with no allowed source get a zero output row. On the
+ *       Vector API route the mask is a heap block added inside the softmax pass (no ND4J add per
+ *       head), so a masked call costs about what a complete-pattern call costs.
  *   <li>Softmax, where the JVM reads the Vector API ({@link RowSoftmaxes}): each score row of the
  *       block is copied to the heap, replaced by {@code exp(s - rowMax)} (common practice: the row
  *       maximum keeps every term in [0, 1]) and summed in Java, on up to {@code options.threads()}
@@ -282,9 +286,14 @@ final class DenseAttentionKernel implements AttentionKernel {
     private void compute() {
       boolean additive = score instanceof ScoreFunction.Additive;
       boolean gatv2 = score instanceof ScoreFunction.Gatv2;
+      // The Java route forms additive scores and adds the mask inside its softmax pass over each
+      // row (RowSoftmax), so neither costs a pass of its own over the score block.
+      boolean javaRoute = rowSoftmax != null;
+      boolean additiveInRows = additive && javaRoute;
+      float[][] keyRows = additiveInRows ? additiveKeyRows() : null;
       INDArray[] packedQuery = null;
       INDArray[] packedKey = null;
-      if (!gatv2) {
+      if (!gatv2 && !additiveInRows) {
         packedQuery = new INDArray[heads];
         packedKey = new INDArray[heads];
         for (int h = 0; h < heads; h++) {
@@ -313,7 +322,8 @@ final class DenseAttentionKernel implements AttentionKernel {
       int blockRows = plan.blockRows();
       INDArray scoreBlock = allocate(blockRows, n);
       FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
-      INDArray biasBlock = graph != null && !gatv2 ? allocate(blockRows, n) : null;
+      INDArray biasBlock = graph != null && !gatv2 && !javaRoute ? allocate(blockRows, n) : null;
+      float[] mask = graph != null && !gatv2 && javaRoute ? new float[blockRows * n] : null;
       FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
       INDArray outBlock = allocate(blockRows, valueWidth);
       FloatBuffer outBuffer = outBlock.data().asNioFloat();
@@ -333,10 +343,13 @@ final class DenseAttentionKernel implements AttentionKernel {
           bias = rows == blockRows ? biasBlock : leadingRows(biasBlock, rows);
           fillBias(first, rows, biasBuffer, row);
         }
+        if (mask != null) {
+          fillMask(first, rows, mask);
+        }
         for (int h = 0; h < heads; h++) {
           if (gatv2) {
             gatv2Scores((ScoreFunction.Gatv2) score, first, rows, h, scoreBuffer, workerRows);
-          } else {
+          } else if (!additiveInRows) {
             INDArray q =
                 packedQuery[h].get(NDArrayIndex.interval(first, first + rows), NDArrayIndex.all());
             if (additive) {
@@ -350,13 +363,17 @@ final class DenseAttentionKernel implements AttentionKernel {
               s.addi(bias);
             }
           }
-          if (rowSoftmax != null) {
+          if (javaRoute) {
+            int head = h;
+            int firstRow = first;
+            float[] headKeys = additiveInRows ? keyRows[h] : null;
             forRowRanges(
                 rows,
                 (long) rows * n,
                 scoreBuffer,
                 workerRows,
-                (from, to, buffer, rowBuffer) -> softmaxRows(from, to, buffer, rowBuffer, sums));
+                (from, to, buffer, rowBuffer) ->
+                    softmaxRows(from, to, buffer, rowBuffer, sums, firstRow, head, headKeys, mask));
           } else if (unshifted[h]) {
             Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
           } else {
@@ -400,15 +417,46 @@ final class DenseAttentionKernel implements AttentionKernel {
     }
 
     /**
-     * The Java route for rows {@code from..to-1} of the block: each score row is copied to the
-     * heap, replaced by {@code exp(s - rowMax)} and copied back; its sum goes to {@code sums}.
+     * The Java route for rows {@code from..to-1} of the block ({@code first} is the block's first
+     * target), head {@code h}: each row's scores (formed here from {@code headKeys} for additive
+     * scores, else copied from the block to the heap), plus the mask when there is one, are
+     * replaced by {@code exp(s - rowMax)} and written to the block; the sum goes to {@code sums}.
      */
-    private void softmaxRows(int from, int to, FloatBuffer scoreBuffer, float[] row, float[] sums) {
+    private void softmaxRows(
+        int from,
+        int to,
+        FloatBuffer scoreBuffer,
+        float[] row,
+        float[] sums,
+        int first,
+        int h,
+        float[] headKeys,
+        float[] mask) {
       for (int r = from; r < to; r++) {
-        scoreBuffer.get(r * n, row, 0, n);
-        sums[r] = rowSoftmax.exponentiateShifted(row, n);
+        if (headKeys != null) {
+          float slope = ((ScoreFunction.Additive) score).negativeSlope();
+          float q = query[(first + r) * heads + h];
+          sums[r] = rowSoftmax.exponentiateAdditive(q, headKeys, slope, mask, r * n, row, n);
+        } else {
+          scoreBuffer.get(r * n, row, 0, n);
+          sums[r] =
+              mask != null
+                  ? rowSoftmax.exponentiateShifted(row, mask, r * n, n)
+                  : rowSoftmax.exponentiateShifted(row, n);
+        }
         scoreBuffer.put(r * n, row, 0, n);
       }
+    }
+
+    /** The additive scores' source terms per head: {@code [H][n]}, source j at index j. */
+    private float[][] additiveKeyRows() {
+      float[][] rows = new float[heads][n];
+      for (int j = 0; j < n; j++) {
+        for (int h = 0; h < heads; h++) {
+          rows[h][j] = key[j * heads + h];
+        }
+      }
+      return rows;
     }
 
     /**
@@ -488,6 +536,22 @@ final class DenseAttentionKernel implements AttentionKernel {
           row[graph.column(e)] = 0f;
         }
         biasBuffer.put(r * n, row, 0, n);
+      }
+    }
+
+    /**
+     * The Java route's mask for rows first..first+rows-1, into {@code mask} (row r at r·n): 0 where
+     * allowed, -∞ elsewhere; 0 for empty rows.
+     */
+    private void fillMask(int first, int rows, float[] mask) {
+      for (int r = 0; r < rows; r++) {
+        int i = first + r;
+        int start = graph.rowStart(i);
+        int end = graph.rowEnd(i);
+        Arrays.fill(mask, r * n, r * n + n, start == end ? 0f : Float.NEGATIVE_INFINITY);
+        for (int e = start; e < end; e++) {
+          mask[r * n + graph.column(e)] = 0f;
+        }
       }
     }
 

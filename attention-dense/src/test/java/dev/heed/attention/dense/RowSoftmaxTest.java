@@ -86,4 +86,95 @@ class RowSoftmaxTest {
       }
     }
   }
+
+  @Test
+  void maskedRowsMatchFloat64WithTheMaskAdded() {
+    RowSoftmax softmax = vector();
+    Random random = new Random(0x3A5CL);
+    for (int length : LENGTHS) {
+      int offset = random.nextInt(5);
+      float[] row = new float[length];
+      float[] mask = new float[offset + length];
+      for (int x = 0; x < length; x++) {
+        row[x] = (float) ((2 * random.nextDouble() - 1) * 40);
+        mask[offset + x] = random.nextInt(3) == 0 ? Float.NEGATIVE_INFINITY : 0f;
+      }
+      int allowed = random.nextInt(length);
+      mask[offset + allowed] = 0f;
+      row[allowed] = -60f; // the largest score may be masked: the maximum is over allowed pairs
+      float[] input = row.clone();
+      float[] maskCopy = mask.clone();
+      float sum = softmax.exponentiateShifted(row, mask, offset, length);
+      double[] expected = new double[length];
+      double max = Double.NEGATIVE_INFINITY;
+      for (int x = 0; x < length; x++) {
+        expected[x] = (double) input[x] + mask[offset + x];
+        max = Math.max(max, expected[x]);
+      }
+      assertReference(softmax.describe() + " masked, length " + length, expected, max, row, sum);
+      assertTrue(java.util.Arrays.equals(maskCopy, mask), "the mask must not be modified");
+    }
+  }
+
+  @Test
+  void additiveRowsMatchFloat64LeakyReluScores() {
+    RowSoftmax softmax = vector();
+    Random random = new Random(0xADD1L);
+    for (int length : LENGTHS) {
+      for (boolean masked : new boolean[] {false, true}) {
+        float query = (float) random.nextGaussian() * 3;
+        float slope = 0.2f; // the GAT paper's LeakyReLU slope (Veličković et al. 2018)
+        float[] keys = new float[length];
+        float[] mask = masked ? new float[length] : null;
+        for (int x = 0; x < length; x++) {
+          keys[x] = (float) random.nextGaussian() * 3;
+          if (masked && random.nextInt(3) == 0) {
+            mask[x] = Float.NEGATIVE_INFINITY;
+          }
+        }
+        if (masked) {
+          mask[random.nextInt(length)] = 0f;
+        }
+        float[] keysCopy = keys.clone();
+        float[] row = new float[length];
+        float sum = softmax.exponentiateAdditive(query, keys, slope, mask, 0, row, length);
+        // Float64 reference: e = LeakyReLU(q + k) (GAT, Veličković et al. 2018, eq. 1), the sum
+        // rounded to float32 once as the kernel's inputs are, then the mask.
+        double[] expected = new double[length];
+        double max = Double.NEGATIVE_INFINITY;
+        for (int x = 0; x < length; x++) {
+          double z = query + keys[x]; // a float32 sum, widened
+          z = z < 0 ? z * slope : z;
+          expected[x] = z + (masked ? mask[x] : 0);
+          max = Math.max(max, expected[x]);
+        }
+        assertReference(
+            softmax.describe() + " additive, masked " + masked + ", length " + length,
+            expected,
+            max,
+            row,
+            sum);
+        assertTrue(java.util.Arrays.equals(keysCopy, keys), "the keys must not be modified");
+      }
+    }
+  }
+
+  private static void assertReference(
+      String where, double[] scores, double max, float[] row, float sum) {
+    double expectedSum = 0;
+    for (int x = 0; x < scores.length; x++) {
+      double expected = Math.exp(scores[x] - max);
+      expectedSum += expected;
+      if (scores[x] == Double.NEGATIVE_INFINITY) {
+        assertEquals(0f, row[x], where + ": a masked pair must get exactly 0");
+      } else {
+        // as above: a few ulp from FastExp, plus the float32 rounding of x - max
+        double shift = Math.abs(scores[x] - max);
+        assertEquals(expected, row[x], (4e-7 + shift * 6e-8) * expected + 2e-38, where + " @" + x);
+      }
+    }
+    assertTrue(
+        Math.abs(sum - expectedSum) <= 1e-6 * expectedSum,
+        where + ": sum " + sum + " against " + expectedSum);
+  }
 }

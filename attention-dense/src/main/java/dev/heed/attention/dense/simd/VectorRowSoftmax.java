@@ -70,6 +70,77 @@ public final class VectorRowSoftmax implements RowSoftmax {
     for (int x = vectorEnd; x < length; x++) {
       max = Math.max(max, row[x]);
     }
+    return exponentiateFrom(row, length, max);
+  }
+
+  @Override
+  public float exponentiateShifted(float[] row, float[] mask, int maskOffset, int length) {
+    int vectorEnd = length - length % LANES;
+    float max = Float.NEGATIVE_INFINITY;
+    if (vectorEnd > 0) {
+      FloatVector m = FloatVector.broadcast(SPECIES, Float.NEGATIVE_INFINITY);
+      for (int x = 0; x < vectorEnd; x += LANES) {
+        FloatVector z =
+            FloatVector.fromArray(SPECIES, row, x)
+                .add(FloatVector.fromArray(SPECIES, mask, maskOffset + x));
+        z.intoArray(row, x);
+        m = m.max(z);
+      }
+      max = m.reduceLanes(VectorOperators.MAX);
+    }
+    for (int x = vectorEnd; x < length; x++) {
+      float z = row[x] + mask[maskOffset + x];
+      row[x] = z;
+      max = Math.max(max, z);
+    }
+    return exponentiateFrom(row, length, max);
+  }
+
+  @Override
+  public float exponentiateAdditive(
+      float query,
+      float[] keys,
+      float negativeSlope,
+      float[] mask,
+      int maskOffset,
+      float[] row,
+      int length) {
+    int vectorEnd = length - length % LANES;
+    float max = Float.NEGATIVE_INFINITY;
+    if (vectorEnd > 0) {
+      FloatVector m = FloatVector.broadcast(SPECIES, Float.NEGATIVE_INFINITY);
+      if (mask == null) {
+        for (int x = 0; x < vectorEnd; x += LANES) {
+          FloatVector z = FloatVector.fromArray(SPECIES, keys, x).add(query);
+          z = z.max(z.mul(negativeSlope));
+          z.intoArray(row, x);
+          m = m.max(z);
+        }
+      } else {
+        for (int x = 0; x < vectorEnd; x += LANES) {
+          FloatVector z = FloatVector.fromArray(SPECIES, keys, x).add(query);
+          z = z.max(z.mul(negativeSlope)).add(FloatVector.fromArray(SPECIES, mask, maskOffset + x));
+          z.intoArray(row, x);
+          m = m.max(z);
+        }
+      }
+      max = m.reduceLanes(VectorOperators.MAX);
+    }
+    for (int x = vectorEnd; x < length; x++) {
+      float z = query + keys[x];
+      z = Math.max(z, z * negativeSlope);
+      if (mask != null) {
+        z += mask[maskOffset + x];
+      }
+      row[x] = z;
+      max = Math.max(max, z);
+    }
+    return exponentiateFrom(row, length, max);
+  }
+
+  /** Replaces {@code row[x]} by {@code exp(row[x] - max)} and returns the sum of the new values. */
+  private static float exponentiateFrom(float[] row, int length, float max) {
+    int vectorEnd = length - length % LANES;
     FloatVector acc = FloatVector.zero(SPECIES);
     for (int x = 0; x < vectorEnd; x += LANES) {
       FloatVector p = VectorExp.expNonPositive(FloatVector.fromArray(SPECIES, row, x).sub(max));
