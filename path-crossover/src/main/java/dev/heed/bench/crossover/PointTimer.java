@@ -53,9 +53,10 @@ public final class PointTimer {
   /**
    * Times several calls (the two paths of one sweep point) interleaved: warm-up calls alternate
    * between them until each is stable (or capped), then the timed calls alternate A, B, A, B, so
-   * that a burst of other work on the machine touches every call alike. Each call's samples then
-   * lose their outliers (above Q3 + 3 IQR) and, while their spread exceeds {@code
-   * policy.maxSpread()}, get up to {@code policy.extraRounds()} more batches.
+   * that a burst of other work on the machine touches every call alike. Each call's batch then
+   * loses its outliers (above Q3 + 3 IQR); while its spread exceeds {@code policy.maxSpread()}, the
+   * call gets a fresh batch, up to {@code policy.extraRounds()} more, and its statistics come from
+   * the batch with the least spread (all timed calls are counted in {@code repetitions()}).
    *
    * @param calls the calls (not null, at least one)
    * @param firstNanos each call's first call, already made (it counts as a warm-up call)
@@ -103,24 +104,37 @@ public final class PointTimer {
       List<Long> w = warm.get(c);
       reps[c] = repetitionsFor(w.get(w.size() - 1), policy);
     }
-    List<List<Double>> samples = new ArrayList<>();
-    for (int c = 0; c < k; c++) {
-      samples.add(new ArrayList<>());
-    }
-    timeRounds(calls, reps, samples);
-    int[] extra = new int[k];
+    // Each batch is judged on its own; a point whose batch spreads too widely gets a fresh batch,
+    // and the batch with the least spread is the one reported (interference only slows calls, so
+    // the tightest batch is the least disturbed one).
     double[][] kept = new double[k][];
+    double[] keptSpread = new double[k];
     int[] discarded = new int[k];
+    int[] timed = new int[k];
+    int[] extra = new int[k];
+    int[] batch = reps.clone();
     for (int round = 0; ; round++) {
+      List<List<Double>> samples = new ArrayList<>();
+      for (int c = 0; c < k; c++) {
+        samples.add(new ArrayList<>());
+      }
+      timeRounds(calls, batch, samples);
       int[] more = new int[k];
       boolean any = false;
       for (int c = 0; c < k; c++) {
+        if (batch[c] == 0) {
+          continue;
+        }
         double[] all = samples.get(c).stream().mapToDouble(Double::doubleValue).toArray();
-        kept[c] = withoutOutliers(all);
-        discarded[c] = all.length - kept[c].length;
-        double median = quantile(kept[c], 0.5);
-        double spread = (quantile(kept[c], 1) - quantile(kept[c], 0)) / median;
-        if (spread > policy.maxSpread() && round < policy.extraRounds()) {
+        timed[c] += all.length;
+        double[] tidy = withoutOutliers(all);
+        double spread = spread(tidy);
+        if (kept[c] == null || spread < keptSpread[c]) {
+          kept[c] = tidy;
+          keptSpread[c] = spread;
+          discarded[c] = all.length - tidy.length;
+        }
+        if (keptSpread[c] > policy.maxSpread() && round < policy.extraRounds()) {
           more[c] = reps[c];
           extra[c]++;
           any = true;
@@ -129,7 +143,7 @@ public final class PointTimer {
       if (!any) {
         break;
       }
-      timeRounds(calls, more, samples);
+      batch = more;
     }
     TimingResult[] results = new TimingResult[k];
     for (int c = 0; c < k; c++) {
@@ -143,7 +157,7 @@ public final class PointTimer {
               quantile(times, 0.25),
               quantile(times, 0.75),
               warm.get(c).size(),
-              samples.get(c).size(),
+              timed[c],
               stable[c],
               ci[0],
               ci[1],
@@ -151,6 +165,11 @@ public final class PointTimer {
               extra[c]);
     }
     return results;
+  }
+
+  /** {@code (max - min) / median} of {@code times}. */
+  private static double spread(double[] times) {
+    return (quantile(times, 1) - quantile(times, 0)) / quantile(times, 0.5);
   }
 
   private static int repetitionsFor(long lastWarmNanos, TimingPolicy policy) {

@@ -11,8 +11,8 @@ package dev.heed.bench.crossover;
  * {@code maxTimedSeconds}. Timed calls more than 3 interquartile ranges above the third quartile
  * are dropped (Tukey's far-out fence, common practice: a call that a garbage collection, a JIT
  * compilation or another process interrupted). If the kept calls still spread by more than {@code
- * maxSpread} of their median, another batch of repetitions is timed and pooled, up to {@code
- * extraRounds} times.
+ * maxSpread} of their median, a fresh batch of repetitions is timed, up to {@code extraRounds}
+ * times, and the batch with the least spread is reported.
  *
  * <p>Thread safety: immutable.
  *

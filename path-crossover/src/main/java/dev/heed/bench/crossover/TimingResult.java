@@ -1,7 +1,9 @@
 package dev.heed.bench.crossover;
 
 /**
- * The timings of one sweep point, in nanoseconds per call.
+ * The timings of one sweep point, in nanoseconds per call. The statistics describe the reported
+ * batch of timed calls (the one with the least spread when a point was timed again); {@code
+ * repetitions} counts every timed call.
  *
  * <p>Thread safety: immutable.
  *
@@ -15,7 +17,7 @@ package dev.heed.bench.crossover;
  * @param stable whether warm-up ended because the timings had settled (not on a cap)
  * @param ciLowNanos lower end of a 95 % confidence interval of the median (order statistics)
  * @param ciHighNanos upper end of that interval
- * @param discarded timed calls dropped as outliers (above Q3 + 3 IQR)
+ * @param discarded calls of the reported batch dropped as outliers (above Q3 + 3 IQR)
  * @param extraRounds extra batches of repetitions timed because the spread was high
  */
 public record TimingResult(
