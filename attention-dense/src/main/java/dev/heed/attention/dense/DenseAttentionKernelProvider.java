@@ -67,6 +67,7 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
   @Override
   public AttentionKernel create(KernelOptions options) {
     Objects.requireNonNull(options, "options");
+    ThreadSpinAdvice.sayOnce();
     return new DenseAttentionKernel(
         options,
         DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
