@@ -64,6 +64,11 @@ final class Admission {
     return turns::release;
   }
 
+  /** Requests that may wait for a turn. */
+  int waitingLimit() {
+    return waitingLimit;
+  }
+
   /** Requests waiting for a turn now. */
   int waiting() {
     return waiting.get();

@@ -91,10 +91,10 @@ import org.slf4j.LoggerFactory;
  * the wrong width or not finite: the update is refused whole and nothing changes), 404 for an
  * unknown account or path, 405 for another method, 408 for a request whose body has not arrived
  * {@value #READ_TIMEOUT_MILLIS} ms after its first byte (the connection is then closed), 413 for a
- * body over {@value #MAX_BODY_BYTES} bytes, and 503 with {@code Retry-After} when every turn to
- * compute is taken and {@value #QUEUE_CAPACITY} requests already wait for one. An unexpected
- * failure gives 500 with a generic message; the stack trace goes to the server's log, never to the
- * client.
+ * body over {@value #MAX_BODY_BYTES} bytes, and 503 with {@code Retry-After} when a request that
+ * needs a turn (an update, or a score computed on request) finds {@value #QUEUE_CAPACITY} requests
+ * already waiting for one. An unexpected failure gives 500 with a generic message; the stack trace
+ * goes to the server's log, never to the client.
  *
  * <h2>Design</h2>
  *
@@ -122,16 +122,26 @@ import org.slf4j.LoggerFactory;
  * <p><b>Limits.</b> Each request is read and answered on a connection thread (the JDK server's
  * executor). A request must arrive whole within {@value #READ_TIMEOUT_MILLIS} ms of its first byte
  * ({@code RequestDeadlines}): a slow or stalled client is answered 408 (body late) or has its
- * connection closed (headers late), so it holds a thread for that long at most. At most {@code
- * threads} requests compute at once and {@value #QUEUE_CAPACITY} wait for a turn ({@code
- * Admission}); beyond that a request gets 503 at once, never a growing queue. Connection threads
- * are bounded too ({@code threads +} {@value #QUEUE_CAPACITY} {@code +} {@value
- * #SLOW_CLIENT_THREADS}, for clients still sending); connections beyond them wait in a backlog of
- * {@value #CONNECTION_BACKLOG}, and past that the server closes them. A server's dispatcher thread
- * never runs a request itself: a slow client there would stop every other connection.
+ * connection closed (headers late), so it holds a thread for that long at most. A score read from
+ * the table is a lookup and is answered at once. Work that costs a model run waits for a turn
+ * ({@code Admission}): at most {@code threads} scores computed on request at once, and one update
+ * at a time, each with a line of at most {@value #QUEUE_CAPACITY} waiting; a request that finds its
+ * line full gets 503 at once, never a growing queue. Updates have a line of their own so that
+ * updates waiting for the one before them never hold the turns of queries. Connection threads are
+ * bounded too ({@code threads + 1 + 2 ·} {@value #QUEUE_CAPACITY} {@code +} {@value
+ * #SLOW_CLIENT_THREADS}: those computing and waiting, plus room for lookups and clients still
+ * sending); connections beyond them wait in a backlog of {@value #CONNECTION_BACKLOG}, and past
+ * that the server closes them. A server's dispatcher thread never runs a request itself: a slow
+ * client there would stop every other connection.
  *
  * <p><b>Network.</b> It listens on the loopback interface (127.0.0.1) only; put a real gateway with
- * authentication in front of anything that leaves the machine.
+ * authentication in front of anything that leaves the machine. The JDK's server leaves Nagle's
+ * algorithm on unless the system property {@code sun.net.httpserver.nodelay} is true; then a small
+ * answer written in two parts waits for the client's delayed acknowledgement (about 40 ms on
+ * Linux), which capped 8 clients at about 160 requests per second here, against about 2,000 with it
+ * on ({@code benchmarks/RESULTS.md}). So {@link #start} sets the property to true when it is not
+ * set; the JDK reads it once, when its first server in the JVM starts, so an application that
+ * starts another JDK server first should pass {@code -Dsun.net.httpserver.nodelay=true} itself.
  *
  * <pre>{@code
  * try (ScoringService service = ScoringService.start(model, graph, features, 0, 4)) {
@@ -164,7 +174,10 @@ public final class ScoringService implements AutoCloseable {
   /** Most explanation neighbours a request may ask for. */
   public static final int MAX_EXPLAIN = 5;
 
-  /** Requests that may wait for a turn to compute before the service answers 503. */
+  /**
+   * Requests that may wait for a turn (to score on request, or to update) before the service
+   * answers 503.
+   */
   public static final int QUEUE_CAPACITY = 64;
 
   /** Largest request body {@code POST /transfers} accepts, in bytes. */
@@ -185,6 +198,12 @@ public final class ScoringService implements AutoCloseable {
   /** Seconds {@link #close()} waits for requests in progress. */
   public static final int STOP_GRACE_SECONDS = 2;
 
+  /**
+   * The JDK server's switch for TCP_NODELAY on accepted connections (documented in the {@code
+   * jdk.httpserver} module), read once per JVM when its first server starts.
+   */
+  static final String NO_DELAY_PROPERTY = "sun.net.httpserver.nodelay";
+
   private static final Logger LOG = LoggerFactory.getLogger(ScoringService.class);
   private static final ObjectMapper JSON = new ObjectMapper();
   private static final Set<String> SCORE_PARAMETERS = Set.of("node", "explain", "fresh");
@@ -195,8 +214,8 @@ public final class ScoringService implements AutoCloseable {
   /**
    * The service's limits.
    *
-   * @param threads requests computing at once, at least 1
-   * @param waiting requests that may wait for a turn to compute, at least 0
+   * @param threads scores computed on request at once, at least 1
+   * @param waiting requests that may wait for a turn, per line (scoring, updates), at least 0
    * @param connectionThreads threads reading and answering requests, at least {@code threads}
    * @param readTimeoutMillis time a request may take to arrive, at least 1
    */
@@ -218,7 +237,7 @@ public final class ScoringService implements AutoCloseable {
       return new Limits(
           threads,
           QUEUE_CAPACITY,
-          threads < 1 ? threads : threads + QUEUE_CAPACITY + SLOW_CLIENT_THREADS,
+          threads < 1 ? threads : threads + 1 + 2 * QUEUE_CAPACITY + SLOW_CLIENT_THREADS,
           READ_TIMEOUT_MILLIS);
     }
   }
@@ -248,7 +267,8 @@ public final class ScoringService implements AutoCloseable {
   private final HttpServer server;
   private final ThreadPoolExecutor connections;
   private final RequestDeadlines deadlines;
-  private final Admission admission;
+  private final Admission computing;
+  private final Admission updating;
   private final AtomicBoolean closed = new AtomicBoolean();
 
   private ScoringService(
@@ -257,13 +277,14 @@ public final class ScoringService implements AutoCloseable {
       HttpServer server,
       ThreadPoolExecutor connections,
       RequestDeadlines deadlines,
-      Admission admission) {
+      Limits limits) {
     this.live = live;
     this.state = state;
     this.server = server;
     this.connections = connections;
     this.deadlines = deadlines;
-    this.admission = admission;
+    this.computing = new Admission(limits.threads(), limits.waiting());
+    this.updating = new Admission(1, limits.waiting());
   }
 
   /**
@@ -275,7 +296,7 @@ public final class ScoringService implements AutoCloseable {
    * @param graph the graph with the index from account ids to nodes, built with those policies
    * @param features one row per node, in node order
    * @param port the port, or 0 for any free port (see {@link #port()})
-   * @param threads requests computing at once, at least 1
+   * @param threads scores computed on request at once, at least 1
    * @return the running service
    * @throws IllegalArgumentException if the features do not fit the model or graph, or {@code
    *     threads} is below 1
@@ -307,7 +328,7 @@ public final class ScoringService implements AutoCloseable {
    * @param features one row per node, in node order
    * @param policies how {@code graph} was built from its edges
    * @param port the port, or 0 for any free port
-   * @param threads requests computing at once, at least 1
+   * @param threads scores computed on request at once, at least 1
    * @return the running service
    * @throws IllegalArgumentException if the features do not fit the model or graph, or {@code
    *     threads} is below 1
@@ -366,6 +387,9 @@ public final class ScoringService implements AutoCloseable {
             });
     connections.allowCoreThreadTimeOut(true);
     RequestDeadlines deadlines = new RequestDeadlines(limits.readTimeoutMillis());
+    if (System.getProperty(NO_DELAY_PROPERTY) == null) {
+      System.setProperty(NO_DELAY_PROPERTY, "true");
+    }
     HttpServer server;
     try {
       server = HttpServer.create(new InetSocketAddress(InetAddress.getLoopbackAddress(), port), 0);
@@ -377,13 +401,7 @@ public final class ScoringService implements AutoCloseable {
       throw e;
     }
     ScoringService service =
-        new ScoringService(
-            live,
-            state,
-            server,
-            connections,
-            deadlines,
-            new Admission(limits.threads(), limits.waiting()));
+        new ScoringService(live, state, server, connections, deadlines, limits);
     server.createContext("/", service::handle);
     server.setExecutor(deadlines.wrap(connections));
     server.start();
@@ -529,9 +547,14 @@ public final class ScoringService implements AutoCloseable {
     return state.modelVersion();
   }
 
-  /** The turns to compute (tests take turns to fill them). */
-  Admission admission() {
-    return admission;
+  /** The turns to score on request (tests take turns to fill them). */
+  Admission computing() {
+    return computing;
+  }
+
+  /** The turn to apply an update (tests take it to fill the line). */
+  Admission updating() {
+    return updating;
   }
 
   /**
@@ -645,22 +668,36 @@ public final class ScoringService implements AutoCloseable {
       health.put("model_version", now.modelVersion());
       return health;
     }
-    try (Admission.Turn turn = admission.enter()) {
-      if (turn == null) {
-        throw new RequestProblem(
-            503,
-            "the service is busy (every turn to compute is taken and "
-                + QUEUE_CAPACITY
-                + " requests at most may wait); try again in "
-                + RETRY_AFTER_SECONDS
-                + " s",
-            "Retry-After",
-            Integer.toString(RETRY_AFTER_SECONDS));
+    if (path.equals("/transfers")) {
+      // Updates run one at a time anyway; a line of its own keeps them from taking the turns of
+      // queries computed on request, and bounds how many may pile up.
+      Admission.Turn turn = enter(updating);
+      try {
+        return update(body);
+      } finally {
+        turn.close();
       }
-      return path.equals("/transfers")
-          ? update(body)
-          : score(parseQuery(exchange.getRequestURI().getRawQuery()));
     }
+    return score(parseQuery(exchange.getRequestURI().getRawQuery()));
+  }
+
+  /**
+   * Takes a turn of {@code line}, or refuses the request with 503 when its waiting line is full.
+   */
+  private static Admission.Turn enter(Admission line) throws RequestProblem {
+    Admission.Turn turn = line.enter();
+    if (turn == null) {
+      throw new RequestProblem(
+          503,
+          "the service is busy (every turn is taken and "
+              + line.waitingLimit()
+              + " requests wait); try again in "
+              + RETRY_AFTER_SECONDS
+              + " s",
+          "Retry-After",
+          Integer.toString(RETRY_AFTER_SECONDS));
+    }
+    return turn;
   }
 
   private ObjectNode score(Map<String, String> query) throws RequestProblem {
@@ -688,15 +725,21 @@ public final class ScoringService implements AutoCloseable {
     }
     // Scores refreshed by the incremental scorer carry no attention weights: explain on request.
     boolean onRequestNow = fresh || (explain > 0 && entry.explained() == null);
-    LiveScores.Score score =
-        onRequestNow
-            ? LiveScores.Score.of(
-                now.onRequest()[explain]
-                    .classifyFromRows(now.snapshot(), now.snapshot(), node)
-                    .predictions()
-                    .get(0))
-            : entry;
-    return render(now, score, explain, onRequestNow);
+    if (!onRequestNow) {
+      return render(now, entry, explain, false); // a lookup: no turn needed
+    }
+    Admission.Turn turn = enter(computing);
+    try {
+      LiveScores.Score score =
+          LiveScores.Score.of(
+              now.onRequest()[explain]
+                  .classifyFromRows(now.snapshot(), now.snapshot(), node)
+                  .predictions()
+                  .get(0));
+      return render(now, score, explain, true);
+    } finally {
+      turn.close();
+    }
   }
 
   /**

@@ -439,44 +439,56 @@ class ScoringServiceLoadTest {
     assertTrue(checked > REQUESTS_PER_LEVEL / 2, "most requests were good queries: " + checked);
   }
 
+  /**
+   * With the one turn to score on request held and two requests waiting for it, a third gets 503
+   * with Retry-After at once, and so does an update past its own full line; lookups and health are
+   * still answered; once the turns are given back, the waiting requests are answered.
+   */
   @Test
   void aFullServiceAnswers503WithRetryAfterAndRecovers() throws Exception {
-    try (ScoringService service = start(new ScoringService.Limits(1, 2, 8, 5000))) {
+    try (ScoringService service = start(new ScoringService.Limits(1, 2, 16, 5000))) {
       List<CompletableFuture<HttpResponse<String>>> waiting = new ArrayList<>();
-      try (Admission.Turn held = service.admission().enter()) {
-        assertNotNull(held, "the only turn was free");
+      String update =
+          "{\"transfers\": [{\"source\": \"acct-000001\", \"target\": \"acct-000002\"}]}";
+      try (Admission.Turn scoring = service.computing().enter();
+          Admission.Turn updating = service.updating().enter()) {
+        assertNotNull(scoring, "the only scoring turn was free");
+        assertNotNull(updating, "the update turn was free");
         for (int k = 0; k < 2; k++) {
-          waiting.add(
-              client.sendAsync(
-                  HttpRequest.newBuilder(service.uri("/score?node=acct-00000" + k))
-                      .timeout(REQUEST_TIMEOUT)
-                      .GET()
-                      .build(),
-                  HttpResponse.BodyHandlers.ofString()));
+          waiting.add(sendAsync(service, "/score?node=acct-00000" + k + "&fresh=true", null));
+          waiting.add(sendAsync(service, "/transfers", update));
         }
         long deadline = System.nanoTime() + TimeUnit.SECONDS.toNanos(20);
-        while (service.admission().waiting() < 2) {
-          assertTrue(System.nanoTime() < deadline, "two requests wait for the held turn");
+        while (service.computing().waiting() < 2 || service.updating().waiting() < 2) {
+          assertTrue(System.nanoTime() < deadline, "two requests wait in each line");
           Thread.sleep(5);
         }
-        HttpResponse<String> full = get(service, "/score?node=acct-000009");
-        assertError(full, 503, "the service is busy", "a third query");
+        HttpResponse<String> full = get(service, "/score?node=acct-000009&fresh=true");
+        assertError(full, 503, "the service is busy", "a third query on request");
         assertEquals("1", full.headers().firstValue("Retry-After").orElse(""));
-        HttpResponse<String> update =
-            post(
-                service,
-                "{\"transfers\": [{\"source\": \"acct-000001\", \"target\": \"acct-000002\"}]}");
-        assertError(update, 503, "try again in 1 s", "an update");
+        HttpResponse<String> refused = post(service, update);
+        assertError(refused, 503, "try again in 1 s", "a third update");
+        assertEquals("1", refused.headers().firstValue("Retry-After").orElse(""));
+        assertEquals(200, get(service, "/score?node=acct-000009").statusCode(), "a lookup");
         assertEquals(200, get(service, "/health").statusCode(), "health needs no turn");
         assertFalse(waiting.get(0).isDone(), "still waiting for the held turn");
+        assertEquals(1L, service.version(), "no update applied yet");
       }
       for (CompletableFuture<HttpResponse<String>> w : waiting) {
         HttpResponse<String> r = w.get(30, TimeUnit.SECONDS);
         assertEquals(200, r.statusCode(), r.body());
       }
-      assertEquals(200, get(service, "/score?node=acct-000009").statusCode());
-      assertEquals(1L, service.version(), "the refused update changed nothing");
+      assertEquals(3L, service.version(), "the two waiting updates, not the refused one");
     }
+  }
+
+  private static CompletableFuture<HttpResponse<String>> sendAsync(
+      ScoringService service, String pathAndQuery, String body) {
+    HttpRequest.Builder request =
+        HttpRequest.newBuilder(service.uri(pathAndQuery)).timeout(REQUEST_TIMEOUT);
+    request =
+        body == null ? request.GET() : request.POST(HttpRequest.BodyPublishers.ofString(body));
+    return client.sendAsync(request.build(), HttpResponse.BodyHandlers.ofString());
   }
 
   @Test
