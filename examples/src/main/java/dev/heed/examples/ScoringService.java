@@ -80,11 +80,11 @@ import org.slf4j.LoggerFactory;
  *       and were rescored ({@code pending}: how many of those are not computed yet, 0 with the
  *       unlimited refresh used here), and every account whose top label changed ({@code
  *       label_changes}).
- *   <li>{@code GET /health}: {@code {"status":"ok","nodes":n,"version":v}}.
+ *   <li>{@code GET /health}: {@code {"status":"ok","nodes":n,"version":v,"model_version":m}}.
  * </ul>
  *
- * Every answer names the graph {@code version} and the {@code model_version} (1 at start-up, one
- * more per {@link #reload}) it was computed from.
+ * Every answer that is not an error names the graph {@code version} and the {@code model_version}
+ * (1 at start-up, one more per {@link #reload}) it was computed from.
  *
  * <p>Errors are JSON too, {@code {"error":"..."}}: 400 for a missing or malformed parameter or body
  * (an unknown account, a recalled transfer that is not there, an account added twice, features of
