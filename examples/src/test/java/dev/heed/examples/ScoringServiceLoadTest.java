@@ -42,6 +42,7 @@ import java.util.concurrent.Callable;
 import java.util.concurrent.CompletableFuture;
 import java.util.concurrent.ConcurrentHashMap;
 import java.util.concurrent.ConcurrentLinkedQueue;
+import java.util.concurrent.CountDownLatch;
 import java.util.concurrent.ExecutorService;
 import java.util.concurrent.Executors;
 import java.util.concurrent.Future;
@@ -151,19 +152,21 @@ class ScoringServiceLoadTest {
       startVersion = service.version();
       ExecutorService pool = Executors.newFixedThreadPool(clients + SLOW_CLIENTS + 1);
       try {
-        // Slow clients first, so that they hold connection threads while the others run.
+        // Slow clients first, so that they hold connection threads while the others run; their
+        // deadlines start after this instant.
+        long slowStarted = System.nanoTime();
         List<Future<Long>> slow = new ArrayList<>();
         for (int s = 0; s < SLOW_CLIENTS; s++) {
           boolean body = s % 2 == 1;
           slow.add(pool.submit(() -> trickle(service, body)));
         }
-        long slowStarted = System.nanoTime();
+        CountDownLatch reloaded = new CountDownLatch(1);
         List<Callable<Void>> tasks = new ArrayList<>();
         for (int c = 0; c < clients; c++) {
           int id = c;
           tasks.add(
               () -> {
-                runClient(service, clients, id, perClient, updates, answers, done);
+                runClient(service, clients, id, perClient, updates, answers, done, reloaded);
                 return null;
               });
         }
@@ -174,6 +177,7 @@ class ScoringServiceLoadTest {
                 () -> {
                   reloadWhen(service, done, total / 3, second, models);
                   reloadWhen(service, done, 2 * total / 3, first, models);
+                  reloaded.countDown();
                   return null;
                 });
         List<Future<Void>> results = new ArrayList<>();
@@ -220,11 +224,17 @@ class ScoringServiceLoadTest {
       int requests,
       Map<Long, Update> updates,
       Queue<Answer> answers,
-      AtomicInteger done)
+      AtomicInteger done,
+      CountDownLatch reloaded)
       throws Exception {
     SplittableRandom random = new SplittableRandom(SEED * 31 + clients * 1000L + client);
     for (int r = 0; r < requests; r++) {
       String where = clients + " clients, client " + client + ", request " + r;
+      if (r == requests - 1) {
+        // The last request of each client after both reloads (which wait for two thirds of all
+        // requests, fewer than all but the last ones), so that answers come from both models.
+        assertTrue(reloaded.await(LEVEL_TIMEOUT_SECONDS, TimeUnit.SECONDS), "the reloads ran");
+      }
       double kind = random.nextDouble();
       if (r == 1 && client < 2) {
         HttpResponse<String> large =
