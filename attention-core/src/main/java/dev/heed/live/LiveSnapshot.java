@@ -6,6 +6,9 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.IndexedGraph;
 import dev.heed.graph.NeighbourRows;
 import dev.heed.graph.NodeIndex;
+import dev.heed.graph.SavedGraphFile;
+import java.io.IOException;
+import java.nio.file.Path;
 import java.util.Objects;
 
 /**
@@ -75,9 +78,11 @@ public final class LiveSnapshot<K> implements NeighbourRows, FeatureRows {
   }
 
   /**
-   * Returns this snapshot's version: 0 for the empty graph, then one more for every batch applied
-   * successfully. Compaction does not change the version (the graph it describes is the same), so
-   * two snapshots with the same version of one graph hold the same nodes, rows and features.
+   * Returns this snapshot's version: 0 for the empty graph (or, for a graph {@link
+   * VersionedGraph.Builder#restore restored} from a saved one, the saved version plus one), then
+   * one more for every batch applied successfully. Compaction does not change the version (the
+   * graph it describes is the same), so two snapshots with the same version of one graph hold the
+   * same nodes, rows and features.
    *
    * @return the version, at least 0
    */
@@ -242,6 +247,25 @@ public final class LiveSnapshot<K> implements NeighbourRows, FeatureRows {
     }
     return new CompactedSnapshot<>(
         version, Compaction.graphOf(this), Compaction.featuresOf(this), ids);
+  }
+
+  /**
+   * Saves this version (rows, ids, features and version) to {@code file} with {@link
+   * SavedGraphFile#write}: crash-safe (a temporary file renamed over the target), checked by
+   * CRC-32C when read. Restart with {@link SavedGraphFile#readStringIds} (or {@link
+   * SavedGraphFile#readLongIds}) and {@link VersionedGraph.Builder#restore}, built with this
+   * graph's policies (the file does not record them). Cost: {@link #compacted()}'s, then one
+   * sequential write; the live graph is not changed.
+   *
+   * @param file the file to write or replace; its folder must exist
+   * @throws IOException if writing fails (the file is then unchanged)
+   * @throws MissingFeaturesException if a node has no features yet (the file holds a row for every
+   *     node)
+   * @throws IllegalArgumentException if the ids are neither all {@code String} nor all {@code Long}
+   */
+  public void saveTo(Path file) throws IOException {
+    CompactedSnapshot<K> whole = compacted();
+    SavedGraphFile.write(file, whole.indexedGraph(), whole.features(), version);
   }
 
   /**

@@ -5,6 +5,10 @@ import dev.heed.graph.CsrGraph;
 import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
+import dev.heed.graph.IndexedGraph;
+import dev.heed.graph.NodeIndex;
+import dev.heed.graph.SavedGraph;
+import dev.heed.graph.SavedGraphFile;
 import dev.heed.graph.SelfLoopPolicy;
 import java.util.List;
 import java.util.Objects;
@@ -119,28 +123,51 @@ public final class VersionedGraph<K> implements AutoCloseable {
   private final Object compactionSignal = new Object();
   private boolean compactionRequested; // guarded by compactionSignal
 
-  private VersionedGraph(Builder builder) {
+  private VersionedGraph(Builder builder, SavedGraph<K> saved) {
     this.featureCount = builder.featureCount;
     this.selfLoops = builder.selfLoops;
     this.direction = builder.direction;
     this.duplicates = builder.duplicates;
     this.compactionFraction = builder.compactionFraction;
     this.compactionMinBytes = builder.compactionMinBytes;
-    this.current =
-        new LiveSnapshot<>(
-            0,
-            0,
-            0,
-            CsrGraph.of(new int[] {0}, new int[0]),
-            SlotTrie.EMPTY,
-            0,
-            0,
-            NodeFeatures.ofRowMajor(new float[0], 0, featureCount),
-            null,
-            SlotTrie.EMPTY,
-            0,
-            0,
-            idTable.view());
+    if (saved == null) {
+      this.current =
+          new LiveSnapshot<>(
+              0,
+              0,
+              0,
+              CsrGraph.of(new int[] {0}, new int[0]),
+              SlotTrie.EMPTY,
+              0,
+              0,
+              NodeFeatures.ofRowMajor(new float[0], 0, featureCount),
+              null,
+              SlotTrie.EMPTY,
+              0,
+              0,
+              idTable.view());
+    } else {
+      CsrGraph rows = saved.graph().graph();
+      NodeIndex<K> ids = saved.graph().nodes();
+      for (int node = 0; node < rows.nodeCount(); node++) {
+        idTable.append(ids.idOf(node));
+      }
+      this.current =
+          new LiveSnapshot<>(
+              saved.version() + 1,
+              rows.nodeCount(),
+              rows.edgeCount(),
+              rows,
+              SlotTrie.EMPTY,
+              0,
+              0,
+              saved.features(),
+              null,
+              SlotTrie.EMPTY,
+              0,
+              0,
+              idTable.view());
+    }
     if (builder.background) {
       compactor = new Thread(this::compactWhenAsked, "heed-live-graph-compaction");
       compactor.setDaemon(true);
@@ -602,7 +629,73 @@ public final class VersionedGraph<K> implements AutoCloseable {
      * @return the graph; {@link VersionedGraph#close() close} it when done
      */
     public <K> VersionedGraph<K> build() {
-      return new VersionedGraph<>(this);
+      return new VersionedGraph<>(this, null);
+    }
+
+    /**
+     * Creates a live graph that starts where a saved one left off: the same nodes by the same ids
+     * and indices, the same rows and the same features, as one compacted base (written by {@link
+     * LiveSnapshot#saveTo} or {@link SavedGraphFile#write}, read with {@link
+     * SavedGraphFile#readStringIds} or {@link SavedGraphFile#readLongIds}). Its first version is
+     * the saved version plus one, so versions keep increasing across a restart. Later batches
+     * follow this builder's policies, which must be those the saved rows were made with: the rows
+     * are checked against them (under {@link SelfLoopPolicy#ADD} every row must hold its self-loop;
+     * under {@link DirectionPolicy#SYMMETRISE} every entry must have its mirror).
+     *
+     * <p>The saved graph's arrays are used as they are, not copied. Cost: O(n) for the ids, plus
+     * O(E log d) for the symmetry check under {@code SYMMETRISE}.
+     *
+     * @param saved input, not modified: the rows, ids, features and version to start from
+     * @param <K> the type of the caller's node ids
+     * @return the graph; {@link VersionedGraph#close() close} it when done
+     * @throws IllegalArgumentException if the feature count differs from this builder's, or the
+     *     rows break this builder's policies (the message names the row and the policy)
+     */
+    public <K> VersionedGraph<K> restore(SavedGraph<K> saved) {
+      Objects.requireNonNull(saved, "saved");
+      if (saved.features().featureCount() != featureCount) {
+        throw new IllegalArgumentException(
+            "the saved graph has "
+                + saved.features().featureCount()
+                + " features per node, this builder "
+                + featureCount
+                + "; build with VersionedGraph.builder("
+                + saved.features().featureCount()
+                + ")");
+      }
+      checkPolicies(saved.graph());
+      return new VersionedGraph<>(this, saved);
+    }
+
+    private void checkPolicies(IndexedGraph<?> saved) {
+      CsrGraph rows = saved.graph();
+      for (int target = 0; target < rows.nodeCount(); target++) {
+        if (selfLoops == SelfLoopPolicy.ADD && rows.entryOf(target, target) < 0) {
+          throw new IllegalArgumentException(
+              "row of node "
+                  + saved.nodes().idOf(target)
+                  + " (index "
+                  + target
+                  + ") has no self-loop, but SelfLoopPolicy.ADD gives every node one; restore"
+                  + " with the policies the graph was saved with");
+        }
+        if (direction != DirectionPolicy.SYMMETRISE) {
+          continue;
+        }
+        for (int entry = rows.rowStart(target); entry < rows.rowEnd(target); entry++) {
+          int source = rows.column(entry);
+          if (rows.entryOf(source, target) < 0) {
+            throw new IllegalArgumentException(
+                "node "
+                    + saved.nodes().idOf(target)
+                    + " attends to "
+                    + saved.nodes().idOf(source)
+                    + " but not the reverse, so the rows are not symmetric as"
+                    + " DirectionPolicy.SYMMETRISE keeps them; restore with the policies the graph"
+                    + " was saved with");
+          }
+        }
+      }
     }
   }
 }

@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import dev.heed.attention.MemoryBudget;
 import dev.heed.classify.FeatureTable;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.graph.NodeIndex;
@@ -7,6 +8,7 @@ import java.io.IOException;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.ArrayList;
+import java.util.Arrays;
 import java.util.HashMap;
 import java.util.List;
 import java.util.Locale;
@@ -156,7 +158,7 @@ final class FeatureFiles {
   private static Read readText(
       Path file, char delimiter, Expected expected, ProgressDisplay.Bar bar) throws IOException {
     List<String> ids = new ArrayList<>();
-    List<float[]> rows = new ArrayList<>();
+    RowBuffer rows = new RowBuffer(file);
     Map<String, Long> lineOf = new HashMap<>();
     List<String> names = new ArrayList<>();
     int[] width = {expected.featureCount()};
@@ -216,16 +218,105 @@ final class FeatureFiles {
                     + earlier,
                 HeedCli.EXIT_USER_ERROR);
           }
+          parseRow(file, line, id, fields, rows.next(f), rows.count() * f);
           ids.add(id);
-          rows.add(parseRow(file, line, id, fields, f));
+          rows.added();
         });
-    if (rows.isEmpty()) {
+    if (rows.count() == 0) {
       throw new CliException(file + ": no feature rows in the file", HeedCli.EXIT_USER_ERROR);
     }
     return new Read(
-        FeatureTable.of(ids, NodeFeatures.of(rows.toArray(new float[0][]))),
-        List.copyOf(names),
-        "ids in its first column");
+        FeatureTable.of(ids, rows.finish()), List.copyOf(names), "ids in its first column");
+  }
+
+  /**
+   * The rows of a text features file as they are read: one row-major array grown by doubling, each
+   * growth checked against {@link MemoryBudget} first (with the ids read so far), so that a file
+   * too large for the heap fails with the bytes it needs and the limit instead of an {@link
+   * OutOfMemoryError}.
+   */
+  private static final class RowBuffer {
+    /**
+     * Heap an id holds while its rows are read: its {@code String}, the list slot and the entry of
+     * the id-to-line map (an estimate for a 64-bit JVM with compressed references, from memory).
+     */
+    static final long BYTES_PER_ID = 120;
+
+    private static final int FIRST_ROWS = 1024;
+
+    private final Path file;
+    private float[] values = new float[0];
+    private int count;
+    private int width;
+
+    RowBuffer(Path file) {
+      this.file = file;
+    }
+
+    /** The array to write the next row of {@code f} values into, at {@code count() * f}. */
+    float[] next(int f) {
+      width = f;
+      if ((long) (count + 1) * f > values.length) {
+        long rows = Math.max(FIRST_ROWS, 2L * count);
+        if (rows * f > Integer.MAX_VALUE - 8) {
+          rows = (Integer.MAX_VALUE - 8) / f;
+          if (rows <= count) {
+            throw new CliException(
+                file
+                    + ": more than "
+                    + count
+                    + " rows of "
+                    + f
+                    + " features, over the "
+                    + (Integer.MAX_VALUE - 8)
+                    + " values one feature matrix holds",
+                HeedCli.EXIT_USER_ERROR);
+          }
+        }
+        long bytes = 4 * rows * f + BYTES_PER_ID * rows;
+        String what =
+            "the features read from "
+                + file
+                + " (room for "
+                + rows
+                + " rows × "
+                + f
+                + " values and their ids)";
+        MemoryBudget.check(what, bytes);
+        try {
+          values = Arrays.copyOf(values, (int) (rows * f));
+        } catch (OutOfMemoryError e) {
+          throw MemoryBudget.exceeded(what, bytes);
+        }
+      }
+      return values;
+    }
+
+    /** Counts the row just written. */
+    void added() {
+      count++;
+    }
+
+    int count() {
+      return count;
+    }
+
+    /**
+     * The rows read, as node features: the rows trimmed to their count, then copied by {@link
+     * NodeFeatures#ofRowMajor}, both checked against the budget first.
+     */
+    NodeFeatures finish() {
+      MemoryBudget.check(
+          "the node features of "
+              + file
+              + " ("
+              + count
+              + " × "
+              + width
+              + ", and their trimmed rows)",
+          8L * count * width);
+      return NodeFeatures.ofRowMajor(Arrays.copyOf(values, count * width), count, width);
+    }
   }
 
   /** For a line read as one field: the usual delimiter it holds, as the option that reads it. */
@@ -266,8 +357,9 @@ final class FeatureFiles {
     }
   }
 
-  private static float[] parseRow(Path file, long line, String id, List<String> fields, int f) {
-    float[] row = new float[f];
+  private static void parseRow(
+      Path file, long line, String id, List<String> fields, float[] into, int offset) {
+    int f = fields.size() - 1;
     for (int c = 0; c < f; c++) {
       String v = fields.get(c + 1);
       float x;
@@ -290,9 +382,8 @@ final class FeatureFiles {
                 + "', not a finite number",
             HeedCli.EXIT_USER_ERROR);
       }
-      row[c] = x;
+      into[offset + c] = x;
     }
-    return row;
   }
 
   /** A header has a field after the id that is not a number. */
