@@ -27,8 +27,9 @@ abstract class PerHeadPass extends CsrPass {
   /**
    * Key and value rows of at least this many bytes together are loaded ahead (when the variant asks
    * for it); smaller ones mostly stay in the core's caches, where the loads ahead only cost.
-   * Measured with 64-float key and value rows, dot-product scores, 1 thread (busy machine): 0.9×
-   * the speed with loads ahead at 1 MiB, 0.95-0.98× at 8 MiB, 1.25-1.3× at 128 MiB.
+   * Measured with 64-float key and value rows, dot-product scores, 1 thread (busy machine), the
+   * speed with loads ahead against without: 0.88-0.92× at 1 MiB, 0.9-0.98× at 8 MiB, 1.26-1.31× at
+   * 128 MiB.
    */
   static final long MIN_LOAD_AHEAD_BYTES = 16L << 20;
 
