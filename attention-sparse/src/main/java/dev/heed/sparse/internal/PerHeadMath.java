@@ -31,6 +31,51 @@ public interface PerHeadMath {
   float dot(float[] a, int ao, float[] b, int bo, int length);
 
   /**
+   * Computes the scaled dot-product scores of a block of entries for every head, head-major: {@code
+   * s[h·stride + t] = scale · Σ_k q[qo + h·keyDim + k] · keys[rowBase[t] + h·keyDim + k]} over
+   * {@code k < keyDim}, for {@code h < heads} and {@code t < count}, in float32. Scoring many
+   * entries per call lets an implementation score several entries per vector operation instead of
+   * reducing the lanes of every entry on its own. The order of the additions is the
+   * implementation's, fixed for every entry (so a score depends only on its entry and the query).
+   *
+   * @param q input, not modified: the target's query row
+   * @param qo offset of the query row in {@code q}
+   * @param keys input, not modified: key rows of {@code heads · keyDim} floats
+   * @param rowBase input, not modified: the start of each entry's key row in {@code keys}
+   * @param count number of entries, at least 1
+   * @param heads number of heads, at least 1
+   * @param keyDim key width per head, at least 1
+   * @param scale the factor applied to each dot product
+   * @param s output: head h's scores at {@code h·stride}; floats past {@code count} in each head's
+   *     span of {@code stride} may be overwritten
+   * @param stride distance between heads in {@code s}: at least {@code count} and a multiple of 8
+   * @return true if every score is finite; false if one overflowed to infinity or NaN (the caller
+   *     recomputes those)
+   */
+  default boolean dotScores(
+      float[] q,
+      int qo,
+      float[] keys,
+      int[] rowBase,
+      int count,
+      int heads,
+      int keyDim,
+      float scale,
+      float[] s,
+      int stride) {
+    // one score at a time, each a dot
+    boolean finite = true;
+    for (int t = 0; t < count; t++) {
+      for (int h = 0, o = 0; h < heads; h++, o += keyDim) {
+        float e = dot(q, qo + o, keys, rowBase[t] + o, keyDim) * scale;
+        s[h * stride + t] = e;
+        finite &= Float.isFinite(e);
+      }
+    }
+    return finite;
+  }
+
+  /**
    * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
    * length} (Brody et al. 2022), in float32.
    *
@@ -97,6 +142,35 @@ public interface PerHeadMath {
       float[] acc,
       int accOffset,
       int length);
+
+  /**
+   * For every head of one block of entries, adds the weighted value rows into the accumulator:
+   * {@link #weightedRowSum} for each head h, with head h's weights at {@code w[h·stride]}, value
+   * offset and accumulator offset {@code h·valueDim}; the same sums in the same order. Taking all
+   * heads in one call lets an implementation keep more independent accumulators in flight.
+   *
+   * @param w input, not modified: head h's unnormalised weights at {@code h·stride}
+   * @param stride distance between heads in {@code w}
+   * @param rowBase input, not modified: the start of each entry's value row in {@code value}
+   * @param count number of entries, at least 1
+   * @param heads number of heads, at least 1
+   * @param valueDim value width per head, at least 1
+   * @param value input, not modified: value rows of {@code heads · valueDim} floats
+   * @param acc input and output: the accumulator row, {@code heads · valueDim} floats from 0
+   */
+  default void weightedRowSums(
+      float[] w,
+      int stride,
+      int[] rowBase,
+      int count,
+      int heads,
+      int valueDim,
+      float[] value,
+      float[] acc) {
+    for (int h = 0, o = 0; h < heads; h++, o += valueDim) {
+      weightedRowSum(w, h * stride, rowBase, count, o, value, acc, o, valueDim);
+    }
+  }
 
   /**
    * Copies {@code count} rows of {@code width} floats from a table into consecutive rows of {@code

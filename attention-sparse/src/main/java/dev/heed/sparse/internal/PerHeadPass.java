@@ -5,27 +5,48 @@ import dev.heed.attention.internal.FastExp;
 
 /**
  * The per-head path of the CSR kernel: any score function and head shape, over a CSR graph or the
- * complete pattern. Each block's scores are computed head-major into the scratch, and each head's
- * weighted sum reads the block's value rows once per head ({@link PerHeadMath}). One subclass per
- * score function, chosen once per call by {@link #of}.
+ * complete pattern. Each block's scores are computed head-major into the scratch, and the block's
+ * weighted value rows are added for all heads in one call ({@link PerHeadMath#weightedRowSums}).
+ * One subclass per score function, chosen once per call by {@link #of}.
  *
- * <p>Over a CSR graph, the block's key rows are gathered into scratch first, one vector load and
- * store per row, so that many cache misses are in flight before the scores need them (R-MAT 1M
- * nodes, 8 × 8 dot and GATv2 scores: 1.5–1.8× faster than reading them in the scoring loop). Over
- * the complete pattern they are consecutive rows already and are read in place (n = 4096, 8 × 64
- * dot: copying them made it 1.25× slower). For 64-float key and value rows (8 heads × 8 dims), the
- * next row's first block is loaded ahead before the current row is computed (1.2–1.4× on R-MAT 1M
- * nodes).
+ * <p>Dot-product scores are computed for the whole block at once ({@link PerHeadMath#dotScores}:
+ * the vector form scores eight entries per vector operation), reading key rows in place, which
+ * itself keeps eight rows' loads in flight: copying them into scratch first was slower (n = 2048,
+ * 10 % density, 4 × 16: 1.35×; 262,144 nodes of 16 sources: 1.05×, busy machine). For additive and
+ * GATv2 scores over a CSR graph, the block's key rows are gathered into scratch first, one vector
+ * load and store per row, so that many cache misses are in flight before the scores need them
+ * (R-MAT 1M nodes, 8 × 8 GATv2 scores: 1.5–1.8× faster than reading them in the scoring loop). For
+ * 64-float key and value rows (8 heads × 8 dims, 4 × 16) of a large graph ({@link
+ * #MIN_LOAD_AHEAD_BYTES}), the next row's first block is loaded ahead before the current row is
+ * computed (1.2–1.4× on R-MAT 1M nodes).
  *
  * <p>Thread safety: as {@link CsrPass}.
  */
 abstract class PerHeadPass extends CsrPass {
 
+  /**
+   * Key and value rows of at least this many bytes together are loaded ahead (when the variant asks
+   * for it); smaller ones mostly stay in the core's caches, where the loads ahead only cost.
+   * Measured with 64-float key and value rows, dot-product scores, 1 thread (busy machine), the
+   * speed with loads ahead against without: 0.88-0.92× at 1 MiB, 0.9-0.98× at 8 MiB, 1.26-1.31× at
+   * 128 MiB.
+   */
+  static final long MIN_LOAD_AHEAD_BYTES = 16L << 20;
+
   final PerHeadMath math;
+
+  /** Whether the next row's first block is loaded ahead (64-float rows of a large CSR graph). */
+  private final boolean loadAhead;
 
   private PerHeadPass(CsrCall call, PerHeadMath math, boolean prefetch) {
     super(call, prefetch);
     this.math = math;
+    this.loadAhead =
+        prefetch
+            && csr != null
+            && valueWidth == 64
+            && keyWidth == 64
+            && (long) n * (keyWidth + valueWidth) * Float.BYTES >= MIN_LOAD_AHEAD_BYTES;
   }
 
   /**
@@ -50,7 +71,7 @@ abstract class PerHeadPass extends CsrPass {
 
   @Override
   final void rows(int from, int to, Scratch sc) {
-    if (prefetch && csr != null && valueWidth == 64 && keyWidth == 64) {
+    if (loadAhead) {
       for (int i = from; i < to; i++) {
         if (i + 1 < to) {
           sc.prefetchSink += prefetchWide(csr.rowStart(i + 1), csr.rowEnd(i + 1));
@@ -128,10 +149,7 @@ abstract class PerHeadPass extends CsrPass {
       for (int t = 0; t < count; t++) {
         rowBase[t] = columns[t] * valueWidth;
       }
-      for (int h = 0; h < heads; h++) {
-        math.weightedRowSum(
-            s, h * BLOCK, rowBase, count, h * valueDim, value, acc, h * valueDim, valueDim);
-      }
+      math.weightedRowSums(s, BLOCK, rowBase, count, heads, valueDim, value, acc);
     }
     finishRow(i, degree, firstEntry, sc);
   }
@@ -230,16 +248,18 @@ abstract class PerHeadPass extends CsrPass {
     @Override
     void scoreBlock(int i, int[] columns, int count, Scratch sc) {
       float[] s = sc.scores;
-      int qb = i * keyWidth;
-      boolean gather = csr != null;
-      float[] keys = gather ? gatherKeys(columns, count, sc) : key;
+      int[] rowBase = sc.rowBase;
       for (int t = 0; t < count; t++) {
-        int j = columns[t];
-        int kb = gather ? t * keyWidth : j * keyWidth;
-        for (int h = 0; h < heads; h++) {
-          int o = h * keyDim;
-          float e = math.dot(query, qb + o, keys, kb + o, keyDim) * scale;
-          s[h * BLOCK + t] = Float.isFinite(e) ? e : exactScore(i, j, h);
+        rowBase[t] = columns[t] * keyWidth;
+      }
+      if (!math.dotScores(
+          query, i * keyWidth, key, rowBase, count, heads, keyDim, scale, s, BLOCK)) {
+        for (int t = 0; t < count; t++) {
+          for (int h = 0; h < heads; h++) {
+            if (!Float.isFinite(s[h * BLOCK + t])) {
+              s[h * BLOCK + t] = exactScore(i, columns[t], h);
+            }
+          }
         }
       }
     }

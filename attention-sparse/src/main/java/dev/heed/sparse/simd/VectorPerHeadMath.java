@@ -4,6 +4,7 @@ import dev.heed.attention.internal.FastExp;
 import dev.heed.attention.simd.VectorExp;
 import dev.heed.sparse.internal.PerHeadMath;
 import jdk.incubator.vector.FloatVector;
+import jdk.incubator.vector.VectorMask;
 import jdk.incubator.vector.VectorOperators;
 import jdk.incubator.vector.VectorShuffle;
 import jdk.incubator.vector.VectorSpecies;
@@ -37,6 +38,15 @@ final class VectorPerHeadMath implements PerHeadMath {
       VectorShuffle.fromOp(WIDE, i -> WIDE_LANES >= 8 ? i ^ 4 : i);
   private static final VectorShuffle<Float> XOR2 = VectorShuffle.fromOp(WIDE, i -> i ^ 2);
   private static final VectorShuffle<Float> XOR1 = VectorShuffle.fromOp(WIDE, i -> i ^ 1);
+
+  // Lanes whose index has bit 0, 1 or 2 set: which input of a pair each lane of a transposing sum
+  // keeps (see dotScores).
+  private static final VectorMask<Float> BIT0 = VectorMask.fromLong(WIDE, 0xAAL);
+  private static final VectorMask<Float> BIT1 = VectorMask.fromLong(WIDE, 0xCCL);
+  private static final VectorMask<Float> BIT2 = VectorMask.fromLong(WIDE, 0xF0L);
+
+  /** Entries scored together by {@link #dotScores}: one per lane, 8 (256-bit vectors) or none. */
+  private static final int GROUP = WIDE_LANES == 8 ? 8 : 0;
 
   VectorPerHeadMath() {}
 
@@ -96,6 +106,180 @@ final class VectorPerHeadMath implements PerHeadMath {
       s = Math.fma(att[ao + k], Math.max(z, z * negativeSlope), s);
     }
     return s;
+  }
+
+  /**
+   * Scores entries eight at a time, one per lane: each entry's products with the query are summed
+   * over the head's key chunks (a multiply, then fused multiply-adds in chunk order), and the eight
+   * product vectors are then added lane-wise while being transposed, so that lane t of the result
+   * is entry t's score. Each step of that transposing sum keeps, for a pair of vectors, alternate
+   * lanes (blends with a constant mask) and adds the other vector's neighbouring lanes (one lane
+   * permutation): 14 blends, 7 permutations and 7 adds for eight scores, instead of 3 permutations,
+   * 3 adds and a lane extraction for each score. Every lane is summed in the same fixed tree, ((l0
+   * + l1) + (l2 + l3)) + ((l4 + l5) + (l6 + l7)), so a score depends only on its entry and the
+   * query. The remaining entries of a block (fewer than eight) take the last entry's key row in
+   * their unused lanes. Without 8-lane vectors, or for key widths per head that are not a multiple
+   * of 8, each score is a {@link #dot} (the interface's form).
+   */
+  @Override
+  public boolean dotScores(
+      float[] q,
+      int qo,
+      float[] keys,
+      int[] rowBase,
+      int count,
+      int heads,
+      int keyDim,
+      float scale,
+      float[] s,
+      int stride) {
+    if (GROUP == 0 || keyDim % WIDE_LANES != 0) {
+      return PerHeadMath.super.dotScores(
+          q, qo, keys, rowBase, count, heads, keyDim, scale, s, stride);
+    }
+    boolean finite = true;
+    int last = count - 1;
+    for (int t = 0; t < count; t += GROUP) {
+      int r0 = rowBase[t];
+      int r1 = rowBase[Math.min(t + 1, last)];
+      int r2 = rowBase[Math.min(t + 2, last)];
+      int r3 = rowBase[Math.min(t + 3, last)];
+      int r4 = rowBase[Math.min(t + 4, last)];
+      int r5 = rowBase[Math.min(t + 5, last)];
+      int r6 = rowBase[Math.min(t + 6, last)];
+      int r7 = rowBase[Math.min(t + 7, last)];
+      for (int h = 0, o = 0; h < heads; h++, o += keyDim) {
+        FloatVector qv = FloatVector.fromArray(WIDE, q, qo + o);
+        FloatVector p0 = FloatVector.fromArray(WIDE, keys, r0 + o).mul(qv);
+        FloatVector p1 = FloatVector.fromArray(WIDE, keys, r1 + o).mul(qv);
+        FloatVector p2 = FloatVector.fromArray(WIDE, keys, r2 + o).mul(qv);
+        FloatVector p3 = FloatVector.fromArray(WIDE, keys, r3 + o).mul(qv);
+        FloatVector p4 = FloatVector.fromArray(WIDE, keys, r4 + o).mul(qv);
+        FloatVector p5 = FloatVector.fromArray(WIDE, keys, r5 + o).mul(qv);
+        FloatVector p6 = FloatVector.fromArray(WIDE, keys, r6 + o).mul(qv);
+        FloatVector p7 = FloatVector.fromArray(WIDE, keys, r7 + o).mul(qv);
+        for (int k = WIDE_LANES; k < keyDim; k += WIDE_LANES) {
+          int x = o + k;
+          qv = FloatVector.fromArray(WIDE, q, qo + x);
+          p0 = FloatVector.fromArray(WIDE, keys, r0 + x).fma(qv, p0);
+          p1 = FloatVector.fromArray(WIDE, keys, r1 + x).fma(qv, p1);
+          p2 = FloatVector.fromArray(WIDE, keys, r2 + x).fma(qv, p2);
+          p3 = FloatVector.fromArray(WIDE, keys, r3 + x).fma(qv, p3);
+          p4 = FloatVector.fromArray(WIDE, keys, r4 + x).fma(qv, p4);
+          p5 = FloatVector.fromArray(WIDE, keys, r5 + x).fma(qv, p5);
+          p6 = FloatVector.fromArray(WIDE, keys, r6 + x).fma(qv, p6);
+          p7 = FloatVector.fromArray(WIDE, keys, r7 + x).fma(qv, p7);
+        }
+        // the transposing sum, written out (see the class comment): pairs of lanes, then pairs of
+        // pairs, then halves; lane t ends up holding entry t's sum
+        FloatVector a01 = p0.blend(p1, BIT0).add(p1.blend(p0, BIT0).rearrange(XOR1));
+        FloatVector a23 = p2.blend(p3, BIT0).add(p3.blend(p2, BIT0).rearrange(XOR1));
+        FloatVector a45 = p4.blend(p5, BIT0).add(p5.blend(p4, BIT0).rearrange(XOR1));
+        FloatVector a67 = p6.blend(p7, BIT0).add(p7.blend(p6, BIT0).rearrange(XOR1));
+        FloatVector b03 = a01.blend(a23, BIT1).add(a23.blend(a01, BIT1).rearrange(XOR2));
+        FloatVector b47 = a45.blend(a67, BIT1).add(a67.blend(a45, BIT1).rearrange(XOR2));
+        FloatVector e = b03.blend(b47, BIT2).add(b47.blend(b03, BIT2).rearrange(XOR4)).mul(scale);
+        e.intoArray(s, h * stride + t);
+        // e - e is 0 for a finite score, NaN for an infinite or NaN one
+        finite &= e.sub(e).compare(VectorOperators.EQ, 0f).allTrue();
+      }
+    }
+    return finite;
+  }
+
+  /**
+   * Keeps eight accumulator vectors in registers across the block where the value width allows:
+   * eight independent chains of fused multiply-adds, where one head's loop of {@link
+   * #weightedRowSum} has one or two (each waits for the previous add of its chain). The sums are
+   * the same, in the same order.
+   */
+  @Override
+  public void weightedRowSums(
+      float[] w,
+      int stride,
+      int[] rowBase,
+      int count,
+      int heads,
+      int valueDim,
+      float[] value,
+      float[] acc) {
+    int width = heads * valueDim;
+    if (valueDim % WIDE_LANES != 0) {
+      PerHeadMath.super.weightedRowSums(w, stride, rowBase, count, heads, valueDim, value, acc);
+      return;
+    }
+    int x = 0;
+    for (; x <= width - 8 * WIDE_LANES; x += 8 * WIDE_LANES) {
+      int x1 = x + WIDE_LANES;
+      int x2 = x1 + WIDE_LANES;
+      int x3 = x2 + WIDE_LANES;
+      int x4 = x3 + WIDE_LANES;
+      int x5 = x4 + WIDE_LANES;
+      int x6 = x5 + WIDE_LANES;
+      int x7 = x6 + WIDE_LANES;
+      // each vector's head: its weights start at head * stride
+      int w0 = x / valueDim * stride;
+      int w1 = x1 / valueDim * stride;
+      int w2 = x2 / valueDim * stride;
+      int w3 = x3 / valueDim * stride;
+      int w4 = x4 / valueDim * stride;
+      int w5 = x5 / valueDim * stride;
+      int w6 = x6 / valueDim * stride;
+      int w7 = x7 / valueDim * stride;
+      FloatVector a0 = FloatVector.fromArray(WIDE, acc, x);
+      FloatVector a1 = FloatVector.fromArray(WIDE, acc, x1);
+      FloatVector a2 = FloatVector.fromArray(WIDE, acc, x2);
+      FloatVector a3 = FloatVector.fromArray(WIDE, acc, x3);
+      FloatVector a4 = FloatVector.fromArray(WIDE, acc, x4);
+      FloatVector a5 = FloatVector.fromArray(WIDE, acc, x5);
+      FloatVector a6 = FloatVector.fromArray(WIDE, acc, x6);
+      FloatVector a7 = FloatVector.fromArray(WIDE, acc, x7);
+      for (int t = 0; t < count; t++) {
+        int r = rowBase[t];
+        a0 =
+            FloatVector.fromArray(WIDE, value, r + x)
+                .fma(FloatVector.broadcast(WIDE, w[w0 + t]), a0);
+        a1 =
+            FloatVector.fromArray(WIDE, value, r + x1)
+                .fma(FloatVector.broadcast(WIDE, w[w1 + t]), a1);
+        a2 =
+            FloatVector.fromArray(WIDE, value, r + x2)
+                .fma(FloatVector.broadcast(WIDE, w[w2 + t]), a2);
+        a3 =
+            FloatVector.fromArray(WIDE, value, r + x3)
+                .fma(FloatVector.broadcast(WIDE, w[w3 + t]), a3);
+        a4 =
+            FloatVector.fromArray(WIDE, value, r + x4)
+                .fma(FloatVector.broadcast(WIDE, w[w4 + t]), a4);
+        a5 =
+            FloatVector.fromArray(WIDE, value, r + x5)
+                .fma(FloatVector.broadcast(WIDE, w[w5 + t]), a5);
+        a6 =
+            FloatVector.fromArray(WIDE, value, r + x6)
+                .fma(FloatVector.broadcast(WIDE, w[w6 + t]), a6);
+        a7 =
+            FloatVector.fromArray(WIDE, value, r + x7)
+                .fma(FloatVector.broadcast(WIDE, w[w7 + t]), a7);
+      }
+      a0.intoArray(acc, x);
+      a1.intoArray(acc, x1);
+      a2.intoArray(acc, x2);
+      a3.intoArray(acc, x3);
+      a4.intoArray(acc, x4);
+      a5.intoArray(acc, x5);
+      a6.intoArray(acc, x6);
+      a7.intoArray(acc, x7);
+    }
+    for (; x < width; x += WIDE_LANES) {
+      int wo = x / valueDim * stride;
+      FloatVector a = FloatVector.fromArray(WIDE, acc, x);
+      for (int t = 0; t < count; t++) {
+        a =
+            FloatVector.fromArray(WIDE, value, rowBase[t] + x)
+                .fma(FloatVector.broadcast(WIDE, w[wo + t]), a);
+      }
+      a.intoArray(acc, x);
+    }
   }
 
   @Override

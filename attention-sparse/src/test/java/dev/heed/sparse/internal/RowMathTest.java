@@ -63,6 +63,118 @@ class RowMathTest {
   }
 
   @Test
+  void blockDotScoresMatchFloat64ForEveryHeadAndEntry() {
+    Random random = new Random(0x0A14L);
+    int stride = CsrPass.BLOCK;
+    for (RowMath math : implementations()) {
+      // key widths per head crossing the vector width; block sizes crossing the 8-entry groups
+      for (int keyDim : new int[] {1, 3, 8, 16, 17, 24, 64}) {
+        for (int count : new int[] {1, 5, 7, 8, 9, 15, 16, 23, 128}) {
+          int heads = 1 + random.nextInt(4);
+          int width = heads * keyDim;
+          int tableRows = 41;
+          float[] keys = uniform(random, tableRows * width, -1f, 1f);
+          float[] before = keys.clone();
+          int qo = random.nextInt(3);
+          float[] q = uniform(random, qo + width, -1f, 1f);
+          int[] rowBase = new int[CsrPass.BLOCK];
+          Arrays.fill(rowBase, -1_000_000); // entries past count must not be read
+          for (int t = 0; t < count; t++) {
+            rowBase[t] = random.nextInt(tableRows) * width;
+          }
+          rowBase[count - 1] = (tableRows - 1) * width; // the table's last row
+          float scale = 0.25f;
+          float[] s = new float[(CsrPass.BLOCK + 1) * heads];
+          String where = math.name() + ", keyDim " + keyDim + ", count " + count;
+          assertTrue(
+              math.perHead()
+                  .dotScores(q, qo, keys, rowBase, count, heads, keyDim, scale, s, stride),
+              where + ": finite scores reported as not finite");
+          for (int h = 0; h < heads; h++) {
+            for (int t = 0; t < count; t++) {
+              double dot = 0;
+              double magnitude = 0;
+              for (int k = 0; k < keyDim; k++) {
+                double p = (double) q[qo + h * keyDim + k] * keys[rowBase[t] + h * keyDim + k];
+                dot += p;
+                magnitude += Math.abs(p);
+              }
+              // Vaswani et al. 2017, eq. 1: the scaled dot product
+              assertEquals(
+                  scale * dot,
+                  s[h * stride + t],
+                  scale * sumTolerance(keyDim, magnitude),
+                  where + ", head " + h + ", entry " + t);
+            }
+          }
+          assertTrue(Arrays.equals(before, keys), where + ": modified the keys");
+        }
+      }
+    }
+  }
+
+  @Test
+  void blockDotScoresReportAnOverflow() {
+    for (RowMath math : implementations()) {
+      for (int count : new int[] {1, 8, 13}) {
+        int keyDim = 16;
+        float[] keys = new float[count * keyDim];
+        float[] q = new float[keyDim];
+        Arrays.fill(keys, 1e20f);
+        Arrays.fill(q, 1e20f); // each product 1e40: past Float.MAX_VALUE
+        int[] rowBase = new int[count];
+        for (int t = 0; t < count; t++) {
+          rowBase[t] = t * keyDim;
+        }
+        float[] s = new float[CsrPass.BLOCK];
+        assertTrue(
+            !math.perHead().dotScores(q, 0, keys, rowBase, count, 1, keyDim, 1f, s, CsrPass.BLOCK),
+            math.name() + ", count " + count + ": an infinite score reported as finite");
+      }
+    }
+  }
+
+  @Test
+  void weightedRowSumsMatchOneHeadAtATimeBitForBit() {
+    Random random = new Random(0x0A15L);
+    int stride = CsrPass.BLOCK;
+    for (RowMath math : implementations()) {
+      for (int valueDim : new int[] {1, 3, 8, 16, 24, 64}) {
+        for (int heads : new int[] {1, 2, 3, 4, 8}) {
+          int width = heads * valueDim;
+          int count = 1 + random.nextInt(40);
+          int tableRows = 23;
+          float[] value = uniform(random, tableRows * width, -1f, 1f);
+          int[] rowBase = new int[count];
+          for (int t = 0; t < count; t++) {
+            rowBase[t] = random.nextInt(tableRows) * width;
+          }
+          float[] w = uniform(random, heads * stride, 0f, 1f);
+          float[] acc = uniform(random, width, -1f, 1f);
+          float[] expected = acc.clone();
+          for (int h = 0; h < heads; h++) {
+            math.perHead()
+                .weightedRowSum(
+                    w,
+                    h * stride,
+                    rowBase,
+                    count,
+                    h * valueDim,
+                    value,
+                    expected,
+                    h * valueDim,
+                    valueDim);
+          }
+          math.perHead().weightedRowSums(w, stride, rowBase, count, heads, valueDim, value, acc);
+          assertTrue(
+              Arrays.equals(expected, acc),
+              math.name() + ", " + heads + " heads of " + valueDim + ": not the per-head sums");
+        }
+      }
+    }
+  }
+
+  @Test
   void gatherRowsCopiesEachRequestedRowAndNothingElse() {
     Random random = new Random(0x0A13L);
     for (RowMath math : implementations()) {
