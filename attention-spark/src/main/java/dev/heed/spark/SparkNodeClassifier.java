@@ -308,8 +308,12 @@ public final class SparkNodeClassifier {
         JavaSparkContext.fromSparkContext(spark.sparkContext()).broadcast(modelBytes);
     List<Dataset<?>> held = new ArrayList<>();
 
+    // The graph is built once (its shuffle for merging duplicates is the costly part): the hub
+    // list and the parted entries both read the persisted entries.
+    spark.sparkContext().setJobDescription("heed graph conventions");
     Dataset<Row> graph =
-        EdgePolicyFrames.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies);
+        EdgePolicyFrames.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies)
+            .persist(StorageLevel.MEMORY_AND_DISK());
     Dataset<Row> hubs =
         graph
             .groupBy("dst")
@@ -317,7 +321,10 @@ public final class SparkNodeClassifier {
             .filter(col("count").gt(maxRowEntries))
             .select(
                 col("dst").as("hub"),
-                ceil(col("count").divide(maxRowEntries)).cast("int").as("parts"));
+                ceil(col("count").divide(maxRowEntries)).cast("int").as("parts"))
+            .persist(StorageLevel.MEMORY_AND_DISK());
+    held.add(hubs);
+    long splitRows = hubs.count();
     Dataset<Row> parted =
         graph
             .join(broadcast(hubs), col("dst").equalTo(col("hub")), "left")
@@ -329,11 +336,8 @@ public final class SparkNodeClassifier {
                     .as("part"))
             .persist(StorageLevel.MEMORY_AND_DISK());
     held.add(parted);
-    spark.sparkContext().setJobDescription("heed graph conventions");
     long entryCount = parted.count();
-    hubs = hubs.persist(StorageLevel.MEMORY_AND_DISK());
-    held.add(hubs);
-    long splitRows = hubs.count();
+    graph.unpersist(false);
     LOG.info(
         "graph: {} entries, {} rows split over {} entries", entryCount, splitRows, maxRowEntries);
 

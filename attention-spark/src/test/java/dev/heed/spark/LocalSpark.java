@@ -50,6 +50,12 @@ final class LocalSpark {
               // Test frames are small: compiling generated code for every stage costs more than
               // interpreting it.
               .config("spark.sql.codegen.wholeStage", "false")
+              // ... and the same for single expressions (projections, predicates, orderings).
+              .config("spark.sql.codegen.factoryMode", "NO_CODEGEN")
+              // Local files and memory: compressing shuffle blocks and broadcasts only costs.
+              .config("spark.shuffle.compress", "false")
+              .config("spark.shuffle.spill.compress", "false")
+              .config("spark.broadcast.compress", "false")
               .config("spark.driver.memory", "1g")
               .getOrCreate();
       Runtime.getRuntime().addShutdownHook(new Thread(session::stop));
