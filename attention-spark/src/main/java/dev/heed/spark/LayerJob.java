@@ -34,8 +34,8 @@ final class LayerJob {
    * Runs attention layer {@code l} (and the per-node layers up to the next attention layer) over
    * {@code nodes} (id, x); returns the persisted, materialised (id, next x), followed by the {@link
    * TopNeighbours} columns when {@code explain} k &gt; 0. {@code split} says whether any row is
-   * split ({@code hubs} is not empty). Frames it persists go into {@code held}; the previous
-   * layer's are released once this one is materialised.
+   * split ({@code hubs} is not empty). {@code held} holds the previous layer's persisted frames:
+   * they are released once this one is materialised, and this layer's output takes their place.
    */
   static Dataset<Row> run(
       Broadcast<byte[]> model,
@@ -80,12 +80,14 @@ final class LayerJob {
     // Query records: one per target and part (parts of a split row each need the query); the
     // layer input rides with part 0 only.
     Dataset<Row> targets =
-        proj.join(broadcast(hubs), col("id").equalTo(col("hub")), "left")
-            .select(
-                col("id").as("dst"),
-                col("q"),
-                col("x"),
-                coalesce(col("parts"), lit(1)).as("parts"));
+        split
+            ? proj.join(broadcast(hubs), col("id").equalTo(col("hub")), "left")
+                .select(
+                    col("id").as("dst"),
+                    col("q"),
+                    col("x"),
+                    coalesce(col("parts"), lit(1)).as("parts"))
+            : proj.select(col("id").as("dst"), col("q"), col("x"), lit(1).as("parts"));
     Dataset<Row> queries =
         targets
             .select(
@@ -159,11 +161,9 @@ final class LayerJob {
     long rows = next.count();
     // The previous layer's frames (and this one's intermediates) are no longer read.
     for (Dataset<?> d : held) {
-      if (d != null && d != parted && d != hubs) {
-        d.unpersist(false);
-      }
+      d.unpersist(false);
     }
-    held.removeIf(d -> d != parted && d != hubs);
+    held.clear();
     proj.unpersist(false);
     attended.unpersist(false);
     if (merged != null) {

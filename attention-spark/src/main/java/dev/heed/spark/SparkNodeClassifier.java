@@ -308,8 +308,9 @@ public final class SparkNodeClassifier {
         JavaSparkContext.fromSparkContext(spark.sparkContext()).broadcast(modelBytes);
     List<Dataset<?>> held = new ArrayList<>();
 
-    // The graph is built once (its shuffle for merging duplicates is the costly part): the hub
-    // list and the parted entries both read the persisted entries.
+    // The graph is built and persisted once (its shuffle for merging duplicates is the costly
+    // part): the hub list and every layer read the persisted entries; each layer adds the part
+    // column by a broadcast join with the hub list, cheaper than persisting a second copy.
     spark.sparkContext().setJobDescription("heed graph conventions");
     Dataset<Row> graph =
         EdgePolicyFrames.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies)
@@ -323,21 +324,19 @@ public final class SparkNodeClassifier {
                 col("dst").as("hub"),
                 ceil(col("count").divide(maxRowEntries)).cast("int").as("parts"))
             .persist(StorageLevel.MEMORY_AND_DISK());
-    held.add(hubs);
     long splitRows = hubs.count();
+    long entryCount = graph.count();
     Dataset<Row> parted =
-        graph
-            .join(broadcast(hubs), col("dst").equalTo(col("hub")), "left")
-            .select(
-                col("src"),
-                col("dst"),
-                when(col("parts").isNull(), lit(0))
-                    .otherwise(pmod(hash(col("src")), col("parts")))
-                    .as("part"))
-            .persist(StorageLevel.MEMORY_AND_DISK());
-    held.add(parted);
-    long entryCount = parted.count();
-    graph.unpersist(false);
+        splitRows == 0
+            ? graph.select(col("src"), col("dst"), lit(0).as("part"))
+            : graph
+                .join(broadcast(hubs), col("dst").equalTo(col("hub")), "left")
+                .select(
+                    col("src"),
+                    col("dst"),
+                    when(col("parts").isNull(), lit(0))
+                        .otherwise(pmod(hash(col("src")), col("parts")))
+                        .as("part"));
     LOG.info(
         "graph: {} entries, {} rows split over {} entries", entryCount, splitRows, maxRowEntries);
 
@@ -379,6 +378,8 @@ public final class SparkNodeClassifier {
       }
     }
     spark.sparkContext().setJobDescription(null);
+    held.add(graph);
+    held.add(hubs);
     StructType out = predictionSchema(idType, model.classLabels());
     Dataset<Row> predictions =
         current.mapPartitions(
