@@ -117,32 +117,20 @@ final class InputChecks {
 
   /** Null or repeated ids, null or non-finite features (after rounding to float). */
   static void checkNodes(Dataset<Row> features, String id, List<String> columns) {
-    List<Row> nullIds = features.filter(col(id).isNull()).limit(1).collectAsList();
-    if (!nullIds.isEmpty()) {
-      throw new IllegalArgumentException(
-          "the features frame has a row whose id ('" + id + "') is null; drop or fix it");
-    }
-    List<Row> repeated =
-        features.groupBy(col(id)).count().filter(col("count").gt(1)).limit(SHOWN).collectAsList();
-    if (!repeated.isEmpty()) {
-      throw new IllegalArgumentException(
-          "the features frame has more than one row for id "
-              + repeated.stream()
-                  .map(r -> r.get(0) + " (" + r.getLong(1) + " rows)")
-                  .collect(Collectors.joining(", "))
-              + "; each node needs exactly one feature row");
-    }
-    Column bad = null;
+    // Null ids and bad values in one pass over the features.
+    Column bad = col(id).isNull();
     for (String c : columns) {
-      Column b =
-          col(c)
-              .isNull()
+      bad =
+          bad.or(col(c).isNull())
               .or(isnan(col(c)))
               .or(col(c).equalTo(Float.POSITIVE_INFINITY))
               .or(col(c).equalTo(Float.NEGATIVE_INFINITY));
-      bad = bad == null ? b : bad.or(b);
     }
     List<Row> rows = features.filter(bad).limit(SHOWN).collectAsList();
+    if (rows.stream().anyMatch(r -> r.isNullAt(0))) {
+      throw new IllegalArgumentException(
+          "the features frame has a row whose id ('" + id + "') is null; drop or fix it");
+    }
     if (!rows.isEmpty()) {
       List<String> where = new ArrayList<>();
       for (Row r : rows) {
@@ -159,14 +147,31 @@ final class InputChecks {
               + String.join(", ", where)
               + "; fill or drop those values before classifying");
     }
+    List<Row> repeated =
+        features.groupBy(col(id)).count().filter(col("count").gt(1)).limit(SHOWN).collectAsList();
+    if (!repeated.isEmpty()) {
+      throw new IllegalArgumentException(
+          "the features frame has more than one row for id "
+              + repeated.stream()
+                  .map(r -> r.get(0) + " (" + r.getLong(1) + " rows)")
+                  .collect(Collectors.joining(", "))
+              + "; each node needs exactly one feature row");
+    }
   }
 
   /** Null edge ids, and edge ids without a feature row. */
   static void checkEdges(
       Dataset<Row> edges, Dataset<Row> features, String id, String source, String target) {
-    List<Row> nulls =
-        edges.filter(col("src").isNull().or(col("dst").isNull())).limit(1).collectAsList();
-    if (!nulls.isEmpty()) {
+    // One pass over the edges: their distinct ids (reduced before the shuffle) that match no
+    // feature row; a null id matches none either.
+    Dataset<Row> ids =
+        edges.select(col("src").as("node")).union(edges.select(col("dst").as("node"))).distinct();
+    Dataset<Row> known = features.select(col(id).as("node"));
+    List<Row> unknown =
+        ids.join(known, ids.col("node").equalTo(known.col("node")), "left_anti")
+            .limit(SHOWN)
+            .collectAsList();
+    if (unknown.stream().anyMatch(r -> r.isNullAt(0))) {
       throw new IllegalArgumentException(
           "an edge has a null '"
               + source
@@ -174,14 +179,6 @@ final class InputChecks {
               + target
               + "', or an id that is not of the features' id type; drop or fix it");
     }
-    Dataset<Row> ids =
-        edges.select(col("src").as("node")).union(edges.select(col("dst").as("node")));
-    Dataset<Row> known = features.select(col(id).as("node"));
-    List<Row> unknown =
-        ids.join(known, ids.col("node").equalTo(known.col("node")), "left_anti")
-            .distinct()
-            .limit(SHOWN)
-            .collectAsList();
     if (!unknown.isEmpty()) {
       throw new IllegalArgumentException(
           "the edges name nodes without a feature row: "

@@ -9,8 +9,10 @@ import static org.apache.spark.sql.functions.sequence;
 import static org.apache.spark.sql.functions.when;
 
 import dev.heed.model.LayerSteps;
+import java.util.ArrayList;
 import java.util.List;
 import org.apache.spark.broadcast.Broadcast;
+import org.apache.spark.sql.Column;
 import org.apache.spark.sql.Dataset;
 import org.apache.spark.sql.Encoders;
 import org.apache.spark.sql.Row;
@@ -30,8 +32,10 @@ final class LayerJob {
 
   /**
    * Runs attention layer {@code l} (and the per-node layers up to the next attention layer) over
-   * {@code nodes} (id, x); returns the persisted, materialised (id, next x). Frames it persists go
-   * into {@code held}; the previous layer's are released once this one is materialised.
+   * {@code nodes} (id, x); returns the persisted, materialised (id, next x), followed by the {@link
+   * TopNeighbours} columns when {@code explain} k &gt; 0. {@code split} says whether any row is
+   * split ({@code hubs} is not empty). {@code held} holds the previous layer's persisted frames:
+   * they are released once this one is materialised, and this layer's output takes their place.
    */
   static Dataset<Row> run(
       Broadcast<byte[]> model,
@@ -40,8 +44,10 @@ final class LayerJob {
       Dataset<Row> nodes,
       Dataset<Row> parted,
       Dataset<Row> hubs,
+      boolean split,
       DataType idType,
       int partitions,
+      int explain,
       List<Dataset<?>> held) {
     long started = System.nanoTime();
     String name = steps.model().layers().get(l).name();
@@ -69,16 +75,19 @@ final class LayerJob {
                 lit(RowBlockAttention.TAG_ENTRY).as("tag"),
                 col("kv").as("vec"),
                 lit(null).cast(DataTypes.BinaryType).as("x"),
-                lit(0).as("parts"));
+                lit(0).as("parts"),
+                col("src"));
     // Query records: one per target and part (parts of a split row each need the query); the
     // layer input rides with part 0 only.
     Dataset<Row> targets =
-        proj.join(broadcast(hubs), col("id").equalTo(col("hub")), "left")
-            .select(
-                col("id").as("dst"),
-                col("q"),
-                col("x"),
-                coalesce(col("parts"), lit(1)).as("parts"));
+        split
+            ? proj.join(broadcast(hubs), col("id").equalTo(col("hub")), "left")
+                .select(
+                    col("id").as("dst"),
+                    col("q"),
+                    col("x"),
+                    coalesce(col("parts"), lit(1)).as("parts"))
+            : proj.select(col("id").as("dst"), col("q"), col("x"), lit(1).as("parts"));
     Dataset<Row> queries =
         targets
             .select(
@@ -93,45 +102,73 @@ final class LayerJob {
                 lit(RowBlockAttention.TAG_QUERY).as("tag"),
                 col("q").as("vec"),
                 when(col("part").equalTo(0), col("x")).as("x"),
-                col("parts"));
+                col("parts"),
+                lit(null).cast(idType).as("src"));
+    if (explain == 0) {
+      entries = entries.drop("src"); // the source id rides along only to name top neighbours
+      queries = queries.drop("src");
+    }
     Dataset<Row> parts =
         queries
             .unionByName(entries)
             .repartition(partitions, col("dst"), col("part"))
             .sortWithinPartitions("dst", "part", "tag");
     StructType attendedSchema =
-        new StructType()
-            .add("id", idType, false)
-            .add("kind", DataTypes.IntegerType, false)
-            .add("part", DataTypes.IntegerType, false)
-            .add("x", DataTypes.BinaryType, true)
-            .add("state", DataTypes.BinaryType, true);
+        TopNeighbours.addColumns(
+            new StructType()
+                .add("id", idType, false)
+                .add("kind", DataTypes.IntegerType, false)
+                .add("part", DataTypes.IntegerType, false)
+                .add("x", DataTypes.BinaryType, true)
+                .add("state", DataTypes.BinaryType, true),
+            idType,
+            explain);
     Dataset<Row> attended =
         parts
-            .mapPartitions(new RowBlockAttention(model, l), Encoders.row(attendedSchema))
+            .mapPartitions(new RowBlockAttention(model, l, explain), Encoders.row(attendedSchema))
             .persist(StorageLevel.MEMORY_AND_DISK());
 
-    StructType nodeSchema =
-        new StructType().add("id", idType, false).add("x", DataTypes.BinaryType, false);
-    Dataset<Row> whole =
-        attended.filter(col("kind").equalTo(RowBlockAttention.FINAL)).select(col("id"), col("x"));
-    Dataset<Row> merged =
-        attended
-            .filter(col("kind").equalTo(RowBlockAttention.PARTIAL))
-            .repartition(partitions, col("id"))
-            .sortWithinPartitions("id", "part")
-            .mapPartitions(new SplitRowMerge(model, l), Encoders.row(nodeSchema));
-    Dataset<Row> next = whole.unionByName(merged).persist(StorageLevel.MEMORY_AND_DISK());
+    List<Column> out = new ArrayList<>(List.of(col("id"), col("x")));
+    TopNeighbours.columnNames(explain).forEach(c -> out.add(col(c)));
+    Column[] outColumns = out.toArray(new Column[0]);
+    Dataset<Row> next =
+        attended.filter(col("kind").equalTo(RowBlockAttention.FINAL)).select(outColumns);
+    Dataset<Row> merged = null;
+    if (split) {
+      StructType mergedSchema =
+          new StructType().add("id", idType, false).add("x", DataTypes.BinaryType, false);
+      if (explain > 0) {
+        mergedSchema = mergedSchema.add("state", DataTypes.BinaryType, false);
+      }
+      merged =
+          attended
+              .filter(col("kind").equalTo(RowBlockAttention.PARTIAL))
+              .repartition(partitions, col("id"))
+              .sortWithinPartitions("id", "part")
+              .mapPartitions(new SplitRowMerge(model, l, explain > 0), Encoders.row(mergedSchema))
+              .persist(StorageLevel.MEMORY_AND_DISK());
+      Dataset<Row> mergedRows = merged.select(col("id"), col("x"));
+      if (explain > 0) {
+        mergedRows =
+            mergedRows.join(
+                splitRowNeighbours(
+                    model, l, merged, proj, parted, hubs, idType, partitions, explain),
+                "id");
+      }
+      next = next.unionByName(mergedRows);
+    }
+    next = next.persist(StorageLevel.MEMORY_AND_DISK());
     long rows = next.count();
     // The previous layer's frames (and this one's intermediates) are no longer read.
     for (Dataset<?> d : held) {
-      if (d != null && d != parted && d != hubs) {
-        d.unpersist(false);
-      }
+      d.unpersist(false);
     }
-    held.removeIf(d -> d != parted && d != hubs);
+    held.clear();
     proj.unpersist(false);
     attended.unpersist(false);
+    if (merged != null) {
+      merged.unpersist(false);
+    }
     held.add(next);
     LOG.info(
         "layer {} ('{}'): {} rows in {} ms",
@@ -140,5 +177,46 @@ final class LayerJob {
         rows,
         (System.nanoTime() - started) / 1_000_000);
     return next;
+  }
+
+  /**
+   * The top neighbours of split rows, (id, neighbour_1, weight_1, ...): each split row's entries
+   * meet its key and value rows, its target's query row and merged state (a broadcast of one record
+   * per split row), each task keeps its k best per row, and the candidates, shuffled by target, are
+   * reduced to the k best.
+   */
+  private static Dataset<Row> splitRowNeighbours(
+      Broadcast<byte[]> model,
+      int l,
+      Dataset<Row> merged,
+      Dataset<Row> proj,
+      Dataset<Row> parted,
+      Dataset<Row> hubs,
+      DataType idType,
+      int partitions,
+      int k) {
+    Dataset<Row> splitTargets =
+        merged
+            .select(col("id").as("dst"), col("state"))
+            .join(proj.select(col("id").as("dst"), col("q")), "dst");
+    Dataset<Row> splitEntries =
+        parted
+            .join(broadcast(hubs), col("dst").equalTo(col("hub")), "left_semi")
+            .join(proj.select(col("id").as("src"), col("kv")), "src")
+            .join(broadcast(splitTargets), "dst")
+            .select(col("dst"), col("src"), col("kv"), col("q"), col("state"));
+    StructType candidate =
+        new StructType()
+            .add("dst", idType, false)
+            .add("src", idType, false)
+            .add("weight", DataTypes.FloatType, false);
+    return splitEntries
+        .mapPartitions(TopNeighbours.candidates(model, l, k), Encoders.row(candidate))
+        .repartition(partitions, col("dst"))
+        .sortWithinPartitions("dst")
+        .mapPartitions(
+            TopNeighbours.best(k),
+            Encoders.row(
+                TopNeighbours.addColumns(new StructType().add("id", idType, false), idType, k)));
   }
 }

@@ -39,10 +39,11 @@ final class NodeRowSteps {
   }
 
   /**
-   * (id, class probabilities) to (id, label, probability, p_1 .. p_C): the label with the highest
-   * probability (the first of equal ones), its probability, then every class's probability.
+   * (id, class probabilities, 2·explain top-neighbour columns) to (id, label, probability, p_1 ..
+   * p_C, the top-neighbour columns): the label with the highest probability (the first of equal
+   * ones), its probability, then every class's probability.
    */
-  static MapPartitionsFunction<Row, Row> predictions(List<String> labels) {
+  static MapPartitionsFunction<Row, Row> predictions(List<String> labels, int explain) {
     String[] names = labels.toArray(new String[0]);
     return input ->
         new Iterator<Row>() {
@@ -55,7 +56,7 @@ final class NodeRowSteps {
           public Row next() {
             Row r = input.next();
             float[] p = FloatBytes.floats((byte[]) r.get(1));
-            Object[] fields = new Object[3 + names.length];
+            Object[] fields = new Object[3 + names.length + 2 * explain];
             fields[0] = r.get(0);
             int best = 0;
             for (int c = 0; c < names.length; c++) {
@@ -66,6 +67,9 @@ final class NodeRowSteps {
             }
             fields[1] = names[best];
             fields[2] = p[best];
+            for (int c = 0; c < 2 * explain; c++) {
+              fields[3 + names.length + c] = r.get(2 + c);
+            }
             return RowFactory.create(fields);
           }
         };

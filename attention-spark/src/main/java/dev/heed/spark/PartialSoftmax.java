@@ -93,6 +93,15 @@ final class PartialSoftmax {
     }
   }
 
+  /**
+   * Returns the attention weight α of an entry of head {@code h} with this score, once every part
+   * of the row has been merged in: exp(score − m) / s.
+   */
+  double weight(int h, double score) {
+    int base = h * (2 + width);
+    return Math.exp(score - state[base]) / state[base + 1];
+  }
+
   byte[] toBytes() {
     return FloatBytes.ofDoubles(state);
   }

@@ -26,6 +26,11 @@ import org.apache.spark.sql.RowFactory;
  * node's next input. A part of a split row folds its entries into a {@link PartialSoftmax} in
  * float64 and yields a {@code PARTIAL} record, merged later by {@link SplitRowMerge}.
  *
+ * <p>With {@code explain} k &gt; 0 (the last attention layer of a classifier asked for its top
+ * neighbours), entries carry their source id (column 6), the kernel also writes the weights, and
+ * each {@code FINAL} record ends with the row's {@link TopNeighbours} columns (null on {@code
+ * PARTIAL} records: a split row's weights need its merged normaliser).
+ *
  * <p>Memory per task: one block of at most {@code BLOCK_ENTRIES} entries plus one row (rows longer
  * than the split threshold never come whole), about {@code 4·4·(keyWidth + valueWidth)} bytes per
  * entry (buffers grown by doubling, the kernel's padded copies, its output) plus its rows' query,
@@ -45,15 +50,17 @@ final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
 
   private final Broadcast<byte[]> model;
   private final int layer;
+  private final int explain;
 
-  RowBlockAttention(Broadcast<byte[]> model, int layer) {
+  RowBlockAttention(Broadcast<byte[]> model, int layer, int explain) {
     this.model = model;
     this.layer = layer;
+    this.explain = explain;
   }
 
   @Override
   public Iterator<Row> call(Iterator<Row> input) {
-    return new Blocks(ExecutorModel.steps(model.value()), layer, input);
+    return new Blocks(ExecutorModel.steps(model.value()), layer, explain, input);
   }
 
   /** Reads parts from the sorted input and yields output records block by block. */
@@ -68,12 +75,14 @@ final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
     private final int qw;
     private final int vw;
     private final boolean keysAreValues;
+    private final int explain;
     private final List<Row> ready = new ArrayList<>();
     private int readyAt;
     private Row pending; // the next input record, read ahead
 
     // The block being gathered: whole rows.
     private final List<Object> ids = new ArrayList<>();
+    private final List<Object> sources = new ArrayList<>(); // entries' source ids, when explaining
     private int[] rowEnds = new int[256];
     private float[] queries;
     private float[] inputs;
@@ -81,9 +90,10 @@ final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
     private float[] values;
     private int entries;
 
-    Blocks(LayerSteps steps, int layer, Iterator<Row> input) {
+    Blocks(LayerSteps steps, int layer, int explain, Iterator<Row> input) {
       this.steps = steps;
       this.layer = layer;
+      this.explain = explain;
       this.nextAttention = ExecutorModel.nextAttention(steps, layer + 1);
       this.input = input;
       this.score = steps.score(layer);
@@ -189,6 +199,9 @@ final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
         if (!keysAreValues) {
           FloatBytes.read(kv, qw, vw, values, entries * vw);
         }
+        if (explain > 0) {
+          sources.add(e.get(6));
+        }
         entries++;
       }
       rowEnds[row] = entries;
@@ -208,8 +221,7 @@ final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
           part.add(h, s, kv, valueOff + h * shape.valueDim());
         }
       }
-      ready.add(
-          RowFactory.create(head.get(0), PARTIAL, head.getInt(1), head.get(4), part.toBytes()));
+      ready.add(record(head.get(0), PARTIAL, head.getInt(1), head.get(4), part.toBytes()));
     }
 
     /** Runs the kernel over the gathered whole rows, finishes them and queues their records. */
@@ -228,18 +240,42 @@ final class RowBlockAttention implements MapPartitionsFunction<Row, Row> {
       float[] k = Arrays.copyOf(keys, n * qw);
       float[] v = keysAreValues ? k : Arrays.copyOf(values, n * vw);
       float[] out = new float[n * vw];
+      float[] weights = explain > 0 ? new float[entries * shape.heads()] : null;
       ExecutorModel.kernel()
-          .attend(CsrGraph.of(offsets, columns), score, shape, q, k, v, out, null);
+          .attend(CsrGraph.of(offsets, columns), score, shape, q, k, v, out, weights);
       float[] y = steps.finish(layer, Arrays.copyOf(inputs, rows * inWidth), out, rows);
       y = ExecutorModel.perNode(steps, layer + 1, nextAttention, y, rows);
       int outWidth = y.length / Math.max(rows, 1);
       for (int r = 0; r < rows; r++) {
-        ready.add(
-            RowFactory.create(
-                ids.get(r), FINAL, 0, FloatBytes.of(y, r * outWidth, outWidth), null));
+        Object[] fields =
+            fields(ids.get(r), FINAL, 0, FloatBytes.of(y, r * outWidth, outWidth), null);
+        if (explain > 0) {
+          TopNeighbours.Best best = new TopNeighbours.Best(explain);
+          for (int e = offsets[r]; e < offsets[r + 1]; e++) {
+            best.offer(sources.get(e), TopNeighbours.meanWeight(weights, e, shape.heads()));
+          }
+          best.writeTo(fields, 5);
+        }
+        ready.add(RowFactory.create(fields));
       }
       ids.clear();
+      sources.clear();
       entries = 0;
+    }
+
+    /** An output record's fields: the top-neighbour columns (when explaining) left null. */
+    private Object[] fields(Object id, int kind, int part, Object x, Object state) {
+      Object[] f = new Object[5 + 2 * explain];
+      f[0] = id;
+      f[1] = kind;
+      f[2] = part;
+      f[3] = x;
+      f[4] = state;
+      return f;
+    }
+
+    private Row record(Object id, int kind, int part, Object x, Object state) {
+      return RowFactory.create(fields(id, kind, part, x, state));
     }
   }
 }

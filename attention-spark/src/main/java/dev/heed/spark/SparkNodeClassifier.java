@@ -34,7 +34,8 @@ import org.slf4j.LoggerFactory;
  * Classifies the nodes of a graph held as Spark DataFrames with a Heed model, on a cluster. The
  * graph is an edges frame (source id, target id: the target attends to the source) and a features
  * frame (id, one numeric column per model input feature), from any Spark source; the result is a
- * frame of (id, {@code label}, {@code probability}, {@code p_<label>} per class label).
+ * frame of (id, {@code label}, {@code probability}, {@code p_<label>} per class label), optionally
+ * followed by each node's strongest attention neighbours ({@link Builder#explainNeighbours}).
  *
  * <pre>{@code
  * AttentionModel model = ModelFile.read(Path.of("model.heed"));
@@ -87,6 +88,7 @@ public final class SparkNodeClassifier {
   private final GraphPolicies policies;
   private final int maxRowEntries;
   private final int partitions;
+  private final int explainNeighbours;
 
   private SparkNodeClassifier(Builder b, LayerSteps steps, GraphPolicies policies) {
     this.model = b.model;
@@ -99,6 +101,7 @@ public final class SparkNodeClassifier {
     this.policies = policies;
     this.maxRowEntries = b.maxRowEntries;
     this.partitions = b.partitions;
+    this.explainNeighbours = b.explainNeighbours;
   }
 
   /**
@@ -106,7 +109,8 @@ public final class SparkNodeClassifier {
    * and {@code target}, the model's feature names as feature columns (or, for a model without
    * names, every column of the features frame but the id, in order), the model's graph conventions
    * (or {@link GraphPolicies#UNDIRECTED_WITH_SELF_LOOPS}, with a warning, for a model that records
-   * none), rows split over {@link #DEFAULT_MAX_ROW_ENTRIES}, Spark's shuffle partition count.
+   * none), rows split over {@link #DEFAULT_MAX_ROW_ENTRIES}, Spark's shuffle partition count, no
+   * neighbour columns.
    *
    * @param model the model, not null
    * @return the builder
@@ -129,6 +133,7 @@ public final class SparkNodeClassifier {
     private GraphPolicies policies;
     private int maxRowEntries = DEFAULT_MAX_ROW_ENTRIES;
     private int partitions;
+    private int explainNeighbours;
 
     private Builder(AttentionModel model) {
       this.model = model;
@@ -221,6 +226,28 @@ public final class SparkNodeClassifier {
     }
 
     /**
+     * Adds each node's {@code k} strongest attention neighbours in the model's last attention layer
+     * to the predictions: columns {@code neighbour_1, weight_1, ..., neighbour_k, weight_k} after
+     * the probabilities (the id type, float; null past the node's entry count), as {@code heed
+     * classify --explain k} writes them. The weight is the attention weight α averaged over heads,
+     * as {@link dev.heed.classify.LayerExplanation#topNeighbours()} defines it; ties go to the
+     * smaller id. Split rows included (their weights are computed from the merged softmax
+     * normaliser, after the merge). Cost: the source id travels with every entry of that layer, the
+     * kernel writes the weights (entries × heads floats per block), and split rows' entries are
+     * read once more.
+     *
+     * @param k the number of neighbours, at least 0 (0, the default, adds no columns)
+     * @return this builder
+     */
+    public Builder explainNeighbours(int k) {
+      if (k < 0) {
+        throw new IllegalArgumentException("explainNeighbours must be at least 0, got " + k);
+      }
+      this.explainNeighbours = k;
+      return this;
+    }
+
+    /**
      * Checks the model and builds the classifier.
      *
      * @return the classifier
@@ -281,8 +308,13 @@ public final class SparkNodeClassifier {
         JavaSparkContext.fromSparkContext(spark.sparkContext()).broadcast(modelBytes);
     List<Dataset<?>> held = new ArrayList<>();
 
+    // The graph is built and persisted once (its shuffle for merging duplicates is the costly
+    // part): the hub list and every layer read the persisted entries; each layer adds the part
+    // column by a broadcast join with the hub list, cheaper than persisting a second copy.
+    spark.sparkContext().setJobDescription("heed graph conventions");
     Dataset<Row> graph =
-        EdgePolicyFrames.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies);
+        EdgePolicyFrames.apply(edgeIds, nodeFeatures.select(col(idColumn).as("id")), policies)
+            .persist(StorageLevel.MEMORY_AND_DISK());
     Dataset<Row> hubs =
         graph
             .groupBy("dst")
@@ -290,27 +322,29 @@ public final class SparkNodeClassifier {
             .filter(col("count").gt(maxRowEntries))
             .select(
                 col("dst").as("hub"),
-                ceil(col("count").divide(maxRowEntries)).cast("int").as("parts"));
-    Dataset<Row> parted =
-        graph
-            .join(broadcast(hubs), col("dst").equalTo(col("hub")), "left")
-            .select(
-                col("src"),
-                col("dst"),
-                when(col("parts").isNull(), lit(0))
-                    .otherwise(pmod(hash(col("src")), col("parts")))
-                    .as("part"))
+                ceil(col("count").divide(maxRowEntries)).cast("int").as("parts"))
             .persist(StorageLevel.MEMORY_AND_DISK());
-    held.add(parted);
-    spark.sparkContext().setJobDescription("heed graph conventions");
-    long entryCount = parted.count();
-    hubs = hubs.persist(StorageLevel.MEMORY_AND_DISK());
-    held.add(hubs);
     long splitRows = hubs.count();
+    long entryCount = graph.count();
+    Dataset<Row> parted =
+        splitRows == 0
+            ? graph.select(col("src"), col("dst"), lit(0).as("part"))
+            : graph
+                .join(broadcast(hubs), col("dst").equalTo(col("hub")), "left")
+                .select(
+                    col("src"),
+                    col("dst"),
+                    when(col("parts").isNull(), lit(0))
+                        .otherwise(pmod(hash(col("src")), col("parts")))
+                        .as("part"));
     LOG.info(
         "graph: {} entries, {} rows split over {} entries", entryCount, splitRows, maxRowEntries);
 
     int first = ExecutorModel.nextAttention(steps, 0);
+    int last = -1;
+    for (int l = first; l < steps.layerCount(); l = ExecutorModel.nextAttention(steps, l + 1)) {
+      last = l;
+    }
     StructType nodeSchema =
         new StructType(
             new StructField[] {
@@ -321,12 +355,35 @@ public final class SparkNodeClassifier {
         nodeFeatures.mapPartitions(
             NodeRowSteps.features(bytes, columns.size(), 0, first), Encoders.row(nodeSchema));
     for (int l = first; l < steps.layerCount(); l = ExecutorModel.nextAttention(steps, l + 1)) {
-      current = LayerJob.run(bytes, steps, l, current, parted, hubs, idType, shuffle, held);
+      int explain = l == last ? explainNeighbours : 0;
+      current =
+          LayerJob.run(
+              bytes,
+              steps,
+              l,
+              current,
+              parted,
+              hubs,
+              splitRows > 0,
+              idType,
+              shuffle,
+              explain,
+              held);
+    }
+    if (last < 0) {
+      // No attention layer: no neighbours to name.
+      for (String c : TopNeighbours.columnNames(explainNeighbours)) {
+        current =
+            current.withColumn(c, lit(null).cast(c.startsWith("weight") ? "float" : idType.sql()));
+      }
     }
     spark.sparkContext().setJobDescription(null);
+    held.add(graph);
+    held.add(hubs);
     StructType out = predictionSchema(idType, model.classLabels());
     Dataset<Row> predictions =
-        current.mapPartitions(NodeRowSteps.predictions(model.classLabels()), Encoders.row(out));
+        current.mapPartitions(
+            NodeRowSteps.predictions(model.classLabels(), explainNeighbours), Encoders.row(out));
     return new SparkScores(predictions, held, splitRows, entryCount);
   }
 
@@ -338,6 +395,6 @@ public final class SparkNodeClassifier {
     for (String label : labels) {
       fields.add(DataTypes.createStructField("p_" + label, DataTypes.FloatType, false));
     }
-    return DataTypes.createStructType(fields);
+    return TopNeighbours.addColumns(DataTypes.createStructType(fields), idType, explainNeighbours);
   }
 }

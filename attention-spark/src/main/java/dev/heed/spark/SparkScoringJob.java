@@ -32,14 +32,16 @@ import org.apache.spark.sql.SparkSession;
  *   [--id-column id] [--source-column source] [--target-column target]
  *   [--feature-columns A,B,...] [--direction symmetrise|keep] [--self-loops add|as-given]
  *   [--duplicates merge|reject] [--override-graph-policies] [--max-row-entries N]
- *   [--partitions N] [--overwrite]
+ *   [--partitions N] [--explain K] [--overwrite]
  * </pre>
  *
  * <p>The model path is read through Spark's file systems (local, HDFS, object stores), so the
  * driver needs no local copy. CSV files have a header line; their ids are read as text and their
  * features as numbers. Graph conventions default to the model's; giving other ones fails, naming
  * each difference, unless {@code --override-graph-policies} is given (as {@code heed classify}).
- * Exit codes: 0 done, 1 bad input (the message says what and how to fix it), 2 usage.
+ * {@code --explain K} adds each node's K strongest attention neighbours in the last attention layer
+ * ({@link SparkNodeClassifier.Builder#explainNeighbours}). Exit codes: 0 done, 1 bad input (the
+ * message says what and how to fix it), 2 usage.
  */
 public final class SparkScoringJob {
 
@@ -102,6 +104,9 @@ public final class SparkScoringJob {
     }
     if (opts.containsKey("partitions")) {
       b.partitions(Integer.parseInt(opts.get("partitions")));
+    }
+    if (opts.containsKey("explain")) {
+      b.explainNeighbours(Integer.parseInt(opts.get("explain")));
     }
     GraphPolicies recorded = model.graphPolicies().orElse(GraphPolicies.UNDIRECTED_WITH_SELF_LOOPS);
     GraphPolicies asked =
@@ -172,7 +177,8 @@ public final class SparkScoringJob {
           "self-loops",
           "duplicates",
           "max-row-entries",
-          "partitions");
+          "partitions",
+          "explain");
   private static final List<String> FLAGS = List.of("override-graph-policies", "overwrite");
 
   /** Parses {@code --name value} and {@code --flag} options. */
@@ -210,6 +216,12 @@ public final class SparkScoringJob {
         throw new IllegalArgumentException("--" + f + " must be parquet or csv, got '" + v + "'");
       }
     }
+    for (String n : List.of("max-row-entries", "partitions", "explain")) {
+      String v = opts.get(n);
+      if (v != null && !v.matches("[0-9]{1,9}")) {
+        throw new IllegalArgumentException("--" + n + " must be a whole number, got '" + v + "'");
+      }
+    }
     return opts;
   }
 
@@ -219,6 +231,7 @@ public final class SparkScoringJob {
         + " [--edges-format|--features-format|--out-format parquet|csv]"
         + " [--id-column C] [--source-column C] [--target-column C] [--feature-columns A,B,...]"
         + " [--direction symmetrise|keep] [--self-loops add|as-given] [--duplicates merge|reject]"
-        + " [--override-graph-policies] [--max-row-entries N] [--partitions N] [--overwrite]";
+        + " [--override-graph-policies] [--max-row-entries N] [--partitions N] [--explain K]"
+        + " [--overwrite]";
   }
 }

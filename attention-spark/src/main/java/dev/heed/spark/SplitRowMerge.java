@@ -3,8 +3,6 @@ package dev.heed.spark;
 import dev.heed.attention.HeadShape;
 import dev.heed.model.LayerSteps;
 import java.util.Iterator;
-import java.util.NoSuchElementException;
-import java.util.Objects;
 import org.apache.spark.api.java.function.MapPartitionsFunction;
 import org.apache.spark.broadcast.Broadcast;
 import org.apache.spark.sql.Row;
@@ -13,8 +11,9 @@ import org.apache.spark.sql.RowFactory;
 /**
  * Merges the parts of split rows, sorted by (target, part): their {@link PartialSoftmax} states
  * combine exactly, the result is the row's attention output, and the row is finished as a whole row
- * is in {@link RowBlockAttention}. Yields (id, next input). Memory: one row's state, heads × (2 +
- * valueDim) doubles, however many parts the row has.
+ * is in {@link RowBlockAttention}. Yields (id, next input), and with {@code keepState} also the
+ * merged state (whose normalisers give the row's attention weights, {@link TopNeighbours}). Memory:
+ * one row's part states, heads × (2 + valueDim) doubles each (a row has ceil(entries / cap) parts).
  */
 final class SplitRowMerge implements MapPartitionsFunction<Row, Row> {
 
@@ -22,10 +21,12 @@ final class SplitRowMerge implements MapPartitionsFunction<Row, Row> {
 
   private final Broadcast<byte[]> model;
   private final int layer;
+  private final boolean keepState;
 
-  SplitRowMerge(Broadcast<byte[]> model, int layer) {
+  SplitRowMerge(Broadcast<byte[]> model, int layer, boolean keepState) {
     this.model = model;
     this.layer = layer;
+    this.keepState = keepState;
   }
 
   @Override
@@ -33,42 +34,28 @@ final class SplitRowMerge implements MapPartitionsFunction<Row, Row> {
     LayerSteps steps = ExecutorModel.steps(model.value());
     HeadShape shape = steps.shape(layer);
     int next = ExecutorModel.nextAttention(steps, layer + 1);
-    return new Iterator<>() {
-      private Row pending = input.hasNext() ? input.next() : null;
-
-      @Override
-      public boolean hasNext() {
-        return pending != null;
-      }
-
-      @Override
-      public Row next() {
-        if (pending == null) {
-          throw new NoSuchElementException();
-        }
-        Object id = pending.get(0);
-        PartialSoftmax row = new PartialSoftmax(shape.heads(), shape.valueDim());
-        byte[] x = null;
-        int parts = 0;
-        while (pending != null && Objects.equals(pending.get(0), id)) {
-          row.merge(
-              PartialSoftmax.fromBytes(shape.heads(), shape.valueDim(), (byte[]) pending.get(4)));
-          if (pending.get(3) != null) {
-            x = (byte[]) pending.get(3);
+    return KeyRuns.map(
+        input,
+        (id, parts) -> {
+          PartialSoftmax row = new PartialSoftmax(shape.heads(), shape.valueDim());
+          byte[] x = null;
+          for (Row part : parts) {
+            row.merge(
+                PartialSoftmax.fromBytes(shape.heads(), shape.valueDim(), (byte[]) part.get(4)));
+            if (part.get(3) != null) {
+              x = (byte[]) part.get(3);
+            }
           }
-          parts++;
-          pending = input.hasNext() ? input.next() : null;
-        }
-        if (x == null) {
-          throw new IllegalStateException(
-              "split row of target " + id + " lost its input row (" + parts + " parts)");
-        }
-        float[] attended = new float[shape.valueWidth()];
-        row.result(attended, 0);
-        float[] y = steps.finish(layer, FloatBytes.floats(x), attended, 1);
-        y = ExecutorModel.perNode(steps, layer + 1, next, y, 1);
-        return RowFactory.create(id, FloatBytes.of(y, 0, y.length));
-      }
-    };
+          if (x == null) {
+            throw new IllegalStateException(
+                "split row of target " + id + " lost its input row (" + parts.size() + " parts)");
+          }
+          float[] attended = new float[shape.valueWidth()];
+          row.result(attended, 0);
+          float[] y = steps.finish(layer, FloatBytes.floats(x), attended, 1);
+          y = ExecutorModel.perNode(steps, layer + 1, next, y, 1);
+          byte[] out = FloatBytes.of(y, 0, y.length);
+          return keepState ? RowFactory.create(id, out, row.toBytes()) : RowFactory.create(id, out);
+        });
   }
 }

@@ -70,9 +70,18 @@ class InputChecksTest {
   }
 
   @Test
-  void edgeIdsWithoutFeaturesAreNamed() {
+  void nullOrUnknownEdgeIdsAreNamed() {
     String m = failure(LocalSpark.edges(new int[] {0, 9}, new int[] {1, 2}), features(GOOD));
     assertTrue(m.contains("without a feature row: 9"), m);
+    Dataset<Row> nullTarget =
+        LocalSpark.edges(SRC, DST)
+            .withColumn(
+                "target",
+                functions
+                    .when(functions.col("target").equalTo(3), functions.lit(null))
+                    .otherwise(functions.col("target")));
+    String n = failure(nullTarget, features(GOOD));
+    assertTrue(n.contains("an edge has a null 'source' or 'target'"), n);
   }
 
   @Test

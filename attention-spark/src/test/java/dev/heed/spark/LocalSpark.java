@@ -1,6 +1,12 @@
 package dev.heed.spark;
 
+import dev.heed.classify.Classification;
+import dev.heed.classify.ClassifyOptions;
+import dev.heed.classify.LayerExplanation;
+import dev.heed.classify.NeighbourWeight;
+import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
+import dev.heed.classify.NodePrediction;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.GraphPolicies;
@@ -44,6 +50,12 @@ final class LocalSpark {
               // Test frames are small: compiling generated code for every stage costs more than
               // interpreting it.
               .config("spark.sql.codegen.wholeStage", "false")
+              // ... and the same for single expressions (projections, predicates, orderings).
+              .config("spark.sql.codegen.factoryMode", "NO_CODEGEN")
+              // Local files and memory: compressing shuffle blocks and broadcasts only costs.
+              .config("spark.shuffle.compress", "false")
+              .config("spark.shuffle.spill.compress", "false")
+              .config("spark.broadcast.compress", "false")
               .config("spark.driver.memory", "1g")
               .getOrCreate();
       Runtime.getRuntime().addShutdownHook(new Thread(session::stop));
@@ -96,11 +108,36 @@ final class LocalSpark {
     return model.forward(graph, x, PathChoice.SPARSE, false).values();
   }
 
-  /** The predictions by long id: the probability columns (from column 3 on). */
-  static Map<Long, float[]> byId(Dataset<Row> predictions) {
+  /**
+   * Single-machine Heed's explanation over the same edges: per node, the last attention layer's
+   * {@code k} neighbours of largest weight averaged over heads, best first.
+   */
+  static List<List<NeighbourWeight>> explanations(
+      AttentionModel model,
+      int[] sources,
+      int[] targets,
+      int n,
+      float[] x,
+      GraphPolicies p,
+      int k) {
+    CsrGraph graph = CsrGraphBuilder.fromEdges(sources, targets, n).policies(p).build();
+    Classification c =
+        NodeClassifier.of(
+                model, ClassifyOptions.defaults().withPath(PathChoice.SPARSE).withExplanations(k))
+            .classify(graph, NodeFeatures.ofRowMajor(x, n, model.inputFeatureCount()));
+    List<List<NeighbourWeight>> out = new ArrayList<>(n);
+    for (NodePrediction prediction : c.predictions()) {
+      List<LayerExplanation> layers = prediction.explanation().orElseThrow();
+      out.add(layers.get(layers.size() - 1).topNeighbours());
+    }
+    return out;
+  }
+
+  /** The predictions by long id: the {@code classes} probability columns (from column 3 on). */
+  static Map<Long, float[]> byId(Dataset<Row> predictions, int classes) {
     Map<Long, float[]> out = new HashMap<>();
     for (Row r : predictions.collectAsList()) {
-      float[] p = new float[r.length() - 3];
+      float[] p = new float[classes];
       for (int c = 0; c < p.length; c++) {
         p[c] = r.getFloat(3 + c);
       }

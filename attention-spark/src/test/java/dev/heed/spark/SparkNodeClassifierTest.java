@@ -2,9 +2,11 @@ package dev.heed.spark;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertNotNull;
+import static org.junit.jupiter.api.Assertions.assertNull;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
+import dev.heed.classify.NeighbourWeight;
 import dev.heed.demo.PaymentsNetwork;
 import dev.heed.demo.PaymentsNetworkGenerator;
 import dev.heed.graph.DirectionPolicy;
@@ -19,9 +21,12 @@ import java.io.IOException;
 import java.io.InputStream;
 import java.util.ArrayList;
 import java.util.HashMap;
+import java.util.HashSet;
 import java.util.List;
 import java.util.Map;
+import java.util.Set;
 import java.util.SplittableRandom;
+import java.util.function.IntFunction;
 import org.apache.spark.sql.Dataset;
 import org.apache.spark.sql.Row;
 import org.apache.spark.sql.RowFactory;
@@ -31,11 +36,16 @@ import org.junit.jupiter.api.Test;
 
 /**
  * The distributed classifier against single-machine Heed on the same graphs: every probability
- * within 1e-5, in Spark's local mode with two cores and two shuffle partitions.
+ * within 1e-5, and where asked each node's top attention neighbours (ids, and weights within 1e-5)
+ * as the single-machine explanation names them, in Spark's local mode with two cores and two
+ * shuffle partitions.
  */
 class SparkNodeClassifierTest {
 
   private static final double TOLERANCE = 1e-5;
+
+  /** Neighbours asked for where a test checks them. */
+  private static final int NEIGHBOURS = 4;
 
   @Test
   void demoNetworkMatchesSingleMachineHeed() throws IOException {
@@ -79,10 +89,13 @@ class SparkNodeClassifierTest {
             .idColumn("account")
             .sourceColumn("from")
             .targetColumn("to")
+            .explainNeighbours(NEIGHBOURS)
             .build();
     GraphPolicies p = model.graphPolicies().orElseThrow();
     assertEquals(p, classifier.graphPolicies());
     float[] expected = LocalSpark.reference(model, src, dst, n, x, p);
+    List<List<NeighbourWeight>> why =
+        LocalSpark.explanations(model, src, dst, n, x, p, NEIGHBOURS + 2);
     try (SparkScores scores = classifier.classify(LocalSpark.session(), edges, features)) {
       List<Row> rows = scores.predictions().collectAsList();
       assertEquals(n, rows.size());
@@ -103,6 +116,7 @@ class SparkNodeClassifierTest {
           }
         }
         labelsAgree += model.classLabels().get(best).equals(r.getString(1)) ? 1 : 0;
+        assertNeighbours(r, 3 + classes, why.get(i), net::accountId, "account " + i);
       }
       assertTrue(worst <= TOLERANCE, "largest probability difference " + worst);
       assertEquals(n, labelsAgree);
@@ -145,9 +159,21 @@ class SparkNodeClassifierTest {
     AttentionModel model = TestModels.gatThenGatv2(9, 4, 3);
     GraphPolicies p =
         new GraphPolicies(DirectionPolicy.KEEP, SelfLoopPolicy.ADD, DuplicatePolicy.MERGE);
-    try (SparkScores scores =
-        compare(model, src, dst, n, 4, p, SparkNodeClassifier.builder(model).maxRowEntries(400))) {
+    SparkNodeClassifier.Builder builder =
+        SparkNodeClassifier.builder(model).maxRowEntries(400).explainNeighbours(NEIGHBOURS);
+    try (SparkScores scores = compare(model, src, dst, n, 4, p, builder)) {
       assertTrue(scores.splitRows() >= 1, "the hub's row was not split: " + scores.splitRows());
+      // The neighbours of every node, the split hub's included, as one machine names them.
+      float[] x = features(n, 4);
+      List<List<NeighbourWeight>> why =
+          LocalSpark.explanations(model, src, dst, n, x, p, NEIGHBOURS + 2);
+      int classes = model.classLabels().size();
+      List<Row> rows = scores.predictions().collectAsList();
+      assertEquals(n, rows.size());
+      for (Row r : rows) {
+        int i = (int) r.getLong(0);
+        assertNeighbours(r, 3 + classes, why.get(i), node -> (long) node, "node " + i);
+      }
     }
   }
 
@@ -175,6 +201,39 @@ class SparkNodeClassifierTest {
     assertTrue(e.getMessage().contains("attends to every node"), e.getMessage());
   }
 
+  /**
+   * Checks a prediction row's neighbour columns (from column {@code from}) against single-machine
+   * Heed's top {@code NEIGHBOURS + 2}: as many neighbours as it names (up to {@code NEIGHBOURS}),
+   * each weight within {@link #TOLERANCE} of the one at its rank, each id the one at its rank or,
+   * for weights within the tolerance of each other (a tie to float rounding), one of those.
+   */
+  private static void assertNeighbours(
+      Row r, int from, List<NeighbourWeight> expected, IntFunction<Object> id, String node) {
+    int count = Math.min(NEIGHBOURS, expected.size());
+    Set<Object> seen = new HashSet<>();
+    for (int i = 0; i < NEIGHBOURS; i++) {
+      Object got = r.get(from + 2 * i);
+      if (i >= count) {
+        assertNull(got, node + ": neighbour " + (i + 1) + " of " + count);
+        assertNull(r.get(from + 2 * i + 1), node + ": weight " + (i + 1) + " of " + count);
+        continue;
+      }
+      assertNotNull(got, node + ": neighbour " + (i + 1) + " of " + count);
+      float w = r.getFloat(from + 2 * i + 1);
+      assertEquals(expected.get(i).weight(), w, TOLERANCE, node + ": weight " + (i + 1));
+      List<Object> tied = new ArrayList<>();
+      for (NeighbourWeight e : expected) {
+        if (Math.abs(e.weight() - w) <= TOLERANCE) {
+          tied.add(id.apply(e.node()));
+        }
+      }
+      assertTrue(
+          tied.contains(got),
+          node + ": neighbour " + (i + 1) + " is " + got + ", expected " + expected);
+      assertTrue(seen.add(got), node + ": " + got + " named twice");
+    }
+  }
+
   /** Runs both and checks every probability; returns the (open) scores. */
   private static SparkScores compare(
       AttentionModel model,
@@ -184,8 +243,7 @@ class SparkNodeClassifierTest {
       int width,
       GraphPolicies p,
       SparkNodeClassifier.Builder builder) {
-    SplittableRandom r = new SplittableRandom(n + width);
-    float[] x = TestModels.random(r, n * width, 1);
+    float[] x = features(n, width);
     float[] expected = LocalSpark.reference(model, src, dst, n, x, p);
     SparkScores scores =
         builder
@@ -195,9 +253,9 @@ class SparkNodeClassifierTest {
                 LocalSpark.session(),
                 LocalSpark.edges(src, dst),
                 LocalSpark.features(x, n, width, TestModels.names(width)));
-    Map<Long, float[]> got = LocalSpark.byId(scores.predictions());
-    assertEquals(n, got.size());
     int classes = model.classLabels().size();
+    Map<Long, float[]> got = LocalSpark.byId(scores.predictions(), classes);
+    assertEquals(n, got.size());
     double worst = 0;
     for (int i = 0; i < n; i++) {
       float[] row = got.get((long) i);
@@ -208,6 +266,11 @@ class SparkNodeClassifierTest {
     }
     assertTrue(worst <= TOLERANCE, "largest probability difference " + worst);
     return scores;
+  }
+
+  /** The seeded random features {@link #compare} scores: n rows of {@code width}. */
+  private static float[] features(int n, int width) {
+    return TestModels.random(new SplittableRandom(n + width), n * width, 1);
   }
 
   static AttentionModel demoModel() throws IOException {

@@ -71,7 +71,9 @@ class SparkScoringJobTest {
               "--source-column",
               "from",
               "--target-column",
-              "to"
+              "to",
+              "--explain",
+              "2"
             }));
     List<Row> rows =
         LocalSpark.session()
@@ -81,6 +83,9 @@ class SparkScoringJobTest {
             .csv(out)
             .collectAsList();
     assertEquals(n, rows.size());
+    assertEquals(
+        List.of("neighbour_1", "weight_1", "neighbour_2", "weight_2"),
+        List.of(rows.get(0).schema().fieldNames()).subList(5, 9));
     float[] expected =
         LocalSpark.reference(model, src, dst, n, x, GraphPolicies.UNDIRECTED_WITH_SELF_LOOPS);
     for (Row row : rows) {
@@ -88,6 +93,13 @@ class SparkScoringJobTest {
       for (int c = 0; c < 2; c++) {
         double got = ((Number) row.get(3 + c)).doubleValue();
         assertEquals(expected[2 * i + c], got, 1e-5, "node " + i + " class " + c);
+      }
+      // Every node has a self-loop, so at least one neighbour; the best comes first.
+      assertTrue(row.getString(5).startsWith("n"), "node " + i + " neighbour 1: " + row.get(5));
+      if (row.get(8) != null) {
+        assertTrue(
+            ((Number) row.get(6)).doubleValue() >= ((Number) row.get(8)).doubleValue(),
+            "node " + i + " weights out of order");
       }
     }
   }
@@ -122,28 +134,22 @@ class SparkScoringJobTest {
 
   @Test
   void usageErrorsSayWhatIsWrong() {
-    assertTrue(
-        assertThrows(IllegalArgumentException.class, () -> SparkScoringJob.parse(new String[0]))
-            .getMessage()
-            .contains("missing --model, --edges, --features, --out"));
-    assertTrue(
-        assertThrows(
-                IllegalArgumentException.class,
-                () ->
-                    SparkScoringJob.parse(
-                        new String[] {
-                          "--model",
-                          "m",
-                          "--edges",
-                          "e",
-                          "--features",
-                          "f",
-                          "--out",
-                          "o",
-                          "--out-format",
-                          "json"
-                        }))
-            .getMessage()
-            .contains("parquet or csv"));
+    assertTrue(usageError().contains("missing --model, --edges, --features, --out"));
+    assertTrue(usageError("--out-format", "json").contains("parquet or csv"));
+    String k = usageError("--explain", "-3");
+    assertTrue(k.contains("--explain must be a whole number, got '-3'"), k);
+  }
+
+  /** The message of parsing the required options (when {@code more} is not empty) and more. */
+  private static String usageError(String... more) {
+    List<String> args = new ArrayList<>();
+    if (more.length > 0) {
+      args.addAll(List.of("--model", "m", "--edges", "e", "--features", "f", "--out", "o"));
+    }
+    args.addAll(List.of(more));
+    return assertThrows(
+            IllegalArgumentException.class,
+            () -> SparkScoringJob.parse(args.toArray(new String[0])))
+        .getMessage();
   }
 }
