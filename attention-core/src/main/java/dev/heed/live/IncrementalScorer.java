@@ -200,7 +200,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       }
       stage.needCount = n;
     }
-    process(RefreshOptions.UNLIMITED, new long[2]);
+    process(RefreshOptions.UNLIMITED, new long[2], null);
     deliveries = new ArrayList<>();
   }
 
@@ -328,7 +328,8 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         affected = ingest(batches, latest);
       }
       long[] done = new long[2];
-      int refreshed = process(options.workBudget(), done);
+      IntList refreshed = new IntList();
+      process(options.workBudget(), done, refreshed);
       List<Runnable> toDeliver = deliveries;
       deliveries = new ArrayList<>();
       for (Runnable delivery : toDeliver) {
@@ -339,10 +340,11 @@ public final class IncrementalScorer<K> implements AutoCloseable {
           reflected.version(),
           batches.size(),
           affected,
-          refreshed,
+          refreshed.size(),
           done[0],
           done[1],
-          last.needCount);
+          last.needCount,
+          refreshed.toArray());
     }
   }
 
@@ -708,13 +710,13 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   // ---------------------------------------------------------------- recomputing
 
   /**
-   * Recomputes pending rows stage by stage within {@code budget}; returns how many nodes got new
-   * final scores. {@code done}: rows [0] and work [1] are added to.
+   * Recomputes pending rows stage by stage within {@code budget}. {@code done}: rows [0] and work
+   * [1] are added to; {@code refreshed} (when not null) gets the nodes given new final scores, in
+   * increasing order (one pass over the last stage's marks).
    */
-  private int process(long budget, long[] done) {
+  private void process(long budget, long[] done, IntList refreshed) {
     long remaining = budget;
     boolean progressed = false;
-    int refreshed = 0;
     LiveSnapshot<K> snapshot = reflected;
     int n = snapshot.nodeCount();
     int[] targets = new int[CHUNK_ROWS];
@@ -722,13 +724,17 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       int cursor = 0;
       while (stage.needCount > 0) {
         if (remaining <= 0 && progressed) {
-          return refreshed;
+          return;
         }
         if (stage.needCount == n && budget == RefreshOptions.UNLIMITED && n > CHUNK_ROWS) {
           long work = runWhole(stage, snapshot);
           done[0] += n;
           done[1] += work;
-          refreshed += stage == last ? n : 0;
+          if (stage == last && refreshed != null) {
+            for (int v = 0; v < n; v++) {
+              refreshed.add(v);
+            }
+          }
           progressed = true;
           continue;
         }
@@ -746,11 +752,14 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         done[0] += k;
         done[1] += work;
         remaining -= work;
-        refreshed += stage == last ? k : 0;
+        if (stage == last && refreshed != null) {
+          for (int i = 0; i < k; i++) {
+            refreshed.add(targets[i]);
+          }
+        }
         progressed = true;
       }
     }
-    return refreshed;
   }
 
   /** Recomputes one stage for {@code k} nodes over their local pattern. */
@@ -1075,6 +1084,10 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         values = Arrays.copyOf(values, size * 2);
       }
       values[size++] = v;
+    }
+
+    int size() {
+      return size;
     }
 
     int[] toArray() {

@@ -142,11 +142,8 @@ class IncrementalScorerTest {
         IncrementalScorer<Integer> scorer =
             IncrementalScorer.create(model.model(), graph, SPARSE)) {
       LiveSnapshot<Integer> start = graph.snapshot();
-      assertMatches(
-          scorer,
-          fullPass(model.model(), start, PathChoice.SPARSE, model.hops()),
-          start.version(),
-          name + seed + ", start");
+      float[][] before = fullPass(model.model(), start, PathChoice.SPARSE, model.hops());
+      assertMatches(scorer, before, start.version(), name + seed + ", start");
       for (int b = 0; b < 25; b++) {
         BatchResult applied = randomBatch(graph, random, 1 + random.nextInt(6));
         RefreshReport report = scorer.refresh();
@@ -155,11 +152,37 @@ class IncrementalScorerTest {
         assertEquals(applied.version(), report.version(), where);
         assertEquals(1, report.batches(), where);
         LiveSnapshot<Integer> now = graph.snapshot();
-        assertMatches(
-            scorer,
-            fullPass(model.model(), now, PathChoice.SPARSE, model.hops()),
-            now.version(),
-            where);
+        float[][] after = fullPass(model.model(), now, PathChoice.SPARSE, model.hops());
+        assertMatches(scorer, after, now.version(), where);
+        assertRefreshedNodesCoverChanges(report, before, after, where);
+        before = after;
+      }
+    }
+  }
+
+  /**
+   * The report lists {@link RefreshReport#refreshedNodes()} nodes, increasing, the same as the
+   * affected count (nothing was pending before), and every node whose full-pass score moved (or
+   * that is new, or changed scorability) is among them.
+   */
+  private static void assertRefreshedNodesCoverChanges(
+      RefreshReport report, float[][] before, float[][] after, String where) {
+    int[] refreshed = report.refreshedNodeIndices();
+    assertEquals(report.refreshedNodes(), refreshed.length, where);
+    assertEquals(report.affectedNodes(), refreshed.length, where);
+    for (int k = 1; k < refreshed.length; k++) {
+      assertTrue(refreshed[k - 1] < refreshed[k], where + ": increasing at " + k);
+    }
+    for (int v = 0; v < after.length; v++) {
+      boolean moved =
+          v >= before.length
+              || (before[v] == null) != (after[v] == null)
+              || (after[v] != null
+                  && relativeError(after[v], before[v]) > LiveScoringChecks.TOLERANCE);
+      if (moved) {
+        assertTrue(
+            java.util.Arrays.binarySearch(refreshed, v) >= 0,
+            where + ": node " + v + "'s score moved but it was not refreshed");
       }
     }
   }

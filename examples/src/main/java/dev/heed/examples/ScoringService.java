@@ -538,7 +538,7 @@ public final class ScoringService implements AutoCloseable {
         throw new RequestProblem(400, e.getMessage());
       }
       LiveSnapshot<String> snapshot = live.snapshot();
-      List<LiveScores.Score> fresh = rescoring.refresh(snapshot, result);
+      List<LiveScores.Score> fresh = rescoring.refresh(snapshot);
       Table before = table;
       LiveScores.Score[] scores = Arrays.copyOf(before.scores(), snapshot.nodeCount());
       ObjectNode answer = JSON.createObjectNode();
