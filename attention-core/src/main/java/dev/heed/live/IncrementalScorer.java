@@ -97,7 +97,7 @@ import org.slf4j.LoggerFactory;
  *
  * <p><b>Memory</b> ({@link #stateBytes()}): per node, 4 bytes per output value of every stage and
  * per value of every kept projection (a 2-layer GAT of 8 heads × 8 dims over 64 features with 4
- * classes: 4·(64 + 4 + 80 + 80) = 912 bytes), 4 bytes of scratch, and 2 bits per stage plus 2; a
+ * classes: 4·(64 + 4 + 80 + 80) = 912 bytes), 4 bytes of scratch, and 3 bits per stage plus 2; a
  * directed graph adds its reverse adjacency, about 4 to 6 bytes per entry plus 24 per node. Each
  * long row whose sums were built keeps 8·(heads·(2 + head width) + 1) bytes plus a map entry (712
  * with 8 heads of 8 dims). The snapshot the scorer reflects is held too.
