@@ -100,7 +100,9 @@ import org.slf4j.LoggerFactory;
  * classes: 4·(64 + 4 + 80 + 80) = 912 bytes), 4 bytes of scratch, and 3 bits per stage plus 2; a
  * directed graph adds its reverse adjacency, about 4 to 6 bytes per entry plus 24 per node. Each
  * long row whose sums were built keeps 8·(heads·(2 + head width) + 1) bytes plus a map entry (712
- * with 8 heads of 8 dims). The snapshot the scorer reflects is held too.
+ * with 8 heads of 8 dims). The snapshot the scorer reflects is held too: after a compaction, the
+ * old base stays reachable until the next {@link #refresh()}, which moves to the compacted snapshot
+ * even when no batch arrived.
  *
  * <p><b>Cost</b> of a refresh: for each stage, O(Σ deg) over the rows recomputed (gathering their
  * sources' kept projections, the attention, the per-node layers), plus projecting each recomputed
@@ -388,6 +390,14 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       int affected = 0;
       if (!batches.isEmpty()) {
         affected = ingest(batches, latest);
+      } else if (latest.version() == previous.version() && latest != previous) {
+        // A compaction republished the same version: let go of the old base.
+        long stamp = published.writeLock();
+        try {
+          reflected = latest;
+        } finally {
+          published.unlockWrite(stamp);
+        }
       }
       long[] done = new long[2];
       IntList refreshed = new IntList();

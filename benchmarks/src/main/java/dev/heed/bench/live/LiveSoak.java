@@ -22,6 +22,8 @@ import java.util.Arrays;
 import java.util.Locale;
 import java.util.SplittableRandom;
 import java.util.concurrent.atomic.AtomicLong;
+import javax.management.JMException;
+import javax.management.ObjectName;
 
 /**
  * Soak of the live graph and its incremental scorer: many sequential single-node score requests
@@ -96,16 +98,20 @@ public final class LiveSoak {
           start.nodeCount(), start.edgeCount(), requests, updateEvery);
       soak.run(WARM_UP, updateEvery, false);
       graph.compact();
+      scorer.refresh(); // moves to the compacted snapshot, releasing the old base
       long before = usedAfterGc();
       say("heap used after compaction and a full GC, before: %,d bytes", before);
+      histogram();
       soak.run(requests, updateEvery, true);
       graph.compact();
+      scorer.refresh();
       long after = usedAfterGc();
       LiveSnapshot<Integer> end = graph.snapshot();
       say(
           "heap used after compaction and a full GC, after: %,d bytes; after - before: %+,d bytes"
               + " (%+.3f %%)",
           after, after - before, 100.0 * (after - before) / before);
+      histogram();
       say(
           "graph at the end: version %d, %,d row entries, compact: %s; threshold crossings"
               + " delivered: %,d",
@@ -206,6 +212,32 @@ public final class LiveSoak {
       System.gc();
     }
     return memory.getHeapMemoryUsage().getUsed();
+  }
+
+  /**
+   * With {@code -Dheed.soak.histogram=N}, prints the N largest lines of the heap's class histogram
+   * (the JVM's GC.class_histogram diagnostic command, which collects first).
+   */
+  private static void histogram() {
+    int lines = Integer.getInteger("heed.soak.histogram", 0);
+    if (lines <= 0) {
+      return;
+    }
+    try {
+      Object text =
+          ManagementFactory.getPlatformMBeanServer()
+              .invoke(
+                  new ObjectName("com.sun.management:type=DiagnosticCommand"),
+                  "gcClassHistogram",
+                  new Object[] {null},
+                  new String[] {String[].class.getName()});
+      String[] all = text.toString().split("\n");
+      for (int i = 0; i < Math.min(all.length, lines + 3); i++) {
+        say("  %s", all[i]);
+      }
+    } catch (JMException e) {
+      say("  (no class histogram: %s)", e);
+    }
   }
 
   private static void say(String format, Object... args) {
