@@ -216,7 +216,8 @@ public final class LiveSoak {
 
   /**
    * With {@code -Dheed.soak.histogram=N}, prints the N largest lines of the heap's class histogram
-   * (the JVM's GC.class_histogram diagnostic command, which collects first).
+   * and its total (the JVM's GC.class_histogram diagnostic command, which collects first: live
+   * objects only, the exact figure where the used heap after {@code System.gc()} still varies).
    */
   private static void histogram() {
     int lines = Integer.getInteger("heed.soak.histogram", 0);
@@ -232,9 +233,10 @@ public final class LiveSoak {
                   new Object[] {null},
                   new String[] {String[].class.getName()});
       String[] all = text.toString().split("\n");
-      for (int i = 0; i < Math.min(all.length, lines + 3); i++) {
+      for (int i = 0; i < Math.min(all.length - 1, lines + 2); i++) {
         say("  %s", all[i]);
       }
+      say("  %s", all[all.length - 1]); // the total
     } catch (JMException e) {
       say("  (no class histogram: %s)", e);
     }
