@@ -7,7 +7,9 @@ import dev.heed.model.AttentionModel;
 import dev.heed.model.Layer;
 import java.util.ArrayList;
 import java.util.Arrays;
+import java.util.HashMap;
 import java.util.List;
+import java.util.Map;
 import java.util.Objects;
 import java.util.concurrent.ConcurrentLinkedQueue;
 import java.util.concurrent.CopyOnWriteArrayList;
@@ -79,11 +81,28 @@ import org.slf4j.LoggerFactory;
  * multiply-adds each for the benchmark model). Other attention layers (graph-masked self-attention,
  * or an attention layer after per-node layers in the first stage) project every row they read.
  *
+ * <p><b>Kept softmax sums.</b> A long row (at least {@value #SUMS_MIN_DEGREE} entries) of such a
+ * GAT layer with additive scores (Veličković et al. 2018) also keeps, per head, a shift m, the sum
+ * S = Σ exp(e_j − m) and the weighted sum W = Σ exp(e_j − m)·v_j over its sources j, in float64, so
+ * that the head's output is W / S. When the row and the target's own projection are unchanged and
+ * only some sources' projections changed (a hub next to an updated node: the common case after an
+ * edge insert), the refresh subtracts those sources' old terms and adds their new ones, O(changed ×
+ * heads × head width) instead of O(degree × heads × head width), raising the shift when a new score
+ * exceeds it. The sums are rebuilt over the whole row instead when the row or the target changed,
+ * when a head's sum would shrink more than {@value KeptSums#MAX_SHRINK}× in one update
+ * (cancellation), after {@value KeptSums#MAX_UPDATES} updates in place (rounding drift), and for
+ * rows still pending when a new batch arrives. Rows reading a node without features, and shorter
+ * rows, run over the local pattern as before. The replaced projections are kept until the stage has
+ * nothing pending.
+ *
  * <p><b>Memory</b> ({@link #stateBytes()}): per node, 4 bytes per output value of every stage and
  * per value of every kept projection (a 2-layer GAT of 8 heads × 8 dims over 64 features with 4
- * classes: 4·(64 + 4 + 80 + 80) = 912 bytes), 4 bytes of scratch, and 2 bits per stage plus 2; a
- * directed graph adds its reverse adjacency, about 4 to 6 bytes per entry plus 24 per node. The
- * snapshot the scorer reflects is held too.
+ * classes: 4·(64 + 4 + 80 + 80) = 912 bytes), 4 bytes of scratch, and 3 bits per stage plus 2; a
+ * directed graph adds its reverse adjacency, about 4 to 6 bytes per entry plus 24 per node. Each
+ * long row whose sums were built keeps 8·(heads·(2 + head width) + 1) bytes plus a map entry (712
+ * with 8 heads of 8 dims). The snapshot the scorer reflects is held too: after a compaction, the
+ * old base stays reachable until the next {@link #refresh()}, which moves to the compacted snapshot
+ * even when no batch arrived.
  *
  * <p><b>Cost</b> of a refresh: for each stage, O(Σ deg) over the rows recomputed (gathering their
  * sources' kept projections, the attention, the per-node layers), plus projecting each recomputed
@@ -108,6 +127,12 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   /** Rows per chunk, at most. */
   static final int CHUNK_ROWS = 4096;
 
+  /**
+   * Rows with at least this many entries keep their softmax sums ({@link KeptSums}; GAT layers with
+   * additive scores that start a stage): 712 bytes per such row with 8 heads of 8 dims.
+   */
+  static final int SUMS_MIN_DEGREE = 128;
+
   private final AttentionModel model;
   private final VersionedGraph<K> graph;
   private final RefreshOptions options;
@@ -116,6 +141,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   private final Stage[] stages;
   private final Stage last;
   private final OutNeighbours outNeighbours; // null when rows are symmetric
+  private final int sumsMinDegree;
   private final ConcurrentLinkedQueue<BatchResult> feed = new ConcurrentLinkedQueue<>();
   private final Consumer<BatchResult> follower = feed::add;
   private final Object refreshLock = new Object();
@@ -153,6 +179,13 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     long[] need = new long[0];
     int needCount;
     long[] missing = new long[0];
+    final KeptSums kept; // null: rows do not keep softmax sums
+    final Map<Integer, double[]> sums = new HashMap<>();
+    // Nodes whose projection changed since the stage last had nothing pending, with the projection
+    // the kept sums were built from; trusted while every kept sum reflects exactly those.
+    final Map<Integer, float[]> replaced = new HashMap<>();
+    long[] replacedBits = new long[0];
+    boolean sumsTrusted = true;
 
     Stage(
         int index,
@@ -161,7 +194,8 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         boolean attends,
         int inWidth,
         int outWidth,
-        int projectionWidth) {
+        int projectionWidth,
+        KeptSums kept) {
       this.index = index;
       this.from = from;
       this.to = to;
@@ -169,6 +203,20 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       this.inWidth = inWidth;
       this.outWidth = outWidth;
       this.projectionWidth = projectionWidth;
+      this.kept = kept;
+    }
+
+    boolean keepsSums() {
+      return kept != null;
+    }
+
+    /** Forgets the replaced projections: every row of the stage is up to date. */
+    void settle() {
+      for (int v : replaced.keySet()) {
+        clear(replacedBits, v);
+      }
+      replaced.clear();
+      sumsTrusted = true;
     }
   }
 
@@ -177,8 +225,10 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   private record ThresholdWatch<K>(
       int classIndex, float threshold, Consumer<ThresholdCrossing<K>> listener) {}
 
-  private IncrementalScorer(AttentionModel model, VersionedGraph<K> graph, RefreshOptions options) {
+  private IncrementalScorer(
+      AttentionModel model, VersionedGraph<K> graph, RefreshOptions options, int sumsMinDegree) {
     this.model = model;
+    this.sumsMinDegree = sumsMinDegree;
     this.graph = graph;
     this.options = options;
     this.steps = ModelSteps.get();
@@ -200,7 +250,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       }
       stage.needCount = n;
     }
-    process(RefreshOptions.UNLIMITED, new long[2]);
+    process(RefreshOptions.UNLIMITED, new long[2], null);
     deliveries = new ArrayList<>();
   }
 
@@ -222,6 +272,15 @@ public final class IncrementalScorer<K> implements AutoCloseable {
    */
   public static <K> IncrementalScorer<K> create(
       AttentionModel model, VersionedGraph<K> graph, RefreshOptions options) {
+    return create(model, graph, options, SUMS_MIN_DEGREE);
+  }
+
+  /**
+   * {@link #create(AttentionModel, VersionedGraph, RefreshOptions)} with rows of at least {@code
+   * sumsMinDegree} entries keeping their softmax sums (tests use 1, so that every row does).
+   */
+  static <K> IncrementalScorer<K> create(
+      AttentionModel model, VersionedGraph<K> graph, RefreshOptions options, int sumsMinDegree) {
     Objects.requireNonNull(model, "model");
     Objects.requireNonNull(graph, "graph");
     Objects.requireNonNull(options, "options");
@@ -254,7 +313,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       throw new IllegalStateException(
           "cannot create an incremental scorer: the live graph is closed");
     }
-    return new IncrementalScorer<>(model, graph, options);
+    return new IncrementalScorer<>(model, graph, options, sumsMinDegree);
   }
 
   private static boolean isComplete(AttentionModel model, String name) {
@@ -290,6 +349,8 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         attends |= steps.reads(model, l) == ModelSteps.READS_IN_NEIGHBOURS;
       }
       boolean startsWithAttention = steps.reads(model, from) == ModelSteps.READS_IN_NEIGHBOURS;
+      int projectionWidth = startsWithAttention ? steps.projectionWidth(model, from) : 0;
+      float slope = projectionWidth > 0 ? steps.additiveSlope(model, from) : Float.NaN;
       out[s] =
           new Stage(
               s,
@@ -298,7 +359,10 @@ public final class IncrementalScorer<K> implements AutoCloseable {
               attends,
               layers.get(from).inputWidth(),
               layers.get(to - 1).outputWidth(),
-              startsWithAttention ? steps.projectionWidth(model, from) : 0);
+              projectionWidth,
+              Float.isNaN(slope)
+                  ? null
+                  : new KeptSums(layers.get(from).attentionHeads(), projectionWidth, slope));
     }
     return out;
   }
@@ -326,9 +390,18 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       int affected = 0;
       if (!batches.isEmpty()) {
         affected = ingest(batches, latest);
+      } else if (latest.version() == previous.version() && latest != previous) {
+        // A compaction republished the same version: let go of the old base.
+        long stamp = published.writeLock();
+        try {
+          reflected = latest;
+        } finally {
+          published.unlockWrite(stamp);
+        }
       }
       long[] done = new long[2];
-      int refreshed = process(options.workBudget(), done);
+      IntList refreshed = new IntList();
+      process(options.workBudget(), done, refreshed);
       List<Runnable> toDeliver = deliveries;
       deliveries = new ArrayList<>();
       for (Runnable delivery : toDeliver) {
@@ -339,10 +412,11 @@ public final class IncrementalScorer<K> implements AutoCloseable {
           reflected.version(),
           batches.size(),
           affected,
-          refreshed,
+          refreshed.size(),
           done[0],
           done[1],
-          last.needCount);
+          last.needCount,
+          refreshed.toArray());
     }
   }
 
@@ -507,7 +581,13 @@ public final class IncrementalScorer<K> implements AutoCloseable {
             Layout.arrayBytes(stage.out.length, 4)
                 + Layout.arrayBytes(stage.projections.length, 4)
                 + Layout.arrayBytes(stage.need.length, 8)
-                + Layout.arrayBytes(stage.missing.length, 8);
+                + Layout.arrayBytes(stage.missing.length, 8)
+                + Layout.arrayBytes(stage.replacedBits.length, 8);
+        // Kept sums: each row's array plus about 48 bytes of map entry and key (common practice
+        // for java.util.HashMap with compressed references).
+        int sumsLength = stage.kept == null ? 0 : stage.kept.length();
+        total += stage.sums.size() * (Layout.arrayBytes(sumsLength, 8) + 48L);
+        total += stage.replaced.size() * (Layout.arrayBytes(stage.projectionWidth, 4) + 48L);
       }
       return total + (outNeighbours == null ? 0 : outNeighbours.bytes());
     }
@@ -568,6 +648,15 @@ public final class IncrementalScorer<K> implements AutoCloseable {
     }
     int[] rows = unionOf(batches, true);
     int[] features = unionOf(batches, false);
+    for (Stage stage : stages) {
+      if (stage.keepsSums()) {
+        // Rows still pending may hold sums from before projections replaced since: rebuild them.
+        stage.sumsTrusted &= stage.needCount == 0;
+        for (int v : rows) {
+          stage.sums.remove(v);
+        }
+      }
+    }
     keepProjections(stages[0], next, features, features.length);
     if (outNeighbours != null) {
       outNeighbours.grow(n);
@@ -675,7 +764,10 @@ public final class IncrementalScorer<K> implements AutoCloseable {
 
   /** Copies a row of {@code snapshot} into {@link #rowBuffer}; returns its degree. */
   private int fetchRow(LiveSnapshot<K> snapshot, int v) {
-    int d = snapshot.degree(v);
+    return fetchRow(snapshot, v, snapshot.degree(v));
+  }
+
+  private int fetchRow(LiveSnapshot<K> snapshot, int v, int d) {
     if (rowBuffer.length < d) {
       rowBuffer = new int[Math.max(d, rowBuffer.length * 2)];
     }
@@ -696,6 +788,7 @@ public final class IncrementalScorer<K> implements AutoCloseable {
           Arrays.copyOf(stage.projections, Math.multiplyExact(next, stage.projectionWidth));
       stage.need = Arrays.copyOf(stage.need, words);
       stage.missing = Arrays.copyOf(stage.missing, words);
+      stage.replacedBits = Arrays.copyOf(stage.replacedBits, words);
     }
     scored = Arrays.copyOf(scored, words);
     seen = Arrays.copyOf(seen, words);
@@ -708,13 +801,13 @@ public final class IncrementalScorer<K> implements AutoCloseable {
   // ---------------------------------------------------------------- recomputing
 
   /**
-   * Recomputes pending rows stage by stage within {@code budget}; returns how many nodes got new
-   * final scores. {@code done}: rows [0] and work [1] are added to.
+   * Recomputes pending rows stage by stage within {@code budget}. {@code done}: rows [0] and work
+   * [1] are added to; {@code refreshed} (when not null) gets the nodes given new final scores, in
+   * increasing order (one pass over the last stage's marks).
    */
-  private int process(long budget, long[] done) {
+  private void process(long budget, long[] done, IntList refreshed) {
     long remaining = budget;
     boolean progressed = false;
-    int refreshed = 0;
     LiveSnapshot<K> snapshot = reflected;
     int n = snapshot.nodeCount();
     int[] targets = new int[CHUNK_ROWS];
@@ -722,13 +815,17 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       int cursor = 0;
       while (stage.needCount > 0) {
         if (remaining <= 0 && progressed) {
-          return refreshed;
+          return;
         }
         if (stage.needCount == n && budget == RefreshOptions.UNLIMITED && n > CHUNK_ROWS) {
           long work = runWhole(stage, snapshot);
           done[0] += n;
           done[1] += work;
-          refreshed += stage == last ? n : 0;
+          if (stage == last && refreshed != null) {
+            for (int v = 0; v < n; v++) {
+              refreshed.add(v);
+            }
+          }
           progressed = true;
           continue;
         }
@@ -742,19 +839,122 @@ public final class IncrementalScorer<K> implements AutoCloseable {
           work += (stage.attends ? snapshot.degree(v) : 0) + 1;
           cursor = v + 1;
         }
-        runChunk(stage, snapshot, targets, k);
+        work = runChunk(stage, snapshot, targets, k);
         done[0] += k;
         done[1] += work;
         remaining -= work;
-        refreshed += stage == last ? k : 0;
+        if (stage == last && refreshed != null) {
+          for (int i = 0; i < k; i++) {
+            refreshed.add(targets[i]);
+          }
+        }
         progressed = true;
       }
+      stage.settle();
     }
-    return refreshed;
+  }
+
+  /**
+   * Recomputes one stage for {@code k} nodes ({@code targets} is not modified): rows with kept
+   * softmax sums from those, the others over their local pattern. Returns the work done.
+   */
+  private long runChunk(Stage stage, LiveSnapshot<K> snapshot, int[] targets, int k) {
+    long work = 0;
+    if (stage.keepsSums()) {
+      int[] rest = new int[k];
+      int[] counts = new int[1];
+      work = runWithSums(stage, snapshot, targets, k, rest, counts);
+      if (counts[0] == 0) {
+        return work;
+      }
+      targets = rest;
+      k = counts[0];
+    }
+    for (int i = 0; i < k; i++) {
+      work += (stage.attends ? snapshot.degree(targets[i]) : 0) + 1;
+    }
+    runOverPattern(stage, snapshot, targets, k);
+    return work;
+  }
+
+  /**
+   * Recomputes the targets whose rows keep softmax sums (at least {@link #sumsMinDegree} entries,
+   * every input present) from those sums, and copies the other targets to {@code rest} ({@code
+   * counts[0]} of them). Kept per row and head: a shift m (at least the largest score when the sums
+   * were built), S = Σ exp(e_j − m) and W = Σ exp(e_j − m)·v_j over the row's sources j, in
+   * float64, so the head's output is W / S. When only some sources' projections changed since (the
+   * row and its own projection did not), their old terms are subtracted and new ones added,
+   * O(changed × heads × headWidth); otherwise, or when a subtraction would cancel too many bits,
+   * the sums are rebuilt over the whole row. Returns the work: rows plus sources read (the changed
+   * ones when updated in place).
+   */
+  private long runWithSums(
+      Stage stage, LiveSnapshot<K> snapshot, int[] targets, int k, int[] rest, int[] counts) {
+    KeptSums kept = stage.kept;
+    int hd = kept.heads * kept.headWidth;
+    int[] done = new int[k];
+    float[] attended = null;
+    int rows = 0;
+    int others = 0;
+    long work = 0;
+    Stage before = stage.index == 0 ? null : stages[stage.index - 1];
+    boolean featuresMissing = before == null && snapshot.missingFeatureCount() > 0;
+    for (int i = 0; i < k; i++) {
+      int t = targets[i];
+      int d = snapshot.degree(t);
+      // Short rows, and rows reading a node without features, go over the local pattern.
+      boolean overPattern =
+          d < sumsMinDegree || (before == null ? !snapshot.hasFeatures(t) : get(before.missing, t));
+      int changed = 0;
+      if (!overPattern) {
+        fetchRow(snapshot, t, d);
+        for (int j = 0; j < d && !overPattern; j++) {
+          int u = rowBuffer[j];
+          overPattern =
+              before == null ? featuresMissing && !snapshot.hasFeatures(u) : get(before.missing, u);
+          changed += get(stage.replacedBits, u) ? 1 : 0;
+        }
+      }
+      if (overPattern) {
+        stage.sums.remove(t);
+        rest[others++] = t;
+        continue;
+      }
+      double[] sums = stage.sumsTrusted ? stage.sums.get(t) : null;
+      float[] table = stage.projections;
+      if (sums == null
+          || !kept.update(table, t, rowBuffer, d, stage.replacedBits, stage.replaced, sums)) {
+        sums = kept.build(table, t, rowBuffer, d);
+        stage.sums.put(t, sums);
+        work += d;
+      } else {
+        work += changed;
+      }
+      if (attended == null) {
+        attended = new float[k * hd];
+      }
+      kept.output(sums, attended, rows * hd);
+      done[rows++] = t;
+      work++;
+    }
+    counts[0] = others;
+    if (rows > 0) {
+      float[] result =
+          steps.finishProjected(
+              model,
+              stage.from,
+              stage.to,
+              attended,
+              inputs(stage, snapshot, done, rows),
+              rows,
+              options.path());
+      commit(stage, snapshot, done, rows, result, new boolean[rows]);
+    }
+    return work;
   }
 
   /** Recomputes one stage for {@code k} nodes over their local pattern. */
-  private void runChunk(Stage stage, LiveSnapshot<K> snapshot, int[] targets, int k) {
+  private void runOverPattern(Stage stage, LiveSnapshot<K> snapshot, int[] targets, int k) {
     int rowsIn = k;
     ensureReads(k);
     CsrGraph pattern = null;
@@ -843,6 +1043,9 @@ public final class IncrementalScorer<K> implements AutoCloseable {
 
   /** Recomputes one stage for every node, over the snapshot's whole graph. Returns the work. */
   private long runWhole(Stage stage, LiveSnapshot<K> snapshot) {
+    for (int s = stage.index; s < stages.length; s++) {
+      stages[s].sums.clear(); // rebuilt when next needed; nothing to record for them meanwhile
+    }
     int n = snapshot.nodeCount();
     int[] all = new int[n];
     Arrays.setAll(all, i -> i);
@@ -907,6 +1110,16 @@ public final class IncrementalScorer<K> implements AutoCloseable {
       int[] block = Arrays.copyOfRange(nodes, start, start + rows);
       float[] projected =
           steps.project(model, stage.from, inputs(stage, snapshot, block, rows), rows);
+      if (!stage.sums.isEmpty()) {
+        for (int r = 0; r < rows; r++) {
+          int v = block[r];
+          stage.sums.remove(v); // its own target term changes
+          if (!get(stage.replacedBits, v)) {
+            set(stage.replacedBits, v);
+            stage.replaced.put(v, Arrays.copyOfRange(stage.projections, v * w, v * w + w));
+          }
+        }
+      }
       for (int r = 0; r < rows; r++) {
         System.arraycopy(projected, r * w, stage.projections, block[r] * w, w);
       }
@@ -1075,6 +1288,10 @@ public final class IncrementalScorer<K> implements AutoCloseable {
         values = Arrays.copyOf(values, size * 2);
       }
       values[size++] = v;
+    }
+
+    int size() {
+      return size;
     }
 
     int[] toArray() {

@@ -4,7 +4,7 @@ package dev.heed.live;
  * What one {@link IncrementalScorer#refresh()} did: the version it brought the scorer to, how many
  * nodes the new batches affected, how much it recomputed and what is left pending.
  *
- * <p>Thread safety: immutable.
+ * <p>Thread safety: immutable (the node list is copied out on each call).
  */
 public final class RefreshReport {
 
@@ -16,6 +16,7 @@ public final class RefreshReport {
   private final long rowsComputed;
   private final long entriesComputed;
   private final int pendingNodes;
+  private final int[] refreshed;
 
   RefreshReport(
       long previousVersion,
@@ -25,7 +26,8 @@ public final class RefreshReport {
       int refreshedNodes,
       long rowsComputed,
       long entriesComputed,
-      int pendingNodes) {
+      int pendingNodes,
+      int[] refreshed) {
     this.previousVersion = previousVersion;
     this.version = version;
     this.batches = batches;
@@ -34,6 +36,7 @@ public final class RefreshReport {
     this.rowsComputed = rowsComputed;
     this.entriesComputed = entriesComputed;
     this.pendingNodes = pendingNodes;
+    this.refreshed = refreshed;
   }
 
   /**
@@ -80,6 +83,19 @@ public final class RefreshReport {
    */
   public int refreshedNodes() {
     return refreshedNodes;
+  }
+
+  /**
+   * Returns the nodes that got new final scores in this refresh ({@link #refreshedNodes()} of
+   * them), as node indices of the graph at {@link #version()} (map them to ids with {@code
+   * snapshot.nodes().idOf(index)}), in increasing order. Each node's score as of {@link #version()}
+   * is fresh or {@link ScoreState#NOT_SCORABLE}. Nodes refreshed here are the only ones whose
+   * scores may differ from the previous fresh ones. O(refreshed nodes): a new array per call.
+   *
+   * @return the node indices, increasing; empty when none was refreshed
+   */
+  public int[] refreshedNodeIndices() {
+    return refreshed.clone();
   }
 
   /**

@@ -1,5 +1,6 @@
 package dev.heed.model;
 
+import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import dev.heed.internal.model.ModelSteps;
 import java.util.List;
@@ -28,14 +29,7 @@ final class StepAccess extends ModelSteps {
       PathChoice path) {
     List<Layer> layers = model.layers();
     assert input.length == rowsIn * layers.get(from).inputWidth();
-    ForwardPass pass =
-        new ForwardPass(
-            pattern,
-            rowsIn,
-            path,
-            model.kernelSource(),
-            model.autoCosts(path),
-            model.kernelOptions().threads());
+    ForwardPass pass = localPass(model, pattern, rowsIn, path);
     float[] x = input;
     for (int index = from; index < to; index++) {
       Layer layer = layers.get(index);
@@ -73,14 +67,7 @@ final class StepAccess extends ModelSteps {
       float[] targetInput,
       PathChoice path) {
     List<Layer> layers = model.layers();
-    ForwardPass pass =
-        new ForwardPass(
-            pattern,
-            rowsIn,
-            path,
-            model.kernelSource(),
-            model.autoCosts(path),
-            model.kernelOptions().threads());
+    ForwardPass pass = localPass(model, pattern, rowsIn, path);
     pass.rowsOut = rowsOut;
     float[] x =
         ((GraphAttentionLayer) layers.get(from)).forwardProjected(table, rows, targetInput, pass);
@@ -89,5 +76,43 @@ final class StepAccess extends ModelSteps {
       x = layers.get(index).forward(x, pass);
     }
     return x;
+  }
+
+  @Override
+  public float additiveSlope(AttentionModel model, int layer) {
+    return model.layers().get(layer) instanceof GraphAttentionLayer gat
+            && gat.score() instanceof ScoreFunction.Additive additive
+        ? additive.negativeSlope()
+        : Float.NaN;
+  }
+
+  @Override
+  public float[] finishProjected(
+      AttentionModel model,
+      int from,
+      int to,
+      float[] attended,
+      float[] targetInput,
+      int rows,
+      PathChoice path) {
+    List<Layer> layers = model.layers();
+    ForwardPass pass = localPass(model, null, rows, path);
+    float[] x =
+        ((GraphAttentionLayer) layers.get(from)).finishAttention(targetInput, attended, rows);
+    for (int index = from + 1; index < to; index++) {
+      x = layers.get(index).forward(x, pass);
+    }
+    return x;
+  }
+
+  private static ForwardPass localPass(
+      AttentionModel model, AttentionPattern pattern, int rows, PathChoice path) {
+    return new ForwardPass(
+        pattern,
+        rows,
+        path,
+        model.kernelSource(),
+        model.autoCosts(path),
+        model.kernelOptions().threads());
   }
 }

@@ -31,6 +31,7 @@ import org.junit.jupiter.api.Test;
 import org.junit.jupiter.params.ParameterizedTest;
 import org.junit.jupiter.params.provider.Arguments;
 import org.junit.jupiter.params.provider.MethodSource;
+import org.junit.jupiter.params.provider.ValueSource;
 
 /**
  * Incremental scoring on live graphs against from-scratch full passes, on the float64 reference
@@ -98,13 +99,21 @@ class IncrementalScorerTest {
         2);
   }
 
+  /**
+   * Kept softmax sums: every GAT row keeps them (1), or only the long rows, as in production (none
+   * of these small graphs' rows reach it, so every row runs over its local pattern).
+   */
+  private static final int[] SUMS_MIN_DEGREES = {1, IncrementalScorer.SUMS_MIN_DEGREE};
+
   static Stream<Arguments> cases() {
     List<Arguments> all = new ArrayList<>();
     long seed = 20261204L;
     for (boolean symmetric : new boolean[] {true, false}) {
       for (int g = 0; g < 2; g++) {
         for (int m = 0; m < 3; m++) {
-          all.add(Arguments.of(g, m, symmetric, seed++));
+          for (int sumsMinDegree : SUMS_MIN_DEGREES) {
+            all.add(Arguments.of(g, m, symmetric, seed++, sumsMinDegree));
+          }
         }
       }
     }
@@ -132,21 +141,24 @@ class IncrementalScorerTest {
   @ParameterizedTest
   @MethodSource("cases")
   void refreshedScoresMatchAFullPassAfterEveryBatch(
-      int graphKind, int modelKind, boolean symmetric, long seed) {
+      int graphKind, int modelKind, boolean symmetric, long seed, int sumsMinDegree) {
     SplittableRandom random = new SplittableRandom(seed);
     Edges edges = graphKind == 0 ? rmat(seed) : karate();
     Model model = model(modelKind, seed);
     String name =
-        edges.name() + (symmetric ? " symmetrised" : " directed") + ", " + model.name() + ", seed ";
+        edges.name()
+            + (symmetric ? " symmetrised" : " directed")
+            + ", "
+            + model.name()
+            + ", sums from degree "
+            + sumsMinDegree
+            + ", seed ";
     try (VersionedGraph<Integer> graph = load(edges, symmetric, random);
         IncrementalScorer<Integer> scorer =
-            IncrementalScorer.create(model.model(), graph, SPARSE)) {
+            IncrementalScorer.create(model.model(), graph, SPARSE, sumsMinDegree)) {
       LiveSnapshot<Integer> start = graph.snapshot();
-      assertMatches(
-          scorer,
-          fullPass(model.model(), start, PathChoice.SPARSE, model.hops()),
-          start.version(),
-          name + seed + ", start");
+      float[][] before = fullPass(model.model(), start, PathChoice.SPARSE, model.hops());
+      assertMatches(scorer, before, start.version(), name + seed + ", start");
       for (int b = 0; b < 25; b++) {
         BatchResult applied = randomBatch(graph, random, 1 + random.nextInt(6));
         RefreshReport report = scorer.refresh();
@@ -155,12 +167,85 @@ class IncrementalScorerTest {
         assertEquals(applied.version(), report.version(), where);
         assertEquals(1, report.batches(), where);
         LiveSnapshot<Integer> now = graph.snapshot();
-        assertMatches(
-            scorer,
-            fullPass(model.model(), now, PathChoice.SPARSE, model.hops()),
-            now.version(),
-            where);
+        float[][] after = fullPass(model.model(), now, PathChoice.SPARSE, model.hops());
+        assertMatches(scorer, after, now.version(), where);
+        assertRefreshedNodesCoverChanges(report, before, after, where);
+        before = after;
       }
+    }
+  }
+
+  /**
+   * The report lists {@link RefreshReport#refreshedNodes()} nodes, increasing, the same as the
+   * affected count (nothing was pending before), and every node whose full-pass score moved (or
+   * that is new, or changed scorability) is among them.
+   */
+  private static void assertRefreshedNodesCoverChanges(
+      RefreshReport report, float[][] before, float[][] after, String where) {
+    int[] refreshed = report.refreshedNodeIndices();
+    assertEquals(report.refreshedNodes(), refreshed.length, where);
+    assertEquals(report.affectedNodes(), refreshed.length, where);
+    for (int k = 1; k < refreshed.length; k++) {
+      assertTrue(refreshed[k - 1] < refreshed[k], where + ": increasing at " + k);
+    }
+    for (int v = 0; v < after.length; v++) {
+      boolean moved =
+          v >= before.length
+              || (before[v] == null) != (after[v] == null)
+              || (after[v] != null
+                  && relativeError(after[v], before[v]) > LiveScoringChecks.TOLERANCE);
+      if (moved) {
+        assertTrue(
+            java.util.Arrays.binarySearch(refreshed, v) >= 0,
+            where + ": node " + v + "'s score moved but it was not refreshed");
+      }
+    }
+  }
+
+  /**
+   * A hub's kept softmax sums are updated in place when one source's input changes: against a
+   * scorer of the same graph without kept sums, the refresh reads only the changed source for the
+   * hub's row instead of its whole row (less work by about the hub's degree), and both scorers'
+   * scores equal the full pass. Features scaled up to 8× in some rounds make the shift move and the
+   * sums shrink, so rescaling and rebuilding run too.
+   */
+  @ParameterizedTest
+  @ValueSource(booleans = {true, false})
+  void keptSumsAreUpdatedInPlaceAndStayExact(boolean symmetric) {
+    SplittableRandom random = new SplittableRandom(5150L);
+    Model model = twoLayers(5150L);
+    try (VersionedGraph<Integer> graph = load(rmat(5150L), symmetric, random);
+        IncrementalScorer<Integer> kept =
+            IncrementalScorer.create(model.model(), graph, SPARSE, 1);
+        IncrementalScorer<Integer> plain =
+            IncrementalScorer.create(model.model(), graph, SPARSE, Integer.MAX_VALUE)) {
+      LiveSnapshot<Integer> start = graph.snapshot();
+      int hub = hub(start);
+      int degree = start.degree(hub);
+      int[] row = new int[degree];
+      start.copyRow(hub, row, 0);
+      int source = row[0] == hub ? row[1] : row[0];
+      int rounds = 12;
+      int inPlace = 0;
+      for (int round = 0; round < rounds; round++) {
+        float[] x = gaussian(random, FEATURES);
+        float scale = round % 3 == 2 ? 8f : 1f;
+        for (int k = 0; k < x.length; k++) {
+          x[k] *= scale;
+        }
+        graph.apply(graph.newBatch().setFeatures(source, x));
+        RefreshReport withSums = kept.refresh();
+        RefreshReport without = plain.refresh();
+        LiveSnapshot<Integer> now = graph.snapshot();
+        String where = "round " + round + ", hub degree " + degree + ": " + withSums;
+        float[][] expected = fullPass(model.model(), now, PathChoice.SPARSE, 2);
+        assertMatches(kept, expected, now.version(), where);
+        assertMatches(plain, expected, now.version(), where + ", without kept sums");
+        assertEquals(without.affectedNodes(), withSums.affectedNodes(), where);
+        assertEquals(without.rowsComputed(), withSums.rowsComputed(), where);
+        inPlace += withSums.entriesComputed() <= without.entriesComputed() - degree + 1 ? 1 : 0;
+      }
+      assertTrue(inPlace >= rounds / 2, inPlace + " of " + rounds + " rounds updated in place");
     }
   }
 
@@ -201,13 +286,15 @@ class IncrementalScorerTest {
 
   @ParameterizedTest
   @MethodSource("budgetCases")
-  void aHubUpdateWithASmallBudgetLeavesPendingNodesThatConverge(int graphKind, boolean symmetric) {
+  void aHubUpdateWithASmallBudgetLeavesPendingNodesThatConverge(
+      int graphKind, boolean symmetric, int sumsMinDegree) {
     SplittableRandom random = new SplittableRandom(31L + graphKind);
     Edges edges = graphKind == 0 ? rmat(31L) : karate();
     Model model = twoLayers(31L);
     RefreshOptions small = SPARSE.withWorkBudget(8);
     try (VersionedGraph<Integer> graph = load(edges, symmetric, random);
-        IncrementalScorer<Integer> scorer = IncrementalScorer.create(model.model(), graph, small)) {
+        IncrementalScorer<Integer> scorer =
+            IncrementalScorer.create(model.model(), graph, small, sumsMinDegree)) {
       LiveSnapshot<Integer> before = graph.snapshot();
       int hub = hub(before);
       int other = (hub + 1) % before.nodeCount();
@@ -238,11 +325,15 @@ class IncrementalScorerTest {
   }
 
   static Stream<Arguments> budgetCases() {
-    return Stream.of(
-        Arguments.of(0, true),
-        Arguments.of(0, false),
-        Arguments.of(1, true),
-        Arguments.of(1, false));
+    List<Arguments> all = new ArrayList<>();
+    for (int graphKind = 0; graphKind < 2; graphKind++) {
+      for (boolean symmetric : new boolean[] {true, false}) {
+        for (int sumsMinDegree : SUMS_MIN_DEGREES) {
+          all.add(Arguments.of(graphKind, symmetric, sumsMinDegree));
+        }
+      }
+    }
+    return all.stream();
   }
 
   /** While work is pending, every node is pending or already exact for the new version. */
@@ -374,17 +465,19 @@ class IncrementalScorerTest {
     }
   }
 
-  @Test
-  void readersSeeVersionMatchedScoresWhileRefreshesRun() {
-    assertTimeoutPreemptively(Duration.ofSeconds(120), this::readersAndOneRefresher);
+  @ParameterizedTest
+  @ValueSource(ints = {1, IncrementalScorer.SUMS_MIN_DEGREE})
+  void readersSeeVersionMatchedScoresWhileRefreshesRun(int sumsMinDegree) {
+    assertTimeoutPreemptively(Duration.ofSeconds(120), () -> readersAndOneRefresher(sumsMinDegree));
   }
 
-  private void readersAndOneRefresher() throws InterruptedException {
+  private void readersAndOneRefresher(int sumsMinDegree) throws InterruptedException {
     SplittableRandom random = new SplittableRandom(8888L);
     Model model = twoLayers(8888L);
     try (VersionedGraph<Integer> graph = load(rmat(8888L), false, random);
         IncrementalScorer<Integer> scorer =
-            IncrementalScorer.create(model.model(), graph, SPARSE.withWorkBudget(40))) {
+            IncrementalScorer.create(
+                model.model(), graph, SPARSE.withWorkBudget(40), sumsMinDegree)) {
       Map<Long, float[][]> expected = new ConcurrentHashMap<>();
       LiveSnapshot<Integer> start = graph.snapshot();
       expected.put(start.version(), fullPass(model.model(), start, PathChoice.SPARSE, 2));

@@ -242,7 +242,7 @@ final class Replay {
         }
         long applied = System.nanoTime();
         LiveSnapshot<String> snapshot = live.snapshot();
-        AffectedScores.Refreshed fresh = scorer.refresh(snapshot, result);
+        AffectedScores.Refreshed fresh = scorer.refresh(snapshot);
         long scored = System.nanoTime();
         batchNanos[b] = scored - began;
         scoreNanos[b] = scored - applied;

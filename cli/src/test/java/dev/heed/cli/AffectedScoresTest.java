@@ -35,9 +35,11 @@ import org.junit.jupiter.api.Test;
  * affected nodes (from the incremental scorer, or from receptive-field scoring of every node for a
  * model with full self-attention) equal a whole-graph pass over the new version, and every node
  * outside the affected set has the same whole-graph score as before the batch (which checks that
- * the set misses nothing). Graphs: random directed and symmetrised graphs, and Zachary's karate
- * club (W. W. Zachary, "An information flow model for conflict and fission in small groups",
- * Journal of Anthropological Research 33(4), 1977; structure from JGraphT's NamedGraphGenerator).
+ * the set misses nothing), and the affected set equals a breadth-first walk of the new version's
+ * out-edges from what the batch changed, done here independently. Graphs: random directed and
+ * symmetrised graphs, and Zachary's karate club (W. W. Zachary, "An information flow model for
+ * conflict and fission in small groups", Journal of Anthropological Research 33(4), 1977; structure
+ * from JGraphT's NamedGraphGenerator).
  */
 class AffectedScoresTest {
 
@@ -105,7 +107,7 @@ class AffectedScoresTest {
       AffectedScores seam = new AffectedScores(mixed, SPARSE, live);
       assertFalse(seam.incremental(), "the incremental scorer refuses full self-attention");
       BatchResult result = live.apply(live.newBatch().addEdge("n0", "n10"));
-      AffectedScores.Refreshed fresh = seam.refresh(live.snapshot(), result);
+      AffectedScores.Refreshed fresh = seam.refresh(live.snapshot());
       assertEquals(20, fresh.affected().length);
       assertEquals(20, fresh.refreshAffected());
       assertEquals(20, fresh.refreshed());
@@ -137,10 +139,12 @@ class AffectedScoresTest {
       LiveSnapshot<String> old = live.snapshot();
       BatchResult result = live.apply(randomBatch(live, old, random, b));
       LiveSnapshot<String> now = live.snapshot();
-      AffectedScores.Refreshed fresh = seam.refresh(now, result);
+      AffectedScores.Refreshed fresh = seam.refresh(now);
       Classification after = wholePass(model, now);
       String where = "batch " + b + " (" + result + ")";
       assertClose(after, fresh.scores(), fresh.affected(), where);
+      assertArrayEquals(
+          downstreamOf(model, now, result), fresh.affected(), where + ": the affected set");
       assertEquals(
           fresh.affected().length,
           fresh.refreshAffected(),
@@ -170,6 +174,53 @@ class AffectedScoresTest {
         "the affected sets left nodes out in " + partial + " of " + batches + " batches");
     seam.close();
     live.close();
+  }
+
+  /**
+   * The nodes whose scores the batch may change, walked here from scratch: with L attention layers,
+   * new features reach the nodes up to L hops downstream (along out-edges of {@code now}), a
+   * changed row L − 1 hops.
+   */
+  private static int[] downstreamOf(
+      AttentionModel model, LiveSnapshot<String> now, BatchResult batch) {
+    int layers = (int) model.layers().stream().filter(l -> l.attentionHeads() > 0).count();
+    int n = now.nodeCount();
+    List<List<Integer>> out = new ArrayList<>();
+    for (int v = 0; v < n; v++) {
+      out.add(new ArrayList<>());
+    }
+    for (int target = 0; target < n; target++) {
+      int[] row = new int[now.degree(target)];
+      now.copyRow(target, row, 0);
+      for (int source : row) {
+        out.get(source).add(target);
+      }
+    }
+    int[] hopsLeft = new int[n];
+    Arrays.fill(hopsLeft, -1);
+    for (int v : batch.changedRows()) {
+      hopsLeft[v] = Math.max(hopsLeft[v], layers - 1);
+    }
+    for (int v : batch.changedFeatures()) {
+      hopsLeft[v] = Math.max(hopsLeft[v], layers);
+    }
+    for (int round = 0; round < layers; round++) {
+      int[] next = hopsLeft.clone();
+      for (int v = 0; v < n; v++) {
+        for (int t : out.get(v)) {
+          next[t] = Math.max(next[t], hopsLeft[v] - 1);
+        }
+      }
+      hopsLeft = next;
+    }
+    int[] reached = new int[n];
+    int count = 0;
+    for (int v = 0; v < n; v++) {
+      if (hopsLeft[v] >= 0) {
+        reached[count++] = v;
+      }
+    }
+    return Arrays.copyOf(reached, count);
   }
 
   /** Adds and removes edges, sometimes adds a node with edges or sets a node's features. */

@@ -807,7 +807,7 @@ public final class ScoringService implements AutoCloseable {
       }
       LiveSnapshot<String> snapshot = live.snapshot();
       State before = state;
-      List<LiveScores.Score> fresh = before.rescoring().refresh(snapshot, result);
+      List<LiveScores.Score> fresh = before.rescoring().refresh(snapshot);
       LiveScores.Score[] scores = Arrays.copyOf(before.scores(), snapshot.nodeCount());
       ObjectNode answer = JSON.createObjectNode();
       answer.put("version", snapshot.version());

@@ -145,4 +145,40 @@ public abstract class ModelSteps {
       int[] rows,
       float[] targetInput,
       PathChoice path);
+
+  /**
+   * Returns the LeakyReLU negative slope of a GAT layer with additive scores (Veličković et al.
+   * 2018: e_ij = LeakyReLU(a_target·Wh_i + a_source·Wh_j)), whose {@link #project projection} of a
+   * node holds its projected features (heads × headWidth), then each head's source term, then each
+   * head's target term; NaN for any other layer.
+   *
+   * @param model the model
+   * @param layer a layer index
+   * @return the slope, or NaN
+   */
+  public abstract float additiveSlope(AttentionModel model, int layer);
+
+  /**
+   * The rest of {@link #runProjected} once the attention layer's per-head weighted sums are known:
+   * that layer's finish (combining heads, bias, residual, activation) and the per-node layers after
+   * it, for {@code rows} rows.
+   *
+   * @param model the model
+   * @param from the attention layer
+   * @param to last layer, exclusive; the layers after {@code from} read their own row only
+   * @param attended rows × heads × headWidth weighted sums, row-major, head-major within a row; may
+   *     be overwritten
+   * @param targetInput rows × the attention layer's input width (for its residual), not modified
+   * @param rows the rows
+   * @param path the path (for the per-node layers' choices)
+   * @return a new rows × the last layer's output width array
+   */
+  public abstract float[] finishProjected(
+      AttentionModel model,
+      int from,
+      int to,
+      float[] attended,
+      float[] targetInput,
+      int rows,
+      PathChoice path);
 }

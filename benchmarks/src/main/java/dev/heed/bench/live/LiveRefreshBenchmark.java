@@ -2,15 +2,11 @@ package dev.heed.bench.live;
 
 import dev.heed.attention.KernelOptions;
 import dev.heed.bench.model.TargetedScoringBenchmark;
-import dev.heed.graph.DirectionPolicy;
-import dev.heed.graph.DuplicatePolicy;
-import dev.heed.graph.SelfLoopPolicy;
 import dev.heed.graph.generate.RmatGenerator;
 import dev.heed.live.IncrementalScorer;
 import dev.heed.live.LiveSnapshot;
 import dev.heed.live.RefreshOptions;
 import dev.heed.live.RefreshReport;
-import dev.heed.live.UpdateBatch;
 import dev.heed.live.VersionedGraph;
 import dev.heed.model.AttentionModel;
 import dev.heed.model.ModelFormatException;
@@ -88,8 +84,6 @@ public class LiveRefreshBenchmark {
   @Param({"1"})
   public int threads;
 
-  private static final int FEATURES = 64;
-  private static final int LOAD_BATCH = 1 << 16;
   private static final int MAX_CALLS = 1 << 20;
 
   private VersionedGraph<Integer> graph;
@@ -106,38 +100,9 @@ public class LiveRefreshBenchmark {
   @Setup(Level.Trial)
   public void setUp() throws ModelFormatException {
     int n = 1 << scale;
-    int e = edgeFactor << scale;
-    int[] s = new int[e];
-    int[] t = new int[e];
-    RmatGenerator.withScale(scale).edgeCount(e).seed(seed).generateInto(s, t);
     SplittableRandom random = new SplittableRandom(seed);
-    graph =
-        VersionedGraph.builder(FEATURES)
-            .direction(DirectionPolicy.SYMMETRISE)
-            .selfLoops(SelfLoopPolicy.ADD)
-            .duplicates(DuplicatePolicy.MERGE)
-            .backgroundCompaction(false)
-            .build();
-    UpdateBatch<Integer> batch = graph.newBatch();
-    float[] row = new float[FEATURES];
-    for (int v = 0; v < n; v++) {
-      for (int k = 0; k < FEATURES; k++) {
-        row[k] = (float) TargetedScoringBenchmark.gaussian(random);
-      }
-      batch.addNode(v, row);
-      if (batch.size() == LOAD_BATCH || v == n - 1) {
-        graph.apply(batch);
-        batch.clear();
-      }
-    }
-    for (int k = 0; k < e; k++) {
-      batch.addEdge(s[k], t[k]);
-      if (batch.size() == LOAD_BATCH || k == e - 1) {
-        graph.apply(batch);
-        batch.clear();
-      }
-    }
-    LiveSnapshot<Integer> loaded = graph.compact();
+    graph = RmatLiveGraph.load(scale, edgeFactor, seed, random, false);
+    LiveSnapshot<Integer> loaded = graph.snapshot();
     AttentionModel model =
         TargetedScoringBenchmark.model(random)
             .withKernelOptions(KernelOptions.defaults().withThreads(threads));
@@ -214,28 +179,11 @@ public class LiveRefreshBenchmark {
         "%n%,d calls; affected nodes %s; rows recomputed %s; work (entries + rows) %s;"
             + " thread CPU µs per call %s%n",
         calls,
-        percentiles(Arrays.stream(affected, 0, calls).asLongStream().toArray()),
-        percentiles(Arrays.stream(rows, 0, calls).asLongStream().toArray()),
-        percentiles(Arrays.copyOf(work, calls)),
-        percentiles(Arrays.stream(cpuNanos, 0, calls).map(t -> t / 1000).toArray()));
+        Percentiles.describe(Arrays.stream(affected, 0, calls).asLongStream().toArray()),
+        Percentiles.describe(Arrays.stream(rows, 0, calls).asLongStream().toArray()),
+        Percentiles.describe(Arrays.copyOf(work, calls)),
+        Percentiles.describe(Arrays.stream(cpuNanos, 0, calls).map(t -> t / 1000).toArray()));
     scorer.close();
     graph.close();
-  }
-
-  private static String percentiles(long[] values) {
-    if (values.length == 0) {
-      return "(none)";
-    }
-    long[] sorted = values.clone();
-    Arrays.sort(sorted);
-    double mean = Arrays.stream(sorted).average().orElse(0);
-    return String.format(
-        Locale.ROOT,
-        "p50 %,d, p90 %,d, p99 %,d, max %,d, mean %,.1f",
-        sorted[(int) (0.50 * (sorted.length - 1))],
-        sorted[(int) (0.90 * (sorted.length - 1))],
-        sorted[(int) (0.99 * (sorted.length - 1))],
-        sorted[sorted.length - 1],
-        mean);
   }
 }
