@@ -94,7 +94,8 @@ final class BenchCommand implements Runnable {
 
     @Option(
         names = "--quick",
-        description = "A small sweep, about 1-2 minutes on 2 cores (points capped at 140 s).")
+        description =
+            "A small sweep, about 10-30 s on 2 idle cores, longer on a busy machine (capped at 140 s).")
     boolean quick;
 
     @Option(

@@ -11,7 +11,7 @@ record CommandLine(SweepConfig config, Path out, boolean help) {
       String.join(
           "\n",
           "usage: java -cp cli/target/heed.jar dev.heed.bench.crossover.CrossoverRunner [options]",
-          "  --quick                 small sweep, about 1-2 minutes on 2 cores (points capped at 140 s)",
+          "  --quick                 small sweep, about 10-30 s on 2 idle cores (capped at 140 s)",
           "  --out DIR               output folder (default " + CrossoverRunner.DEFAULT_OUT + ")",
           "  --threads N             kernel threads (default: all processors)",
           "  --seed S                seed for graphs and inputs",
