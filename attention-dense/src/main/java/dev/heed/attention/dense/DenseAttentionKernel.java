@@ -525,33 +525,31 @@ final class DenseAttentionKernel implements AttentionKernel {
       return max;
     }
 
-    /** Mask bias for rows first..first+rows-1: 0 where allowed, -∞ elsewhere; 0 for empty rows. */
+    /** Mask bias for rows first..first+rows-1 into the ND4J block, through {@link #maskRow}. */
     private void fillBias(int first, int rows, FloatBuffer biasBuffer, float[] row) {
       for (int r = 0; r < rows; r++) {
-        int i = first + r;
-        int start = graph.rowStart(i);
-        int end = graph.rowEnd(i);
-        Arrays.fill(row, start == end ? 0f : Float.NEGATIVE_INFINITY);
-        for (int e = start; e < end; e++) {
-          row[graph.column(e)] = 0f;
-        }
+        maskRow(first + r, row, 0);
         biasBuffer.put(r * n, row, 0, n);
       }
     }
 
-    /**
-     * The Java route's mask for rows first..first+rows-1, into {@code mask} (row r at r·n): 0 where
-     * allowed, -∞ elsewhere; 0 for empty rows.
-     */
+    /** The Java route's mask for rows first..first+rows-1: row r at {@code mask[r·n]}. */
     private void fillMask(int first, int rows, float[] mask) {
       for (int r = 0; r < rows; r++) {
-        int i = first + r;
-        int start = graph.rowStart(i);
-        int end = graph.rowEnd(i);
-        Arrays.fill(mask, r * n, r * n + n, start == end ? 0f : Float.NEGATIVE_INFINITY);
-        for (int e = start; e < end; e++) {
-          mask[r * n + graph.column(e)] = 0f;
-        }
+        maskRow(first + r, mask, r * n);
+      }
+    }
+
+    /**
+     * Target i's mask into {@code to[at..at+n-1]}: 0 where allowed, -∞ elsewhere; 0 for an empty
+     * row (its output is zero anyway).
+     */
+    private void maskRow(int i, float[] to, int at) {
+      int start = graph.rowStart(i);
+      int end = graph.rowEnd(i);
+      Arrays.fill(to, at, at + n, start == end ? 0f : Float.NEGATIVE_INFINITY);
+      for (int e = start; e < end; e++) {
+        to[at + graph.column(e)] = 0f;
       }
     }
 
