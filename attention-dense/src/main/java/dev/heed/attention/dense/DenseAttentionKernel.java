@@ -48,8 +48,9 @@ import org.slf4j.LoggerFactory;
  *   <li>A CSR pattern is a 0/1 mask: a bias block holding 0 for allowed and -∞ for other pairs is
  *       added after the score (and after LeakyReLU, so a slope of 0 never meets -∞), and softmax
  *       gives those pairs exactly 0. Rows with no allowed source get a zero output row. On the
- *       Vector API route the mask is a heap block added inside the softmax pass (no ND4J add per
- *       head), so a masked call costs about what a complete-pattern call costs.
+ *       Vector API route the mask is a bit per pair, one block of rows at a time, applied inside
+ *       the softmax pass (no ND4J add per head, and a block's bits stay in cache where a float per
+ *       pair did not), so a masked call costs little more than a complete-pattern call.
  *   <li>Softmax, where the JVM reads the Vector API ({@link RowSoftmaxes}): each score row of the
  *       block is copied to the heap, replaced by {@code exp(s - rowMax)} (common practice: the row
  *       maximum keeps every term in [0, 1]) and summed in Java, on up to {@code options.threads()}
@@ -323,7 +324,8 @@ final class DenseAttentionKernel implements AttentionKernel {
       INDArray scoreBlock = allocate(blockRows, n);
       FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
       INDArray biasBlock = graph != null && !gatv2 && !javaRoute ? allocate(blockRows, n) : null;
-      float[] mask = graph != null && !gatv2 && javaRoute ? new float[blockRows * n] : null;
+      int rowBytes = (n + 7) >>> 3;
+      byte[] allowed = graph != null && !gatv2 && javaRoute ? new byte[blockRows * rowBytes] : null;
       FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
       INDArray outBlock = allocate(blockRows, valueWidth);
       FloatBuffer outBuffer = outBlock.data().asNioFloat();
@@ -342,9 +344,6 @@ final class DenseAttentionKernel implements AttentionKernel {
         if (biasBlock != null) {
           bias = rows == blockRows ? biasBlock : leadingRows(biasBlock, rows);
           fillBias(first, rows, biasBuffer, row);
-        }
-        if (mask != null) {
-          fillMask(first, rows, mask);
         }
         for (int h = 0; h < heads; h++) {
           if (gatv2) {
@@ -373,7 +372,8 @@ final class DenseAttentionKernel implements AttentionKernel {
                 scoreBuffer,
                 workerRows,
                 (from, to, buffer, rowBuffer) ->
-                    softmaxRows(from, to, buffer, rowBuffer, sums, firstRow, head, headKeys, mask));
+                    softmaxRows(
+                        from, to, buffer, rowBuffer, sums, firstRow, head, headKeys, allowed));
           } else if (unshifted[h]) {
             Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
           } else {
@@ -421,6 +421,8 @@ final class DenseAttentionKernel implements AttentionKernel {
      * target), head {@code h}: each row's scores (formed here from {@code headKeys} for additive
      * scores, else copied from the block to the heap), plus the mask when there is one, are
      * replaced by {@code exp(s - rowMax)} and written to the block; the sum goes to {@code sums}.
+     * For head 0 the rows' mask bits are written first ({@link #fillAllowed}), so that this work is
+     * shared out among the threads too.
      */
     private void softmaxRows(
         int from,
@@ -431,17 +433,23 @@ final class DenseAttentionKernel implements AttentionKernel {
         int first,
         int h,
         float[] headKeys,
-        float[] mask) {
+        byte[] allowed) {
+      int rowBytes = (n + 7) >>> 3;
+      if (allowed != null && h == 0) {
+        // each worker writes its own rows' bits, which every head of the block then reads
+        fillAllowed(first, from, to, allowed, rowBytes);
+      }
       for (int r = from; r < to; r++) {
         if (headKeys != null) {
           float slope = ((ScoreFunction.Additive) score).negativeSlope();
           float q = query[(first + r) * heads + h];
-          sums[r] = rowSoftmax.exponentiateAdditive(q, headKeys, slope, mask, r * n, row, n);
+          sums[r] =
+              rowSoftmax.exponentiateAdditive(q, headKeys, slope, allowed, r * rowBytes, row, n);
         } else {
           scoreBuffer.get(r * n, row, 0, n);
           sums[r] =
-              mask != null
-                  ? rowSoftmax.exponentiateShifted(row, mask, r * n, n)
+              allowed != null
+                  ? rowSoftmax.exponentiateShifted(row, allowed, r * rowBytes, n)
                   : rowSoftmax.exponentiateShifted(row, n);
         }
         scoreBuffer.put(r * n, row, 0, n);
@@ -533,10 +541,22 @@ final class DenseAttentionKernel implements AttentionKernel {
       }
     }
 
-    /** The Java route's mask for rows first..first+rows-1: row r at {@code mask[r·n]}. */
-    private void fillMask(int first, int rows, float[] mask) {
-      for (int r = 0; r < rows; r++) {
-        maskRow(first + r, mask, r * n);
+    /**
+     * The Java route's mask for block rows from..to-1 (targets first+from..first+to-1), a bit per
+     * pair: row r from {@code allowed[r·rowBytes]} (layout of {@link RowSoftmax#isAllowed}); every
+     * pair of an empty row is allowed, as in {@link #maskRow} (its output is zero anyway).
+     */
+    private void fillAllowed(int first, int from, int to, byte[] allowed, int rowBytes) {
+      for (int r = from; r < to; r++) {
+        int i = first + r;
+        int at = r * rowBytes;
+        int start = graph.rowStart(i);
+        int end = graph.rowEnd(i);
+        Arrays.fill(allowed, at, at + rowBytes, start == end ? (byte) -1 : 0);
+        for (int e = start; e < end; e++) {
+          int j = graph.column(e);
+          allowed[at + (j >>> 3)] |= (byte) (1 << (j & 7));
+        }
       }
     }
 

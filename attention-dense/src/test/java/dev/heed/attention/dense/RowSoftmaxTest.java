@@ -78,25 +78,25 @@ class RowSoftmaxTest {
     for (int length : LENGTHS) {
       int offset = random.nextInt(5);
       float[] row = new float[length];
-      float[] mask = new float[offset + length];
+      float[] mask = randomMask(random, length);
       for (int x = 0; x < length; x++) {
         row[x] = (float) ((2 * random.nextDouble() - 1) * 40);
-        mask[offset + x] = random.nextInt(3) == 0 ? Float.NEGATIVE_INFINITY : 0f;
       }
-      int allowed = random.nextInt(length);
-      mask[offset + allowed] = 0f;
-      row[allowed] = -60f; // the largest score may be masked: the maximum is over allowed pairs
+      int kept = random.nextInt(length);
+      mask[kept] = 0f;
+      row[kept] = -60f; // the largest score may be masked: the maximum is over allowed pairs
+      byte[] allowed = allowedBits(mask, offset, random);
       float[] input = row.clone();
-      float[] maskCopy = mask.clone();
-      float sum = softmax.exponentiateShifted(row, mask, offset, length);
+      byte[] allowedCopy = allowed.clone();
+      float sum = softmax.exponentiateShifted(row, allowed, offset, length);
       double[] expected = new double[length];
       double max = Double.NEGATIVE_INFINITY;
       for (int x = 0; x < length; x++) {
-        expected[x] = (double) input[x] + mask[offset + x];
+        expected[x] = (double) input[x] + mask[x];
         max = Math.max(max, expected[x]);
       }
       assertReference(softmax.describe() + " masked, length " + length, expected, max, row, sum);
-      assertTrue(java.util.Arrays.equals(maskCopy, mask), "the mask must not be modified");
+      assertTrue(java.util.Arrays.equals(allowedCopy, allowed), "the mask must not be modified");
     }
   }
 
@@ -109,19 +109,18 @@ class RowSoftmaxTest {
         float query = (float) random.nextGaussian() * 3;
         float slope = 0.2f; // the GAT paper's LeakyReLU slope (Veličković et al. 2018)
         float[] keys = new float[length];
-        float[] mask = masked ? new float[length] : null;
+        float[] mask = masked ? randomMask(random, length) : null;
         for (int x = 0; x < length; x++) {
           keys[x] = (float) random.nextGaussian() * 3;
-          if (masked && random.nextInt(3) == 0) {
-            mask[x] = Float.NEGATIVE_INFINITY;
-          }
         }
         if (masked) {
           mask[random.nextInt(length)] = 0f;
         }
+        int offset = random.nextInt(3);
+        byte[] allowed = masked ? allowedBits(mask, offset, random) : null;
         float[] keysCopy = keys.clone();
         float[] row = new float[length];
-        float sum = softmax.exponentiateAdditive(query, keys, slope, mask, 0, row, length);
+        float sum = softmax.exponentiateAdditive(query, keys, slope, allowed, offset, row, length);
         // Float64 reference: e = LeakyReLU(q + k) (GAT, Veličković et al. 2018, eq. 1), the sum
         // rounded to float32 once as the kernel's inputs are, then the mask.
         double[] expected = new double[length];
@@ -166,5 +165,32 @@ class RowSoftmaxTest {
     assertTrue(
         Math.abs(sum - expectedSum) <= 1e-6 * expectedSum,
         where + ": sum " + sum + " against " + expectedSum);
+  }
+
+  /** A float mask, 0 (allowed) or -Infinity, with about a third of the pairs masked. */
+  private static float[] randomMask(Random random, int length) {
+    float[] mask = new float[length];
+    for (int x = 0; x < length; x++) {
+      mask[x] = random.nextInt(3) == 0 ? Float.NEGATIVE_INFINITY : 0f;
+    }
+    return mask;
+  }
+
+  /**
+   * The same mask as allowed bits (RowSoftmax.isAllowed's layout) from byte {@code offset}, with
+   * random bytes before it and random bits past the row's end, which the softmax must not read.
+   */
+  private static byte[] allowedBits(float[] mask, int offset, Random random) {
+    byte[] bits = new byte[offset + (mask.length + 7) / 8];
+    random.nextBytes(bits);
+    for (int x = 0; x < mask.length; x++) {
+      int at = offset + x / 8;
+      int bit = 1 << (x % 8);
+      bits[at] = (byte) (mask[x] == 0f ? bits[at] | bit : bits[at] & ~bit);
+    }
+    for (int x = 0; x < mask.length; x++) {
+      assertEquals(mask[x] == 0f, RowSoftmax.isAllowed(bits, offset, x), "bit " + x);
+    }
+    return bits;
   }
 }

@@ -32,6 +32,12 @@ public final class VectorRowSoftmax implements RowSoftmax {
       VectorShuffle.fromOp(SPECIES, i -> LANES >= 4 ? i ^ 2 : i);
   private static final VectorShuffle<Float> XOR1 = VectorShuffle.fromOp(SPECIES, i -> i ^ 1);
 
+  // the lanes of every LANES-bit group of a row's allowed bits: group g at LANE_MASKS[g * LANES],
+  // 0 for an allowed pair and -Infinity for another (8 KiB for 8 lanes: stays in the first-level
+  // cache, where a float mask per pair did not)
+  private static final int LANE_BITS = (1 << LANES) - 1;
+  private static final float[] LANE_MASKS = laneMasks();
+
   private VectorRowSoftmax() {}
 
   /**
@@ -39,10 +45,11 @@ public final class VectorRowSoftmax implements RowSoftmax {
    *
    * @return the implementation
    * @throws UnsupportedOperationException if the preferred vector holds fewer than 4 floats (no
-   *     useful SIMD), with the width in the message
+   *     useful SIMD) or more than 8 (not a width {@link VectorExp#SPECIES} takes), with the width
+   *     in the message
    */
   public static RowSoftmax create() {
-    if (LANES < 4) {
+    if (LANES < 4 || LANES > 8) {
       throw new UnsupportedOperationException(
           "the preferred float vector is only "
               + SPECIES.vectorBitSize()
@@ -73,23 +80,45 @@ public final class VectorRowSoftmax implements RowSoftmax {
     return exponentiateFrom(row, length, max);
   }
 
+  private static float[] laneMasks() {
+    if (LANES > 8) {
+      return new float[0]; // not used: create() refuses such a species
+    }
+    float[] masks = new float[(1 << LANES) * LANES];
+    for (int group = 0; group < 1 << LANES; group++) {
+      for (int lane = 0; lane < LANES; lane++) {
+        masks[group * LANES + lane] = ((group >>> lane) & 1) != 0 ? 0f : Float.NEGATIVE_INFINITY;
+      }
+    }
+    return masks;
+  }
+
+  /** The mask lanes (0 or -Infinity) of pairs x..x+LANES-1; x is a multiple of LANES. */
+  private static FloatVector maskLanes(byte[] allowed, int allowedOffset, int x) {
+    int group = (allowed[allowedOffset + (x >>> 3)] >>> (x & 7)) & LANE_BITS;
+    return FloatVector.fromArray(SPECIES, LANE_MASKS, group * LANES);
+  }
+
+  private static float maskValue(byte[] allowed, int allowedOffset, int x) {
+    return RowSoftmax.isAllowed(allowed, allowedOffset, x) ? 0f : Float.NEGATIVE_INFINITY;
+  }
+
   @Override
-  public float exponentiateShifted(float[] row, float[] mask, int maskOffset, int length) {
+  public float exponentiateShifted(float[] row, byte[] allowed, int allowedOffset, int length) {
     int vectorEnd = length - length % LANES;
     float max = Float.NEGATIVE_INFINITY;
     if (vectorEnd > 0) {
       FloatVector m = FloatVector.broadcast(SPECIES, Float.NEGATIVE_INFINITY);
       for (int x = 0; x < vectorEnd; x += LANES) {
         FloatVector z =
-            FloatVector.fromArray(SPECIES, row, x)
-                .add(FloatVector.fromArray(SPECIES, mask, maskOffset + x));
+            FloatVector.fromArray(SPECIES, row, x).add(maskLanes(allowed, allowedOffset, x));
         z.intoArray(row, x);
         m = m.max(z);
       }
       max = m.reduceLanes(VectorOperators.MAX);
     }
     for (int x = vectorEnd; x < length; x++) {
-      float z = row[x] + mask[maskOffset + x];
+      float z = row[x] + maskValue(allowed, allowedOffset, x);
       row[x] = z;
       max = Math.max(max, z);
     }
@@ -101,15 +130,15 @@ public final class VectorRowSoftmax implements RowSoftmax {
       float query,
       float[] keys,
       float negativeSlope,
-      float[] mask,
-      int maskOffset,
+      byte[] allowed,
+      int allowedOffset,
       float[] row,
       int length) {
     int vectorEnd = length - length % LANES;
     float max = Float.NEGATIVE_INFINITY;
     if (vectorEnd > 0) {
       FloatVector m = FloatVector.broadcast(SPECIES, Float.NEGATIVE_INFINITY);
-      if (mask == null) {
+      if (allowed == null) {
         for (int x = 0; x < vectorEnd; x += LANES) {
           FloatVector z = FloatVector.fromArray(SPECIES, keys, x).add(query);
           z = z.max(z.mul(negativeSlope));
@@ -119,7 +148,7 @@ public final class VectorRowSoftmax implements RowSoftmax {
       } else {
         for (int x = 0; x < vectorEnd; x += LANES) {
           FloatVector z = FloatVector.fromArray(SPECIES, keys, x).add(query);
-          z = z.max(z.mul(negativeSlope)).add(FloatVector.fromArray(SPECIES, mask, maskOffset + x));
+          z = z.max(z.mul(negativeSlope)).add(maskLanes(allowed, allowedOffset, x));
           z.intoArray(row, x);
           m = m.max(z);
         }
@@ -129,8 +158,8 @@ public final class VectorRowSoftmax implements RowSoftmax {
     for (int x = vectorEnd; x < length; x++) {
       float z = query + keys[x];
       z = Math.max(z, z * negativeSlope);
-      if (mask != null) {
-        z += mask[maskOffset + x];
+      if (allowed != null) {
+        z += maskValue(allowed, allowedOffset, x);
       }
       row[x] = z;
       max = Math.max(max, z);
