@@ -264,8 +264,8 @@ public final class CrossoverReport {
             "timing: both paths warmed up first on small graphs of both pattern kinds; per point"
                 + " the two paths alternate: warm-up %d..%d calls each (stable within %.0f %%),"
                 + " then %d timed calls each, A B A B; calls above Q3 + 3 IQR dropped; a point"
-                + " spreading over %.0f %% is timed again (up to %d more batches, the tightest"
-                + " batch kept); median with a"
+                + " spreading over %.0f %% is timed again (up to %d more batches, then once more"
+                + " at the end of the sweep; the tightest batch kept); median with a"
                 + " 95 %% confidence interval; spread = (max - min) / median%n",
             config.timing().minWarmupCalls(),
             config.timing().maxWarmupCalls(),

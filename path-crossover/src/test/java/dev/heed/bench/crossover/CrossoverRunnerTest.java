@@ -209,6 +209,36 @@ class CrossoverRunnerTest {
     return fields;
   }
 
+  @Test
+  void aPointDisturbedThroughAllItsBatchesIsTimedAgainAtTheEnd() {
+    // The dense stand-in alternates 2 ms and 40 ms calls on the first pattern it sees, as if
+    // another process kept interrupting that point, and takes a steady 2 ms per call once the
+    // sweep has moved on. Spreads of 2/40 calls are far over 25 % in every batch, so only the
+    // re-timing at the end can give the point a steady timing.
+    SweepConfig config =
+        tinyConfig().withScores(List.of(SweepScore.DOT_PRODUCT)).withNodeCounts(List.of(8));
+    DisturbedFirstPattern disturbed =
+        new DisturbedFirstPattern(new Labelled(ComputePath.DENSE, new ReferenceAttentionKernel()));
+    KernelFactory factory =
+        (path, options) ->
+            path == ComputePath.DENSE
+                ? disturbed
+                : new Labelled(path, new ReferenceAttentionKernel());
+    CrossoverReport report =
+        CrossoverRunner.run(
+            config, factory, MachineLimits.assumed(50, 1e8), ProgressListener.none());
+    SweepPoint first =
+        report.points().stream()
+            .filter(p -> p.path() == ComputePath.DENSE && p.density() == 0.05)
+            .findFirst()
+            .orElseThrow();
+    assertTrue(first.note().contains(CrossoverRunner.RETIMED_NOTE), first.toString());
+    assertTrue(
+        first.timing().relativeSpread() < 10,
+        "the steady re-timing should replace the disturbed one: " + first);
+    assertTrue(report.formatText().contains(CrossoverRunner.RETIMED_NOTE), "remark missing");
+  }
+
   /** Wraps a kernel so that it reports a given path. */
   private record Labelled(ComputePath path, AttentionKernel inner) implements AttentionKernel {
     @Override
@@ -255,6 +285,51 @@ class CrossoverRunnerTest {
       if (pattern.nodeCount() > maxNodes) {
         throw new MemoryBudgetExceededException("test budget: n > " + maxNodes, 2L << 20, 1L << 20);
       }
+      inner.attend(pattern, score, shape, query, key, value, out, weights);
+    }
+  }
+
+  /**
+   * Alternates 2 ms and 40 ms calls on the first pattern it is given until it is given another,
+   * then takes 2 ms per call; the work itself is the wrapped kernel's.
+   */
+  private static final class DisturbedFirstPattern implements AttentionKernel {
+    private final AttentionKernel inner;
+    private AttentionPattern first;
+    private boolean moved;
+    private int calls;
+
+    DisturbedFirstPattern(AttentionKernel inner) {
+      this.inner = inner;
+    }
+
+    @Override
+    public ComputePath path() {
+      return inner.path();
+    }
+
+    @Override
+    public String describe() {
+      return inner.describe() + ", disturbed on its first pattern";
+    }
+
+    @Override
+    public void attend(
+        AttentionPattern pattern,
+        ScoreFunction score,
+        HeadShape shape,
+        float[] query,
+        float[] key,
+        float[] value,
+        float[] out,
+        float[] weights) {
+      if (first == null) {
+        first = pattern;
+      } else if (pattern != first) {
+        moved = true;
+      }
+      boolean slow = !moved && calls++ % 2 == 1;
+      java.util.concurrent.locks.LockSupport.parkNanos(slow ? 40_000_000L : 2_000_000L);
       inner.attend(pattern, score, shape, query, key, value, out, weights);
     }
   }
