@@ -3,6 +3,7 @@ package dev.heed.bench.crossover;
 import dev.heed.bench.roofline.Stats;
 import java.util.ArrayList;
 import java.util.List;
+import java.util.function.LongSupplier;
 
 /**
  * Times one call, or the paths of one sweep point interleaved, under a {@link TimingPolicy}:
@@ -66,6 +67,15 @@ public final class PointTimer {
    */
   public static TimingResult[] timeInterleaved(
       Runnable[] calls, long[] firstNanos, TimingPolicy policy) {
+    return timeInterleaved(calls, firstNanos, policy, System::nanoTime);
+  }
+
+  /**
+   * {@link #timeInterleaved(Runnable[], long[], TimingPolicy)} on a given clock: tests pass one
+   * their calls advance, so that the timing rules are checked without timing anything.
+   */
+  static TimingResult[] timeInterleaved(
+      Runnable[] calls, long[] firstNanos, TimingPolicy policy, LongSupplier clock) {
     int k = calls.length;
     List<List<Long>> warm = new ArrayList<>();
     long[] warmTotal = new long[k];
@@ -91,7 +101,7 @@ public final class PointTimer {
             || warmTotal[c] * 1e-9 >= policy.maxWarmupSeconds()) {
           done[c] = true;
         } else {
-          long t = timeOnce(calls[c]);
+          long t = timeOnce(calls[c], clock);
           w.add(t);
           warmTotal[c] += t;
           continue;
@@ -118,7 +128,7 @@ public final class PointTimer {
       for (int c = 0; c < k; c++) {
         samples.add(new ArrayList<>());
       }
-      timeRounds(calls, batch, samples);
+      timeRounds(calls, batch, samples, clock);
       int[] more = new int[k];
       boolean any = false;
       for (int c = 0; c < k; c++) {
@@ -186,7 +196,8 @@ public final class PointTimer {
   }
 
   /** Times {@code reps[c]} calls of each call c, alternating between the calls. */
-  private static void timeRounds(Runnable[] calls, int[] reps, List<List<Double>> samples) {
+  private static void timeRounds(
+      Runnable[] calls, int[] reps, List<List<Double>> samples, LongSupplier clock) {
     int rounds = 0;
     for (int r : reps) {
       rounds = Math.max(rounds, r);
@@ -194,7 +205,7 @@ public final class PointTimer {
     for (int r = 0; r < rounds; r++) {
       for (int c = 0; c < calls.length; c++) {
         if (r < reps[c]) {
-          samples.get(c).add((double) timeOnce(calls[c]));
+          samples.get(c).add((double) timeOnce(calls[c], clock));
         }
       }
     }
@@ -232,9 +243,13 @@ public final class PointTimer {
   }
 
   private static long timeOnce(Runnable call) {
-    long start = System.nanoTime();
+    return timeOnce(call, System::nanoTime);
+  }
+
+  private static long timeOnce(Runnable call, LongSupplier clock) {
+    long start = clock.getAsLong();
     call.run();
-    return System.nanoTime() - start;
+    return clock.getAsLong() - start;
   }
 
   private static boolean lastThreeStable(List<Long> times, double tolerance) {
