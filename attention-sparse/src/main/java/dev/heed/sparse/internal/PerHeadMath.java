@@ -76,6 +76,61 @@ public interface PerHeadMath {
   }
 
   /**
+   * Computes the scaled dot-product scores of a run of consecutive source nodes for every head,
+   * head-major, from keys stored by dimension (a key table transposed once per call, see {@link
+   * KeyColumns}): {@code s[h·stride + t] = scale · Σ_k q[qo + h·keyDim + k] · columns[(h·keyDim +
+   * k)·columnLength + first + t]} over {@code k < keyDim}, for {@code h < heads} and {@code t <
+   * count}, in float32. The products are added in order of k and then scaled, with the same
+   * operations for every entry (the vector form fuses each multiply-add, here they are rounded
+   * apart), so a score's bits depend only on the entry and the query, never on where it lies in the
+   * run. Consecutive sources lie side by side in each dimension's row, so an implementation can
+   * score several entries per vector operation with no sum across lanes.
+   *
+   * @param q input, not modified: the target's query row
+   * @param qo offset of the query row in {@code q}
+   * @param columns input, not modified: {@code heads · keyDim} rows of {@code columnLength} floats,
+   *     row c holding key float c of every node
+   * @param columnLength length of a row of {@code columns}, at least {@code first + count}
+   * @param first the run's first source node
+   * @param count number of entries, at least 1
+   * @param heads number of heads, at least 1
+   * @param keyDim key width per head, at least 1
+   * @param scale the factor applied to each dot product
+   * @param s output: head h's scores at {@code h·stride}
+   * @param stride distance between heads in {@code s}, at least {@code count}
+   * @return true if every score is finite; false if one overflowed to infinity or NaN (the caller
+   *     recomputes those)
+   */
+  default boolean dotScoresOfRun(
+      float[] q,
+      int qo,
+      float[] columns,
+      int columnLength,
+      int first,
+      int count,
+      int heads,
+      int keyDim,
+      float scale,
+      float[] s,
+      int stride) {
+    boolean finite = true;
+    for (int h = 0; h < heads; h++) {
+      int qh = qo + h * keyDim;
+      int ch = h * keyDim * columnLength + first;
+      for (int t = 0; t < count; t++) {
+        float e = q[qh] * columns[ch + t];
+        for (int k = 1, c = ch + columnLength + t; k < keyDim; k++, c += columnLength) {
+          e += q[qh + k] * columns[c];
+        }
+        e *= scale;
+        s[h * stride + t] = e;
+        finite &= Float.isFinite(e);
+      }
+    }
+    return finite;
+  }
+
+  /**
    * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
    * length} (Brody et al. 2022), in float32.
    *

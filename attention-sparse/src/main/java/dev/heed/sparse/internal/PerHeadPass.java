@@ -240,20 +240,44 @@ abstract class PerHeadPass extends CsrPass {
   static final class Dot extends PerHeadPass {
     private final float scale;
 
+    /** The complete pattern's keys by dimension ({@link KeyColumns}); null over a CSR graph. */
+    private final float[] keyColumns;
+
     Dot(CsrCall call, PerHeadMath math, boolean prefetch, float scale) {
       super(call, math, prefetch);
       this.scale = scale;
+      this.keyColumns = csr == null ? KeyColumns.of(key, n, keyWidth) : null;
     }
 
     @Override
     void scoreBlock(int i, int[] columns, int count, Scratch sc) {
       float[] s = sc.scores;
-      int[] rowBase = sc.rowBase;
-      for (int t = 0; t < count; t++) {
-        rowBase[t] = columns[t] * keyWidth;
+      boolean finite;
+      if (keyColumns != null) {
+        // the complete pattern: a block's sources are consecutive nodes
+        finite =
+            math.dotScoresOfRun(
+                query,
+                i * keyWidth,
+                keyColumns,
+                n,
+                columns[0],
+                count,
+                heads,
+                keyDim,
+                scale,
+                s,
+                BLOCK);
+      } else {
+        int[] rowBase = sc.rowBase;
+        for (int t = 0; t < count; t++) {
+          rowBase[t] = columns[t] * keyWidth;
+        }
+        finite =
+            math.dotScores(
+                query, i * keyWidth, key, rowBase, count, heads, keyDim, scale, s, BLOCK);
       }
-      if (!math.dotScores(
-          query, i * keyWidth, key, rowBase, count, heads, keyDim, scale, s, BLOCK)) {
+      if (!finite) {
         for (int t = 0; t < count; t++) {
           for (int h = 0; h < heads; h++) {
             if (!Float.isFinite(s[h * BLOCK + t])) {

@@ -188,6 +188,108 @@ final class VectorPerHeadMath implements PerHeadMath {
   }
 
   /**
+   * Scores 64 consecutive entries of one head at a time in eight accumulator vectors (eight entries
+   * each, one per lane): per key dimension, one broadcast query float and eight loads of the
+   * transposed keys feed eight independent fused multiply-adds (enough chains to hide the adds'
+   * latency), with no sum across lanes. Leftover entries take eight at a time, then one at a time
+   * with the same operations in scalar code, so every score has the same bits wherever it lies in
+   * the run.
+   */
+  @Override
+  public boolean dotScoresOfRun(
+      float[] q,
+      int qo,
+      float[] columns,
+      int columnLength,
+      int first,
+      int count,
+      int heads,
+      int keyDim,
+      float scale,
+      float[] s,
+      int stride) {
+    // e - e is 0 for a finite score, NaN for an infinite or NaN one: summed, checked once
+    FloatVector check = FloatVector.zero(WIDE);
+    boolean finite = true;
+    int vectorEnd = count - count % WIDE_LANES;
+    for (int h = 0; h < heads; h++) {
+      int qh = qo + h * keyDim;
+      int ch = h * keyDim * columnLength + first;
+      int sh = h * stride;
+      int t = 0;
+      for (; t <= vectorEnd - 8 * WIDE_LANES; t += 8 * WIDE_LANES) {
+        int c = ch + t;
+        FloatVector qk = FloatVector.broadcast(WIDE, q[qh]);
+        FloatVector e0 = FloatVector.fromArray(WIDE, columns, c).mul(qk);
+        FloatVector e1 = FloatVector.fromArray(WIDE, columns, c + WIDE_LANES).mul(qk);
+        FloatVector e2 = FloatVector.fromArray(WIDE, columns, c + 2 * WIDE_LANES).mul(qk);
+        FloatVector e3 = FloatVector.fromArray(WIDE, columns, c + 3 * WIDE_LANES).mul(qk);
+        FloatVector e4 = FloatVector.fromArray(WIDE, columns, c + 4 * WIDE_LANES).mul(qk);
+        FloatVector e5 = FloatVector.fromArray(WIDE, columns, c + 5 * WIDE_LANES).mul(qk);
+        FloatVector e6 = FloatVector.fromArray(WIDE, columns, c + 6 * WIDE_LANES).mul(qk);
+        FloatVector e7 = FloatVector.fromArray(WIDE, columns, c + 7 * WIDE_LANES).mul(qk);
+        for (int k = 1; k < keyDim; k++) {
+          c += columnLength;
+          qk = FloatVector.broadcast(WIDE, q[qh + k]);
+          e0 = FloatVector.fromArray(WIDE, columns, c).fma(qk, e0);
+          e1 = FloatVector.fromArray(WIDE, columns, c + WIDE_LANES).fma(qk, e1);
+          e2 = FloatVector.fromArray(WIDE, columns, c + 2 * WIDE_LANES).fma(qk, e2);
+          e3 = FloatVector.fromArray(WIDE, columns, c + 3 * WIDE_LANES).fma(qk, e3);
+          e4 = FloatVector.fromArray(WIDE, columns, c + 4 * WIDE_LANES).fma(qk, e4);
+          e5 = FloatVector.fromArray(WIDE, columns, c + 5 * WIDE_LANES).fma(qk, e5);
+          e6 = FloatVector.fromArray(WIDE, columns, c + 6 * WIDE_LANES).fma(qk, e6);
+          e7 = FloatVector.fromArray(WIDE, columns, c + 7 * WIDE_LANES).fma(qk, e7);
+        }
+        e0 = e0.mul(scale);
+        e1 = e1.mul(scale);
+        e2 = e2.mul(scale);
+        e3 = e3.mul(scale);
+        e4 = e4.mul(scale);
+        e5 = e5.mul(scale);
+        e6 = e6.mul(scale);
+        e7 = e7.mul(scale);
+        int o = sh + t;
+        e0.intoArray(s, o);
+        e1.intoArray(s, o + WIDE_LANES);
+        e2.intoArray(s, o + 2 * WIDE_LANES);
+        e3.intoArray(s, o + 3 * WIDE_LANES);
+        e4.intoArray(s, o + 4 * WIDE_LANES);
+        e5.intoArray(s, o + 5 * WIDE_LANES);
+        e6.intoArray(s, o + 6 * WIDE_LANES);
+        e7.intoArray(s, o + 7 * WIDE_LANES);
+        FloatVector c03 = e0.sub(e0).add(e1.sub(e1)).add(e2.sub(e2)).add(e3.sub(e3));
+        FloatVector c47 = e4.sub(e4).add(e5.sub(e5)).add(e6.sub(e6)).add(e7.sub(e7));
+        check = check.add(c03).add(c47);
+      }
+      for (; t < vectorEnd; t += WIDE_LANES) {
+        int c = ch + t;
+        FloatVector e = FloatVector.fromArray(WIDE, columns, c).mul(q[qh]);
+        for (int k = 1; k < keyDim; k++) {
+          c += columnLength;
+          e =
+              FloatVector.fromArray(WIDE, columns, c)
+                  .fma(FloatVector.broadcast(WIDE, q[qh + k]), e);
+        }
+        e = e.mul(scale);
+        e.intoArray(s, sh + t);
+        check = check.add(e.sub(e));
+      }
+      for (; t < count; t++) {
+        int c = ch + t;
+        float e = q[qh] * columns[c];
+        for (int k = 1; k < keyDim; k++) {
+          c += columnLength;
+          e = Math.fma(columns[c], q[qh + k], e);
+        }
+        e *= scale;
+        s[sh + t] = e;
+        finite &= Float.isFinite(e);
+      }
+    }
+    return finite && check.compare(VectorOperators.EQ, 0f).allTrue();
+  }
+
+  /**
    * Keeps eight accumulator vectors in registers across the block where the value width allows:
    * eight independent chains of fused multiply-adds, where one head's loop of {@link
    * #weightedRowSum} has one or two (each waits for the previous add of its chain). The sums are
