@@ -33,6 +33,9 @@ abstract class PerHeadPass extends CsrPass {
    */
   static final long MIN_LOAD_AHEAD_BYTES = 16L << 20;
 
+  /** Rows of the complete pattern that take each block of sources together. */
+  static final int TILE_ROWS = 4;
+
   final PerHeadMath math;
 
   /** Whether the next row's first block is loaded ahead (64-float rows of a large CSR graph). */
@@ -80,6 +83,10 @@ abstract class PerHeadPass extends CsrPass {
       }
       return;
     }
+    if (csr == null) {
+      completeRowTiles(from, to, sc);
+      return;
+    }
     for (int i = from; i < to; i++) {
       row(i, sc);
     }
@@ -115,43 +122,81 @@ abstract class PerHeadPass extends CsrPass {
   @Override
   final void sourcesRow(int i, int start, int degree, long firstEntry, Scratch sc) {
     beginRow(sc);
+    for (int b = 0; b < degree; b += BLOCK) {
+      int count = Math.min(BLOCK, degree - b);
+      addBlock(i, blockColumns(start + b, count, sc), b, count, firstEntry, sc);
+    }
+    finishRow(i, degree, firstEntry, sc);
+  }
+
+  /**
+   * Rows {@code from..to-1} of the complete pattern in tiles of {@link #TILE_ROWS} rows: each block
+   * of sources is taken by every row of the tile in turn, while its key and value rows are still in
+   * the core's first-level cache, instead of every row streaming all n key and value rows from the
+   * second level. Each row keeps its own scratch, and its arithmetic is {@link #sourcesRow}'s in
+   * the same order, so the bits do not change.
+   */
+  private void completeRowTiles(int from, int to, Scratch sc) {
+    Scratch[] tile = new Scratch[Math.min(TILE_ROWS, to - from)];
+    tile[0] = sc;
+    for (int r = 1; r < tile.length; r++) {
+      tile[r] = newScratch();
+    }
+    for (int i0 = from; i0 < to; i0 += TILE_ROWS) {
+      int rows = Math.min(TILE_ROWS, to - i0);
+      for (int r = 0; r < rows; r++) {
+        beginRow(tile[r]);
+      }
+      for (int b = 0; b < n; b += BLOCK) {
+        int count = Math.min(BLOCK, n - b);
+        int[] columns = blockColumns(b, count, sc);
+        for (int r = 0; r < rows; r++) {
+          addBlock(i0 + r, columns, b, count, (long) (i0 + r) * n, tile[r]);
+        }
+      }
+      for (int r = 0; r < rows; r++) {
+        finishRow(i0 + r, n, (long) (i0 + r) * n, tile[r]);
+      }
+    }
+  }
+
+  /**
+   * Adds entries {@code b..b+count-1} of row i (sources {@code columns[0..count-1]}) to the row's
+   * running maxima, sums and accumulator in the scratch.
+   */
+  private void addBlock(int i, int[] columns, int b, int count, long firstEntry, Scratch sc) {
     float[] s = sc.scores;
     float[] acc = sc.acc;
     float[] m = sc.max;
     float[] l = sc.sum;
-    for (int b = 0; b < degree; b += BLOCK) {
-      int count = Math.min(BLOCK, degree - b);
-      int[] columns = blockColumns(start + b, count, sc);
-      scoreBlock(i, columns, count, sc);
-      if (weights != null) {
-        for (int t = 0; t < count; t++) {
-          int w = (int) ((firstEntry + b + t) * heads);
-          for (int h = 0; h < heads; h++) {
-            weights[w + h] = s[h * BLOCK + t];
-          }
-        }
-      }
-      for (int h = 0; h < heads; h++) {
-        int sh = h * BLOCK;
-        float blockMax = math.max(s, sh, count);
-        float old = m[h];
-        if (blockMax > old) {
-          if (old != Float.NEGATIVE_INFINITY) {
-            float f = FastExp.expNonPositive(old - blockMax);
-            l[h] *= f;
-            math.scale(acc, h * valueDim, valueDim, f);
-          }
-          m[h] = blockMax;
-        }
-        l[h] += math.expShiftSum(s, sh, count, m[h]);
-      }
-      int[] rowBase = sc.rowBase;
+    scoreBlock(i, columns, count, sc);
+    if (weights != null) {
       for (int t = 0; t < count; t++) {
-        rowBase[t] = columns[t] * valueWidth;
+        int w = (int) ((firstEntry + b + t) * heads);
+        for (int h = 0; h < heads; h++) {
+          weights[w + h] = s[h * BLOCK + t];
+        }
       }
-      math.weightedRowSums(s, BLOCK, rowBase, count, heads, valueDim, value, acc);
     }
-    finishRow(i, degree, firstEntry, sc);
+    for (int h = 0; h < heads; h++) {
+      int sh = h * BLOCK;
+      float blockMax = math.max(s, sh, count);
+      float old = m[h];
+      if (blockMax > old) {
+        if (old != Float.NEGATIVE_INFINITY) {
+          float f = FastExp.expNonPositive(old - blockMax);
+          l[h] *= f;
+          math.scale(acc, h * valueDim, valueDim, f);
+        }
+        m[h] = blockMax;
+      }
+      l[h] += math.expShiftSum(s, sh, count, m[h]);
+    }
+    int[] rowBase = sc.rowBase;
+    for (int t = 0; t < count; t++) {
+      rowBase[t] = columns[t] * valueWidth;
+    }
+    math.weightedRowSums(s, BLOCK, rowBase, count, heads, valueDim, value, acc);
   }
 
   /** Scores of the block's entries of row i, head-major into the scratch: head h's at h·BLOCK. */

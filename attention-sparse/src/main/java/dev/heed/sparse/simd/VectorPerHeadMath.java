@@ -310,6 +310,9 @@ final class VectorPerHeadMath implements PerHeadMath {
       PerHeadMath.super.weightedRowSums(w, stride, rowBase, count, heads, valueDim, value, acc);
       return;
     }
+    // vectors 2m and 2m + 1 belong to one head when a head is two or more vectors wide: one weight
+    // broadcast serves both (the loop is bound by loads, and C2 unswitches it on this flag)
+    boolean paired = valueDim % (2 * WIDE_LANES) == 0;
     int x = 0;
     for (; x <= width - 8 * WIDE_LANES; x += 8 * WIDE_LANES) {
       int x1 = x + WIDE_LANES;
@@ -338,30 +341,22 @@ final class VectorPerHeadMath implements PerHeadMath {
       FloatVector a7 = FloatVector.fromArray(WIDE, acc, x7);
       for (int t = 0; t < count; t++) {
         int r = rowBase[t];
-        a0 =
-            FloatVector.fromArray(WIDE, value, r + x)
-                .fma(FloatVector.broadcast(WIDE, w[w0 + t]), a0);
-        a1 =
-            FloatVector.fromArray(WIDE, value, r + x1)
-                .fma(FloatVector.broadcast(WIDE, w[w1 + t]), a1);
-        a2 =
-            FloatVector.fromArray(WIDE, value, r + x2)
-                .fma(FloatVector.broadcast(WIDE, w[w2 + t]), a2);
-        a3 =
-            FloatVector.fromArray(WIDE, value, r + x3)
-                .fma(FloatVector.broadcast(WIDE, w[w3 + t]), a3);
-        a4 =
-            FloatVector.fromArray(WIDE, value, r + x4)
-                .fma(FloatVector.broadcast(WIDE, w[w4 + t]), a4);
-        a5 =
-            FloatVector.fromArray(WIDE, value, r + x5)
-                .fma(FloatVector.broadcast(WIDE, w[w5 + t]), a5);
-        a6 =
-            FloatVector.fromArray(WIDE, value, r + x6)
-                .fma(FloatVector.broadcast(WIDE, w[w6 + t]), a6);
-        a7 =
-            FloatVector.fromArray(WIDE, value, r + x7)
-                .fma(FloatVector.broadcast(WIDE, w[w7 + t]), a7);
+        FloatVector b0 = FloatVector.broadcast(WIDE, w[w0 + t]);
+        FloatVector b2 = FloatVector.broadcast(WIDE, w[w2 + t]);
+        FloatVector b4 = FloatVector.broadcast(WIDE, w[w4 + t]);
+        FloatVector b6 = FloatVector.broadcast(WIDE, w[w6 + t]);
+        FloatVector b1 = paired ? b0 : FloatVector.broadcast(WIDE, w[w1 + t]);
+        FloatVector b3 = paired ? b2 : FloatVector.broadcast(WIDE, w[w3 + t]);
+        FloatVector b5 = paired ? b4 : FloatVector.broadcast(WIDE, w[w5 + t]);
+        FloatVector b7 = paired ? b6 : FloatVector.broadcast(WIDE, w[w7 + t]);
+        a0 = FloatVector.fromArray(WIDE, value, r + x).fma(b0, a0);
+        a1 = FloatVector.fromArray(WIDE, value, r + x1).fma(b1, a1);
+        a2 = FloatVector.fromArray(WIDE, value, r + x2).fma(b2, a2);
+        a3 = FloatVector.fromArray(WIDE, value, r + x3).fma(b3, a3);
+        a4 = FloatVector.fromArray(WIDE, value, r + x4).fma(b4, a4);
+        a5 = FloatVector.fromArray(WIDE, value, r + x5).fma(b5, a5);
+        a6 = FloatVector.fromArray(WIDE, value, r + x6).fma(b6, a6);
+        a7 = FloatVector.fromArray(WIDE, value, r + x7).fma(b7, a7);
       }
       a0.intoArray(acc, x);
       a1.intoArray(acc, x1);
