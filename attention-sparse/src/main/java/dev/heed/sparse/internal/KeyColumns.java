@@ -2,7 +2,7 @@ package dev.heed.sparse.internal;
 
 /**
  * The key table transposed, for scoring runs of consecutive source nodes ({@link
- * PerHeadMath#dotScoresOfRun}): row c holds key float c of every node, so the keys of consecutive
+ * PerHeadMath#dotScoresOfRuns}): row c holds key float c of every node, so the keys of consecutive
  * sources in one dimension are side by side and one vector load takes several entries' terms.
  * Filled once per call over the complete pattern: {@code n · keyWidth} floats, O(n · keyWidth) time
  * against the call's O(n² · keyWidth).

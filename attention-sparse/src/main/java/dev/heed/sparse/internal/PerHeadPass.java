@@ -124,7 +124,7 @@ abstract class PerHeadPass extends CsrPass {
     beginRow(sc);
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
-      addBlock(i, blockColumns(start + b, count, sc), b, count, firstEntry, sc);
+      addBlock(i, blockColumns(start + b, count, sc), b, count, firstEntry, sc, false);
     }
     finishRow(i, degree, firstEntry, sc);
   }
@@ -150,8 +150,12 @@ abstract class PerHeadPass extends CsrPass {
       for (int b = 0; b < n; b += BLOCK) {
         int count = Math.min(BLOCK, n - b);
         int[] columns = blockColumns(b, count, sc);
+        for (int r = 0; r < rows; r += 2) {
+          int r2 = Math.min(r + 1, rows - 1);
+          scoreBlockPair(i0 + r, i0 + r2, columns, count, tile[r], tile[r2]);
+        }
         for (int r = 0; r < rows; r++) {
-          addBlock(i0 + r, columns, b, count, (long) (i0 + r) * n, tile[r]);
+          addBlock(i0 + r, columns, b, count, (long) (i0 + r) * n, tile[r], true);
         }
       }
       for (int r = 0; r < rows; r++) {
@@ -162,14 +166,18 @@ abstract class PerHeadPass extends CsrPass {
 
   /**
    * Adds entries {@code b..b+count-1} of row i (sources {@code columns[0..count-1]}) to the row's
-   * running maxima, sums and accumulator in the scratch.
+   * running maxima, sums and accumulator in the scratch, scoring them first unless {@code scored}
+   * (then the scratch already holds their scores).
    */
-  private void addBlock(int i, int[] columns, int b, int count, long firstEntry, Scratch sc) {
+  private void addBlock(
+      int i, int[] columns, int b, int count, long firstEntry, Scratch sc, boolean scored) {
     float[] s = sc.scores;
     float[] acc = sc.acc;
     float[] m = sc.max;
     float[] l = sc.sum;
-    scoreBlock(i, columns, count, sc);
+    if (!scored) {
+      scoreBlock(i, columns, count, sc);
+    }
     if (weights != null) {
       for (int t = 0; t < count; t++) {
         int w = (int) ((firstEntry + b + t) * heads);
@@ -201,6 +209,17 @@ abstract class PerHeadPass extends CsrPass {
 
   /** Scores of the block's entries of row i, head-major into the scratch: head h's at h·BLOCK. */
   abstract void scoreBlock(int i, int[] columns, int count, Scratch sc);
+
+  /**
+   * {@link #scoreBlock} for rows i and i2 (the same row when {@code i2 == i}, with the same
+   * scratch), into their own scratch; a pass may score both rows together.
+   */
+  void scoreBlockPair(int i, int i2, int[] columns, int count, Scratch sc, Scratch sc2) {
+    scoreBlock(i, columns, count, sc);
+    if (i2 != i) {
+      scoreBlock(i2, columns, count, sc2);
+    }
+  }
 
   /**
    * Copies the key rows of the block's entries into scratch, row t at {@code t * keyWidth}. A loop
@@ -296,38 +315,58 @@ abstract class PerHeadPass extends CsrPass {
 
     @Override
     void scoreBlock(int i, int[] columns, int count, Scratch sc) {
-      float[] s = sc.scores;
-      boolean finite;
       if (keyColumns != null) {
-        // the complete pattern: a block's sources are consecutive nodes
-        finite =
-            math.dotScoresOfRun(
-                query,
-                i * keyWidth,
-                keyColumns,
-                n,
-                columns[0],
-                count,
-                heads,
-                keyDim,
-                scale,
-                s,
-                BLOCK);
-      } else {
-        int[] rowBase = sc.rowBase;
-        for (int t = 0; t < count; t++) {
-          rowBase[t] = columns[t] * keyWidth;
-        }
-        finite =
-            math.dotScores(
-                query, i * keyWidth, key, rowBase, count, heads, keyDim, scale, s, BLOCK);
+        scoreBlockPair(i, i, columns, count, sc, sc);
+        return;
       }
-      if (!finite) {
-        for (int t = 0; t < count; t++) {
-          for (int h = 0; h < heads; h++) {
-            if (!Float.isFinite(s[h * BLOCK + t])) {
-              s[h * BLOCK + t] = exactScore(i, columns[t], h);
-            }
+      float[] s = sc.scores;
+      int[] rowBase = sc.rowBase;
+      for (int t = 0; t < count; t++) {
+        rowBase[t] = columns[t] * keyWidth;
+      }
+      if (!math.dotScores(
+          query, i * keyWidth, key, rowBase, count, heads, keyDim, scale, s, BLOCK)) {
+        recomputeNonFinite(i, columns, count, s);
+      }
+    }
+
+    /**
+     * Over the complete pattern, both rows' scores from the transposed keys, each load of keys
+     * serving both rows ({@link PerHeadMath#dotScoresOfRuns}); over a CSR graph, one row after the
+     * other.
+     */
+    @Override
+    void scoreBlockPair(int i, int i2, int[] columns, int count, Scratch sc, Scratch sc2) {
+      if (keyColumns == null) {
+        super.scoreBlockPair(i, i2, columns, count, sc, sc2);
+        return;
+      }
+      // the complete pattern: a block's sources are consecutive nodes
+      if (!math.dotScoresOfRuns(
+          query,
+          i * keyWidth,
+          i2 * keyWidth,
+          keyColumns,
+          n,
+          columns[0],
+          count,
+          heads,
+          keyDim,
+          scale,
+          sc.scores,
+          sc2.scores,
+          BLOCK)) {
+        recomputeNonFinite(i, columns, count, sc.scores);
+        recomputeNonFinite(i2, columns, count, sc2.scores);
+      }
+    }
+
+    /** Replaces each non-finite score of row i's block by its clamped float64 value. */
+    private void recomputeNonFinite(int i, int[] columns, int count, float[] s) {
+      for (int t = 0; t < count; t++) {
+        for (int h = 0; h < heads; h++) {
+          if (!Float.isFinite(s[h * BLOCK + t])) {
+            s[h * BLOCK + t] = exactScore(i, columns[t], h);
           }
         }
       }

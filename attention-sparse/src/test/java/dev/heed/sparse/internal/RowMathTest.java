@@ -132,7 +132,7 @@ class RowMathTest {
   }
 
   @Test
-  void runDotScoresMatchFloat64AndDoNotDependOnWhereTheRunStarts() {
+  void runDotScoresMatchFloat64AndDoNotDependOnWhereTheRunStartsOrTheOtherRow() {
     Random random = new Random(0x0A16L);
     int stride = CsrPass.BLOCK;
     for (RowMath math : implementations()) {
@@ -146,36 +146,37 @@ class RowMathTest {
           float[] columns = KeyColumns.of(key, n, width);
           float[] before = columns.clone();
           int qo = random.nextInt(3);
-          float[] q = uniform(random, qo + width, -1f, 1f);
+          int qo2 = qo + width; // the second query row
+          float[] q = uniform(random, qo + 2 * width, -1f, 1f);
           int first = random.nextInt(n - count + 1);
           float scale = 0.25f;
           float[] s = new float[(CsrPass.BLOCK + 1) * heads];
+          float[] s2 = new float[s.length];
           String where =
               math.name() + ", keyDim " + keyDim + ", count " + count + ", first " + first;
           assertTrue(
               math.perHead()
-                  .dotScoresOfRun(q, qo, columns, n, first, count, heads, keyDim, scale, s, stride),
+                  .dotScoresOfRuns(
+                      q, qo, qo2, columns, n, first, count, heads, keyDim, scale, s, s2, stride),
               where + ": finite scores reported as not finite");
           for (int h = 0; h < heads; h++) {
             for (int t = 0; t < count; t++) {
               int o = h * keyDim;
-              assertScaledDot(
-                  q,
-                  qo + o,
-                  key,
-                  (first + t) * width + o,
-                  keyDim,
-                  scale,
-                  s[h * stride + t],
-                  where + ", head " + h + ", entry " + t);
+              int ko = (first + t) * width + o;
+              String entry = where + ", head " + h + ", entry " + t;
+              assertScaledDot(q, qo + o, key, ko, keyDim, scale, s[h * stride + t], entry);
+              assertScaledDot(q, qo2 + o, key, ko, keyDim, scale, s2[h * stride + t], entry);
             }
           }
-          // the same entries in a run that starts later: the same bits
+          // the same entries in a run that starts later, with the rows swapped, and the second row
+          // alone: the same bits
           int skip = Math.min(count - 1, 1 + random.nextInt(9));
           float[] later = new float[s.length];
+          float[] later2 = new float[s.length];
           math.perHead()
-              .dotScoresOfRun(
+              .dotScoresOfRuns(
                   q,
+                  qo2,
                   qo,
                   columns,
                   n,
@@ -184,14 +185,32 @@ class RowMathTest {
                   heads,
                   keyDim,
                   scale,
+                  later2,
                   later,
                   stride);
+          float[] alone = new float[s.length];
+          math.perHead()
+              .dotScoresOfRuns(
+                  q, qo2, qo2, columns, n, first, count, heads, keyDim, scale, alone, alone,
+                  stride);
           for (int h = 0; h < heads; h++) {
-            for (int t = skip; t < count; t++) {
+            for (int t = 0; t < count; t++) {
+              int x = h * stride + t;
+              String entry = where + ", head " + h + ", entry " + t;
               assertEquals(
-                  Float.floatToRawIntBits(s[h * stride + t]),
-                  Float.floatToRawIntBits(later[h * stride + t - skip]),
-                  where + ", head " + h + ", entry " + t + ": bits moved with the run's start");
+                  Float.floatToRawIntBits(s2[x]),
+                  Float.floatToRawIntBits(alone[x]),
+                  entry + ": bits changed with the other row");
+              if (t >= skip) {
+                assertEquals(
+                    Float.floatToRawIntBits(s[x]),
+                    Float.floatToRawIntBits(later[x - skip]),
+                    entry + ": bits moved with the run's start");
+                assertEquals(
+                    Float.floatToRawIntBits(s2[x]),
+                    Float.floatToRawIntBits(later2[x - skip]),
+                    entry + ": bits moved with the run's start");
+              }
             }
           }
           assertTrue(Arrays.equals(before, columns), where + ": modified the key columns");
@@ -223,16 +242,38 @@ class RowMathTest {
       for (int count : new int[] {1, 8, 13, 64, 70}) {
         int keyDim = 16;
         float[] key = new float[count * keyDim];
-        float[] q = new float[keyDim];
+        float[] q = new float[2 * keyDim];
         Arrays.fill(key, 0.5f);
         Arrays.fill(key, (count - 1) * keyDim, count * keyDim, 1e20f); // only the last entry
-        Arrays.fill(q, 1e20f); // its products 1e40: past Float.MAX_VALUE
+        Arrays.fill(q, 0, keyDim, 0.5f); // the first row's scores stay finite
+        Arrays.fill(q, keyDim, 2 * keyDim, 1e20f); // products 1e40: past Float.MAX_VALUE
         float[] columns = KeyColumns.of(key, count, keyDim);
         float[] s = new float[CsrPass.BLOCK];
-        assertTrue(
-            !math.perHead()
-                .dotScoresOfRun(q, 0, columns, count, 0, count, 1, keyDim, 1f, s, CsrPass.BLOCK),
-            math.name() + ", count " + count + ": an infinite score reported as finite");
+        float[] s2 = new float[CsrPass.BLOCK];
+        for (int[] rows : new int[][] {{0, keyDim}, {keyDim, 0}, {keyDim, keyDim}}) {
+          assertTrue(
+              !math.perHead()
+                  .dotScoresOfRuns(
+                      q,
+                      rows[0],
+                      rows[1],
+                      columns,
+                      count,
+                      0,
+                      count,
+                      1,
+                      keyDim,
+                      1f,
+                      s,
+                      s2,
+                      CsrPass.BLOCK),
+              math.name()
+                  + ", count "
+                  + count
+                  + ", rows "
+                  + Arrays.toString(rows)
+                  + ": an infinite score reported as finite");
+        }
       }
     }
   }
