@@ -137,10 +137,14 @@ abstract class PerHeadPass extends CsrPass {
    * the same order, so the bits do not change.
    */
   private void completeRowTiles(int from, int to, Scratch sc) {
-    Scratch[] tile = new Scratch[Math.min(TILE_ROWS, to - from)];
-    tile[0] = sc;
-    for (int r = 1; r < tile.length; r++) {
-      tile[r] = newScratch();
+    Scratch[] tile = sc.tileRows;
+    if (tile == null) {
+      tile = new Scratch[TILE_ROWS];
+      tile[0] = sc;
+      for (int r = 1; r < TILE_ROWS; r++) {
+        tile[r] = newScratch();
+      }
+      sc.tileRows = tile;
     }
     for (int i0 = from; i0 < to; i0 += TILE_ROWS) {
       int rows = Math.min(TILE_ROWS, to - i0);
