@@ -32,9 +32,11 @@ import java.util.concurrent.atomic.AtomicInteger;
  * per node instead of 320) and is used at every graph size.
  *
  * <p>Cost: O(E·H·(keyDim + valueDim)) time; per thread and call, {@code 128·H·(1 + keyDim) +
- * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64). Each
- * neighbour costs one random access to its key row and one to its value row, since a node's data
- * for all heads is contiguous.
+ * H·valueDim} floats of scratch (36 KiB for 8 heads of 8 dims, 260 KiB for 8 heads of 64), eight
+ * times that over the complete pattern (its rows run in tiles of 8), plus {@code n·H·keyDim} floats
+ * per call for scaled dot-product scores over the complete pattern (the keys transposed, {@link
+ * KeyColumns}). Each neighbour costs one random access to its key row and one to its value row,
+ * since a node's data for all heads is contiguous.
  *
  * <p>Threads: a call with {@code threads > 1} splits the rows into about {@value
  * #CHUNKS_PER_THREAD} chunks per thread of equal cost, where a row costs its entry count plus one

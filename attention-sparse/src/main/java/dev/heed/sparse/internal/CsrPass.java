@@ -87,6 +87,12 @@ abstract class CsrPass {
     /** Sum of the prefetch loads; kept so that the JIT cannot drop them. */
     float prefetchSink;
 
+    /**
+     * The scratch of each row of a tile of rows computed together, this one first; created by the
+     * first tile of the thread's call and kept for its later chunks (see {@link PerHeadPass}).
+     */
+    Scratch[] tileRows;
+
     Scratch(int heads, int keyWidth, int valueWidth) {
       work = new float[AllHeadsMath.HEADS];
       columns = new int[BLOCK];

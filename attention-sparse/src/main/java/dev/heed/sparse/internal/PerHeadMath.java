@@ -76,6 +76,70 @@ public interface PerHeadMath {
   }
 
   /**
+   * Computes the scaled dot-product scores of a run of consecutive source nodes for every head,
+   * head-major, for two target rows at once, from keys stored by dimension (a key table transposed
+   * once per call, see {@link KeyColumns}): {@code s[h·stride + t] = scale · Σ_k q[qo + h·keyDim +
+   * k] · columns[(h·keyDim + k)·columnLength + first + t]} over {@code k < keyDim}, for {@code h <
+   * heads} and {@code t < count}, in float32, and the same into {@code s2} for the query row at
+   * {@code qo2} (which may be the same row, with {@code s2} the same array). The products are added
+   * in order of k and then scaled, with the same operations for every entry (the vector form fuses
+   * each multiply-add, here they are rounded apart), so a score's bits depend only on the entry and
+   * the query, never on where it lies in the run or which row it is paired with. Consecutive
+   * sources lie side by side in each dimension's row, so an implementation can score several
+   * entries per vector operation with no sum across lanes, and use each load of keys for both rows.
+   *
+   * @param q input, not modified: the query rows
+   * @param qo offset of the first query row in {@code q}
+   * @param qo2 offset of the second query row in {@code q}
+   * @param columns input, not modified: {@code heads · keyDim} rows of {@code columnLength} floats,
+   *     row c holding key float c of every node
+   * @param columnLength length of a row of {@code columns}, at least {@code first + count}
+   * @param first the run's first source node
+   * @param count number of entries, at least 1
+   * @param heads number of heads, at least 1
+   * @param keyDim key width per head, at least 1
+   * @param scale the factor applied to each dot product
+   * @param s output: the first row's scores, head h's at {@code h·stride}
+   * @param s2 output: the second row's scores, laid out as {@code s}
+   * @param stride distance between heads in {@code s} and {@code s2}, at least {@code count}
+   * @return true if every score is finite; false if one overflowed to infinity or NaN (the caller
+   *     recomputes those)
+   */
+  default boolean dotScoresOfRuns(
+      float[] q,
+      int qo,
+      int qo2,
+      float[] columns,
+      int columnLength,
+      int first,
+      int count,
+      int heads,
+      int keyDim,
+      float scale,
+      float[] s,
+      float[] s2,
+      int stride) {
+    boolean finite = true;
+    for (int row = 0; row < 2; row++) {
+      float[] out = row == 0 ? s : s2;
+      for (int h = 0; h < heads; h++) {
+        int qh = (row == 0 ? qo : qo2) + h * keyDim;
+        int ch = h * keyDim * columnLength + first;
+        for (int t = 0; t < count; t++) {
+          float e = q[qh] * columns[ch + t];
+          for (int k = 1, c = ch + columnLength + t; k < keyDim; k++, c += columnLength) {
+            e += q[qh + k] * columns[c];
+          }
+          e *= scale;
+          out[h * stride + t] = e;
+          finite &= Float.isFinite(e);
+        }
+      }
+    }
+    return finite;
+  }
+
+  /**
    * Returns the GATv2 score {@code Σ att[ao+k] · LeakyReLU(q[qo+k] + key[ko+k])} over {@code k <
    * length} (Brody et al. 2022), in float32.
    *

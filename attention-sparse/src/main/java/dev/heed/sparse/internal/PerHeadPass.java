@@ -33,6 +33,9 @@ abstract class PerHeadPass extends CsrPass {
    */
   static final long MIN_LOAD_AHEAD_BYTES = 16L << 20;
 
+  /** Rows of the complete pattern that take each block of sources together. */
+  static final int TILE_ROWS = 4;
+
   final PerHeadMath math;
 
   /** Whether the next row's first block is loaded ahead (64-float rows of a large CSR graph). */
@@ -80,6 +83,10 @@ abstract class PerHeadPass extends CsrPass {
       }
       return;
     }
+    if (csr == null) {
+      completeRowTiles(from, to, sc);
+      return;
+    }
     for (int i = from; i < to; i++) {
       row(i, sc);
     }
@@ -115,47 +122,108 @@ abstract class PerHeadPass extends CsrPass {
   @Override
   final void sourcesRow(int i, int start, int degree, long firstEntry, Scratch sc) {
     beginRow(sc);
-    float[] s = sc.scores;
-    float[] acc = sc.acc;
-    float[] m = sc.max;
-    float[] l = sc.sum;
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
-      int[] columns = blockColumns(start + b, count, sc);
-      scoreBlock(i, columns, count, sc);
-      if (weights != null) {
-        for (int t = 0; t < count; t++) {
-          int w = (int) ((firstEntry + b + t) * heads);
-          for (int h = 0; h < heads; h++) {
-            weights[w + h] = s[h * BLOCK + t];
-          }
-        }
-      }
-      for (int h = 0; h < heads; h++) {
-        int sh = h * BLOCK;
-        float blockMax = math.max(s, sh, count);
-        float old = m[h];
-        if (blockMax > old) {
-          if (old != Float.NEGATIVE_INFINITY) {
-            float f = FastExp.expNonPositive(old - blockMax);
-            l[h] *= f;
-            math.scale(acc, h * valueDim, valueDim, f);
-          }
-          m[h] = blockMax;
-        }
-        l[h] += math.expShiftSum(s, sh, count, m[h]);
-      }
-      int[] rowBase = sc.rowBase;
-      for (int t = 0; t < count; t++) {
-        rowBase[t] = columns[t] * valueWidth;
-      }
-      math.weightedRowSums(s, BLOCK, rowBase, count, heads, valueDim, value, acc);
+      addBlock(i, blockColumns(start + b, count, sc), b, count, firstEntry, sc, false);
     }
     finishRow(i, degree, firstEntry, sc);
   }
 
+  /**
+   * Rows {@code from..to-1} of the complete pattern in tiles of {@link #TILE_ROWS} rows: each block
+   * of sources is taken by every row of the tile in turn, while its key and value rows are still in
+   * the core's first-level cache, instead of every row streaming all n key and value rows from the
+   * second level. Each row keeps its own scratch, and its arithmetic is {@link #sourcesRow}'s in
+   * the same order, so the bits do not change.
+   */
+  private void completeRowTiles(int from, int to, Scratch sc) {
+    Scratch[] tile = sc.tileRows;
+    if (tile == null) {
+      tile = new Scratch[TILE_ROWS];
+      tile[0] = sc;
+      for (int r = 1; r < TILE_ROWS; r++) {
+        tile[r] = newScratch();
+      }
+      sc.tileRows = tile;
+    }
+    for (int i0 = from; i0 < to; i0 += TILE_ROWS) {
+      int rows = Math.min(TILE_ROWS, to - i0);
+      for (int r = 0; r < rows; r++) {
+        beginRow(tile[r]);
+      }
+      for (int b = 0; b < n; b += BLOCK) {
+        int count = Math.min(BLOCK, n - b);
+        int[] columns = blockColumns(b, count, sc);
+        for (int r = 0; r < rows; r += 2) {
+          int r2 = Math.min(r + 1, rows - 1);
+          scoreBlockPair(i0 + r, i0 + r2, columns, count, tile[r], tile[r2]);
+        }
+        for (int r = 0; r < rows; r++) {
+          addBlock(i0 + r, columns, b, count, (long) (i0 + r) * n, tile[r], true);
+        }
+      }
+      for (int r = 0; r < rows; r++) {
+        finishRow(i0 + r, n, (long) (i0 + r) * n, tile[r]);
+      }
+    }
+  }
+
+  /**
+   * Adds entries {@code b..b+count-1} of row i (sources {@code columns[0..count-1]}) to the row's
+   * running maxima, sums and accumulator in the scratch, scoring them first unless {@code scored}
+   * (then the scratch already holds their scores).
+   */
+  private void addBlock(
+      int i, int[] columns, int b, int count, long firstEntry, Scratch sc, boolean scored) {
+    float[] s = sc.scores;
+    float[] acc = sc.acc;
+    float[] m = sc.max;
+    float[] l = sc.sum;
+    if (!scored) {
+      scoreBlock(i, columns, count, sc);
+    }
+    if (weights != null) {
+      for (int t = 0; t < count; t++) {
+        int w = (int) ((firstEntry + b + t) * heads);
+        for (int h = 0; h < heads; h++) {
+          weights[w + h] = s[h * BLOCK + t];
+        }
+      }
+    }
+    for (int h = 0; h < heads; h++) {
+      int sh = h * BLOCK;
+      float blockMax = math.max(s, sh, count);
+      float old = m[h];
+      if (blockMax > old) {
+        if (old != Float.NEGATIVE_INFINITY) {
+          float f = FastExp.expNonPositive(old - blockMax);
+          l[h] *= f;
+          math.scale(acc, h * valueDim, valueDim, f);
+        }
+        m[h] = blockMax;
+      }
+      l[h] += math.expShiftSum(s, sh, count, m[h]);
+    }
+    int[] rowBase = sc.rowBase;
+    for (int t = 0; t < count; t++) {
+      rowBase[t] = columns[t] * valueWidth;
+    }
+    math.weightedRowSums(s, BLOCK, rowBase, count, heads, valueDim, value, acc);
+  }
+
   /** Scores of the block's entries of row i, head-major into the scratch: head h's at h·BLOCK. */
   abstract void scoreBlock(int i, int[] columns, int count, Scratch sc);
+
+  /**
+   * {@link #scoreBlock} for rows i and i2 (the same row when {@code i2 == i}, with the same
+   * scratch), into their own scratch; a pass may score both rows together.
+   */
+  void scoreBlockPair(int i, int i2, int[] columns, int count, Scratch sc, Scratch sc2) {
+    scoreBlock(i, columns, count, sc);
+    if (i2 != i) {
+      scoreBlock(i2, columns, count, sc2);
+    }
+  }
 
   /**
    * Copies the key rows of the block's entries into scratch, row t at {@code t * keyWidth}. A loop
@@ -240,13 +308,21 @@ abstract class PerHeadPass extends CsrPass {
   static final class Dot extends PerHeadPass {
     private final float scale;
 
+    /** The complete pattern's keys by dimension ({@link KeyColumns}); null over a CSR graph. */
+    private final float[] keyColumns;
+
     Dot(CsrCall call, PerHeadMath math, boolean prefetch, float scale) {
       super(call, math, prefetch);
       this.scale = scale;
+      this.keyColumns = csr == null ? KeyColumns.of(key, n, keyWidth) : null;
     }
 
     @Override
     void scoreBlock(int i, int[] columns, int count, Scratch sc) {
+      if (keyColumns != null) {
+        scoreBlockPair(i, i, columns, count, sc, sc);
+        return;
+      }
       float[] s = sc.scores;
       int[] rowBase = sc.rowBase;
       for (int t = 0; t < count; t++) {
@@ -254,11 +330,47 @@ abstract class PerHeadPass extends CsrPass {
       }
       if (!math.dotScores(
           query, i * keyWidth, key, rowBase, count, heads, keyDim, scale, s, BLOCK)) {
-        for (int t = 0; t < count; t++) {
-          for (int h = 0; h < heads; h++) {
-            if (!Float.isFinite(s[h * BLOCK + t])) {
-              s[h * BLOCK + t] = exactScore(i, columns[t], h);
-            }
+        recomputeNonFinite(i, columns, count, s);
+      }
+    }
+
+    /**
+     * Over the complete pattern, both rows' scores from the transposed keys, each load of keys
+     * serving both rows ({@link PerHeadMath#dotScoresOfRuns}); over a CSR graph, one row after the
+     * other.
+     */
+    @Override
+    void scoreBlockPair(int i, int i2, int[] columns, int count, Scratch sc, Scratch sc2) {
+      if (keyColumns == null) {
+        super.scoreBlockPair(i, i2, columns, count, sc, sc2);
+        return;
+      }
+      // the complete pattern: a block's sources are consecutive nodes
+      if (!math.dotScoresOfRuns(
+          query,
+          i * keyWidth,
+          i2 * keyWidth,
+          keyColumns,
+          n,
+          columns[0],
+          count,
+          heads,
+          keyDim,
+          scale,
+          sc.scores,
+          sc2.scores,
+          BLOCK)) {
+        recomputeNonFinite(i, columns, count, sc.scores);
+        recomputeNonFinite(i2, columns, count, sc2.scores);
+      }
+    }
+
+    /** Replaces each non-finite score of row i's block by its clamped float64 value. */
+    private void recomputeNonFinite(int i, int[] columns, int count, float[] s) {
+      for (int t = 0; t < count; t++) {
+        for (int h = 0; h < heads; h++) {
+          if (!Float.isFinite(s[h * BLOCK + t])) {
+            s[h * BLOCK + t] = exactScore(i, columns[t], h);
           }
         }
       }

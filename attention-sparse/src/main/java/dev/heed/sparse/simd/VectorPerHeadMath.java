@@ -188,6 +188,168 @@ final class VectorPerHeadMath implements PerHeadMath {
   }
 
   /**
+   * Scores 64 consecutive entries of one head for both rows at a time in sixteen accumulator
+   * vectors (eight entries each, one per lane): per key dimension, eight loads of the transposed
+   * keys and one broadcast query float per row feed sixteen independent fused multiply-adds, with
+   * no sum across lanes. Leftover entries take eight at a time, then one at a time with the same
+   * operations in scalar code, one row after the other, so every score has the same bits wherever
+   * it lies in the run.
+   */
+  @Override
+  public boolean dotScoresOfRuns(
+      float[] q,
+      int qo,
+      int qo2,
+      float[] columns,
+      int columnLength,
+      int first,
+      int count,
+      int heads,
+      int keyDim,
+      float scale,
+      float[] s,
+      float[] s2,
+      int stride) {
+    // e - e is 0 for a finite score, NaN for an infinite or NaN one: summed, checked once
+    FloatVector check = FloatVector.zero(WIDE);
+    boolean finite = true;
+    int vectorEnd = count - count % WIDE_LANES;
+    for (int h = 0; h < heads; h++) {
+      int qh = qo + h * keyDim;
+      int qh2 = qo2 + h * keyDim;
+      int ch = h * keyDim * columnLength + first;
+      int sh = h * stride;
+      int t = 0;
+      for (; t <= vectorEnd - 8 * WIDE_LANES; t += 8 * WIDE_LANES) {
+        int c = ch + t;
+        FloatVector qa = FloatVector.broadcast(WIDE, q[qh]);
+        FloatVector qb = FloatVector.broadcast(WIDE, q[qh2]);
+        FloatVector e0 = FloatVector.fromArray(WIDE, columns, c);
+        FloatVector e1 = FloatVector.fromArray(WIDE, columns, c + WIDE_LANES);
+        FloatVector e2 = FloatVector.fromArray(WIDE, columns, c + 2 * WIDE_LANES);
+        FloatVector e3 = FloatVector.fromArray(WIDE, columns, c + 3 * WIDE_LANES);
+        FloatVector e4 = FloatVector.fromArray(WIDE, columns, c + 4 * WIDE_LANES);
+        FloatVector e5 = FloatVector.fromArray(WIDE, columns, c + 5 * WIDE_LANES);
+        FloatVector e6 = FloatVector.fromArray(WIDE, columns, c + 6 * WIDE_LANES);
+        FloatVector e7 = FloatVector.fromArray(WIDE, columns, c + 7 * WIDE_LANES);
+        FloatVector f0 = e0.mul(qb);
+        e0 = e0.mul(qa);
+        FloatVector f1 = e1.mul(qb);
+        e1 = e1.mul(qa);
+        FloatVector f2 = e2.mul(qb);
+        e2 = e2.mul(qa);
+        FloatVector f3 = e3.mul(qb);
+        e3 = e3.mul(qa);
+        FloatVector f4 = e4.mul(qb);
+        e4 = e4.mul(qa);
+        FloatVector f5 = e5.mul(qb);
+        e5 = e5.mul(qa);
+        FloatVector f6 = e6.mul(qb);
+        e6 = e6.mul(qa);
+        FloatVector f7 = e7.mul(qb);
+        e7 = e7.mul(qa);
+        for (int k = 1; k < keyDim; k++) {
+          c += columnLength;
+          qa = FloatVector.broadcast(WIDE, q[qh + k]);
+          qb = FloatVector.broadcast(WIDE, q[qh2 + k]);
+          FloatVector k0 = FloatVector.fromArray(WIDE, columns, c);
+          e0 = k0.fma(qa, e0);
+          f0 = k0.fma(qb, f0);
+          FloatVector k1 = FloatVector.fromArray(WIDE, columns, c + WIDE_LANES);
+          e1 = k1.fma(qa, e1);
+          f1 = k1.fma(qb, f1);
+          FloatVector k2 = FloatVector.fromArray(WIDE, columns, c + 2 * WIDE_LANES);
+          e2 = k2.fma(qa, e2);
+          f2 = k2.fma(qb, f2);
+          FloatVector k3 = FloatVector.fromArray(WIDE, columns, c + 3 * WIDE_LANES);
+          e3 = k3.fma(qa, e3);
+          f3 = k3.fma(qb, f3);
+          FloatVector k4 = FloatVector.fromArray(WIDE, columns, c + 4 * WIDE_LANES);
+          e4 = k4.fma(qa, e4);
+          f4 = k4.fma(qb, f4);
+          FloatVector k5 = FloatVector.fromArray(WIDE, columns, c + 5 * WIDE_LANES);
+          e5 = k5.fma(qa, e5);
+          f5 = k5.fma(qb, f5);
+          FloatVector k6 = FloatVector.fromArray(WIDE, columns, c + 6 * WIDE_LANES);
+          e6 = k6.fma(qa, e6);
+          f6 = k6.fma(qb, f6);
+          FloatVector k7 = FloatVector.fromArray(WIDE, columns, c + 7 * WIDE_LANES);
+          e7 = k7.fma(qa, e7);
+          f7 = k7.fma(qb, f7);
+        }
+        int o = sh + t;
+        e0 = e0.mul(scale);
+        f0 = f0.mul(scale);
+        e0.intoArray(s, o);
+        f0.intoArray(s2, o);
+        e1 = e1.mul(scale);
+        f1 = f1.mul(scale);
+        e1.intoArray(s, o + WIDE_LANES);
+        f1.intoArray(s2, o + WIDE_LANES);
+        e2 = e2.mul(scale);
+        f2 = f2.mul(scale);
+        e2.intoArray(s, o + 2 * WIDE_LANES);
+        f2.intoArray(s2, o + 2 * WIDE_LANES);
+        e3 = e3.mul(scale);
+        f3 = f3.mul(scale);
+        e3.intoArray(s, o + 3 * WIDE_LANES);
+        f3.intoArray(s2, o + 3 * WIDE_LANES);
+        e4 = e4.mul(scale);
+        f4 = f4.mul(scale);
+        e4.intoArray(s, o + 4 * WIDE_LANES);
+        f4.intoArray(s2, o + 4 * WIDE_LANES);
+        e5 = e5.mul(scale);
+        f5 = f5.mul(scale);
+        e5.intoArray(s, o + 5 * WIDE_LANES);
+        f5.intoArray(s2, o + 5 * WIDE_LANES);
+        e6 = e6.mul(scale);
+        f6 = f6.mul(scale);
+        e6.intoArray(s, o + 6 * WIDE_LANES);
+        f6.intoArray(s2, o + 6 * WIDE_LANES);
+        e7 = e7.mul(scale);
+        f7 = f7.mul(scale);
+        e7.intoArray(s, o + 7 * WIDE_LANES);
+        f7.intoArray(s2, o + 7 * WIDE_LANES);
+        FloatVector c03 = e0.sub(e0).add(e1.sub(e1)).add(e2.sub(e2)).add(e3.sub(e3));
+        FloatVector c47 = e4.sub(e4).add(e5.sub(e5)).add(e6.sub(e6)).add(e7.sub(e7));
+        FloatVector d03 = f0.sub(f0).add(f1.sub(f1)).add(f2.sub(f2)).add(f3.sub(f3));
+        FloatVector d47 = f4.sub(f4).add(f5.sub(f5)).add(f6.sub(f6)).add(f7.sub(f7));
+        check = check.add(c03).add(c47).add(d03).add(d47);
+      }
+      for (int row = 0; row < 2; row++) {
+        int qr = row == 0 ? qh : qh2;
+        float[] out = row == 0 ? s : s2;
+        int u = t;
+        for (; u < vectorEnd; u += WIDE_LANES) {
+          int c = ch + u;
+          FloatVector e = FloatVector.fromArray(WIDE, columns, c).mul(q[qr]);
+          for (int k = 1; k < keyDim; k++) {
+            c += columnLength;
+            e =
+                FloatVector.fromArray(WIDE, columns, c)
+                    .fma(FloatVector.broadcast(WIDE, q[qr + k]), e);
+          }
+          e = e.mul(scale);
+          e.intoArray(out, sh + u);
+          check = check.add(e.sub(e));
+        }
+        for (; u < count; u++) {
+          int c = ch + u;
+          float e = q[qr] * columns[c];
+          for (int k = 1; k < keyDim; k++) {
+            c += columnLength;
+            e = Math.fma(columns[c], q[qr + k], e);
+          }
+          e *= scale;
+          out[sh + u] = e;
+          finite &= Float.isFinite(e);
+        }
+      }
+    }
+    return finite && check.compare(VectorOperators.EQ, 0f).allTrue();
+  }
+
+  /**
    * Keeps eight accumulator vectors in registers across the block where the value width allows:
    * eight independent chains of fused multiply-adds, where one head's loop of {@link
    * #weightedRowSum} has one or two (each waits for the previous add of its chain). The sums are
@@ -208,6 +370,9 @@ final class VectorPerHeadMath implements PerHeadMath {
       PerHeadMath.super.weightedRowSums(w, stride, rowBase, count, heads, valueDim, value, acc);
       return;
     }
+    // vectors 2m and 2m + 1 belong to one head when a head is two or more vectors wide: one weight
+    // broadcast serves both (the loop is bound by loads, and C2 unswitches it on this flag)
+    boolean paired = valueDim % (2 * WIDE_LANES) == 0;
     int x = 0;
     for (; x <= width - 8 * WIDE_LANES; x += 8 * WIDE_LANES) {
       int x1 = x + WIDE_LANES;
@@ -236,30 +401,22 @@ final class VectorPerHeadMath implements PerHeadMath {
       FloatVector a7 = FloatVector.fromArray(WIDE, acc, x7);
       for (int t = 0; t < count; t++) {
         int r = rowBase[t];
-        a0 =
-            FloatVector.fromArray(WIDE, value, r + x)
-                .fma(FloatVector.broadcast(WIDE, w[w0 + t]), a0);
-        a1 =
-            FloatVector.fromArray(WIDE, value, r + x1)
-                .fma(FloatVector.broadcast(WIDE, w[w1 + t]), a1);
-        a2 =
-            FloatVector.fromArray(WIDE, value, r + x2)
-                .fma(FloatVector.broadcast(WIDE, w[w2 + t]), a2);
-        a3 =
-            FloatVector.fromArray(WIDE, value, r + x3)
-                .fma(FloatVector.broadcast(WIDE, w[w3 + t]), a3);
-        a4 =
-            FloatVector.fromArray(WIDE, value, r + x4)
-                .fma(FloatVector.broadcast(WIDE, w[w4 + t]), a4);
-        a5 =
-            FloatVector.fromArray(WIDE, value, r + x5)
-                .fma(FloatVector.broadcast(WIDE, w[w5 + t]), a5);
-        a6 =
-            FloatVector.fromArray(WIDE, value, r + x6)
-                .fma(FloatVector.broadcast(WIDE, w[w6 + t]), a6);
-        a7 =
-            FloatVector.fromArray(WIDE, value, r + x7)
-                .fma(FloatVector.broadcast(WIDE, w[w7 + t]), a7);
+        FloatVector b0 = FloatVector.broadcast(WIDE, w[w0 + t]);
+        FloatVector b2 = FloatVector.broadcast(WIDE, w[w2 + t]);
+        FloatVector b4 = FloatVector.broadcast(WIDE, w[w4 + t]);
+        FloatVector b6 = FloatVector.broadcast(WIDE, w[w6 + t]);
+        FloatVector b1 = paired ? b0 : FloatVector.broadcast(WIDE, w[w1 + t]);
+        FloatVector b3 = paired ? b2 : FloatVector.broadcast(WIDE, w[w3 + t]);
+        FloatVector b5 = paired ? b4 : FloatVector.broadcast(WIDE, w[w5 + t]);
+        FloatVector b7 = paired ? b6 : FloatVector.broadcast(WIDE, w[w7 + t]);
+        a0 = FloatVector.fromArray(WIDE, value, r + x).fma(b0, a0);
+        a1 = FloatVector.fromArray(WIDE, value, r + x1).fma(b1, a1);
+        a2 = FloatVector.fromArray(WIDE, value, r + x2).fma(b2, a2);
+        a3 = FloatVector.fromArray(WIDE, value, r + x3).fma(b3, a3);
+        a4 = FloatVector.fromArray(WIDE, value, r + x4).fma(b4, a4);
+        a5 = FloatVector.fromArray(WIDE, value, r + x5).fma(b5, a5);
+        a6 = FloatVector.fromArray(WIDE, value, r + x6).fma(b6, a6);
+        a7 = FloatVector.fromArray(WIDE, value, r + x7).fma(b7, a7);
       }
       a0.intoArray(acc, x);
       a1.intoArray(acc, x1);

@@ -92,18 +92,15 @@ class RowMathTest {
               where + ": finite scores reported as not finite");
           for (int h = 0; h < heads; h++) {
             for (int t = 0; t < count; t++) {
-              double dot = 0;
-              double magnitude = 0;
-              for (int k = 0; k < keyDim; k++) {
-                double p = (double) q[qo + h * keyDim + k] * keys[rowBase[t] + h * keyDim + k];
-                dot += p;
-                magnitude += Math.abs(p);
-              }
-              // Vaswani et al. 2017, eq. 1: the scaled dot product
-              assertEquals(
-                  scale * dot,
+              int o = h * keyDim;
+              assertScaledDot(
+                  q,
+                  qo + o,
+                  keys,
+                  rowBase[t] + o,
+                  keyDim,
+                  scale,
                   s[h * stride + t],
-                  scale * sumTolerance(keyDim, magnitude),
                   where + ", head " + h + ", entry " + t);
             }
           }
@@ -135,11 +132,158 @@ class RowMathTest {
   }
 
   @Test
+  void runDotScoresMatchFloat64AndDoNotDependOnWhereTheRunStartsOrTheOtherRow() {
+    Random random = new Random(0x0A16L);
+    int stride = CsrPass.BLOCK;
+    for (RowMath math : implementations()) {
+      // key widths per head crossing the vector width; runs crossing the 8- and 64-entry groups
+      for (int keyDim : new int[] {1, 3, 8, 16, 17, 24, 64}) {
+        for (int count : new int[] {1, 5, 7, 8, 9, 15, 16, 23, 63, 64, 65, 71, 127, 128}) {
+          int heads = 1 + random.nextInt(4);
+          int width = heads * keyDim;
+          int n = count + 3 + random.nextInt(20);
+          float[] key = uniform(random, n * width, -1f, 1f);
+          float[] columns = KeyColumns.of(key, n, width);
+          float[] before = columns.clone();
+          int qo = random.nextInt(3);
+          int qo2 = qo + width; // the second query row
+          float[] q = uniform(random, qo + 2 * width, -1f, 1f);
+          int first = random.nextInt(n - count + 1);
+          float scale = 0.25f;
+          float[] s = new float[(CsrPass.BLOCK + 1) * heads];
+          float[] s2 = new float[s.length];
+          String where =
+              math.name() + ", keyDim " + keyDim + ", count " + count + ", first " + first;
+          assertTrue(
+              math.perHead()
+                  .dotScoresOfRuns(
+                      q, qo, qo2, columns, n, first, count, heads, keyDim, scale, s, s2, stride),
+              where + ": finite scores reported as not finite");
+          for (int h = 0; h < heads; h++) {
+            for (int t = 0; t < count; t++) {
+              int o = h * keyDim;
+              int ko = (first + t) * width + o;
+              String entry = where + ", head " + h + ", entry " + t;
+              assertScaledDot(q, qo + o, key, ko, keyDim, scale, s[h * stride + t], entry);
+              assertScaledDot(q, qo2 + o, key, ko, keyDim, scale, s2[h * stride + t], entry);
+            }
+          }
+          // the same entries in a run that starts later, with the rows swapped, and the second row
+          // alone: the same bits
+          int skip = Math.min(count - 1, 1 + random.nextInt(9));
+          float[] later = new float[s.length];
+          float[] later2 = new float[s.length];
+          math.perHead()
+              .dotScoresOfRuns(
+                  q,
+                  qo2,
+                  qo,
+                  columns,
+                  n,
+                  first + skip,
+                  count - skip,
+                  heads,
+                  keyDim,
+                  scale,
+                  later2,
+                  later,
+                  stride);
+          float[] alone = new float[s.length];
+          math.perHead()
+              .dotScoresOfRuns(
+                  q, qo2, qo2, columns, n, first, count, heads, keyDim, scale, alone, alone,
+                  stride);
+          for (int h = 0; h < heads; h++) {
+            for (int t = 0; t < count; t++) {
+              int x = h * stride + t;
+              String entry = where + ", head " + h + ", entry " + t;
+              assertEquals(
+                  Float.floatToRawIntBits(s2[x]),
+                  Float.floatToRawIntBits(alone[x]),
+                  entry + ": bits changed with the other row");
+              if (t >= skip) {
+                assertEquals(
+                    Float.floatToRawIntBits(s[x]),
+                    Float.floatToRawIntBits(later[x - skip]),
+                    entry + ": bits moved with the run's start");
+                assertEquals(
+                    Float.floatToRawIntBits(s2[x]),
+                    Float.floatToRawIntBits(later2[x - skip]),
+                    entry + ": bits moved with the run's start");
+              }
+            }
+          }
+          assertTrue(Arrays.equals(before, columns), where + ": modified the key columns");
+        }
+      }
+    }
+  }
+
+  @Test
+  void keyColumnsTransposeTheKeyTable() {
+    Random random = new Random(0x0A17L);
+    for (int n : new int[] {1, 2, 9, 33}) {
+      for (int width : new int[] {1, 5, 64}) {
+        float[] key = uniform(random, n * width, -1f, 1f);
+        float[] columns = KeyColumns.of(key, n, width);
+        assertEquals(n * width, columns.length);
+        for (int j = 0; j < n; j++) {
+          for (int c = 0; c < width; c++) {
+            assertEquals(key[j * width + c], columns[c * n + j], "node " + j + ", float " + c);
+          }
+        }
+      }
+    }
+  }
+
+  @Test
+  void runDotScoresReportAnOverflow() {
+    for (RowMath math : implementations()) {
+      for (int count : new int[] {1, 8, 13, 64, 70}) {
+        int keyDim = 16;
+        float[] key = new float[count * keyDim];
+        float[] q = new float[2 * keyDim];
+        Arrays.fill(key, 0.5f);
+        Arrays.fill(key, (count - 1) * keyDim, count * keyDim, 1e20f); // only the last entry
+        Arrays.fill(q, 0, keyDim, 0.5f); // the first row's scores stay finite
+        Arrays.fill(q, keyDim, 2 * keyDim, 1e20f); // products 1e40: past Float.MAX_VALUE
+        float[] columns = KeyColumns.of(key, count, keyDim);
+        float[] s = new float[CsrPass.BLOCK];
+        float[] s2 = new float[CsrPass.BLOCK];
+        for (int[] rows : new int[][] {{0, keyDim}, {keyDim, 0}, {keyDim, keyDim}}) {
+          assertTrue(
+              !math.perHead()
+                  .dotScoresOfRuns(
+                      q,
+                      rows[0],
+                      rows[1],
+                      columns,
+                      count,
+                      0,
+                      count,
+                      1,
+                      keyDim,
+                      1f,
+                      s,
+                      s2,
+                      CsrPass.BLOCK),
+              math.name()
+                  + ", count "
+                  + count
+                  + ", rows "
+                  + Arrays.toString(rows)
+                  + ": an infinite score reported as finite");
+        }
+      }
+    }
+  }
+
+  @Test
   void weightedRowSumsMatchOneHeadAtATimeBitForBit() {
     Random random = new Random(0x0A15L);
     int stride = CsrPass.BLOCK;
     for (RowMath math : implementations()) {
-      for (int valueDim : new int[] {1, 3, 8, 16, 24, 64}) {
+      for (int valueDim : new int[] {1, 3, 8, 16, 24, 32, 64}) {
         for (int heads : new int[] {1, 2, 3, 4, 8}) {
           int width = heads * valueDim;
           int count = 1 + random.nextInt(40);
@@ -331,6 +475,19 @@ class RowMathTest {
       }
     }
     assertTrue(worst < 3e-7, "worst relative error " + worst + " (about 2 ulp expected)");
+  }
+
+  /** Vaswani et al. 2017, eq. 1: the scaled dot product of two spans, in float64. */
+  private static void assertScaledDot(
+      float[] q, int qo, float[] key, int ko, int length, float scale, float got, String where) {
+    double dot = 0;
+    double magnitude = 0;
+    for (int k = 0; k < length; k++) {
+      double p = (double) q[qo + k] * key[ko + k];
+      dot += p;
+      magnitude += Math.abs(p);
+    }
+    assertEquals(scale * dot, got, scale * sumTolerance(length, magnitude), where);
   }
 
   private static float[] uniform(Random random, int length, float lo, float hi) {
