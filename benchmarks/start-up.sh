@@ -73,7 +73,7 @@ done
 rm -f "$out/time.txt"
 echo "medians over $rounds rounds ($out/runs.tsv):"
 for v in "${names[@]}"; do
-  awk -F'\t' -v v="$v" '$2 == v { w[n] = $4; c[n] = $5 + $6; l[n] = $3; f[n] = $7; n++ }
+  awk -F'\t' -v v="$v" 'BEGIN { n = 0 } $2 == v { w[n] = $4; c[n] = $5 + $6; l[n] = $3; f[n] = $7; n++ }
     function med(a, n,   i, j, t) { for (i = 0; i < n; i++) for (j = i + 1; j < n; j++)
       if (a[j] < a[i]) { t = a[i]; a[i] = a[j]; a[j] = t }
       return n % 2 ? a[int(n / 2)] : (a[n / 2 - 1] + a[n / 2]) / 2 }
