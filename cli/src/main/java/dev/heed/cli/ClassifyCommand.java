@@ -42,6 +42,20 @@ import picocli.CommandLine.Spec;
     })
 final class ClassifyCommand implements Callable<Integer> {
 
+  /**
+   * The sparse kernel's plain start (its system property; see {@code CsrKernelVariant} in
+   * attention-sparse): a classify run is one pass over a graph in a fresh JVM, so its first 2^25
+   * entries × heads (4M entries of 8 heads) run the plain Java loops, which C2 compiles cheaply,
+   * instead of Vector API loops that run many times slower until C2 has compiled them. Measured on
+   * 2 cores (benchmarks/RESULTS.md, "Start-up"): on the demo, whose first layer is 8M entries ×
+   * heads, a run took less CPU and wall time this way; the Vector API loops' warm-up pays off only
+   * beyond about this much work. A {@code -Dheed.sparse.plainStart} given to the JVM wins (0 turns
+   * it off).
+   */
+  static final String PLAIN_START_PROPERTY = "heed.sparse.plainStart";
+
+  static final long PLAIN_START_WORK = 1L << 25;
+
   @Spec CommandSpec spec;
 
   @Mixin DebugOption debug;
@@ -143,6 +157,9 @@ final class ClassifyCommand implements Callable<Integer> {
   @Override
   public Integer call() throws IOException {
     long start = System.nanoTime();
+    if (System.getProperty(PLAIN_START_PROPERTY) == null) {
+      System.setProperty(PLAIN_START_PROPERTY, Long.toString(PLAIN_START_WORK));
+    }
     PathChoice pathChoice = parsePath(path);
     graphOptions.validate();
     if (explain < 0) {

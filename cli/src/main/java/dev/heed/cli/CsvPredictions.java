@@ -7,7 +7,6 @@ import dev.heed.graph.NodeIndex;
 import java.io.IOException;
 import java.io.Writer;
 import java.util.List;
-import java.util.Locale;
 
 /**
  * Predictions as CSV: a header line, then one line per prediction with the columns
@@ -58,10 +57,8 @@ final class CsvPredictions implements PredictionWriter {
         List<NeighbourWeight> top = ClassifyRun.lastLayerNeighbours(p);
         for (int k = 0; k < explainK; k++) {
           if (k < top.size()) {
-            line.append(',')
-                .append(TextFields.csv(ids.idOf(top.get(k).node())))
-                .append(',')
-                .append(decimal(top.get(k).weight()));
+            line.append(',').append(TextFields.csv(ids.idOf(top.get(k).node()))).append(',');
+            SixDecimals.append(line, top.get(k).weight());
           } else {
             line.append(",,");
           }
@@ -80,13 +77,10 @@ final class CsvPredictions implements PredictionWriter {
   /** Appends {@code label,probability,p_...} for a top label and every class probability. */
   static void appendScores(
       StringBuilder line, String label, float probability, float[] probabilities) {
-    line.append(TextFields.csv(label)).append(',').append(decimal(probability));
+    line.append(TextFields.csv(label)).append(',');
+    SixDecimals.append(line, probability);
     for (float each : probabilities) {
-      line.append(',').append(decimal(each));
+      SixDecimals.append(line.append(','), each);
     }
-  }
-
-  private static String decimal(float value) {
-    return String.format(Locale.ROOT, "%.6f", value);
   }
 }

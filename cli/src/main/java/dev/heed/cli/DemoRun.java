@@ -100,7 +100,7 @@ final class DemoRun {
         files.directory(),
         files.generated()
             ? String.format(Locale.ROOT, "generated in %.1f s", prepareSeconds)
-            : "reused after checking their checksums");
+            : "reused after checking them against their manifest");
     out.printf(Locale.ROOT, "  model: %s: %s; labels %s%n", modelName, layers(model), labels);
     out.println();
 

@@ -147,6 +147,11 @@ class DemoCommandIT {
     assertTrue(classes.contains("dev.heed.cli.DemoRun"), "class log not written: " + classLog);
     assertFalse(classes.contains("org.nd4j."), "the sparse demo loaded ND4J classes");
     assertFalse(classes.contains("org.bytedeco."), "the sparse demo loaded JavaCPP classes");
+    // heed classify's plain start: the demo's sparse calls run the plain loops, which a JVM that
+    // reads the Vector API (as this one does) loads for nothing else
+    assertTrue(
+        classes.contains("dev.heed.sparse.internal.ScalarPerHeadMath"),
+        "the demo did not run its first calls on the plain loops");
 
     PaymentsNetwork network = PaymentsNetworkGenerator.bundledDemo().generate();
     AttentionModel model;

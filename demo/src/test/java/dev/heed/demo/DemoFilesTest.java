@@ -9,6 +9,7 @@ import java.io.IOException;
 import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
+import java.nio.file.attribute.FileTime;
 import java.util.List;
 import java.util.Locale;
 import org.junit.jupiter.api.Test;
@@ -165,6 +166,7 @@ class DemoFilesTest {
     try (var listing = Files.list(dir)) {
       assertEquals(
           List.of(
+              DemoFiles.CHECKED,
               DemoFiles.FEATURES,
               DemoFiles.MANIFEST,
               DemoFiles.ROLES,
@@ -174,6 +176,38 @@ class DemoFilesTest {
           listing.map(p -> p.getFileName().toString()).sorted().toList(),
           "no temporary files left behind");
     }
+  }
+
+  @Test
+  void aCheckRecordsStampsThatSpareLaterChecksTheHashing() throws IOException {
+    DemoFiles files = prepare(dir);
+    byte[] features = Files.readAllBytes(files.features());
+    FileTime hourAgo = FileTime.fromMillis(System.currentTimeMillis() - 3_600_000);
+    try (var listing = Files.list(dir)) {
+      for (Path file : listing.toList()) {
+        Files.setLastModifiedTime(file, hourAgo);
+      }
+    }
+    assertFalse(Files.exists(dir.resolve(DemoFiles.CHECKED)), "generating hashes nothing");
+    assertFalse(prepare(dir).generated());
+    assertTrue(Files.exists(dir.resolve(DemoFiles.CHECKED)), "a hashing check is recorded");
+
+    // Same size and time as recorded: the quick check vouches for the file without hashing it.
+    byte[] edited = features.clone();
+    edited[edited.length / 2] = (byte) (edited[edited.length / 2] == '1' ? '2' : '1');
+    Files.write(files.features(), edited);
+    Files.setLastModifiedTime(files.features(), hourAgo);
+    assertFalse(prepare(dir).generated());
+
+    // Another time: hashed, found edited, regenerated.
+    Files.setLastModifiedTime(files.features(), FileTime.fromMillis(hourAgo.toMillis() + 1_000));
+    assertTrue(prepare(dir).generated());
+    assertArrayEquals(features, Files.readAllBytes(files.features()));
+
+    // Recorded moments before the check: not settled, so hashed again.
+    assertFalse(prepare(dir).generated());
+    Files.write(files.features(), edited);
+    assertTrue(prepare(dir).generated(), "an edit right after a check is still seen");
   }
 
   @Test

@@ -11,6 +11,9 @@ import dev.heed.graph.CsrGraph;
 import java.util.Arrays;
 import java.util.concurrent.atomic.AtomicBoolean;
 import java.util.concurrent.atomic.AtomicInteger;
+import java.util.concurrent.atomic.AtomicLong;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
 
 /**
  * The {@link ComputePath#SPARSE} kernel: one fused pass per target row over a {@link CsrGraph} or a
@@ -26,6 +29,10 @@ import java.util.concurrent.atomic.AtomicInteger;
  * (320 bytes per node, one access per neighbour instead of two; the table is kept for the next
  * call, softly referenced); {@link ExactAllHeadsPass} for that score and shape otherwise; {@link
  * PerHeadPass} for every other score and shape.
+ *
+ * <p>With a plain start ({@link CsrKernelVariant#plainStartWork()}), a JVM's first calls run the
+ * plain Java loops on the per-head path, until the work of the calls so far passes the variant's
+ * limit; the Vector API loops run every call after that.
  *
  * <p>With {@link dev.heed.attention.NodeRowPrecision#BFLOAT16} ({@link
  * CsrKernelVariant#nodeRows()}) the factored table holds value rows rounded to bfloat16 (192 bytes
@@ -55,6 +62,14 @@ public final class CsrAttentionKernel implements AttentionKernel {
 
   /** Chunks per thread: enough for dynamic balancing, few enough to keep claiming cheap. */
   static final int CHUNKS_PER_THREAD = 8;
+
+  private static final Logger LOG = LoggerFactory.getLogger(CsrAttentionKernel.class);
+
+  /**
+   * Entries × heads of this JVM's calls so far, counted by kernels with a plain start: the JIT's
+   * state, which the plain start is about, belongs to the JVM, not to one kernel.
+   */
+  private static final AtomicLong STARTED_WORK = new AtomicLong();
 
   private final int threads;
   private final RowMath math;
@@ -126,7 +141,11 @@ public final class CsrAttentionKernel implements AttentionKernel {
    * the per-head one.
    */
   boolean takesAllHeadsPath(ScoreFunction score, HeadShape shape) {
-    return variant.allHeads() && math.servesAllHeads() && AllHeadsPass.applies(score, shape);
+    return takesAllHeadsPath(math, score, shape);
+  }
+
+  private boolean takesAllHeadsPath(RowMath loops, ScoreFunction score, HeadShape shape) {
+    return variant.allHeads() && loops.servesAllHeads() && AllHeadsPass.applies(score, shape);
   }
 
   /**
@@ -146,7 +165,8 @@ public final class CsrAttentionKernel implements AttentionKernel {
     AttentionKernels.checkCallShapes(pattern, score, shape, query, key, value, out, weights);
     int n = pattern.nodeCount();
     AttentionKernels.checkFinite("query", query, shape.keyWidth());
-    boolean allHeads = takesAllHeadsPath(score, shape);
+    RowMath loops = loopsFor(pattern, shape);
+    boolean allHeads = takesAllHeadsPath(loops, score, shape);
     // bfloat16 rows are rounded while the table is filled, so they use a table at any size
     // (unless tables are off)
     boolean bfloat16 = variant.bfloat16Rows();
@@ -174,8 +194,8 @@ public final class CsrAttentionKernel implements AttentionKernel {
     if (table == null) {
       run(
           allHeads
-              ? new ExactAllHeadsPass(call, math, variant.prefetch(), null)
-              : PerHeadPass.of(call, math.perHead(), variant.prefetch()),
+              ? new ExactAllHeadsPass(call, loops, variant.prefetch(), null)
+              : PerHeadPass.of(call, loops.perHead(), variant.prefetch()),
           pattern,
           useThreads);
       return;
@@ -184,8 +204,8 @@ public final class CsrAttentionKernel implements AttentionKernel {
       AllHeadsPass pass =
           variant.factoredWeights()
               ? new FactoredAllHeadsPass(
-                  call, math, variant.prefetch(), table, keyMaxima(key, n, shape), bfloat16)
-              : new ExactAllHeadsPass(call, math, variant.prefetch(), table);
+                  call, loops, variant.prefetch(), table, keyMaxima(loops, key, n, shape), bfloat16)
+              : new ExactAllHeadsPass(call, loops, variant.prefetch(), table);
       if (!pack(pass, n, useThreads)) {
         // the first bad value, with checkCall's message
         AttentionKernels.checkFinite("key", key, shape.keyWidth());
@@ -198,13 +218,47 @@ public final class CsrAttentionKernel implements AttentionKernel {
     }
   }
 
+  /** Entries × heads of this JVM's calls so far that kernels with a plain start counted (tests). */
+  static long startedWork() {
+    return STARTED_WORK.get();
+  }
+
+  /**
+   * The loops for one call: the plain ones while this JVM's work so far, this call's included, is
+   * within the variant's plain start (never for bfloat16 rows, which only the table gives), the
+   * kernel's own otherwise.
+   */
+  RowMath loopsFor(AttentionPattern pattern, HeadShape shape) {
+    long limit = variant.plainStartWork();
+    if (limit == 0
+        || variant.bfloat16Rows()
+        || STARTED_WORK.get() > limit
+        || math == RowMaths.scalar()) {
+      return math;
+    }
+    long entries = pattern.entryCount();
+    long work = entries > Long.MAX_VALUE / shape.heads() ? Long.MAX_VALUE : entries * shape.heads();
+    long after =
+        STARTED_WORK.accumulateAndGet(
+            work, (a, b) -> a > Long.MAX_VALUE - b ? Long.MAX_VALUE : a + b);
+    if (after > limit) {
+      return math;
+    }
+    LOG.debug(
+        "CSR attention: plain loops for a call of {} entries x heads ({} of the plain start's {})",
+        work,
+        after,
+        limit);
+    return RowMaths.scalar();
+  }
+
   /**
    * Each head's largest key term over all n nodes (the factored table's K), checking every key term
    * for NaN and infinities on the way (the packed copy then checks only the values).
    *
    * @throws IllegalArgumentException for a non-finite key term, with checkCall's message
    */
-  private float[] keyMaxima(float[] key, int n, HeadShape shape) {
+  private static float[] keyMaxima(RowMath math, float[] key, int n, HeadShape shape) {
     float[] keyMax = new float[AllHeadsMath.HEADS];
     Arrays.fill(keyMax, Float.NEGATIVE_INFINITY);
     if (!math.factored().keyMaxima(key, 0, n, keyMax)) {

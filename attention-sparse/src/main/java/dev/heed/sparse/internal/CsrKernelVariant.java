@@ -31,6 +31,13 @@ import java.util.Objects;
  *     {@link NodeRowPrecision#BFLOAT16} uses the table for every call that the factored path
  *     applies to, whatever {@code minPackedTableBytes} says, unless that is {@code Long.MAX_VALUE}
  *     (never a table): the rounding happens when the table is filled
+ * @param plainStartWork while the work of this JVM's calls so far (entries × heads, summed over
+ *     every kernel with this setting), the call's own included, stays at most this much, a call
+ *     runs the plain Java loops (and the per-head path) instead of the Vector API ones: before C2
+ *     has compiled them, Vector API loops are many times slower than plain loops, and a short-lived
+ *     process never reaches the point where they pay off; 0 (the default): never. Calls with
+ *     bfloat16 node rows always take the table ({@code nodeRows}). Plain and vector loops agree to
+ *     rounding, not bit for bit
  */
 public record CsrKernelVariant(
     boolean vectorLoops,
@@ -39,7 +46,8 @@ public record CsrKernelVariant(
     long minPackedTableBytes,
     boolean factoredWeights,
     long minCostPerThread,
-    NodeRowPrecision nodeRows) {
+    NodeRowPrecision nodeRows,
+    long plainStartWork) {
 
   /**
    * Calls whose packed node table would be smaller than this many bytes read the caller's key and
@@ -61,6 +69,14 @@ public record CsrKernelVariant(
   public static final String PACK_PROPERTY = "heed.sparse.pack";
 
   /**
+   * The user's switch for short-lived processes (README, JVM settings): {@code
+   * -Dheed.sparse.plainStart=WORK} sets {@link #plainStartWork()} of {@link #DEFAULT} (entries ×
+   * heads; 0 or unset: off); {@code heed classify} sets it for its own JVM unless it is given. Read
+   * once, when this class initialises.
+   */
+  public static final String PLAIN_START_PROPERTY = "heed.sparse.plainStart";
+
+  /**
    * The variant applications get: every part on, with the default thresholds (no packed table if
    * {@link #PACK_PROPERTY} is {@code false}).
    */
@@ -74,13 +90,14 @@ public record CsrKernelVariant(
               : DEFAULT_MIN_PACKED_TABLE_BYTES,
           true,
           DEFAULT_MIN_COST_PER_THREAD,
-          NodeRowPrecision.FLOAT32);
+          NodeRowPrecision.FLOAT32,
+          plainStartWorkProperty());
 
   /**
    * Checks the thresholds.
    *
-   * @throws IllegalArgumentException if {@code minPackedTableBytes} is negative or {@code
-   *     minCostPerThread} is below 1
+   * @throws IllegalArgumentException if {@code minPackedTableBytes} or {@code plainStartWork} is
+   *     negative or {@code minCostPerThread} is below 1
    * @throws NullPointerException if {@code nodeRows} is null
    */
   public CsrKernelVariant {
@@ -88,6 +105,10 @@ public record CsrKernelVariant(
     if (minPackedTableBytes < 0) {
       throw new IllegalArgumentException(
           "minPackedTableBytes must be at least 0 (0: always), got " + minPackedTableBytes);
+    }
+    if (plainStartWork < 0) {
+      throw new IllegalArgumentException(
+          "plainStartWork must be at least 0 (0: never), got " + plainStartWork);
     }
     if (minCostPerThread < 1) {
       throw new IllegalArgumentException(
@@ -103,7 +124,14 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withVectorLoops(boolean on) {
     return new CsrKernelVariant(
-        on, allHeads, prefetch, minPackedTableBytes, factoredWeights, minCostPerThread, nodeRows);
+        on,
+        allHeads,
+        prefetch,
+        minPackedTableBytes,
+        factoredWeights,
+        minCostPerThread,
+        nodeRows,
+        plainStartWork);
   }
 
   /**
@@ -120,7 +148,8 @@ public record CsrKernelVariant(
         minPackedTableBytes,
         factoredWeights,
         minCostPerThread,
-        nodeRows);
+        nodeRows,
+        plainStartWork);
   }
 
   /**
@@ -137,7 +166,8 @@ public record CsrKernelVariant(
         minPackedTableBytes,
         factoredWeights,
         minCostPerThread,
-        nodeRows);
+        nodeRows,
+        plainStartWork);
   }
 
   /**
@@ -148,7 +178,14 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withMinPackedTableBytes(long bytes) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, prefetch, bytes, factoredWeights, minCostPerThread, nodeRows);
+        vectorLoops,
+        allHeads,
+        prefetch,
+        bytes,
+        factoredWeights,
+        minCostPerThread,
+        nodeRows,
+        plainStartWork);
   }
 
   /**
@@ -159,7 +196,14 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withFactoredWeights(boolean on) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, prefetch, minPackedTableBytes, on, minCostPerThread, nodeRows);
+        vectorLoops,
+        allHeads,
+        prefetch,
+        minPackedTableBytes,
+        on,
+        minCostPerThread,
+        nodeRows,
+        plainStartWork);
   }
 
   /**
@@ -170,7 +214,14 @@ public record CsrKernelVariant(
    */
   public CsrKernelVariant withMinCostPerThread(long cost) {
     return new CsrKernelVariant(
-        vectorLoops, allHeads, prefetch, minPackedTableBytes, factoredWeights, cost, nodeRows);
+        vectorLoops,
+        allHeads,
+        prefetch,
+        minPackedTableBytes,
+        factoredWeights,
+        cost,
+        nodeRows,
+        plainStartWork);
   }
 
   /**
@@ -187,7 +238,52 @@ public record CsrKernelVariant(
         minPackedTableBytes,
         factoredWeights,
         minCostPerThread,
-        precision);
+        precision,
+        plainStartWork);
+  }
+
+  /**
+   * Returns this variant with another plain start.
+   *
+   * @param work entries × heads of a JVM's first calls that run the plain loops; 0: none
+   * @return the new variant
+   */
+  public CsrKernelVariant withPlainStartWork(long work) {
+    return new CsrKernelVariant(
+        vectorLoops,
+        allHeads,
+        prefetch,
+        minPackedTableBytes,
+        factoredWeights,
+        minCostPerThread,
+        nodeRows,
+        work);
+  }
+
+  /**
+   * {@link #PLAIN_START_PROPERTY} as a number, 0 when unset.
+   *
+   * @throws IllegalArgumentException if it is set to something else than a number of at least 0
+   */
+  private static long plainStartWorkProperty() {
+    String text = System.getProperty(PLAIN_START_PROPERTY, "").strip();
+    if (text.isEmpty()) {
+      return 0;
+    }
+    try {
+      long work = Long.parseLong(text);
+      if (work >= 0) {
+        return work;
+      }
+    } catch (NumberFormatException e) {
+      // reported below
+    }
+    throw new IllegalArgumentException(
+        "-D"
+            + PLAIN_START_PROPERTY
+            + "="
+            + text
+            + ": expected a whole number of entries times heads, at least 0 (0: off)");
   }
 
   /** Whether calls on the factored path fill a table of bfloat16 value rows. */
