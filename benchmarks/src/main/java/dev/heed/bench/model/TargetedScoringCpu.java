@@ -124,7 +124,9 @@ public final class TargetedScoringCpu {
     }
     for (int q = 0; q < timed; q++) {
       int node = b.targets[q];
-      for (Variant v : variants) {
+      for (int k = 0; k < variants.size(); k++) {
+        // the first variant of a node changes from node to node: each follows the others equally
+        Variant v = variants.get((q + k) % variants.size());
         if (v.name.equals("plain") && q >= plainCalls) {
           continue;
         }
