@@ -310,11 +310,10 @@ final class FieldPlanner {
       rowsComputed[l] = size + keptSize;
     }
     AttentionPattern[] patterns = new AttentionPattern[count];
-    int[] keptRead = new int[count];
     for (int l = 0; l < count; l++) {
       if (layers.get(l).reach() == Layer.Reach.IN_NEIGHBOURS) {
-        keptRead[l] = rowsRead[l] - computedRead[l];
-        patterns[l] = localPattern(rowsComputed[l], computedRead[l], keptRead[l]);
+        int keptRead = rowsRead[l] - computedRead[l];
+        patterns[l] = localPattern(rowsComputed[l], computedRead[l], keptRead);
       } else {
         computedRead[l] = rowsRead[l];
       }
