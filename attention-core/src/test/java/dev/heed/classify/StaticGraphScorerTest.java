@@ -15,6 +15,8 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
+import dev.heed.attention.MemoryBudget;
+import dev.heed.attention.MemoryBudgetExceededException;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.CsrGraphBuilder;
 import dev.heed.graph.DirectionPolicy;
@@ -354,6 +356,32 @@ class StaticGraphScorerTest {
                     model.keepHubRows(graph, features.shared(), 4, PathChoice.SPARSE),
                     false));
     assertTrue(otherGraph.getMessage().contains("another graph"), otherGraph.getMessage());
+  }
+
+  @Test
+  void theKeptRowsAreCheckedAgainstTheMemoryBudget() {
+    Random random = new Random(89L);
+    CsrGraph graph = rmat(9, 4, 89L, true);
+    int n = graph.nodeCount();
+    NodeFeatures features = features(n, random);
+    NodeClassifier classifier = NodeClassifier.of(gatGatv2Dense(89L), OPTIONS);
+    String before = System.getProperty(MemoryBudget.MAX_BYTES_PROPERTY);
+    try {
+      // the hub index (4 bytes per node) fits; every row's 12 + 4 outputs (T = 1) do not
+      System.setProperty(MemoryBudget.MAX_BYTES_PROPERTY, "8k");
+      MemoryBudgetExceededException e =
+          assertThrows(
+              MemoryBudgetExceededException.class,
+              () -> classifier.forStaticGraph(graph, features, 1));
+      assertTrue(e.getMessage().contains("the kept outputs of " + n + " hub rows"), e.getMessage());
+      assertEquals(4L * n * (12 + CLASSES), e.bytesNeeded());
+    } finally {
+      if (before == null) {
+        System.clearProperty(MemoryBudget.MAX_BYTES_PROPERTY);
+      } else {
+        System.setProperty(MemoryBudget.MAX_BYTES_PROPERTY, before);
+      }
+    }
   }
 
   @Test
