@@ -19,13 +19,16 @@ import java.util.function.IntFunction;
  * by the calling thread's CPU time ({@link ThreadMXBean}), the process's CPU time and wall time,
  * for the plain call ({@code NodeClassifier.classify(graph, features, node)}) and for scorers with
  * kept hub rows ({@code NodeClassifier.forStaticGraph}) at one or more in-degree thresholds,
- * alternated node by node in one run: node q is scored by every variant before node q + 1. Run it
- * with {@code -XX:ActiveProcessorCount=1}, so that the kernels use one thread and the calling
- * thread's CPU time is the call's work (projections of 2,048 rows or more go to BLAS on ND4J's
- * threads, which only the process figure counts): on a machine shared with other work, CPU time per
- * call says what the code costs and the wall time what the machine allowed. Also prints each
- * scorer's preparation time and kept bytes, the field sizes of each variant, the load average, and
- * the CPU time of one whole-graph pass. Complements the JMH figures; it does not replace them.
+ * alternated node by node in one run: node q is scored by every variant before node q + 1, starting
+ * with variant q mod the variant count (so that no variant always follows the plain call, whose
+ * large fields leave the heap and caches to the next call). Run it with {@code
+ * -XX:ActiveProcessorCount=1}, so that the kernels use one thread and the calling thread's CPU time
+ * is the call's work (projections of 2,048 rows or more go to BLAS on ND4J's threads, which only
+ * the process figure counts): on a machine shared with other work, CPU time per call says what the
+ * code costs and the wall time what the machine allowed. Also prints each scorer's preparation time
+ * and kept bytes, the field sizes of each variant, each scorer's largest relative error against the
+ * plain call on the same nodes, the load average, and the CPU time of one whole-graph pass.
+ * Complements the JMH figures; it does not replace them.
  *
  * <p>Run: {@code java --add-modules jdk.incubator.vector -Xmx8g -XX:ActiveProcessorCount=1 -cp
  * benchmarks/target/benchmarks.jar dev.heed.bench.model.TargetedScoringCpu [warm-up calls] [timed
@@ -44,6 +47,8 @@ public final class TargetedScoringCpu {
     final String name;
     final IntFunction<Classification> call;
     final List<long[]> samples = new ArrayList<>(); // cpu, process cpu, wall, nodes, entries, kept
+    double maxError; // largest norm-wise relative error against the plain call on the same node
+    float[] last; // this node's probabilities
 
     Variant(String name, IntFunction<Classification> call) {
       this.name = name;
@@ -137,12 +142,26 @@ public final class TargetedScoringCpu {
         long wall = System.nanoTime() - w0;
         long process = os.getProcessCpuTime() - p0;
         long thread = cpu.getCurrentThreadCpuTime() - c0;
+        v.last = c.forNode(node).probabilities();
         FieldSize size = c.fieldSize();
         v.samples.add(
             new long[] {thread, process, wall, size.nodes(), size.entries(), size.keptRows()});
       }
+      if (q < plainCalls) {
+        for (Variant v : variants.subList(1, variants.size())) {
+          v.maxError = Math.max(v.maxError, relativeError(variants.get(0).last, v.last));
+        }
+      }
     }
     System.out.printf(Locale.ROOT, "load average %.2f at end%n", os.getSystemLoadAverage());
+    for (Variant v : variants.subList(1, variants.size())) {
+      System.out.printf(
+          Locale.ROOT,
+          "%s: largest relative error against the plain call, first %d nodes: %.2e%n",
+          v.name,
+          Math.min(plainCalls, timed),
+          v.maxError);
+    }
     for (Variant v : variants) {
       System.out.println("== " + v.name + " (" + v.samples.size() + " calls)");
       report("cpu ms ", v, 0, 1e6);
@@ -152,6 +171,17 @@ public final class TargetedScoringCpu {
       report("entries", v, 4, 1);
       report("kept   ", v, 5, 1);
     }
+  }
+
+  /** Largest difference over largest expected value (norm-wise relative error). */
+  private static double relativeError(float[] expected, float[] actual) {
+    double diff = 0;
+    double size = 0;
+    for (int i = 0; i < expected.length; i++) {
+      diff = Math.max(diff, Math.abs((double) expected[i] - actual[i]));
+      size = Math.max(size, Math.abs(expected[i]));
+    }
+    return size == 0 ? diff : diff / size;
   }
 
   private static void report(String what, Variant v, int column, double unit) {
