@@ -427,7 +427,7 @@ public final class AttentionModel {
     ForwardPass pass =
         new ForwardPass(
             graph, path, kernels, autoCosts(path), kernelOptions.threads(), keepAttention);
-    float[] x = runLayers(pass, features);
+    float[] x = runLayers(pass, features, null, null);
     return new ModelOutput(n, classLabels.size(), x, pass.attention(), pass.layerRuns());
   }
 
@@ -457,6 +457,113 @@ public final class AttentionModel {
     Objects.requireNonNull(cap, "cap");
     checkTargets(targets, graph.nodeCount());
     return FieldPlanner.plan(layers, graph, targets, cap);
+  }
+
+  /**
+   * Plans the receptive field of some target nodes as {@link #receptiveField(NeighbourRows, int[],
+   * FieldCap)} does, stopping at the rows {@code kept} holds: a kept node's layer outputs are read
+   * from {@code kept} when the field runs, so its row and its in-neighbours are not read. A target
+   * that is not kept computes at most about T + T² + … + T^L attention entries for an L-layer model
+   * (T = {@link KeptHubRows#minInDegree()}); a kept target is a lookup, unless {@code
+   * computeTargets} asks for every target to be computed from its inputs (needed for its attention
+   * weights: then a kept target costs its own row and its non-kept sources' rows). Run the field
+   * with features of the same graph and feature matrix the rows were kept for: their outputs are
+   * copied in, not checked.
+   *
+   * <p>Cost: O(Σ deg) over the rows read, as for a field without kept rows, plus one array lookup
+   * per source met.
+   *
+   * @param graph input, not modified: the graph {@code kept} was computed on ({@link
+   *     KeptHubRows#graph()}); n nodes
+   * @param targets input, not modified: node ids in {@code 0..n-1}, in any order, repeats allowed
+   * @param cap bounds on the field's nodes (kept ones included) and entries
+   * @param kept rows kept by {@link #keepHubRows} of this model
+   * @param computeTargets whether kept targets are computed rather than looked up
+   * @return the field; its {@link FieldSize#keptRows()} counts the kept rows it reads
+   * @throws IllegalArgumentException if a target is out of range, or {@code kept} was made by
+   *     another model or on another graph
+   * @throws ReceptiveFieldTooLargeException if the field passes the cap
+   * @throws NullPointerException if an argument is null
+   */
+  public ReceptiveField receptiveField(
+      CsrGraph graph, int[] targets, FieldCap cap, KeptHubRows kept, boolean computeTargets) {
+    Objects.requireNonNull(graph, "graph");
+    Objects.requireNonNull(targets, "targets");
+    Objects.requireNonNull(cap, "cap");
+    Objects.requireNonNull(kept, "kept");
+    if (kept.layers() != layers) {
+      throw new IllegalArgumentException(
+          "the kept hub rows were computed by another model; keep them with this model's"
+              + " keepHubRows(...)");
+    }
+    if (kept.graph() != graph) {
+      throw new IllegalArgumentException(
+          "the kept hub rows were computed on another graph ("
+              + kept.graph().nodeCount()
+              + " nodes) than the one given ("
+              + graph.nodeCount()
+              + " nodes); plan with kept.graph()");
+    }
+    checkTargets(targets, graph.nodeCount());
+    return FieldPlanner.plan(layers, graph, targets, cap, kept, computeTargets);
+  }
+
+  /**
+   * Computes the layer outputs of a graph's hub rows (rows of at least {@code minInDegree} entries,
+   * self-loops included) for one feature matrix, for fields planned with {@link
+   * #receptiveField(CsrGraph, int[], FieldCap, KeptHubRows, boolean)}: runs the model once over the
+   * hubs' receptive field (no field cap applies) and keeps each hub's output of every stage (see
+   * {@link KeptHubRows}).
+   *
+   * <p>Cost: one model pass over the hubs' receptive field, at most a whole-graph pass (on an R-MAT
+   * graph with hubs of in-degree 64 or more, most of the graph); memory: {@link
+   * KeptHubRows#bytes()} kept, and a field pass's arrays while it runs.
+   *
+   * @param graph input, not modified: the graph; n nodes. Keep it unchanged (a {@link CsrGraph} is
+   *     immutable)
+   * @param features input, not modified: n × {@link #inputFeatureCount()} values, row-major, all
+   *     finite; the kept outputs are computed from them, so fields run with them must read the same
+   *     values
+   * @param minInDegree T, at least 1: rows with at least T entries are kept
+   * @param path the path the preparation pass runs on
+   * @return the kept rows
+   * @throws IllegalArgumentException if {@code minInDegree < 1}, the features do not fit the graph,
+   *     or a layer attends over every node (then every output depends on every node, and there is
+   *     nothing to bound)
+   * @throws dev.heed.attention.MemoryBudgetExceededException if the kept rows or the pass do not
+   *     fit the heap budget
+   * @throws IllegalStateException if the path's kernel is not on the class path
+   */
+  public KeptHubRows keepHubRows(
+      CsrGraph graph, float[] features, int minInDegree, PathChoice path) {
+    Objects.requireNonNull(graph, "graph");
+    Objects.requireNonNull(features, "features");
+    Objects.requireNonNull(path, "path");
+    if (minInDegree < 1) {
+      throw new IllegalArgumentException(
+          "minInDegree must be at least 1 (rows with that many entries are kept), got "
+              + minInDegree);
+    }
+    if (needsEveryNode()) {
+      throw new IllegalArgumentException(
+          everyNodeReason()
+              + ", so every node's output depends on every node and kept hub rows cannot bound a"
+              + " query; classify with NodeClassifier.classify(graph, features) instead");
+    }
+    checkFeatures(features, graph.nodeCount(), null);
+    checkRowWidths(graph.nodeCount());
+    return KeptHubRows.prepare(this, graph, features, minInDegree, path);
+  }
+
+  /**
+   * Runs a field of targets given in hub order (see {@link KeptHubRows#prepare}) and copies the
+   * kept layers' outputs at those targets, the field's first rows, into {@code keptOutputs}.
+   */
+  void forwardKeeping(
+      ReceptiveField field, float[] features, PathChoice path, float[][] keptOutputs) {
+    ForwardPass pass =
+        new ForwardPass(field, path, kernels, autoCosts(path), kernelOptions.threads(), false);
+    runLayers(pass, features, field, keptOutputs);
   }
 
   /**
@@ -534,19 +641,31 @@ public final class AttentionModel {
     ForwardPass pass =
         new ForwardPass(
             field, path, kernels, autoCosts(path), kernelOptions.threads(), keepAttention);
-    float[] x = runLayers(pass, features);
+    float[] x = runLayers(pass, features, field, null);
     return new FieldOutput(field, classLabels.size(), x, pass.attention(), pass.layerRuns());
   }
 
-  private float[] runLayers(ForwardPass pass, float[] features) {
+  /**
+   * Runs every layer; with a field planned with kept rows, appends them to each attention layer's
+   * input and the kept targets' outputs to the result. With {@code keep}, copies each layer's first
+   * {@code keep[index].length} output values into {@code keep[index]} where it is not null.
+   */
+  private float[] runLayers(
+      ForwardPass pass, float[] features, ReceptiveField field, float[][] keep) {
     float[] x = features;
     for (int index = 0; index < layers.size(); index++) {
       pass.startLayer(index);
+      if (field != null) {
+        x = field.withKeptRows(index, x);
+      }
       long start = System.nanoTime();
       x = layers.get(index).forward(x, pass);
       pass.endLayer(layers.get(index), Math.max(0, System.nanoTime() - start));
+      if (keep != null && keep[index] != null) {
+        System.arraycopy(x, 0, keep[index], 0, keep[index].length);
+      }
     }
-    return x;
+    return field == null ? x : field.withKeptTargets(x);
   }
 
   private static void checkTargets(int[] targets, int n) {

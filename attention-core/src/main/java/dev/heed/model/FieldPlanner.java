@@ -36,20 +36,31 @@ final class FieldPlanner {
   private final FieldCap cap;
   private final FieldScratch s;
   private final int hops;
+  private final KeptHubRows kept; // null: every row is computed
+  private final boolean computeTargets;
   private int size;
+  private int keptSize;
   private int targetCount;
   private long entriesBefore;
   private int hop;
   private String layerName;
 
   private FieldPlanner(
-      List<Layer> layers, NeighbourRows graph, FieldCap cap, FieldScratch scratch, int hops) {
+      List<Layer> layers,
+      NeighbourRows graph,
+      FieldCap cap,
+      FieldScratch scratch,
+      int hops,
+      KeptHubRows kept,
+      boolean computeTargets) {
     this.layers = layers;
     this.graph = graph;
     this.nodeCount = graph.nodeCount();
     this.cap = cap;
     this.s = scratch;
     this.hops = hops;
+    this.kept = kept;
+    this.computeTargets = computeTargets;
   }
 
   /**
@@ -57,6 +68,22 @@ final class FieldPlanner {
    * or a whole-graph one if a layer attends over every node.
    */
   static ReceptiveField plan(List<Layer> layers, NeighbourRows graph, int[] targets, FieldCap cap) {
+    return plan(layers, graph, targets, cap, null, false);
+  }
+
+  /**
+   * Plans the field of {@code targets} as {@link #plan(List, NeighbourRows, int[], FieldCap)} does,
+   * stopping at the rows {@code kept} holds (when not null): a kept node's outputs are read from
+   * it, so its row is never fetched. With {@code computeTargets}, kept targets are computed from
+   * their inputs like any other target (for attention weights); otherwise they are lookups.
+   */
+  static ReceptiveField plan(
+      List<Layer> layers,
+      NeighbourRows graph,
+      int[] targets,
+      FieldCap cap,
+      KeptHubRows kept,
+      boolean computeTargets) {
     int hops = 0;
     Layer everyNode = null;
     for (Layer layer : layers) {
@@ -73,7 +100,9 @@ final class FieldPlanner {
     }
     FieldScratch scratch = FieldScratch.borrow();
     try {
-      return new FieldPlanner(layers, graph, cap, scratch, hops).local(targets);
+      return new FieldPlanner(
+              layers, graph, cap, scratch, hops, hops == 0 ? null : kept, computeTargets)
+          .local(targets);
     } finally {
       FieldScratch.release(scratch);
     }
@@ -228,25 +257,38 @@ final class FieldPlanner {
             + " ids; a NeighbourRows must answer for one fixed version of the graph");
   }
 
-  /** Plans a local field: targets first, then each hop's new nodes. */
+  /**
+   * Plans a local field: targets first, then each hop's new nodes. Kept nodes (with {@link #kept})
+   * are numbered apart, in the order met, and follow the computed nodes in every layer's input: an
+   * attention layer reads its computed rows, then the kept rows met so far.
+   */
   private ReceptiveField local(int[] targets) {
     for (int target : targets) {
-      if (s.ids.putIfAbsent(target, size) < 0) {
-        targetCount = size + 1;
+      if (kept != null && !computeTargets && kept.isKept(target)) {
+        if (s.ids.putIfAbsent(target, KeptHubRows.KEPT_FLAG | keptSize) < 0) {
+          targetCount++;
+          addKept(target);
+        }
+      } else if (s.ids.putIfAbsent(target, size) < 0) {
+        targetCount++;
         add(target, size);
       }
     }
+    int keptTargets = keptSize;
     int count = layers.size();
     int[] rowsRead = new int[count];
     int[] rowsComputed = new int[count];
+    int[] computedRead = new int[count];
     long[] entries = new long[count];
     s.offsets[0] = 0;
     int fetched = 0;
     int rows = size;
+    int firstAttention = count;
     for (int l = count - 1; l >= 0; l--) {
       Layer layer = layers.get(l);
       rowsComputed[l] = rows;
       if (layer.reach() == Layer.Reach.IN_NEIGHBOURS) {
+        firstAttention = l;
         hop++;
         layerName = layer.name();
         for (int v = fetched; v < rows; v++) {
@@ -256,34 +298,66 @@ final class FieldPlanner {
         entries[l] = s.offsets[rows];
         entriesBefore += entries[l];
         rows = size;
+        computedRead[l] = size;
+        rowsRead[l] = size + keptSize;
+      } else {
+        rowsRead[l] = rows;
       }
-      rowsRead[l] = rows;
+    }
+    // The layers before the first attention layer map every feature row, kept nodes' included.
+    for (int l = 0; l < firstAttention; l++) {
+      rowsRead[l] = size + keptSize;
+      rowsComputed[l] = size + keptSize;
     }
     AttentionPattern[] patterns = new AttentionPattern[count];
     for (int l = 0; l < count; l++) {
       if (layers.get(l).reach() == Layer.Reach.IN_NEIGHBOURS) {
-        patterns[l] = localPattern(rowsComputed[l], rowsRead[l]);
+        int keptRead = rowsRead[l] - computedRead[l];
+        patterns[l] = localPattern(rowsComputed[l], computedRead[l], keptRead);
+      } else {
+        computedRead[l] = rowsRead[l];
       }
     }
+    int[] ids = Arrays.copyOf(s.globalIds, size + keptSize);
+    System.arraycopy(s.keptGlobals, 0, ids, size, keptSize);
     return ReceptiveField.local(
         layers,
         nodeCount,
-        Arrays.copyOf(s.globalIds, size),
+        ids,
+        size,
         targetCount,
+        keptTargets,
         rowsRead,
         rowsComputed,
+        computedRead,
         entries,
-        patterns);
+        patterns,
+        kept);
   }
 
   /** Numbers a new node (already put in the id map as {@code size}). */
   private void add(int global, int origin) {
+    if (kept != null && size + 1 >= KeptHubRows.KEPT_FLAG) {
+      throw new IllegalArgumentException(
+          "the receptive field holds more than "
+              + KeptHubRows.KEPT_FLAG
+              + " nodes, too many for one call; classify fewer targets per call");
+    }
     s.ensureNodes(size + 1);
     s.globalIds[size] = global;
     s.origins[size] = origin;
     size++;
-    if (size > cap.maxNodes()) {
-      throw tooLarge(false, size, cap.maxNodes());
+    if (size + keptSize > cap.maxNodes()) {
+      throw tooLarge(false, size + keptSize, cap.maxNodes());
+    }
+  }
+
+  /** Numbers a new kept node (already put in the id map as {@code KEPT_FLAG | keptSize}). */
+  private void addKept(int global) {
+    s.ensureKept(keptSize + 1);
+    s.keptGlobals[keptSize++] = global;
+    if (size + keptSize > cap.maxNodes()) {
+      throw tooLarge(false, size + keptSize, cap.maxNodes());
     }
   }
 
@@ -316,10 +390,12 @@ final class FieldPlanner {
     // Ids numbered while mapping this row are increasing and above every older id, so the sorted
     // row is the older ids, sorted, then the new ones in the order met: only the older ids (moved
     // into the row buffer, behind the read position) need sorting.
+    // Kept sources (ids with KEPT_FLAG, above every computed id) go last, sorted.
     int origin = s.origins[v];
     int threshold = size;
     int older = 0;
     int fresh = 0;
+    int keptSources = 0;
     int previous = -1;
     for (int k = 0; k < degree; k++) {
       int source = s.row[k];
@@ -327,12 +403,24 @@ final class FieldPlanner {
         throw badRow(global, k, previous, source);
       }
       previous = source;
-      int local = s.ids.putIfAbsent(source, size);
-      if (local < 0) {
-        local = size;
-        add(source, origin);
+      int local;
+      if (kept != null && kept.isKept(source)) {
+        local = s.ids.putIfAbsent(source, KeptHubRows.KEPT_FLAG | keptSize);
+        if (local < 0) {
+          local = KeptHubRows.KEPT_FLAG | keptSize;
+          addKept(source);
+        }
+      } else {
+        local = s.ids.putIfAbsent(source, size);
+        if (local < 0) {
+          local = size;
+          add(source, origin);
+        }
       }
-      if (local < threshold) {
+      if (local >= KeptHubRows.KEPT_FLAG) {
+        s.ensureKeptRow(keptSources + 1);
+        s.keptRow[keptSources++] = local;
+      } else if (local < threshold) {
         s.row[older++] = local;
       } else {
         s.columns[base + fresh++] = local;
@@ -342,6 +430,10 @@ final class FieldPlanner {
       Arrays.sort(s.row, 0, older);
       System.arraycopy(s.columns, base, s.columns, base + older, fresh);
       System.arraycopy(s.row, 0, s.columns, base, older);
+    }
+    if (keptSources > 0) {
+      Arrays.sort(s.keptRow, 0, keptSources);
+      System.arraycopy(s.keptRow, 0, s.columns, base + older + fresh, keptSources);
     }
     s.offsets[v + 1] = base + degree;
   }
@@ -356,15 +448,25 @@ final class FieldPlanner {
   }
 
   /**
-   * The local pattern of an attention layer: square over {@code read} nodes, rows {@code
-   * 0..computed-1} as fetched, the rest empty.
+   * The local pattern of an attention layer: square over {@code read + keptRead} nodes, rows {@code
+   * 0..computed-1} as fetched, the rest empty; kept node k is column {@code read + k}.
    */
-  private CsrGraph localPattern(int computed, int read) {
+  private CsrGraph localPattern(int computed, int read, int keptRead) {
     int entries = s.offsets[computed];
-    int[] offsets = new int[read + 1];
+    int nodes = read + keptRead;
+    int[] offsets = new int[nodes + 1];
     System.arraycopy(s.offsets, 0, offsets, 0, computed + 1);
-    Arrays.fill(offsets, computed + 1, read + 1, entries);
-    return CsrGraph.of(offsets, Arrays.copyOf(s.columns, entries));
+    Arrays.fill(offsets, computed + 1, nodes + 1, entries);
+    int[] columns = Arrays.copyOf(s.columns, entries);
+    if (keptSize > 0) {
+      int shift = read - KeptHubRows.KEPT_FLAG;
+      for (int e = 0; e < entries; e++) {
+        if (columns[e] >= KeptHubRows.KEPT_FLAG) {
+          columns[e] += shift;
+        }
+      }
+    }
+    return CsrGraph.of(offsets, columns);
   }
 
   /** The cap error, charged to the target from which most of the counted nodes were reached. */

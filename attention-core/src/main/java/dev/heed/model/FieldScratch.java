@@ -48,6 +48,12 @@ final class FieldScratch {
   /** One global row as the graph gives it. */
   int[] row = new int[1 << 8];
 
+  /** Global id of each kept node (fields planned with kept hub rows), in the order met. */
+  int[] keptGlobals = new int[1 << 4];
+
+  /** The kept sources of one row, as local ids with the kept flag. */
+  int[] keptRow = new int[1 << 4];
+
   private FieldScratch() {}
 
   /** Takes a scratch from the pool, or creates one; clears its id map. */
@@ -80,7 +86,9 @@ final class FieldScratch {
         + origins.length
         + offsets.length
         + columns.length
-        + row.length;
+        + row.length
+        + keptGlobals.length
+        + keptRow.length;
   }
 
   /** Makes room for {@code nodes} local nodes (ids, origins and row offsets). */
@@ -99,6 +107,20 @@ final class FieldScratch {
   void ensureColumns(int entries) {
     if (entries > columns.length) {
       columns = Arrays.copyOf(columns, grownSize(columns.length, entries));
+    }
+  }
+
+  /** Makes room for {@code nodes} kept nodes. */
+  void ensureKept(int nodes) {
+    if (nodes > keptGlobals.length) {
+      keptGlobals = Arrays.copyOf(keptGlobals, grownSize(keptGlobals.length, nodes));
+    }
+  }
+
+  /** Makes room for {@code length} kept sources of one row. */
+  void ensureKeptRow(int length) {
+    if (length > keptRow.length) {
+      keptRow = Arrays.copyOf(keptRow, grownSize(keptRow.length, length));
     }
   }
 

@@ -100,7 +100,7 @@ public final class LayerAttention {
   public int source(int target, int t) {
     int row = checkSource(target, t);
     int local = pattern instanceof CsrGraph g ? g.column(g.rowStart(row) + t) : t;
-    return field == null ? local : field.globalId(local);
+    return field == null ? local : field.globalId(layerIndex, local);
   }
 
   /**

@@ -25,6 +25,11 @@ import java.util.Objects;
  * output depends on every node), when the graph is a {@link dev.heed.graph.CompletePattern}, or
  * when every node was requested.
  *
+ * <p>A field planned with {@link KeptHubRows} stops at kept rows: a kept node's outputs are read
+ * from them, so its in-neighbours are not needed. Kept nodes are numbered after every computed
+ * node, and each attention layer but the first reads its computed input rows followed by the kept
+ * rows met so far (copied from the kept outputs); a kept target's output is copied too.
+ *
  * <p>Memory: the local node ids and each attention layer's local pattern, {@code O(nodes +
  * entries)} ints. Thread safety: immutable.
  */
@@ -39,6 +44,10 @@ public final class ReceptiveField {
   private final int[] rowsComputed;
   private final long[] entries;
   private final AttentionPattern[] patterns; // per layer; null for layers that do not attend
+  private final int[] computedRead; // per layer: input rows computed (the rest are kept rows)
+  private final int computedNodes; // kept node k's feature row is computedNodes + k
+  private final int keptTargets; // targets whose outputs are copied from the kept rows
+  private final KeptHubRows kept; // null: every row is computed
   private final FieldSize size;
 
   private ReceptiveField(
@@ -51,7 +60,11 @@ public final class ReceptiveField {
       int[] rowsRead,
       int[] rowsComputed,
       long[] entries,
-      AttentionPattern[] patterns) {
+      AttentionPattern[] patterns,
+      int[] computedRead,
+      int computedNodes,
+      int keptTargets,
+      KeptHubRows kept) {
     this.layers = layers;
     this.graphNodeCount = graphNodeCount;
     this.wholePattern = wholePattern;
@@ -61,27 +74,45 @@ public final class ReceptiveField {
     this.rowsComputed = rowsComputed;
     this.entries = entries;
     this.patterns = patterns;
+    this.computedRead = computedRead;
+    this.computedNodes = computedNodes;
+    this.keptTargets = keptTargets;
+    this.kept = kept;
     long total = 0;
     for (long e : entries) {
       total += e;
     }
     int nodes = rowsRead.length == 0 ? targetCount : rowsRead[0];
-    this.size = new FieldSize(targetCount, nodes, total, wholePattern != null);
+    int keptNodes = nodeIds == null ? 0 : nodeIds.length - computedNodes;
+    this.size = new FieldSize(targetCount, nodes, total, wholePattern != null, keptNodes);
   }
 
-  /** A field over local nodes; {@code nodeIds[0..targetCount)} are the distinct targets. */
+  /**
+   * A field over local nodes: {@code nodeIds} holds the {@code computedNodes} computed nodes, the
+   * first {@code targetCount - keptTargets} of them the targets computed, then the kept nodes, the
+   * first {@code keptTargets} of them kept targets.
+   */
   static ReceptiveField local(
       List<Layer> layers,
       int graphNodeCount,
       int[] nodeIds,
+      int computedNodes,
       int targetCount,
+      int keptTargets,
       int[] rowsRead,
       int[] rowsComputed,
+      int[] computedRead,
       long[] entries,
-      AttentionPattern[] patterns) {
+      AttentionPattern[] patterns,
+      KeptHubRows kept) {
+    int computedTargets = targetCount - keptTargets;
     long[] index = new long[targetCount];
-    for (int local = 0; local < targetCount; local++) {
+    for (int local = 0; local < computedTargets; local++) {
       index[local] = ((long) nodeIds[local] << 32) | local;
+    }
+    for (int k = 0; k < keptTargets; k++) {
+      index[computedTargets + k] =
+          ((long) nodeIds[computedNodes + k] << 32) | (computedTargets + k);
     }
     Arrays.sort(index);
     return new ReceptiveField(
@@ -94,7 +125,11 @@ public final class ReceptiveField {
         rowsRead,
         rowsComputed,
         entries,
-        patterns);
+        patterns,
+        computedRead,
+        computedNodes,
+        keptTargets,
+        nodeIds.length > computedNodes ? kept : null);
   }
 
   /** A whole-graph field: every layer over every node of {@code pattern}, in its own numbering. */
@@ -116,7 +151,20 @@ public final class ReceptiveField {
       }
     }
     return new ReceptiveField(
-        layers, n, pattern, null, null, targetCount, rows, rows, entries, patterns);
+        layers,
+        n,
+        pattern,
+        null,
+        null,
+        targetCount,
+        rows,
+        rows,
+        entries,
+        patterns,
+        rows,
+        n,
+        0,
+        null);
   }
 
   /**
@@ -266,9 +314,70 @@ public final class ReceptiveField {
     return -1;
   }
 
-  /** The graph id of a local node, without a range check. */
+  /** The graph id of a local node (a row of the feature matrix), without a range check. */
   int globalId(int local) {
     return nodeIds == null ? local : nodeIds[local];
+  }
+
+  /** The graph id of a layer's local input row, without a range check. */
+  int globalId(int layer, int local) {
+    if (nodeIds == null) {
+      return local;
+    }
+    int computed = computedRead[layer];
+    return local < computed ? nodeIds[local] : nodeIds[computedNodes + local - computed];
+  }
+
+  /**
+   * The input of layer {@code layer} with the kept rows appended, when it is an attention layer
+   * that reads them from the kept outputs (not the first attention layer, whose kept rows are
+   * feature rows); otherwise {@code x} itself.
+   */
+  float[] withKeptRows(int layer, float[] x) {
+    if (kept == null
+        || layers.get(layer).reach() != Layer.Reach.IN_NEIGHBOURS
+        || computedRead[layer] == rowsRead[layer]
+        || !attendsBefore(layer)) {
+      return x;
+    }
+    int width = layers.get(layer).inputWidth();
+    int computed = computedRead[layer];
+    assert x.length == computed * width;
+    float[] in = Arrays.copyOf(x, rowsRead[layer] * width);
+    for (int k = 0; k < rowsRead[layer] - computed; k++) {
+      kept.copyOutput(layer - 1, nodeIds[computedNodes + k], in, (computed + k) * width);
+    }
+    return in;
+  }
+
+  private boolean attendsBefore(int layer) {
+    for (int l = 0; l < layer; l++) {
+      if (layers.get(l).reach() == Layer.Reach.IN_NEIGHBOURS) {
+        return true;
+      }
+    }
+    return false;
+  }
+
+  /** The model's output rows with the kept targets' outputs appended after the computed ones. */
+  float[] withKeptTargets(float[] x) {
+    if (keptTargets == 0) {
+      return x;
+    }
+    int last = layers.size() - 1;
+    int width = layers.get(last).outputWidth();
+    int computed = rowsComputed[last];
+    assert x.length == computed * width;
+    float[] out = Arrays.copyOf(x, (computed + keptTargets) * width);
+    for (int k = 0; k < keptTargets; k++) {
+      kept.copyOutput(last, nodeIds[computedNodes + k], out, (computed + k) * width);
+    }
+    return out;
+  }
+
+  /** The kept rows this field was planned with, or null. */
+  KeptHubRows keptRows() {
+    return kept;
   }
 
   @Override

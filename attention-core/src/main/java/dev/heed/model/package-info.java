@@ -7,6 +7,7 @@
  * dev.heed.model.ModelFile#write} is the one writer of the format. Layers run their attention
  * through {@link dev.heed.attention.AttentionKernel}, on either path, over the whole graph or over
  * the {@link dev.heed.model.ReceptiveField} of chosen target nodes (the rows their outputs depend
- * on, with small local CSR patterns), bounded by a {@link dev.heed.model.FieldCap}.
+ * on, with small local CSR patterns), bounded by a {@link dev.heed.model.FieldCap}; a field may
+ * stop at the rows whose layer outputs {@link dev.heed.model.KeptHubRows} holds.
  */
 package dev.heed.model;

@@ -45,13 +45,13 @@ import org.junit.jupiter.api.Test;
  */
 class ReceptiveFieldClassifierTest {
 
-  private static final double TOLERANCE = 1e-5;
-  private static final int FEATURES = 6;
-  private static final int CLASSES = 4;
-  private static final ClassifyOptions OPTIONS =
+  static final double TOLERANCE = 1e-5;
+  static final int FEATURES = 6;
+  static final int CLASSES = 4;
+  static final ClassifyOptions OPTIONS =
       ClassifyOptions.defaults().withPath(PathChoice.SPARSE).withExplanations(3).withTopLabels(2);
 
-  private static CsrGraph rmat(int scale, int edgeFactor, long seed, boolean symmetric) {
+  static CsrGraph rmat(int scale, int edgeFactor, long seed, boolean symmetric) {
     return RmatGenerator.withScale(scale)
         .edgeFactor(edgeFactor)
         .seed(seed)
@@ -61,7 +61,7 @@ class ReceptiveFieldClassifierTest {
         .build();
   }
 
-  private static NodeFeatures features(int n, Random random) {
+  static NodeFeatures features(int n, Random random) {
     float[] values = new float[n * FEATURES];
     for (int i = 0; i < values.length; i++) {
       values[i] = (float) random.nextGaussian();
@@ -69,11 +69,11 @@ class ReceptiveFieldClassifierTest {
     return NodeFeatures.ofRowMajor(values, n, FEATURES);
   }
 
-  private static AttentionModel gatGatv2Dense(long seed) {
+  static AttentionModel gatGatv2Dense(long seed) {
     return TestModels.withReferenceKernel(RandomModels.gatGatv2Dense(seed, FEATURES, CLASSES));
   }
 
-  private static int[] randomTargets(Random random, int n, int count) {
+  static int[] randomTargets(Random random, int n, int count) {
     int[] t = new int[count];
     for (int i = 0; i < count; i++) {
       t[i] = random.nextInt(n);
@@ -82,7 +82,7 @@ class ReceptiveFieldClassifierTest {
   }
 
   /** Largest difference over largest reference value (norm-wise relative error). */
-  private static double relativeError(float[] expected, float[] actual) {
+  static double relativeError(float[] expected, float[] actual) {
     assertEquals(expected.length, actual.length);
     double diff = 0;
     double size = 0;
@@ -98,7 +98,7 @@ class ReceptiveFieldClassifierTest {
    * tolerance; each explanation's k neighbours carry, in the whole pass, the weights of the whole
    * pass's own k best (so ties and rounding may reorder equal weights, nothing else).
    */
-  private static void assertMatchesWholePass(
+  static void assertMatchesWholePass(
       Classification result, ModelOutput whole, int k, String where) {
     for (NodePrediction p : result.predictions()) {
       int node = p.node();
@@ -148,21 +148,36 @@ class ReceptiveFieldClassifierTest {
     return Arrays.stream(nodes).distinct().toArray();
   }
 
+  /**
+   * One seeded round on an R-MAT graph of 512 nodes (symmetrised on even rounds, directed on odd
+   * ones): fresh features and model, and the model's whole-graph pass with attention weights.
+   */
+  record RmatRound(
+      String name, CsrGraph graph, NodeFeatures features, AttentionModel model, ModelOutput whole) {
+    static RmatRound next(Random random, int round) {
+      long seed = random.nextLong();
+      boolean symmetric = round % 2 == 0;
+      CsrGraph graph = rmat(9, 4, seed, symmetric);
+      NodeFeatures features = ReceptiveFieldClassifierTest.features(graph.nodeCount(), random);
+      AttentionModel model = gatGatv2Dense(seed);
+      ModelOutput whole = model.forward(graph, features.shared(), PathChoice.SPARSE, true);
+      String name = "seed " + seed + (symmetric ? " symmetric" : " directed");
+      return new RmatRound(name, graph, features, model, whole);
+    }
+  }
+
   @Test
   void chosenNodesMatchTheWholeGraphPassOnRmatGraphs() {
     Random random = new Random(20240611L);
     for (int round = 0; round < 6; round++) {
-      long seed = random.nextLong();
-      boolean symmetric = round % 2 == 0;
-      CsrGraph graph = rmat(9, 4, seed, symmetric);
-      int n = graph.nodeCount();
-      NodeFeatures features = features(n, random);
-      AttentionModel model = gatGatv2Dense(seed);
-      ModelOutput whole = model.forward(graph, features.shared(), PathChoice.SPARSE, true);
-      NodeClassifier classifier = NodeClassifier.of(model, OPTIONS);
+      RmatRound r = RmatRound.next(random, round);
+      CsrGraph graph = r.graph();
+      NodeFeatures features = r.features();
+      ModelOutput whole = r.whole();
+      NodeClassifier classifier = NodeClassifier.of(r.model(), OPTIONS);
       for (int count : new int[] {1, 3, 25}) {
-        int[] targets = randomTargets(random, n, count);
-        String where = "seed " + seed + (symmetric ? " symmetric" : " directed") + ", " + count;
+        int[] targets = randomTargets(random, graph.nodeCount(), count);
+        String where = r.name() + ", " + count;
         Classification result = classifier.classify(graph, features, targets);
         assertEquals(
             Arrays.stream(targets).boxed().toList(),
@@ -241,7 +256,7 @@ class ReceptiveFieldClassifierTest {
         "union " + batch.fieldSize().nodes() + " vs " + separately + " separately");
   }
 
-  private static int highestDegree(CsrGraph graph) {
+  static int highestDegree(CsrGraph graph) {
     int best = 0;
     for (int v = 1; v < graph.nodeCount(); v++) {
       if (graph.degree(v) > graph.degree(best)) {

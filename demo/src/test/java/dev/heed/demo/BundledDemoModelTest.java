@@ -10,6 +10,7 @@ import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
+import dev.heed.classify.StaticGraphScorer;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.LocalityOrder;
 import dev.heed.model.AttentionModel;
@@ -141,8 +142,7 @@ class BundledDemoModelTest {
     PaymentsNetwork payments = PaymentsNetworkGenerator.bundledDemo().generate();
     CsrGraph graph = DemoGraph.build(payments);
     int n = payments.accountCount();
-    NodeFeatures features =
-        NodeFeatures.ofRowMajor(payments.features(), n, payments.featureNames().size());
+    NodeFeatures features = features(payments);
     for (NodeRowPrecision rows : NodeRowPrecision.values()) {
       ClassifyOptions options =
           ClassifyOptions.defaults().withPath(PathChoice.SPARSE).withNodeRowPrecision(rows);
@@ -168,6 +168,55 @@ class BundledDemoModelTest {
         assertEquals(heldOut(model, payments, options).accuracy(), test.accuracy(), 0.002, where);
       }
     }
+  }
+
+  /**
+   * A scorer with kept hub rows ({@link NodeClassifier#forStaticGraph}, rows of at least the median
+   * in-degree kept) on the demo graph gives every account the whole-graph pass's probabilities
+   * within 1e-5 (norm-wise relative error), for hub targets (lookups) and for the rest (fields that
+   * stop at hubs).
+   */
+  @Test
+  void keptHubRowsGiveTheWholeGraphsProbabilities() throws IOException {
+    AttentionModel model = committedModel();
+    PaymentsNetwork payments = PaymentsNetworkGenerator.bundledDemo().generate();
+    CsrGraph graph = DemoGraph.build(payments);
+    int n = payments.accountCount();
+    NodeFeatures features = features(payments);
+    NodeClassifier classifier =
+        NodeClassifier.of(model, ClassifyOptions.defaults().withPath(PathChoice.SPARSE));
+    List<NodePrediction> whole = classifier.classify(graph, features).predictions();
+    // the median in-degree as the threshold: about half the accounts kept, half computed
+    int[] degrees = new int[n];
+    for (int i = 0; i < n; i++) {
+      degrees[i] = graph.degree(i);
+    }
+    java.util.Arrays.sort(degrees);
+    StaticGraphScorer scorer = classifier.forStaticGraph(graph, features, degrees[n / 2]);
+    LOG.info("demo graph, kept hub rows: {}", scorer);
+    assertTrue(
+        scorer.keptRowCount() > n / 10 && scorer.keptRowCount() < n - n / 10, scorer.toString());
+    int[] everyone = new int[n];
+    for (int i = 0; i < n; i++) {
+      everyone[i] = i;
+    }
+    List<NodePrediction> kept = scorer.classify(everyone).predictions();
+    for (int i = 0; i < n; i++) {
+      float[] expected = whole.get(i).probabilities();
+      float[] got = kept.get(i).probabilities();
+      double diff = 0;
+      double size = 0;
+      for (int c = 0; c < expected.length; c++) {
+        diff = Math.max(diff, Math.abs((double) expected[c] - got[c]));
+        size = Math.max(size, Math.abs(expected[c]));
+      }
+      assertTrue(diff <= 1e-5 * size, "account " + i + ": relative error " + diff / size);
+    }
+  }
+
+  private static NodeFeatures features(PaymentsNetwork payments) {
+    return NodeFeatures.ofRowMajor(
+        payments.features(), payments.accountCount(), payments.featureNames().size());
   }
 
   private static AttentionModel committedModel() throws IOException {
@@ -202,11 +251,7 @@ class BundledDemoModelTest {
     CsrGraph graph = DemoGraph.build(payments);
     int n = payments.accountCount();
     List<NodePrediction> predictions =
-        NodeClassifier.of(model, options)
-            .classify(
-                graph,
-                NodeFeatures.ofRowMajor(payments.features(), n, payments.featureNames().size()))
-            .predictions();
+        NodeClassifier.of(model, options).classify(graph, features(payments)).predictions();
     int[] predicted = new int[n];
     double probabilitySum = 0;
     for (int i = 0; i < n; i++) {

@@ -10,6 +10,7 @@ import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
 import dev.heed.classify.NodePrediction;
+import dev.heed.classify.StaticGraphScorer;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.SelfLoopPolicy;
@@ -69,6 +70,10 @@ class ReceptiveFieldPathsTest {
     }
   }
 
+  /**
+   * Plain fields, and fields that stop at kept hub rows ({@code NodeClassifier.forStaticGraph},
+   * rows of in-degree 8 or more; the highest-degree node is a target, so one target is a lookup).
+   */
   @Test
   void fieldsMatchTheWholeGraphOnBothPathsAndAcross() {
     Random random = new Random(404L);
@@ -81,6 +86,7 @@ class ReceptiveFieldPathsTest {
     for (int i = 0; i < targets.length; i++) {
       targets[i] = random.nextInt(graph.nodeCount());
     }
+    targets[0] = hub(graph);
     ModelOutput sparse = model.forward(graph, x, PathChoice.SPARSE, false);
     ModelOutput dense = model.forward(graph, x, PathChoice.DENSE, false);
     for (PathChoice path : new PathChoice[] {PathChoice.SPARSE, PathChoice.DENSE}) {
@@ -97,7 +103,25 @@ class ReceptiveFieldPathsTest {
       }
       assertClose(path == PathChoice.SPARSE ? sparse : dense, field, path + " field vs whole");
       assertClose(path == PathChoice.SPARSE ? dense : sparse, field, path + " field vs other path");
+      // kept hub rows, prepared and queried on this path
+      StaticGraphScorer scorer =
+          NodeClassifier.of(model, ClassifyOptions.defaults().withPath(path))
+              .forStaticGraph(graph, nodeFeatures, 8);
+      Classification kept = scorer.classify(targets);
+      assertTrue(scorer.keptRowCount() > 0 && kept.fieldSize().keptRows() > 0);
+      assertClose(path == PathChoice.SPARSE ? sparse : dense, kept, path + " kept vs whole");
+      assertClose(path == PathChoice.SPARSE ? dense : sparse, kept, path + " kept vs other path");
     }
+  }
+
+  private static int hub(CsrGraph graph) {
+    int hub = 0;
+    for (int v = 1; v < graph.nodeCount(); v++) {
+      if (graph.degree(v) > graph.degree(hub)) {
+        hub = v;
+      }
+    }
+    return hub;
   }
 
   @Test
@@ -115,12 +139,7 @@ class ReceptiveFieldPathsTest {
             .graphAttention("gat2", "gat", 8, 8, true, "elu", false, "identity")
             .dense("dense", 5, "identity")
             .softmax(5);
-    int hub = 0;
-    for (int v = 1; v < graph.nodeCount(); v++) {
-      if (graph.degree(v) > graph.degree(hub)) {
-        hub = v;
-      }
-    }
+    int hub = hub(graph);
     int[] targets = new int[400];
     targets[0] = hub;
     for (int i = 1; i < targets.length; i++) {

@@ -4,6 +4,7 @@ import dev.heed.classify.Classification;
 import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
 import dev.heed.classify.NodeFeatures;
+import dev.heed.classify.StaticGraphScorer;
 import dev.heed.graph.CsrGraph;
 import dev.heed.graph.DirectionPolicy;
 import dev.heed.graph.DuplicatePolicy;
@@ -45,8 +46,10 @@ import org.openjdk.jmh.annotations.Warmup;
  * iteration, so one measurement iteration long enough covers the list once). Sample-time mode: read
  * the p0.50 and p0.99 of the per-call distribution. {@code wholeGraph}: the same model over every
  * node ({@code AttentionModel.forward}, no classification objects), what each call cost before.
- * Both on the sparse path with the default kernel options (one thread per processor). Run with, for
- * example:
+ * {@code targetedKept}: the same walk through a {@link StaticGraphScorer} prepared once per fork
+ * ({@code NodeClassifier.forStaticGraph}, rows of in-degree at least {@code hubDegree} kept; the
+ * preparation time and kept bytes are printed), so that a field stops at every hub. All on the
+ * sparse path with the default kernel options (one thread per processor). Run with, for example:
  *
  * <pre>
  * java -jar benchmarks/target/benchmarks.jar TargetedScoringBenchmark -rf json -rff targeted.json
@@ -84,15 +87,19 @@ public class TargetedScoringBenchmark {
   @Param({"20260611"})
   public long seed;
 
+  /** Least in-degree of a kept row for {@code targetedKept}. */
+  @Param({"128"})
+  public int hubDegree;
+
   private static final int FEATURES = 64;
   private static final int HEADS = 8;
   private static final int HEAD_WIDTH = 8;
   private static final int CLASSES = 4;
 
   CsrGraph graph;
-  private float[] values;
+  float[] values;
   NodeFeatures features;
-  private AttentionModel model;
+  AttentionModel model;
   NodeClassifier classifier;
   int[] targets;
   private int next;
@@ -217,6 +224,49 @@ public class TargetedScoringBenchmark {
     int node = targets[next];
     next = next + 1 == targets.length ? 0 : next + 1;
     return classifier.classify(graph, features, node);
+  }
+
+  /**
+   * The scorer with kept hub rows, prepared once per fork (only for the benchmark that uses it).
+   */
+  @State(Scope.Benchmark)
+  public static class KeptRows {
+    StaticGraphScorer scorer;
+
+    /**
+     * Prepares the scorer on the benchmark's graph and features.
+     *
+     * @param b the benchmark state (graph, features, classifier, hub degree)
+     */
+    @Setup
+    public void setUp(TargetedScoringBenchmark b) {
+      scorer = b.classifier.forStaticGraph(b.graph, b.features, b.hubDegree);
+      System.out.println(
+          "kept rows: "
+              + scorer.keptRowCount()
+              + " hubs (in-degree >= "
+              + b.hubDegree
+              + "), "
+              + scorer.keptBytes()
+              + " bytes, prepared in "
+              + scorer.preparationTime().toMillis()
+              + " ms");
+    }
+  }
+
+  /**
+   * Classifies the next query node with kept hub rows.
+   *
+   * @param kept the prepared scorer
+   * @return the classification (consumed by JMH)
+   */
+  @Benchmark
+  @Warmup(iterations = 1, time = 20)
+  @Measurement(iterations = 1, time = 60)
+  public Classification targetedKept(KeptRows kept) {
+    int node = targets[next];
+    next = next + 1 == targets.length ? 0 : next + 1;
+    return kept.scorer.classify(node);
   }
 
   /**
