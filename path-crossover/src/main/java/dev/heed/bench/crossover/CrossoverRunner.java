@@ -19,9 +19,11 @@ import java.nio.file.Path;
 import java.time.Duration;
 import java.util.ArrayList;
 import java.util.EnumMap;
+import java.util.HashSet;
 import java.util.List;
 import java.util.Locale;
 import java.util.Map;
+import java.util.Set;
 import java.util.SplittableRandom;
 
 /**
@@ -61,8 +63,12 @@ public final class CrossoverRunner {
 
   private static volatile double sink;
 
-  /** The remark on a point whose timing comes from {@link Sweep#retimeWidePoints}. */
+  /** The remark on a point timed again at the end because its spread was high. */
   static final String RETIMED_NOTE = "timed again at the end of the sweep (spread was high)";
+
+  /** The remark on a dense point timed again at the end because it was far above its line. */
+  static final String OFF_LINE_NOTE =
+      "timed again at the end of the sweep (far above the dense line; the faster timing kept)";
 
   /** Nodes of the warm-up graphs. */
   static final int PREWARM_NODES = 128;
@@ -507,53 +513,97 @@ public final class CrossoverRunner {
           }
         }
       }
-      retimeWidePoints(sweepStart);
+      retimeDisturbedPoints(sweepStart);
     }
 
     /**
-     * Times once more, after every other point, each point whose calls still spread by more than
-     * the policy's {@code maxSpread} after its extra batches, and keeps for each path the timing
-     * with the smaller spread. A disturbance that lasted through all of a point's batches (another
-     * process, a burst of collections) has usually passed by the end of the sweep, while more
-     * batches at once would have met it again. Points over the sweep's time limit stay as they are.
+     * Times once more, after every other point, each point whose timing looks disturbed, and keeps
+     * for each path the better of its two timings:
+     *
+     * <ul>
+     *   <li>a point whose calls still spread by more than the policy's {@code maxSpread} after its
+     *       extra batches: the timing with the smaller spread is kept;
+     *   <li>a dense point whose median is more than {@link NoiseCheck#MAX_DENSE_RANGE} above the
+     *       median of its line (same score and n; the dense path's cost does not depend on
+     *       density): the timing with the smaller median is kept. Such a point was slow for all of
+     *       its calls alike (its spread is small), as when the JIT recompiles a kernel while the
+     *       point runs; other work and recompilation only ever slow a call down.
+     * </ul>
+     *
+     * A disturbance that lasted through a point has usually passed by the end of the sweep, while
+     * more batches at once would have met it again. Both paths of a point are timed again together,
+     * and a path that was not itself disturbed keeps its first timing. Points over the sweep's time
+     * limit stay as they are.
      */
-    private void retimeWidePoints(long sweepStart) {
-      double maxSpread = config.timing().maxSpread();
+    private void retimeDisturbedPoints(long sweepStart) {
+      Set<String> retimed = new HashSet<>();
       for (int at = 0; at < points.size(); at++) {
-        SweepPoint wide = points.get(at);
-        if (!wide.measured() || wide.timing().relativeSpread() <= maxSpread) {
+        SweepPoint first = points.get(at);
+        String key = first.score() + " " + first.n() + " " + first.density();
+        if (!(wide(first) || offLine(first)) || !retimed.add(key)) {
           continue;
         }
         if (overTime(sweepStart)) {
           return;
         }
-        int n = wide.n();
-        double density = wide.density();
-        SweepScore score = wide.score();
+        int n = first.n();
+        double density = first.density();
+        SweepScore score = first.score();
         AttentionPattern pattern;
         try {
-          pattern = buildPattern(n, density, wide.edges());
+          pattern = buildPattern(n, density, first.edges());
         } catch (IllegalArgumentException | OutOfMemoryError e) {
           continue; // it was built once; keep the first timing rather than fail the sweep
         }
         HeadShape shape = score.shape(config.heads(), config.keyDim(), config.valueDim());
         Inputs in = Inputs.random(n, shape, seedFor(n, score));
-        for (Outcome o : runPaths(score, shape, n, density, wide.edges(), pattern, in, "")) {
+        for (Outcome o : runPaths(score, shape, n, density, first.edges(), pattern, in, "")) {
           SweepPoint again = o.point;
           for (int i = 0; i < points.size(); i++) {
             SweepPoint old = points.get(i);
-            if (again.measured()
-                && old.measured()
-                && old.score() == score
-                && old.n() == n
-                && old.density() == density
-                && old.path() == again.path()
+            if (!again.measured()
+                || !old.measured()
+                || old.score() != score
+                || old.n() != n
+                || old.density() != density
+                || old.path() != again.path()) {
+              continue;
+            }
+            if (offLine(old) && again.timing().medianNanos() < old.timing().medianNanos()) {
+              points.set(i, again.withNote(joinNotes(old.note(), OFF_LINE_NOTE)));
+            } else if (wide(old)
                 && again.timing().relativeSpread() < old.timing().relativeSpread()) {
               points.set(i, again.withNote(joinNotes(old.note(), RETIMED_NOTE)));
             }
           }
         }
       }
+    }
+
+    private boolean wide(SweepPoint p) {
+      return p.measured() && p.timing().relativeSpread() > config.timing().maxSpread();
+    }
+
+    /** A dense point more than {@link NoiseCheck#MAX_DENSE_RANGE} above its line's median. */
+    private boolean offLine(SweepPoint p) {
+      if (!p.measured() || p.path() != ComputePath.DENSE) {
+        return false;
+      }
+      List<Double> line = new ArrayList<>();
+      for (SweepPoint q : points) {
+        if (q.measured()
+            && q.path() == ComputePath.DENSE
+            && q.score() == p.score()
+            && q.n() == p.n()) {
+          line.add(q.timing().medianNanos());
+        }
+      }
+      if (line.size() < 3) {
+        return false;
+      }
+      line.sort(null);
+      double median = line.get(line.size() / 2);
+      return p.timing().medianNanos() > (1 + NoiseCheck.MAX_DENSE_RANGE) * median;
     }
 
     private static String joinNotes(String first, String second) {
