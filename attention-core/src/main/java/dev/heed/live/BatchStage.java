@@ -1,5 +1,6 @@
 package dev.heed.live;
 
+import dev.heed.graph.CsrGraph;
 import java.util.ArrayList;
 import java.util.Arrays;
 import java.util.HashMap;
@@ -42,7 +43,7 @@ final class BatchStage<K> {
   private final Map<Integer, float[]> features = new HashMap<>();
   private long stagedAdded; // running counts while staging, for the size limit
   private long stagedRemoved;
-  private long touched; // keeps the loads of touchRows() from being optimised away
+  private byte[] before; // per operation: its source in its target's row as of from, see RowEditor
   private int[] orderedRows; // editor positions by target, when encoded ahead
 
   BatchStage(
@@ -97,7 +98,7 @@ final class BatchStage<K> {
 
   /** Runs the operations against private state; throws at the first one that cannot apply. */
   void stage() {
-    touchRows();
+    lookUpRows();
     for (int op = 0; op < batch.size(); op++) {
       switch (batch.kind(op)) {
         case UpdateBatch.ADD_NODE:
@@ -117,45 +118,83 @@ final class BatchStage<K> {
   }
 
   /**
-   * Reads, ahead of the operations, what they will read of the rows they touch (trie path, delta,
-   * base offsets, the middle of the base row), one kind of load at a time over all rows: loads of
-   * different rows then wait for memory together instead of one after another (the same idea as the
-   * staged id lookups). Only performance depends on it.
+   * Looks up, ahead of the operations, what they will read of the rows they touch: each row's delta
+   * (its editor is made with it) and, for each edge operation on known nodes, whether its source is
+   * in its target's row as of {@code from} (in the base row and in the delta's two sides, by binary
+   * search). Each kind of load runs over all operations at once, one trie level or search step at a
+   * time, so that loads of different rows wait for memory together instead of one after another
+   * (the same idea as the staged id lookups). The operations then only consult the result.
    */
-  private void touchRows() {
+  private void lookUpRows() {
     int size = batch.size();
-    int[] rows = new int[2 * size];
+    int stride = graph.symmetrises() ? 2 : 1; // under SYMMETRISE the source's row too
+    int[] ops = new int[size];
+    int[] targets = new int[stride * size];
     int count = 0;
     for (int op = 0; op < size; op++) {
-      if (secondIndex[op] >= 0 && firstIndex[op] >= 0) {
-        rows[count++] = secondIndex[op];
-        if (graph.symmetrises()) {
-          rows[count++] = firstIndex[op];
+      byte kind = batch.kind(op);
+      if ((kind == UpdateBatch.ADD_EDGE || kind == UpdateBatch.REMOVE_EDGE)
+          && secondIndex[op] >= 0
+          && firstIndex[op] >= 0) {
+        targets[stride * count] = secondIndex[op];
+        if (stride == 2) {
+          targets[stride * count + 1] = firstIndex[op];
         }
+        ops[count++] = op;
       }
     }
-    Object[] deltas = new Object[count];
-    for (int k = 0; k < count; k++) {
-      deltas[k] = from.rowDeltas.get(rows[k]);
+    Object[] deltas = new Object[stride * count];
+    from.rowDeltas.getAll(targets, stride * count, deltas);
+    for (int k = 0; k < stride * count; k++) {
+      rows.of(targets[k], deltas[k]);
     }
-    long sum = 0;
-    for (int k = 0; k < count; k++) {
-      sum += RowDeltas.entries(deltas[k]);
+    int[] keys = new int[count];
+    int[] low = new int[count];
+    int[] length = new int[count];
+    boolean[] inBase = new boolean[count];
+    CsrGraph base = from.base;
+    int baseNodes = base.nodeCount();
+    for (int j = 0; j < count; j++) {
+      int target = secondIndex[ops[j]];
+      keys[j] = firstIndex[ops[j]];
+      if (target < baseNodes && keys[j] < baseNodes) {
+        low[j] = base.rowStart(target);
+        length[j] = base.rowEnd(target) - low[j];
+      }
     }
-    int baseNodes = from.base.nodeCount();
-    for (int k = 0; k < count; k++) {
-      if (rows[k] < baseNodes) {
-        rows[k] = from.base.rowStart(rows[k]) + from.base.rowEnd(rows[k]) >>> 1;
+    StagedSearch.inBaseRows(base, low, length, keys, count, inBase);
+    int[][] sides = new int[2 * count][];
+    int[] sideKeys = new int[2 * count];
+    int[] sideLow = new int[2 * count];
+    int[] sideLength = new int[2 * count];
+    boolean[] inSide = new boolean[2 * count];
+    for (int j = 0; j < count; j++) {
+      if (deltas[stride * j] instanceof int[]) {
+        int[] flat = (int[]) deltas[stride * j];
+        sides[2 * j] = flat;
+        sides[2 * j + 1] = flat;
+        sideKeys[2 * j] = keys[j];
+        sideKeys[2 * j + 1] = keys[j];
+        sideLow[2 * j] = 1;
+        sideLength[2 * j] = flat[0];
+        sideLow[2 * j + 1] = 1 + flat[0];
+        sideLength[2 * j + 1] = flat.length - 1 - flat[0];
+      }
+    }
+    StagedSearch.inArrays(sides, sideLow, sideLength, sideKeys, 2 * count, inSide);
+    before = new byte[size];
+    for (int j = 0; j < count; j++) {
+      Object delta = deltas[stride * j];
+      boolean present;
+      if (delta instanceof RowDeltas.Chunked) {
+        present =
+            RowDeltas.isAdded(delta, keys[j])
+                || (!RowDeltas.isRemoved(delta, keys[j]) && inBase[j]);
       } else {
-        rows[k] = -1;
+        present = inSide[2 * j] || (!inSide[2 * j + 1] && inBase[j]);
       }
+      before[ops[j]] = present ? RowEditor.PRESENT : RowEditor.ABSENT;
     }
-    for (int k = 0; k < count; k++) {
-      if (rows[k] >= 0 && rows[k] < from.base.edgeCount()) {
-        sum += from.base.column(rows[k]);
-      }
-    }
-    touched = sum;
   }
 
   private int target(int op) {
@@ -207,7 +246,7 @@ final class BatchStage<K> {
     if (ahead) {
       row.log(op, source, true);
     }
-    if (row.contains(source)) {
+    if (row.contains(source, before[op])) {
       if (graph.rejectsDuplicates()) {
         throw reject(
             op,
@@ -239,7 +278,7 @@ final class BatchStage<K> {
     if (ahead) {
       row.log(op, source, false);
     }
-    if (!row.contains(source)) {
+    if (!row.contains(source, before[op])) {
       throw reject(
           op,
           "cannot remove "
@@ -336,9 +375,10 @@ final class BatchStage<K> {
     }
     long added = 0;
     long removed = 0;
+    Object[] deltas = latestDeltas(latest);
     for (int p = 0; p < rows.size(); p++) {
       RowEditor row = rows.get(p);
-      Object now = latest.rowDeltas.get(row.target);
+      Object now = deltas[p];
       if (now != row.oldDelta) {
         row = row.replayOnto(now, graph.rejectsDuplicates());
         if (row == null) {
@@ -355,6 +395,17 @@ final class BatchStage<K> {
     from = latest;
     rows.readFrom(latest);
     return true;
+  }
+
+  /** Returns each editor's row delta in {@code latest}, by editor position. */
+  private Object[] latestDeltas(LiveSnapshot<K> latest) {
+    int[] targets = new int[rows.size()];
+    for (int p = 0; p < targets.length; p++) {
+      targets[p] = rows.get(p).target;
+    }
+    Object[] deltas = new Object[targets.length];
+    latest.rowDeltas.getAll(targets, targets.length, deltas);
+    return deltas;
   }
 
   /**
@@ -375,6 +426,7 @@ final class BatchStage<K> {
     int[] order = orderedRows != null ? orderedRows : rows.positionsByTarget();
     long entriesAdded = 0;
     long entriesRemoved = 0;
+    warmPaths(rowTrie, order);
     SlotTrie.Editor rowEdit = null;
     for (int position : order) {
       RowEditor row = rows.get(position);
@@ -386,10 +438,9 @@ final class BatchStage<K> {
       if (rowEdit == null) {
         rowEdit = rowTrie.edit();
       }
-      Object delta = row.encode();
-      rowEdit.set(row.target, delta);
-      deltaEntries += RowDeltas.entries(delta) - RowDeltas.entries(row.oldDelta);
-      deltaRowBytes += RowDeltas.bytes(delta) - RowDeltas.bytes(row.oldDelta);
+      rowEdit.set(row.target, row.encode());
+      deltaEntries += row.entryChange();
+      deltaRowBytes += row.byteChange();
       if (row.target < from.nodeCount) {
         changedRows[rowCount++] = row.target;
       }
@@ -446,6 +497,23 @@ final class BatchStage<K> {
         featureRowBytes,
         missing,
         idTable.view());
+  }
+
+  /**
+   * Reads the trie paths of the changed rows in one staged pass ({@link SlotTrie#getAll}), so that
+   * the path copying that follows finds them in cache instead of missing once per row. Only
+   * performance depends on it.
+   */
+  private void warmPaths(SlotTrie trie, int[] order) {
+    int[] targets = new int[order.length];
+    int count = 0;
+    for (int position : order) {
+      RowEditor row = rows.get(position);
+      if (row.changed() && row.target < from.nodeCount) {
+        targets[count++] = row.target;
+      }
+    }
+    trie.getAll(targets, count, new Object[count]);
   }
 
   private static int[] sorted(int[] values, int count) {

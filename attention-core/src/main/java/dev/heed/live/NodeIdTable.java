@@ -4,8 +4,13 @@ import java.util.Arrays;
 
 /**
  * The live graph's map from the caller's node ids to node indices: an append-only id array (index
- * to id) and an open-addressing {@code int[]} table at load at most 1/2 (id to index + 1, 0 for an
- * empty slot; linear probing). Only the writer holding the graph's write lock changes it, and only
+ * to id) and an open-addressing {@code int[]} table at load at most 1/2 (linear probing). A table
+ * of capacity {@code 2^b} keeps in each filled slot the index + 1 in its low {@code b} bits (it is
+ * at most {@code 2^(b-1)}) and, in the {@code 32 - b} bits above, the top bits of the id's spread
+ * hash, which the slot number does not use; 0 is an empty slot. A probe passes over slots whose
+ * hash bits differ without reading their ids, so a lookup reads the id array and an id object about
+ * once (the tag, common practice in open-addressing tables); with a million nodes, 11 bits tell
+ * 2047 of 2048 other ids apart. Only the writer holding the graph's write lock changes it, and only
  * by appending: an index, once given, keeps its id for the life of the graph, and a table slot,
  * once filled, is never changed. {@link #view()} hands readers the arrays as they are, bounded by
  * the current size, so a view keeps answering for its own node count while the writer appends.
@@ -64,27 +69,50 @@ final class NodeIdTable<K> {
 
   /** Finds {@code id} among the first {@code size} ids; entries at or above size are skipped. */
   static int find(int[] table, Object[] ids, int size, Object id) {
+    int hash = spread(id);
+    int slot = probe(table, hash, hash & (table.length - 1));
+    while (slot >= 0) {
+      int index = indexAt(table, slot);
+      if (index < size && ids[index].equals(id)) {
+        return index;
+      }
+      slot = probe(table, hash, (slot + 1) & (table.length - 1));
+    }
+    return -1;
+  }
+
+  /**
+   * Returns the first slot from {@code slot} on (linear probing) whose hash bits match {@code
+   * hash}, or -1 if an empty slot comes first. Reads the table only.
+   */
+  static int probe(int[] table, int hash, int slot) {
     int mask = table.length - 1;
-    int slot = spread(id) & mask;
+    int tagShift = Integer.numberOfTrailingZeros(table.length);
     while (true) {
       int entry = table[slot];
       if (entry == 0) {
         return -1;
       }
-      if (entry <= size && ids[entry - 1].equals(id)) {
-        return entry - 1;
+      if (tagShift == Integer.SIZE || ((entry ^ hash) >>> tagShift) == 0) {
+        return slot;
       }
       slot = (slot + 1) & mask;
     }
   }
 
+  /** Returns the node index kept in a filled slot. */
+  static int indexAt(int[] table, int slot) {
+    return (table[slot] & (table.length - 1)) - 1;
+  }
+
   private static void insert(int[] table, Object id, int index) {
     int mask = table.length - 1;
-    int slot = spread(id) & mask;
+    int hash = spread(id);
+    int slot = hash & mask;
     while (table[slot] != 0) {
       slot = (slot + 1) & mask;
     }
-    table[slot] = index + 1;
+    table[slot] = (hash & ~mask) | (index + 1);
   }
 
   private static int[] rehash(Object[] ids, int size, int capacity) {

@@ -41,35 +41,30 @@ final class NodeIdView<K> implements NodeIndex<K> {
 
   /**
    * Looks up {@code keys[0..count-1]} (null entries give -1) into {@code out}. The same answers as
-   * {@link #indexOf} one by one, but in stages over all keys (hash every key, then read every first
-   * table slot, then every candidate id, then compare), so that the cache misses of different keys
-   * overlap instead of queueing behind each other (group prefetching; Chen, Ailamaki, Gibbons,
-   * Mowry, "Improving Hash Join Performance through Prefetching", ICDE 2004). A key whose first
-   * slot holds another id falls back to the plain probe.
+   * {@link #indexOf} one by one, but in stages over all keys (hash every key, then probe the table
+   * for every key, then read every candidate id, then compare), so that the cache misses of
+   * different keys overlap instead of queueing behind each other (group prefetching; Chen,
+   * Ailamaki, Gibbons, Mowry, "Improving Hash Join Performance through Prefetching", ICDE 2004). A
+   * key whose candidate is another id (hash bits alike) falls back to the plain lookup.
    */
   void indexOfAll(Object[] keys, int count, int[] out) {
-    int[] slots = new int[count];
-    int mask = table.length - 1;
+    int[] hashes = new int[count];
     for (int k = 0; k < count; k++) {
       Object key = keys[k];
-      slots[k] = key == null ? -1 : NodeIdTable.spread(key) & mask;
+      hashes[k] = key == null ? 0 : NodeIdTable.spread(key);
     }
+    int mask = table.length - 1;
     for (int k = 0; k < count; k++) {
-      out[k] = slots[k] < 0 ? 0 : table[slots[k]];
+      int slot = keys[k] == null ? -1 : NodeIdTable.probe(table, hashes[k], hashes[k] & mask);
+      out[k] = slot < 0 ? -1 : NodeIdTable.indexAt(table, slot);
     }
     Object[] candidates = new Object[count];
     for (int k = 0; k < count; k++) {
-      int entry = out[k];
-      candidates[k] = entry > 0 && entry <= size ? ids[entry - 1] : null;
+      candidates[k] = out[k] >= 0 && out[k] < size ? ids[out[k]] : null;
     }
     for (int k = 0; k < count; k++) {
-      Object key = keys[k];
-      if (key == null || out[k] == 0) {
-        out[k] = -1;
-      } else if (candidates[k] != null && candidates[k].equals(key)) {
-        out[k] -= 1;
-      } else {
-        out[k] = NodeIdTable.find(table, ids, size, key);
+      if (out[k] >= 0 && (candidates[k] == null || !candidates[k].equals(keys[k]))) {
+        out[k] = NodeIdTable.find(table, ids, size, keys[k]);
       }
     }
   }

@@ -11,6 +11,15 @@ import java.util.Arrays;
  */
 final class RowEditor {
 
+  /** What {@link #contains(int, byte)} is told about a source before the batch: not looked up. */
+  static final byte UNKNOWN = 0;
+
+  /** The row held the source before the batch. */
+  static final byte PRESENT = 1;
+
+  /** The row did not hold the source before the batch. */
+  static final byte ABSENT = 2;
+
   private static final int[] NONE = new int[0];
 
   final int target;
@@ -26,6 +35,8 @@ final class RowEditor {
   private int[] logOps = NONE; // the operation of each log entry
   private int logCount;
   private Object encoded;
+  private long entryChange;
+  private long byteChange;
   private boolean encodedReady;
 
   RowEditor(int target, CsrGraph base, Object oldDelta) {
@@ -86,11 +97,22 @@ final class RowEditor {
 
   /** Returns whether the row, with the changes staged so far, holds {@code source}. */
   boolean contains(int source) {
+    return contains(source, UNKNOWN);
+  }
+
+  /**
+   * {@link #contains(int)}, given whether the row held {@code source} before the batch: {@link
+   * #PRESENT}, {@link #ABSENT}, or {@link #UNKNOWN} (then looked up here).
+   */
+  boolean contains(int source, byte before) {
     if (addedCount > 0 && Arrays.binarySearch(added, 0, addedCount, source) >= 0) {
       return true;
     }
     if (removedCount > 0 && Arrays.binarySearch(removed, 0, removedCount, source) >= 0) {
       return false;
+    }
+    if (before != UNKNOWN) {
+      return before == PRESENT;
     }
     if (RowDeltas.isAdded(oldDelta, source)) {
       return true;
@@ -137,14 +159,41 @@ final class RowEditor {
   Object encode() {
     if (!encodedReady) {
       encoded = encodeNow();
+      entryChange = RowDeltas.entries(encoded) - RowDeltas.entries(oldDelta);
+      byteChange = RowDeltas.bytes(encoded) - RowDeltas.bytes(oldDelta);
       encodedReady = true;
     }
     return encoded;
   }
 
+  /** Returns the change in stored delta entries from the old delta to {@link #encode()}'s. */
+  long entryChange() {
+    encode();
+    return entryChange;
+  }
+
+  /** Returns the change in delta bytes from the old delta to {@link #encode()}'s. */
+  long byteChange() {
+    encode();
+    return byteChange;
+  }
+
   private Object encodeNow() {
     if (oldDelta == null) { // the common case while ingesting: nothing to merge with
       return RowDeltas.of(added, addedCount, removed, removedCount);
+    }
+    if (removedCount == 0
+        && addedCount > 0
+        && oldDelta instanceof int[]
+        && ((int[]) oldDelta).length == 1 + ((int[]) oldDelta)[0]
+        && ((int[]) oldDelta).length + addedCount <= 1 + RowDeltas.FLAT_LIMIT) {
+      // only additions over a flat delta that removes nothing (the common case while ingesting):
+      // one merge straight into the new delta
+      int[] old = (int[]) oldDelta;
+      int[] delta = new int[old.length + addedCount];
+      delta[0] = old[0] + addedCount;
+      SortedChunks.merge(old, 1, old.length, NONE, 0, added, addedCount, delta, 1);
+      return delta;
     }
     int[] newlyAdded = without(added, addedCount, true);
     int[] newlyRemoved = without(removed, removedCount, false);

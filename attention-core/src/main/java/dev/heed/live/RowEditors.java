@@ -25,6 +25,18 @@ final class RowEditors {
 
   /** Returns the editor of {@code target}, making it on first use. */
   RowEditor of(int target) {
+    return of(target, null, false);
+  }
+
+  /**
+   * Returns the editor of {@code target}, making it on first use with {@code delta}, the row's
+   * delta in the snapshot read ({@code from}), which the caller looked up already.
+   */
+  RowEditor of(int target, Object delta) {
+    return of(target, delta, true);
+  }
+
+  private RowEditor of(int target, Object knownDelta, boolean known) {
     int mask = table.length - 1;
     int slot = mix(target) & mask;
     while (true) {
@@ -38,7 +50,8 @@ final class RowEditors {
       slot = (slot + 1) & mask;
     }
     CsrGraph base = from.base;
-    Object delta = target < from.nodeCount ? from.rowDeltas.get(target) : null;
+    Object delta = known ? knownDelta : target < from.nodeCount ? from.rowDeltas.get(target) : null;
+    assert delta == (target < from.nodeCount ? from.rowDeltas.get(target) : null);
     RowEditor editor = new RowEditor(target, base, delta);
     if (count == editors.length) {
       editors = Arrays.copyOf(editors, count * 2);

@@ -1,8 +1,6 @@
 package dev.heed.live;
 
-import java.util.ArrayList;
 import java.util.Arrays;
-import java.util.List;
 
 /**
  * An immutable sorted set of ints in chunks of at most {@value #MAX_CHUNK} values, with each
@@ -17,16 +15,18 @@ final class SortedChunks {
   /** The most values in one chunk; a chunk that grows past it is split in two. */
   static final int MAX_CHUNK = 64;
 
-  static final SortedChunks EMPTY = new SortedChunks(new int[0][], new int[0], 0);
+  static final SortedChunks EMPTY = new SortedChunks(new int[0][], new int[0], 0, 0);
 
   private final int[][] chunks; // each sorted, non-empty, at most MAX_CHUNK long
   private final int[] firsts; // firsts[c] == chunks[c][0]
   private final int size;
+  private final long chunkBytes; // bytes of the chunk arrays, kept so that bytes() reads none
 
-  private SortedChunks(int[][] chunks, int[] firsts, int size) {
+  private SortedChunks(int[][] chunks, int[] firsts, int size, long chunkBytes) {
     this.chunks = chunks;
     this.firsts = firsts;
     this.size = size;
+    this.chunkBytes = chunkBytes;
   }
 
   /** Chunks {@code values[from..to-1]}, which must be strictly increasing. */
@@ -34,16 +34,9 @@ final class SortedChunks {
     if (from == to) {
       return EMPTY;
     }
-    int count = (to - from + MAX_CHUNK - 1) / MAX_CHUNK;
-    int[][] chunks = new int[count][];
-    int[] firsts = new int[count];
-    for (int c = 0; c < count; c++) {
-      int start = from + (int) ((long) (to - from) * c / count);
-      int end = from + (int) ((long) (to - from) * (c + 1) / count);
-      chunks[c] = Arrays.copyOfRange(values, start, end);
-      firsts[c] = values[start];
-    }
-    return new SortedChunks(chunks, firsts, to - from);
+    Builder out = new Builder((to - from + MAX_CHUNK - 1) / MAX_CHUNK, 0, 0);
+    out.append(Arrays.copyOfRange(values, from, to), to - from);
+    return out.build();
   }
 
   int size() {
@@ -74,28 +67,46 @@ final class SortedChunks {
 
   /** Bytes of the object, its directory and its chunks. */
   long bytes() {
-    long bytes = 16 + Layout.arrayBytes(chunks.length, 4) + Layout.arrayBytes(firsts.length, 4);
-    for (int[] chunk : chunks) {
-      bytes += Layout.arrayBytes(chunk.length, 4);
-    }
-    return bytes;
+    return 32
+        + Layout.arrayBytes(chunks.length, 4)
+        + Layout.arrayBytes(firsts.length, 4)
+        + chunkBytes;
   }
 
   /**
    * Returns this set without the values of {@code drop[0..dropCount-1]} that it holds and with the
    * values of {@code add[0..addCount-1]}, which it must not hold; both lists sorted. Untouched
-   * chunks are shared with this set.
+   * chunks are shared with this set, and are not read: the chunks touched are found by binary
+   * search in the directory, and the untouched ones are copied to the new directory by reference
+   * with their first values and sizes, so that an update of a long row misses in cache on the
+   * chunks it changes only.
    */
   SortedChunks update(int[] drop, int dropCount, int[] add, int addCount) {
     if (dropCount == 0 && addCount == 0) {
       return this;
     }
-    List<int[]> out = new ArrayList<>(chunks.length + 2);
+    if (chunks.length == 0) {
+      return of(add, 0, addCount);
+    }
+    Builder out = new Builder(chunks.length + 4, size, chunkBytes);
     int d = 0;
     int a = 0;
+    int c = 0;
     int[] merged = new int[MAX_CHUNK * 2 + addCount];
-    for (int c = 0; c < chunks.length; c++) {
-      // the values that belong to chunk c: below the next chunk's first value
+    while (true) {
+      // the next chunk with a change: the one each next value belongs to (below the next first)
+      int next = chunks.length;
+      if (d < dropCount) {
+        next = Math.max(0, chunkOf(drop[d]));
+      }
+      if (a < addCount) {
+        next = Math.min(next, Math.max(0, chunkOf(add[a])));
+      }
+      out.copy(chunks, firsts, c, next);
+      if (next == chunks.length) {
+        break;
+      }
+      c = next;
       int limit = c + 1 < chunks.length ? firsts[c + 1] : Integer.MAX_VALUE;
       int dropEnd = d;
       while (dropEnd < dropCount && drop[dropEnd] < limit) {
@@ -105,30 +116,78 @@ final class SortedChunks {
       while (addEnd < addCount && (add[addEnd] < limit || c + 1 == chunks.length)) {
         addEnd++;
       }
-      if (dropEnd == d && addEnd == a) {
-        out.add(chunks[c]);
-        continue;
+      int[] old = chunks[c];
+      if (merged.length < old.length + addEnd - a) {
+        merged = new int[old.length + addEnd - a];
       }
-      if (merged.length < chunks[c].length + addEnd - a) {
-        merged = new int[chunks[c].length + addEnd - a];
-      }
-      int length =
-          merge(chunks[c], 0, chunks[c].length, drop, d, dropEnd, add, a, addEnd, merged, 0);
-      split(merged, length, out);
+      int length = merge(old, 0, old.length, drop, d, dropEnd, add, a, addEnd, merged, 0);
+      out.drop(old);
+      out.append(merged, length);
       d = dropEnd;
       a = addEnd;
+      c++;
     }
-    if (chunks.length == 0) {
-      split(Arrays.copyOf(add, addCount), addCount, out);
+    return out.build();
+  }
+
+  /** The directory of an updated set, filled in order. */
+  private static final class Builder {
+    private int[][] chunks;
+    private int[] firsts;
+    private int count;
+    private int size;
+    private long chunkBytes;
+
+    Builder(int capacity, int size, long chunkBytes) {
+      this.chunks = new int[capacity][];
+      this.firsts = new int[capacity];
+      this.size = size;
+      this.chunkBytes = chunkBytes;
     }
-    int[][] newChunks = out.toArray(new int[0][]);
-    int[] newFirsts = new int[newChunks.length];
-    int newSize = 0;
-    for (int c = 0; c < newChunks.length; c++) {
-      newFirsts[c] = newChunks[c][0];
-      newSize += newChunks[c].length;
+
+    /** Appends old chunks {@code from..to-1} unchanged (not read). */
+    void copy(int[][] oldChunks, int[] oldFirsts, int from, int to) {
+      room(to - from);
+      System.arraycopy(oldChunks, from, chunks, count, to - from);
+      System.arraycopy(oldFirsts, from, firsts, count, to - from);
+      count += to - from;
     }
-    return new SortedChunks(newChunks, newFirsts, newSize);
+
+    /** Takes the old chunk {@code old} out of the counts; its new content follows by append. */
+    void drop(int[] old) {
+      size -= old.length;
+      chunkBytes -= Layout.arrayBytes(old.length, 4);
+    }
+
+    /** Appends {@code values[0..length-1]} as chunks of at most MAX_CHUNK values. */
+    void append(int[] values, int length) {
+      size += length;
+      int pieces = (length + MAX_CHUNK - 1) / MAX_CHUNK;
+      room(pieces);
+      for (int p = 0; p < pieces; p++) {
+        int start = (int) ((long) length * p / pieces);
+        int end = (int) ((long) length * (p + 1) / pieces);
+        chunks[count] = Arrays.copyOfRange(values, start, end);
+        firsts[count++] = values[start];
+        chunkBytes += Layout.arrayBytes(end - start, 4);
+      }
+    }
+
+    SortedChunks build() {
+      if (count == 0) {
+        return EMPTY;
+      }
+      return new SortedChunks(
+          Arrays.copyOf(chunks, count), Arrays.copyOf(firsts, count), size, chunkBytes);
+    }
+
+    private void room(int more) {
+      if (count + more > chunks.length) {
+        int capacity = Math.max(count + more, 2 * chunks.length);
+        chunks = Arrays.copyOf(chunks, capacity);
+        firsts = Arrays.copyOf(firsts, capacity);
+      }
+    }
   }
 
   /**
@@ -182,16 +241,6 @@ final class SortedChunks {
       }
     }
     return w;
-  }
-
-  /** Appends {@code values[0..length-1]} as one or more chunks of at most MAX_CHUNK values. */
-  private static void split(int[] values, int length, List<int[]> out) {
-    int pieces = (length + MAX_CHUNK - 1) / MAX_CHUNK;
-    for (int p = 0; p < pieces; p++) {
-      int start = (int) ((long) length * p / pieces);
-      int end = (int) ((long) length * (p + 1) / pieces);
-      out.add(Arrays.copyOfRange(values, start, end));
-    }
   }
 
   /** Returns the chunk that would hold {@code value}, or -1 if it is below every chunk. */

@@ -49,8 +49,26 @@ class SlotTrieTest {
       for (Map.Entry<Integer, Object> entry : contents.get(v).entrySet()) {
         assertSame(entry.getValue(), versions.get(v).get(entry.getKey()), "version " + v);
       }
+      // the staged lookup answers as get() one by one, for present and absent indices alike
+      int[] indices = new int[contents.get(v).size() + 64];
+      int count = 0;
+      for (int index : contents.get(v).keySet()) {
+        indices[count++] = index;
+      }
+      while (count < indices.length) {
+        indices[count++] =
+            random.nextBoolean() ? random.nextInt(1 << 20) : Integer.MAX_VALUE - random.nextInt(9);
+      }
+      Object[] found = new Object[count];
+      versions.get(v).getAll(indices, count, found);
+      for (int k = 0; k < count; k++) {
+        assertSame(versions.get(v).get(indices[k]), found[k], "version " + v + " index " + k);
+      }
       assertEquals(contents.get(v).size(), versions.get(v).size());
     }
+    Object[] none = {"stale"};
+    SlotTrie.EMPTY.getAll(new int[] {12345}, 1, none);
+    assertNull(none[0]);
     assertNull(SlotTrie.EMPTY.get(12345));
     assertTrue(SlotTrie.EMPTY.isEmpty());
   }

@@ -49,9 +49,12 @@ class SortedChunksTest {
       expected.addAll(add);
       assertArrayEquals(sorted(expected), values(set), "round " + round);
       assertEquals(expected.size(), set.size());
+      long bytes = 32 + 2 * Layout.arrayBytes(set.chunkCount(), 4);
       for (int c = 0; c < set.chunkCount(); c++) {
         assertTrue(set.chunk(c).length >= 1 && set.chunk(c).length <= SortedChunks.MAX_CHUNK);
+        bytes += Layout.arrayBytes(set.chunk(c).length, 4);
       }
+      assertEquals(bytes, set.bytes(), "bytes kept while updating, round " + round);
       for (int probe = 0; probe < 20; probe++) {
         int v = random.nextInt(5100) - 50;
         assertEquals(expected.contains(v), set.contains(v), "value " + v);
