@@ -331,7 +331,8 @@ public final class PathCalibration {
         new Spec(d, 'd', DOT_4X16, 1024, 256),
         new Spec(d, 'a', ADD_4X16, 512, 64),
         new Spec(d, 'g', DOT_4X16, 512, 0),
-        // sparse per-head, each score: fixed, rows, entries·heads, entries·heads·width
+        // sparse per-head, each score: fixed, rows, entries·heads, entries·heads·width (CSR rows
+        // and, from the one complete-pattern call, the complete pattern's tiles)
         new Spec(s, 'd', DOT_4X16, 1024, 8),
         threadSpec(),
         new Spec(s, 'd', DOT_4X4, 2048, 128),

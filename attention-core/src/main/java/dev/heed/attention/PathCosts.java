@@ -553,6 +553,14 @@ public final class PathCosts {
       }
       for (int i = 0; i < c.length; i++) {
         String term = regime.terms().get(i);
+        if (term.equals(CostRegime.COMPLETE_ENTRY_WIDTH)
+            && !r.has(term)
+            && r.has(CostRegime.ENTRY_WIDTH)) {
+          // a profile written before complete-pattern entries had a term of their own priced
+          // them as CSR entries: keep that reading
+          c[i] = numberField(r, CostRegime.ENTRY_WIDTH, where, "regimes." + key + ".entry_width");
+          continue;
+        }
         c[i] = numberField(r, term, where, "regimes." + key + "." + term);
       }
       coefficients.put(regime, c);

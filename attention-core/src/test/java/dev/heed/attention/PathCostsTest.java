@@ -102,6 +102,36 @@ class PathCostsTest {
   }
 
   @Test
+  void completePatternEntriesHaveATermOfTheirOwnAndOlderProfilesReadItAsACsrEntry()
+      throws IOException {
+    // synthetic coefficients: per-head CSR entries cost 4e-9 s per E·H·(dk + dv), complete-pattern
+    // entries 1e-9; everything else 0
+    Map<CostRegime, double[]> c = new java.util.EnumMap<>(CostRegime.class);
+    for (CostRegime r : CostRegime.values()) {
+      double[] k = new double[r.terms().size()];
+      if (r.terms().contains(CostRegime.COMPLETE_ENTRY_WIDTH)) {
+        k[r.terms().indexOf(CostRegime.ENTRY_WIDTH)] = 4e-9;
+        k[r.terms().indexOf(CostRegime.COMPLETE_ENTRY_WIDTH)] = 1e-9;
+      }
+      c.put(r, k);
+    }
+    PathCosts costs = new PathCosts(c, 1, 1.0, "synthetic", "", null, "synthetic");
+    int n = 512;
+    long all = (long) n * n;
+    double work = all * DOT_4X16.heads() * (DOT_4X16.keyDim() + DOT_4X16.valueDim());
+    assertEquals(
+        4e-9 * work, costs.estimate(n, all, false, DOT, DOT_4X16, 1).sparseSeconds(), 1e-12);
+    assertEquals(
+        1e-9 * work, costs.estimate(n, all, true, DOT, DOT_4X16, 1).sparseSeconds(), 1e-12);
+
+    // a profile written before the term: complete-pattern entries cost what CSR entries cost
+    String older = costs.toJson().replaceAll(",\\s*\"complete_entry_width\" : [0-9.E-]+", "");
+    assertTrue(!older.contains(CostRegime.COMPLETE_ENTRY_WIDTH), older);
+    PathCosts read = PathCosts.read(Files.writeString(dir.resolve("older.json"), older));
+    assertEquals(4e-9 * work, read.estimate(n, all, true, DOT, DOT_4X16, 1).sparseSeconds(), 1e-12);
+  }
+
+  @Test
   void builtInProfileHasEveryRegimeWithPositiveCoefficients() {
     PathCosts b = PathCosts.builtIn();
     assertEquals(PathCosts.BUILT_IN_SOURCE, b.source());

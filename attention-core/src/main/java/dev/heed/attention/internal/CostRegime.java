@@ -37,7 +37,12 @@ public enum CostRegime {
       ComputePath.DENSE,
       List.of("fixed", "product", "element", "mask", "gatv2"),
       new boolean[] {false, false, true, false, true}),
-  /** Sparse per-head path, additive (GAT) scores: fixed; n rows; E·H; E·H·(dk + dv). */
+  /**
+   * Sparse per-head path, additive (GAT) scores: fixed; n rows; E·H; E·H·(dk + dv) over a CSR
+   * graph; E·H·(dk + dv) over the complete pattern, whose rows run in tiles that share each block
+   * of sources while it is in cache (and, for dot products, score it from transposed keys), so its
+   * entries cost less than a CSR graph's.
+   */
   SPARSE_PER_HEAD_ADDITIVE(
       "sparse_per_head_additive", ComputePath.SPARSE, perHeadTerms(), perHead()),
   /** Sparse per-head path, scaled dot-product scores; terms as the additive regime. */
@@ -84,12 +89,18 @@ public enum CostRegime {
     this.parallel = parallel;
   }
 
+  /** The per-head regimes' term of complete-pattern entries (see {@link #perHeadTerms()}). */
+  public static final String COMPLETE_ENTRY_WIDTH = "complete_entry_width";
+
+  /** The per-head regimes' term of CSR entries, which profiles also held for complete patterns. */
+  public static final String ENTRY_WIDTH = "entry_width";
+
   private static List<String> perHeadTerms() {
-    return List.of("fixed", "row", "entry", "entry_width");
+    return List.of("fixed", "row", "entry", ENTRY_WIDTH, COMPLETE_ENTRY_WIDTH);
   }
 
   private static boolean[] perHead() {
-    return new boolean[] {false, true, true, true};
+    return new boolean[] {false, true, true, true, true};
   }
 
   /**
@@ -210,7 +221,13 @@ public enum CostRegime {
                 size.score() instanceof ScoreFunction.Gatv2 ? e * h * shape.keyDim() : 0
               };
           case SPARSE_PER_HEAD_ADDITIVE, SPARSE_PER_HEAD_DOT, SPARSE_PER_HEAD_GATV2 ->
-              new double[] {1, n, e * h, e * h * width};
+              new double[] {
+                1,
+                n,
+                e * h,
+                size.complete() ? 0 : e * h * width,
+                size.complete() ? e * h * width : 0
+              };
           case SPARSE_ALL_HEADS, SPARSE_ALL_HEADS_PACKED -> new double[] {1, n, e};
         };
     double speedUp = 1 + parallelEfficiency * (threadsUsed(size) - 1);
