@@ -216,24 +216,8 @@ class CrossoverRunnerTest {
     // interrupting that point, and takes a steady 2 ms per call once the sweep has moved on.
     // Spreads of 2/40 calls are far over 25 % in every batch, so only the
     // re-timing at the end can give the point a steady timing.
-    SweepConfig config =
-        tinyConfig().withScores(List.of(SweepScore.DOT_PRODUCT)).withNodeCounts(List.of(8));
-    DisturbedFirstPattern disturbed =
-        new DisturbedFirstPattern(
-            new Labelled(ComputePath.DENSE, new ReferenceAttentionKernel()), false);
-    KernelFactory factory =
-        (path, options) ->
-            path == ComputePath.DENSE
-                ? disturbed
-                : new Labelled(path, new ReferenceAttentionKernel());
-    CrossoverReport report =
-        CrossoverRunner.run(
-            config, factory, MachineLimits.assumed(50, 1e8), ProgressListener.none());
-    SweepPoint first =
-        report.points().stream()
-            .filter(p -> p.path() == ComputePath.DENSE && p.density() == 0.05)
-            .findFirst()
-            .orElseThrow();
+    CrossoverReport report = sweepWithDisturbedDense(false);
+    SweepPoint first = firstDensePoint(report);
     // its median may also lie far above the line (40 ms calls): either remark says it was re-timed
     assertTrue(
         first.note().contains(CrossoverRunner.RETIMED_NOTE)
@@ -250,24 +234,34 @@ class CrossoverRunnerTest {
     // The dense stand-in takes a steady 8 ms per call on the sweep's first pattern (as when the JIT
     // recompiles a kernel while a point runs: slow, but not spread) and 2 ms on every other, so
     // that point is 4x its line's median with a small spread; the re-timing finds 2 ms.
-    SweepConfig config =
-        tinyConfig().withScores(List.of(SweepScore.DOT_PRODUCT)).withNodeCounts(List.of(8));
-    DisturbedFirstPattern slowed =
-        new DisturbedFirstPattern(
-            new Labelled(ComputePath.DENSE, new ReferenceAttentionKernel()), true);
-    KernelFactory factory =
-        (path, options) ->
-            path == ComputePath.DENSE ? slowed : new Labelled(path, new ReferenceAttentionKernel());
-    CrossoverReport report =
-        CrossoverRunner.run(
-            config, factory, MachineLimits.assumed(50, 1e8), ProgressListener.none());
-    SweepPoint first =
-        report.points().stream()
-            .filter(p -> p.path() == ComputePath.DENSE && p.density() == 0.05)
-            .findFirst()
-            .orElseThrow();
+    SweepPoint first = firstDensePoint(sweepWithDisturbedDense(true));
     assertTrue(first.note().contains(CrossoverRunner.OFF_LINE_NOTE), first.toString());
     assertTrue(first.timing().medianNanos() < 6e6, "the 2 ms re-timing should be kept: " + first);
+  }
+
+  /**
+   * A one-score sweep at n = 8 whose dense path is a {@link DisturbedFirstPattern} stand-in ({@code
+   * steady}: slow but not spread; else widely spread), the sparse path the reference.
+   */
+  private static CrossoverReport sweepWithDisturbedDense(boolean steady) {
+    SweepConfig config =
+        tinyConfig().withScores(List.of(SweepScore.DOT_PRODUCT)).withNodeCounts(List.of(8));
+    DisturbedFirstPattern dense =
+        new DisturbedFirstPattern(
+            new Labelled(ComputePath.DENSE, new ReferenceAttentionKernel()), steady);
+    KernelFactory factory =
+        (path, options) ->
+            path == ComputePath.DENSE ? dense : new Labelled(path, new ReferenceAttentionKernel());
+    return CrossoverRunner.run(
+        config, factory, MachineLimits.assumed(50, 1e8), ProgressListener.none());
+  }
+
+  /** The dense point of the sweep's first pattern (density 5 %). */
+  private static SweepPoint firstDensePoint(CrossoverReport report) {
+    return report.points().stream()
+        .filter(p -> p.path() == ComputePath.DENSE && p.density() == 0.05)
+        .findFirst()
+        .orElseThrow();
   }
 
   /** Wraps a kernel so that it reports a given path. */
