@@ -323,8 +323,11 @@ public final class PathCalibration {
     ComputePath d = ComputePath.DENSE;
     ComputePath s = ComputePath.SPARSE;
     return List.of(
-        // dense: fixed, products (dk+dv), per-element work, mask, GATv2 scores
+        // dense: fixed, products (dk+dv) of small and large calls, per-element work, mask, GATv2
+        // scores
         new Spec(d, 'd', DOT_4X16, 256, 0),
+        new Spec(d, 'd', DOT_4X16, 512, 0),
+        new Spec(d, 'd', DOT_4X4, 512, 64),
         new Spec(d, 'd', DOT_4X16, 1024, 0),
         new Spec(d, 'd', DOT_4X4, 1024, 0),
         new Spec(d, 'a', ADD_4X16, 1024, 0),

@@ -553,12 +553,11 @@ public final class PathCosts {
       }
       for (int i = 0; i < c.length; i++) {
         String term = regime.terms().get(i);
-        if (term.equals(CostRegime.COMPLETE_ENTRY_WIDTH)
-            && !r.has(term)
-            && r.has(CostRegime.ENTRY_WIDTH)) {
-          // a profile written before complete-pattern entries had a term of their own priced
-          // them as CSR entries: keep that reading
-          c[i] = numberField(r, CostRegime.ENTRY_WIDTH, where, "regimes." + key + ".entry_width");
+        String older = OLDER_TERMS.get(term);
+        if (older != null && !r.has(term) && r.has(older)) {
+          // a profile written before this term existed priced its work with the older term:
+          // keep that reading
+          c[i] = numberField(r, older, where, "regimes." + key + "." + older);
           continue;
         }
         c[i] = numberField(r, term, where, "regimes." + key + "." + term);
@@ -584,6 +583,15 @@ public final class PathCosts {
         fit,
         where);
   }
+
+  /**
+   * Terms added to a regime after profiles were written, each with the older term whose coefficient
+   * priced its work before: a profile without the newer term reads the older one.
+   */
+  private static final Map<String, String> OLDER_TERMS =
+      Map.of(
+          CostRegime.COMPLETE_ENTRY_WIDTH, CostRegime.ENTRY_WIDTH,
+          CostRegime.SMALL_PRODUCT, CostRegime.PRODUCT);
 
   private static final String HOW_TO_FIX =
       "recalibrate with `heed calibrate` (or PathCalibration.run) to write a valid profile";

@@ -132,6 +132,53 @@ class PathCostsTest {
   }
 
   @Test
+  void smallDenseCallsPriceTheirProductsOnOneThreadAndOlderProfilesReadTheLargeTerm()
+      throws IOException {
+    // synthetic coefficients: large calls' products 1e-11 s per n²·H·(dk + dv), small calls'
+    // 3e-11, softmax elements 1e-9 per n²·H (parallel); everything else 0
+    Map<CostRegime, double[]> c = new java.util.EnumMap<>(CostRegime.class);
+    for (CostRegime r : CostRegime.values()) {
+      double[] k = new double[r.terms().size()];
+      if (r == CostRegime.DENSE) {
+        k[r.terms().indexOf(CostRegime.PRODUCT)] = 1e-11;
+        k[r.terms().indexOf(CostRegime.SMALL_PRODUCT)] = 3e-11;
+        k[r.terms().indexOf("element")] = 1e-9;
+      }
+      c.put(r, k);
+    }
+    PathCosts costs = new PathCosts(c, 2, 1.0, "synthetic", "", null, "synthetic");
+    int width = DOT_4X16.keyDim() + DOT_4X16.valueDim();
+    int heads = DOT_4X16.heads();
+    // n = 724 is small (724² < 2^19): one thread, so the element term is not halved
+    double small = 724.0 * 724 * heads;
+    assertEquals(
+        3e-11 * small * width + 1e-9 * small,
+        costs.estimate(724, 724L * 724, true, DOT, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+    // n = 725 is not: two threads share the elements at efficiency 1
+    double large = 725.0 * 725 * heads;
+    assertEquals(
+        1e-11 * large * width + 1e-9 * large / 2,
+        costs.estimate(725, 725L * 725, true, DOT, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+    // GATv2 calls keep their threads at any n
+    ScoreFunction gatv2 = ScoreFunction.gatv2(0.2f, new float[64]);
+    assertEquals(
+        1e-11 * small * width + 1e-9 * small / 2,
+        costs.estimate(724, 724L * 724, true, gatv2, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+
+    // a profile written before the term: small calls' products cost what large ones cost
+    String older = costs.toJson().replaceAll(",\\s*\"small_product\" : [0-9.E-]+", "");
+    assertTrue(!older.contains(CostRegime.SMALL_PRODUCT), older);
+    PathCosts read = PathCosts.read(Files.writeString(dir.resolve("older-dense.json"), older));
+    assertEquals(
+        1e-11 * small * width + 1e-9 * small,
+        read.estimate(724, 724L * 724, true, DOT, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+  }
+
+  @Test
   void builtInProfileHasEveryRegimeWithPositiveCoefficients() {
     PathCosts b = PathCosts.builtIn();
     assertEquals(PathCosts.BUILT_IN_SOURCE, b.source());

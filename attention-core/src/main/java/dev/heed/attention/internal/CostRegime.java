@@ -30,13 +30,15 @@ public enum CostRegime {
   /**
    * The dense kernel: a fixed cost; its matrix products, n²·H·(dk + dv) (BLAS threads, not scaled);
    * its per-score-element Java work, n²·H (softmax; parallel); the CSR mask, n²·H for a CSR pattern
-   * (ND4J adds); GATv2's Java scores, H·dk per scored pair (n² complete, E masked; parallel).
+   * (ND4J adds); GATv2's Java scores, H·dk per scored pair (n² complete, E masked; parallel); the
+   * matrix products of a small call ({@link #isSmallDenseCall}), n²·H·(dk + dv) on one BLAS thread.
+   * A small call runs on one thread throughout, so its parallel terms are not divided.
    */
   DENSE(
       "dense",
       ComputePath.DENSE,
-      List.of("fixed", "product", "element", "mask", "gatv2"),
-      new boolean[] {false, false, true, false, true}),
+      List.of("fixed", "product", "element", "mask", "gatv2", "small_product"),
+      new boolean[] {false, false, true, false, true, false}),
   /**
    * Sparse per-head path, additive (GAT) scores: fixed; n rows; E·H; E·H·(dk + dv) over a CSR
    * graph; E·H·(dk + dv) over the complete pattern, whose rows run in tiles that share each block
@@ -71,6 +73,13 @@ public enum CostRegime {
   /** Smallest packed node table the sparse path builds, in bytes (16 MiB). */
   public static final long PACKED_TABLE_MIN_BYTES = 16L << 20;
 
+  /**
+   * A dense call over fewer node pairs than this (n below 725), except with GATv2 scores, is small:
+   * the dense kernel runs it on the calling thread with one BLAS thread ({@link
+   * #isSmallDenseCall}).
+   */
+  public static final long DENSE_SMALL_CALL_PAIRS = 1L << 19;
+
   /** Cost units (entries + rows) per thread below which the sparse path uses fewer threads. */
   public static final long SPARSE_MIN_COST_PER_THREAD = 1L << 14;
 
@@ -88,6 +97,12 @@ public enum CostRegime {
     this.terms = terms;
     this.parallel = parallel;
   }
+
+  /** The dense regime's term of a small call's matrix products. */
+  public static final String SMALL_PRODUCT = "small_product";
+
+  /** The dense regime's term of matrix products, which profiles also held for small calls. */
+  public static final String PRODUCT = "product";
 
   /** The per-head regimes' term of complete-pattern entries (see {@link #perHeadTerms()}). */
   public static final String COMPLETE_ENTRY_WIDTH = "complete_entry_width";
@@ -177,15 +192,29 @@ public enum CostRegime {
   }
 
   /**
+   * Whether the dense kernel runs a call over n nodes with this score as a small call: on the
+   * calling thread alone, its matrix products on one BLAS thread. Such a call's products are too
+   * short to share between threads; the threshold was measured on 2 cores (see the dense module's
+   * kernel). GATv2 calls form every score in Java and keep their threads.
+   *
+   * @param n the node count
+   * @param score the score function
+   * @return true for a small call
+   */
+  public static boolean isSmallDenseCall(int n, ScoreFunction score) {
+    return !(score instanceof ScoreFunction.Gatv2) && (long) n * n < DENSE_SMALL_CALL_PAIRS;
+  }
+
+  /**
    * Returns the threads a call uses: for the sparse path, as the kernel decides (fewer for small
-   * calls, at most n); for the dense path's Java work, all of them.
+   * calls, at most n); for the dense path's Java work, all of them, or one for a small call.
    *
    * @param size the call
    * @return at least 1
    */
   public int threadsUsed(CallSize size) {
     if (path == ComputePath.DENSE) {
-      return size.threads();
+      return isSmallDenseCall(size.nodes(), size.score()) ? 1 : size.threads();
     }
     long cost = size.entries() + size.nodes();
     return (int)
@@ -212,14 +241,17 @@ public enum CostRegime {
     double width = shape.keyDim() + shape.valueDim();
     double[] f =
         switch (this) {
-          case DENSE ->
-              new double[] {
-                1,
-                n * n * h * width,
-                n * n * h,
-                size.complete() ? 0 : n * n * h,
-                size.score() instanceof ScoreFunction.Gatv2 ? e * h * shape.keyDim() : 0
-              };
+          case DENSE -> {
+            boolean small = isSmallDenseCall(size.nodes(), size.score());
+            yield new double[] {
+              1,
+              small ? 0 : n * n * h * width,
+              n * n * h,
+              size.complete() ? 0 : n * n * h,
+              size.score() instanceof ScoreFunction.Gatv2 ? e * h * shape.keyDim() : 0,
+              small ? n * n * h * width : 0
+            };
+          }
           case SPARSE_PER_HEAD_ADDITIVE, SPARSE_PER_HEAD_DOT, SPARSE_PER_HEAD_GATV2 ->
               new double[] {
                 1,
