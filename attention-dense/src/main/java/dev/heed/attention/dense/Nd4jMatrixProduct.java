@@ -26,7 +26,13 @@ public final class Nd4jMatrixProduct implements MatrixProduct {
     INDArray xa = Nd4j.create(x, new long[] {n, in}, 'c');
     INDArray wa = Nd4j.create(w, new long[] {in, out}, 'c');
     INDArray ya = Nd4j.create(DataType.FLOAT, new long[] {n, out}, 'c');
-    Nd4j.gemm(xa, wa, ya, false, false, 1.0, 0.0);
+    BlasThreadMode blasThreads = BlasThreadMode.process();
+    blasThreads.enterLarge();
+    try {
+      Nd4j.gemm(xa, wa, ya, false, false, 1.0, 0.0);
+    } finally {
+      blasThreads.exitLarge();
+    }
     return ya.data().asFloat();
   }
 

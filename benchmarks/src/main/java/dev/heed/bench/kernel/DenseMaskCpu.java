@@ -29,7 +29,9 @@ import java.util.SplittableRandom;
  *
  * <p>Run: {@code OMP_WAIT_POLICY=PASSIVE OPENBLAS_NUM_THREADS=1 OMP_NUM_THREADS=1 java
  * --add-modules jdk.incubator.vector -cp benchmarks/target/benchmarks.jar
- * dev.heed.bench.kernel.DenseMaskCpu [calls at n=512] [calls at n=2048]}.
+ * dev.heed.bench.kernel.DenseMaskCpu [calls at n=512] [calls at n=2048] [kernel threads]}. With
+ * more than one kernel thread (and the process's BLAS threads) only the wall times mean anything:
+ * the CPU time is the calling thread's.
  */
 public final class DenseMaskCpu {
 
@@ -41,13 +43,15 @@ public final class DenseMaskCpu {
   /**
    * Entry point.
    *
-   * @param args optionally the timed calls per pattern at n = 512 and at n = 2048
+   * @param args optionally the timed calls per pattern at n = 512 and at n = 2048, and the kernel
+   *     threads (default 1)
    */
   public static void main(String[] args) {
     int callsSmall = args.length > 0 ? Integer.parseInt(args[0]) : 40;
     int callsLarge = args.length > 1 ? Integer.parseInt(args[1]) : 12;
+    int threads = args.length > 2 ? Integer.parseInt(args[2]) : 1;
     AttentionKernel dense =
-        AttentionKernels.forPath(ComputePath.DENSE, KernelOptions.defaults().withThreads(1));
+        AttentionKernels.forPath(ComputePath.DENSE, KernelOptions.defaults().withThreads(threads));
     ThreadMXBean clock = ManagementFactory.getThreadMXBean();
     for (int n : NODES) {
       for (ScoreFunction score :
