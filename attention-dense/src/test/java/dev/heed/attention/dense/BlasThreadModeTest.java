@@ -79,23 +79,22 @@ class BlasThreadModeTest {
   @Test
   void aSingleThreadedProcessIsLeftAlone() {
     FakeBlas blas = new FakeBlas(1);
-    BlasThreadMode mode = blas.mode(true);
-    mode.enterSmall();
-    mode.exitSmall();
-    mode.enterLarge();
-    mode.exitLarge();
+    oneSmallThenOneLarge(blas.mode(true));
     assertEquals(List.of(), blas.changes);
   }
 
   @Test
   void turnedOffItNeverSwitches() {
     FakeBlas blas = new FakeBlas(8);
-    BlasThreadMode mode = blas.mode(false);
+    oneSmallThenOneLarge(blas.mode(false));
+    assertEquals(List.of(), blas.changes);
+  }
+
+  private static void oneSmallThenOneLarge(BlasThreadMode mode) {
     mode.enterSmall();
     mode.exitSmall();
     mode.enterLarge();
     mode.exitLarge();
-    assertEquals(List.of(), blas.changes);
   }
 
   /**
