@@ -20,6 +20,8 @@ import java.util.Map;
 import java.util.Objects;
 import java.util.SplittableRandom;
 import java.util.function.Consumer;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
 
 /**
  * Fits the path cost model ({@link PathCosts}) to the machine it runs on: times a fixed set of
@@ -29,17 +31,20 @@ import java.util.function.Consumer;
  * {@link PathCosts#current()} to find it), or run {@code heed calibrate}.
  *
  * <p>Method: seeded uniform random graphs with the same number of sources per row, seeded inputs in
- * [-1, 1). Every call is first run until three in a row agree within 10 % (at most 8 calls); then
- * every call is timed once per round, round after round (7 rounds), so that a burst of other work
- * on the machine touches all calls alike rather than a few; calls shorter than 0.5 ms are repeated
- * within one timing. Each call's time is the median of its rounds. The parallel efficiency comes
- * from one sparse call timed on one thread and on all of them. A regime whose kernel is missing (no
- * dense module) keeps the built-in coefficients.
+ * [-1, 1). Every call is first run until three in a row agree within 10 % (at most 6 calls); then
+ * every call is timed once per round, round after round ({@value #ROUNDS} rounds), so that a burst
+ * of other work on the machine touches all calls alike rather than a few; each timing follows one
+ * untimed call of the same kind, and calls shorter than 0.5 ms are repeated within one timing. Each
+ * call's time is the fastest of its rounds. The parallel efficiency comes from one sparse call
+ * timed on one thread and on all of them. A regime whose kernel is missing (no dense module) keeps
+ * the built-in coefficients.
  *
  * <p>Thread safety: stateless; calibrate on an otherwise idle machine (other work makes the
  * coefficients, and so AUTO's choices, reflect a slower machine).
  */
 public final class PathCalibration {
+
+  private static final Logger LOG = LoggerFactory.getLogger(PathCalibration.class);
 
   /** Rounds of timed calls; the fastest is taken. */
   static final int ROUNDS = 5;
@@ -233,6 +238,21 @@ public final class PathCalibration {
     for (int i = 0; i < errors.length; i++) {
       Measurement m = measurements.get(i);
       errors[i] = Math.abs(costs.seconds(m.path(), size(m, threads)) / m.seconds() - 1);
+    }
+    if (LOG.isDebugEnabled()) {
+      for (Measurement m : measurements) {
+        CallSize size = size(m, threads);
+        LOG.debug(
+            "{} {} n={} entries={} {} {}: measured {} ms, fitted {} ms",
+            m.path(),
+            CostRegime.of(m.path(), size).key(),
+            m.nodes(),
+            m.entries(),
+            m.score(),
+            m.shape(),
+            String.format(Locale.ROOT, "%.3f", m.seconds() * 1e3),
+            String.format(Locale.ROOT, "%.3f", costs.seconds(m.path(), size) * 1e3));
+      }
     }
     Arrays.sort(errors);
     double medianError = errors.length == 0 ? Double.NaN : errors[errors.length / 2];
@@ -447,6 +467,10 @@ public final class PathCalibration {
     }
 
     void timeOnce(int round) {
+      // one untimed call first: whatever state the previous call left (the dense path's BLAS
+      // thread count, which a small call sets to one and a large one restores at a cost of about
+      // 2 ms in its first product; caches) falls on it, not on the timed ones
+      once();
       long total = 0;
       for (int i = 0; i < repeats; i++) {
         total += once();
