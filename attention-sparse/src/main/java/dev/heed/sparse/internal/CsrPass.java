@@ -79,6 +79,10 @@ abstract class CsrPass {
     final float[] acc;
     final float[] max;
     final float[] sum;
+
+    /** Each head's maximum over the current block (per-head path). */
+    final float[] blockMax;
+
     final int[] columns;
     final int[] rowBase;
     final float[] keys;
@@ -103,6 +107,7 @@ abstract class CsrPass {
       acc = new float[valueWidth];
       max = new float[heads];
       sum = new float[heads];
+      blockMax = new float[heads];
     }
   }
 

@@ -190,9 +190,15 @@ abstract class PerHeadPass extends CsrPass {
         }
       }
     }
+    // every head's block maximum first, then the exponentials: the maxima do not wait for each
+    // other's exponentials, so their chains overlap
+    float[] blockMaxima = sc.blockMax;
+    for (int h = 0; h < heads; h++) {
+      blockMaxima[h] = math.max(s, h * BLOCK, count);
+    }
     for (int h = 0; h < heads; h++) {
       int sh = h * BLOCK;
-      float blockMax = math.max(s, sh, count);
+      float blockMax = blockMaxima[h];
       float old = m[h];
       if (blockMax > old) {
         if (old != Float.NEGATIVE_INFINITY) {

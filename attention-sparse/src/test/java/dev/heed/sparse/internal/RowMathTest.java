@@ -350,6 +350,23 @@ class RowMathTest {
   }
 
   @Test
+  void maxFindsTheLargestWhereverItLies() {
+    // the vector form keeps four chains of maxima and a tail: the largest value in every position
+    Random random = new Random(0x0A1BL);
+    for (RowMath math : implementations()) {
+      for (int length : LENGTHS) {
+        for (int at = 0; at < length; at++) {
+          int off = random.nextInt(4);
+          float[] s = uniform(random, length + off, -30f, 5f);
+          s[off + at] = 6f + random.nextFloat();
+          String where = math.name() + ", length " + length + ", largest at " + at;
+          assertEquals(s[off + at], math.perHead().max(s, off, length), where);
+        }
+      }
+    }
+  }
+
+  @Test
   void maxExpWeightedSumAndScaleMatchFloat64() {
     Random random = new Random(0x0A12L);
     for (RowMath math : implementations()) {
