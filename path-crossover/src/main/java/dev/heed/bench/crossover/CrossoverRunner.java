@@ -317,6 +317,26 @@ public final class CrossoverRunner {
     return est;
   }
 
+  /**
+   * Whether a dense point's median lies more than {@link NoiseCheck#MAX_DENSE_RANGE} above the
+   * fastest median of its line (the line includes the point), the flatness the noise check asks
+   * for; lines of fewer than 3 points are never judged.
+   *
+   * @param medianNanos the point's median
+   * @param line the medians of the line's points (not modified)
+   * @return true if the point alone would make its line fail the flatness test
+   */
+  static boolean farAboveLine(double medianNanos, List<Double> line) {
+    if (line.size() < 3) {
+      return false;
+    }
+    double fastest = Double.POSITIVE_INFINITY;
+    for (double m : line) {
+      fastest = Math.min(fastest, m);
+    }
+    return medianNanos > (1 + NoiseCheck.MAX_DENSE_RANGE) * fastest;
+  }
+
   /** The work of one call: dense flops 2·n²·H·(dk+dv); sparse gathered value rows E. */
   static double work(ComputePath path, HeadShape shape, int n, long edges) {
     if (path == ComputePath.DENSE) {
@@ -524,10 +544,11 @@ public final class CrossoverRunner {
      *   <li>a point whose calls still spread by more than the policy's {@code maxSpread} after its
      *       extra batches: the timing with the smaller spread is kept;
      *   <li>a dense point whose median is more than {@link NoiseCheck#MAX_DENSE_RANGE} above the
-     *       median of its line (same score and n; the dense path's cost does not depend on
-     *       density): the timing with the smaller median is kept. Such a point was slow for all of
-     *       its calls alike (its spread is small), as when the JIT recompiles a kernel while the
-     *       point runs; other work and recompilation only ever slow a call down.
+     *       fastest point of its line (same score and n; the dense path's cost does not depend on
+     *       density), so that the line would fail the noise check's flatness test: the timing with
+     *       the smaller median is kept. Such a point was slow for all of its calls alike (its
+     *       spread is small), as when the JIT recompiles a kernel while the point runs; other work
+     *       and recompilation only ever slow a call down.
      * </ul>
      *
      * A disturbance that lasted through a point has usually passed by the end of the sweep, while
@@ -584,7 +605,7 @@ public final class CrossoverRunner {
       return p.measured() && p.timing().relativeSpread() > config.timing().maxSpread();
     }
 
-    /** A dense point more than {@link NoiseCheck#MAX_DENSE_RANGE} above its line's median. */
+    /** A dense point more than {@link NoiseCheck#MAX_DENSE_RANGE} above its line's fastest. */
     private boolean offLine(SweepPoint p) {
       if (!p.measured() || p.path() != ComputePath.DENSE) {
         return false;
@@ -598,12 +619,7 @@ public final class CrossoverRunner {
           line.add(q.timing().medianNanos());
         }
       }
-      if (line.size() < 3) {
-        return false;
-      }
-      line.sort(null);
-      double median = line.get(line.size() / 2);
-      return p.timing().medianNanos() > (1 + NoiseCheck.MAX_DENSE_RANGE) * median;
+      return farAboveLine(p.timing().medianNanos(), line);
     }
 
     private static String joinNotes(String first, String second) {

@@ -239,6 +239,16 @@ class CrossoverRunnerTest {
     assertTrue(first.timing().medianNanos() < 6e6, "the 2 ms re-timing should be kept: " + first);
   }
 
+  @Test
+  void aDensePointIsJudgedAgainstItsLinesFastestPointAsTheFlatnessCheckIs() {
+    // a line from a sweep on this machine (additive, n = 2048, ms): its first point 26 % above the
+    // fastest, 19 % above the median; the noise check fails the line, so the point is timed again
+    List<Double> line = List.of(22.4, 18.8, 18.5, 19.4, 18.5, 17.8);
+    assertTrue(CrossoverRunner.farAboveLine(22.4, line));
+    assertTrue(!CrossoverRunner.farAboveLine(21.3, line), "within 20 % of the fastest");
+    assertTrue(!CrossoverRunner.farAboveLine(40, List.of(40.0, 10.0)), "too short to judge");
+  }
+
   /**
    * A one-score sweep at n = 8 whose dense path is a {@link DisturbedFirstPattern} stand-in ({@code
    * steady}: slow but not spread; else widely spread), the sparse path the reference.
