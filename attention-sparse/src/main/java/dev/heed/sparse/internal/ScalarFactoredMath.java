@@ -42,7 +42,7 @@ final class ScalarFactoredMath implements FactoredMath {
     boolean finite = true;
     for (int c = from; c < to; c++) {
       int p = PackedNodeTable.factoredValueRow(c);
-      factors(key, c, keyMax, negativeSlope, table, p);
+      factors(key, c, keyMax, negativeSlope, table, p - PackedNodeTable.FACTORED_E_BEFORE_VALUES);
       finite &= ScalarAllHeadsMath.copyValueRow(value, c, table, p);
     }
     return finite;
@@ -54,6 +54,7 @@ final class ScalarFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
+      int nodes,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
@@ -61,7 +62,7 @@ final class ScalarFactoredMath implements FactoredMath {
     int half = HEADS * HEADS / 2;
     for (int c = from; c < to; c++) {
       int p = PackedNodeTable.bfloat16ValueRow(c);
-      factors(key, c, keyMax, negativeSlope, table, p);
+      factors(key, c, keyMax, negativeSlope, table, PackedNodeTable.bfloat16FactorRow(nodes, c));
       int v = c * HEADS * HEADS;
       for (int j = 0; j < half; j++) {
         float lo = value[v + j];
@@ -73,11 +74,10 @@ final class ScalarFactoredMath implements FactoredMath {
     return finite;
   }
 
-  /** Node c's E and F factors, before its value row at p. */
+  /** Node c's 8 E factors from {@code e}, then its 8 F factors. */
   private static void factors(
-      float[] key, int c, float[] keyMax, float negativeSlope, float[] table, int p) {
-    int e = p - PackedNodeTable.FACTORED_E_BEFORE_VALUES;
-    int f = p - PackedNodeTable.FACTORED_F_BEFORE_VALUES;
+      float[] key, int c, float[] keyMax, float negativeSlope, float[] table, int e) {
+    int f = e + HEADS;
     for (int h = 0; h < HEADS; h++) {
       float d = key[c * HEADS + h] - keyMax[h];
       table[e + h] = FastExp.expNonPositive(d);
@@ -93,13 +93,14 @@ final class ScalarFactoredMath implements FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
+      int[] factorRow,
       int count,
       float[] s,
       float[] out,
       int outOffset) {
     float[] sum = new float[HEADS];
     float[] acc = new float[HEADS * HEADS];
-    blockBfloat16(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, acc);
+    blockBfloat16(q, qOffset, keyMax, negativeSlope, table, rowBase, factorRow, count, s, sum, acc);
     return finishRow(sum, acc, count, s, out, outOffset);
   }
 
@@ -111,11 +112,12 @@ final class ScalarFactoredMath implements FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
+      int[] factorRow,
       int count,
       float[] s,
       float[] sum,
       float[] acc) {
-    weights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum);
+    weights(q, qOffset, keyMax, negativeSlope, table, factorRow, 0, count, s, sum);
     int half = HEADS * HEADS / 2;
     for (int t = 0; t < count; t++) {
       int r = rowBase[t];
@@ -178,7 +180,17 @@ final class ScalarFactoredMath implements FactoredMath {
       float[] s,
       float[] sum,
       float[] acc) {
-    weights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum);
+    weights(
+        q,
+        qOffset,
+        keyMax,
+        negativeSlope,
+        table,
+        rowBase,
+        -PackedNodeTable.FACTORED_E_BEFORE_VALUES,
+        count,
+        s,
+        sum);
     for (int t = 0; t < count; t++) {
       int r = rowBase[t];
       for (int h = 0; h < HEADS; h++) {
@@ -191,14 +203,18 @@ final class ScalarFactoredMath implements FactoredMath {
     }
   }
 
-  /** The factored weights of a block's entries into {@code s[t·8 + h]}, added to {@code sum}. */
+  /**
+   * The factored weights of a block's entries into {@code s[t·8 + h]}, added to {@code sum}; entry
+   * t's E factors start at {@code at[t] + shift}, its F factors 8 floats later.
+   */
   private static void weights(
       float[] q,
       int qOffset,
       float[] keyMax,
       float negativeSlope,
       float[] table,
-      int[] rowBase,
+      int[] at,
+      int shift,
       int count,
       float[] s,
       float[] sum) {
@@ -210,9 +226,8 @@ final class ScalarFactoredMath implements FactoredMath {
       threshold[h] = qk < 0f ? Float.POSITIVE_INFINITY : FastExp.expNonPositive(Math.min(-qk, 0f));
     }
     for (int t = 0; t < count; t++) {
-      int r = rowBase[t];
-      int e = r - PackedNodeTable.FACTORED_E_BEFORE_VALUES;
-      int f = r - PackedNodeTable.FACTORED_F_BEFORE_VALUES;
+      int e = at[t] + shift;
+      int f = e + HEADS;
       for (int h = 0; h < HEADS; h++) {
         float eh = table[e + h];
         float p = eh >= threshold[h] ? eh : table[f + h] * rest[h];
