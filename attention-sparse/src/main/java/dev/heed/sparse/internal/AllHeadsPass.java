@@ -49,18 +49,14 @@ abstract class AllHeadsPass extends CsrPass {
   private final int exactFirstValueRow;
   private final int exactStride;
 
-  /** Node 0's factor slot in the split layout with bfloat16 values, or -1 for another layout. */
-  private final int firstFactorRow;
-
   /**
    * Creates the pass; node c's row starts at {@code firstRow + c · rowStride} of {@code table} (or
    * of the caller's value array if {@code table} is null) and its value row {@code firstValueRow -
    * firstRow} floats later.
    *
    * @param keysInTable whether the exact path reads key terms from the table in place
-   * @param firstFactorRow node 0's factor slot if the table is in the split layout with bfloat16
-   *     values ({@link PackedNodeTable#bfloat16FactorRow}), whose values are rounded: the exact
-   *     softmax and one-entry rows then read the caller's value array; -1 for any other layout
+   * @param roundedValues whether the table's values are rounded (bfloat16): the exact softmax and
+   *     one-entry rows then read the caller's value array
    */
   AllHeadsPass(
       CsrCall call,
@@ -71,7 +67,7 @@ abstract class AllHeadsPass extends CsrPass {
       int firstRow,
       int firstValueRow,
       int rowStride,
-      int firstFactorRow) {
+      boolean roundedValues) {
     super(call, prefetch);
     assert applies(call.score(), call.shape()) && rowMath.servesAllHeads();
     assert !keysInTable || table != null;
@@ -84,8 +80,6 @@ abstract class AllHeadsPass extends CsrPass {
     this.firstRow = firstRow;
     this.firstValueRow = firstValueRow;
     this.rowStride = rowStride;
-    this.firstFactorRow = firstFactorRow;
-    boolean roundedValues = firstFactorRow >= 0;
     this.exactValues = roundedValues ? value : valueRows;
     this.exactFirstValueRow = roundedValues ? 0 : firstValueRow;
     this.exactStride = roundedValues ? valueWidth : rowStride;
@@ -111,12 +105,6 @@ abstract class AllHeadsPass extends CsrPass {
   /** Start of node c's value row in {@link #valueRows}. */
   final int valueRow(int c) {
     return firstValueRow + c * rowStride;
-  }
-
-  /** Start of node c's factor slot in the split layout with bfloat16 values. */
-  final int factorRow(int c) {
-    assert firstFactorRow >= 0;
-    return firstFactorRow + c * PackedNodeTable.FACTOR_SLOT;
   }
 
   /** Start of node c's value row in {@link #exactValues}. */
@@ -285,19 +273,19 @@ abstract class AllHeadsPass extends CsrPass {
    * loads are not dropped. Java has no prefetch instruction; a tight loop of independent loads puts
    * many of the next block's cache misses in flight at once (the score and softmax work between a
    * block's own loads would not), and that block then finds its rows in cache. A table row is 5
-   * lines (its first float, every 16th and its last), a bfloat16 value row 2 and its factor slot 1;
-   * in the caller's arrays a value row is 5 lines at most, a key row 2. Written out, not as a loop
-   * over lines: a loop with a running sum measured 2× slower than no loads ahead at all.
+   * lines (its first float, every 16th and its last), a bfloat16 table row 3 (its first float and
+   * every 16th); in the caller's arrays a value row is 5 lines at most, a key row 2. Written out,
+   * not as a loop over lines: a loop with a running sum measured 2× slower than no loads ahead at
+   * all.
    */
   final float prefetch(int first, int end) {
     int last = Math.min(end, first + BLOCK);
     float s = 0f;
-    if (firstFactorRow >= 0) {
+    if (table != null && rowStride == PackedNodeTable.BFLOAT16_ROW) {
       float[] t = table;
       for (int e = first; e < last; e++) {
-        int c = csr.column(e);
-        int p = firstValueRow + c * PackedNodeTable.BFLOAT16_VALUE_ROW;
-        s += t[p] + t[p + 16] + t[firstFactorRow + c * PackedNodeTable.FACTOR_SLOT];
+        int p = firstRow + csr.column(e) * rowStride;
+        s += t[p] + t[p + 16] + t[p + 32];
       }
       return s;
     }

@@ -81,7 +81,6 @@ abstract class CsrPass {
     final float[] sum;
     final int[] columns;
     final int[] rowBase;
-    final int[] factorRow;
     final float[] keys;
     final float[] work;
 
@@ -98,7 +97,6 @@ abstract class CsrPass {
       work = new float[AllHeadsMath.HEADS];
       columns = new int[BLOCK];
       rowBase = new int[BLOCK];
-      factorRow = new int[BLOCK];
       keys = new float[BLOCK * keyWidth];
       // one row more: the factored row method keeps its sums there
       scores = new float[(BLOCK + 1) * heads];

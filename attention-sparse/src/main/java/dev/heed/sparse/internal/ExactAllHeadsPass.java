@@ -30,7 +30,7 @@ final class ExactAllHeadsPass extends AllHeadsPass {
         table == null ? 0 : PackedNodeTable.EXACT_OFFSET,
         table == null ? 0 : PackedNodeTable.exactValueRow(0),
         table == null ? AllHeadsMath.HEADS * AllHeadsMath.HEADS : PackedNodeTable.EXACT_ROW,
-        -1);
+        false);
   }
 
   @Override

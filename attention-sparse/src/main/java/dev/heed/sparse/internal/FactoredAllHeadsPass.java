@@ -20,11 +20,10 @@ import java.util.Arrays;
  * to rounding (inputs near {@link Float#MAX_VALUE}), the factored weights keep them and the two
  * paths can differ by more; both stay finite convex combinations.
  *
- * <p>With bfloat16 value rows ({@link dev.heed.attention.NodeRowPrecision#BFLOAT16}) the table is
- * in its split layout: the values rounded to 8 significand bits in 128-byte rows (two cache lines
- * instead of four) and the same factors in 64-byte slots of their own (see {@link
- * PackedNodeTable}); the weights are the same bits as with float32 rows, and only the weighted sum
- * sees the rounding.
+ * <p>With bfloat16 value rows ({@link dev.heed.attention.NodeRowPrecision#BFLOAT16}) the table
+ * holds the same factors and the values rounded to 8 significand bits (192 bytes per node, three
+ * cache lines instead of five); the weights are the same bits as with float32 rows, and only the
+ * weighted sum sees the rounding.
  *
  * <p>Thread safety: as {@link CsrPass}.
  */
@@ -40,9 +39,9 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
    * @param table the packed node table, filled in its factored layout by {@link #pack} before any
    *     row runs
    * @param keyMax input, not modified: each head's largest key term over all nodes
-   * @param bfloat16 whether the table is in the split layout with bfloat16 value rows ({@link
-   *     PackedNodeTable#bfloat16ValueRow}); rows recomputed exactly, and rows of one entry, then
-   *     read the caller's float32 values
+   * @param bfloat16 whether the table holds its value rows as bfloat16 ({@link
+   *     PackedNodeTable#BFLOAT16_ROW}); rows recomputed exactly, and rows of one entry, then read
+   *     the caller's float32 values
    */
   FactoredAllHeadsPass(
       CsrCall call,
@@ -57,10 +56,10 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
         prefetch,
         table,
         false,
-        bfloat16 ? PackedNodeTable.SPLIT_OFFSET : PackedNodeTable.FACTORED_OFFSET,
+        PackedNodeTable.FACTORED_OFFSET,
         bfloat16 ? PackedNodeTable.bfloat16ValueRow(0) : PackedNodeTable.factoredValueRow(0),
-        bfloat16 ? PackedNodeTable.BFLOAT16_VALUE_ROW : PackedNodeTable.FACTORED_ROW,
-        bfloat16 ? PackedNodeTable.bfloat16FactorRow(call.pattern().nodeCount(), 0) : -1);
+        bfloat16 ? PackedNodeTable.BFLOAT16_ROW : PackedNodeTable.FACTORED_ROW,
+        bfloat16);
     assert csr != null && table != null && keyMax.length == AllHeadsMath.HEADS;
     this.factored = math.factored();
     this.keyMax = keyMax;
@@ -70,7 +69,7 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
   @Override
   boolean pack(int from, int to) {
     return bfloat16
-        ? factored.packBfloat16(key, value, from, to, n, keyMax, slope, table)
+        ? factored.packBfloat16(key, value, from, to, keyMax, slope, table)
         : factored.pack(key, value, from, to, keyMax, slope, table);
   }
 
@@ -84,19 +83,14 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
   void oneBlockRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     int[] rowBase = sc.rowBase;
-    int[] factorRow = sc.factorRow;
     for (int t = 0; t < count; t++) {
-      int c = columns[offset + t];
-      rowBase[t] = valueRow(c);
-      if (bfloat16) {
-        factorRow[t] = factorRow(c);
-      }
+      rowBase[t] = valueRow(columns[offset + t]);
     }
     float[] s = sc.scores;
     int q = i * keyWidth;
     int o = i * valueWidth;
     if (!(bfloat16
-        ? factored.rowBfloat16(query, q, keyMax, slope, table, rowBase, factorRow, count, s, out, o)
+        ? factored.rowBfloat16(query, q, keyMax, slope, table, rowBase, count, s, out, o)
         : factored.row(query, q, keyMax, slope, table, rowBase, count, s, out, o))) {
       // reuses the scratch's first count columns: the later rows of a group sit after this one's
       exactRow(i, csr.rowStart(i), count, firstEntry, sc);
@@ -124,23 +118,17 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
     Arrays.fill(acc, 0f);
     Arrays.fill(sum, 0f);
     int[] rowBase = sc.rowBase;
-    int[] factorRow = sc.factorRow;
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
       for (int t = 0; t < count; t++) {
-        int c = csr.column(start + b + t);
-        rowBase[t] = valueRow(c);
-        if (bfloat16) {
-          factorRow[t] = factorRow(c);
-        }
+        rowBase[t] = valueRow(csr.column(start + b + t));
       }
       if (prefetch && b + BLOCK < degree) {
         sc.prefetchSink += prefetch(start + b + BLOCK, start + degree);
       }
       int q = i * keyWidth;
       if (bfloat16) {
-        factored.blockBfloat16(
-            query, q, keyMax, slope, table, rowBase, factorRow, count, sc.scores, sum, acc);
+        factored.blockBfloat16(query, q, keyMax, slope, table, rowBase, count, sc.scores, sum, acc);
       } else {
         factored.block(query, q, keyMax, slope, table, rowBase, count, sc.scores, sum, acc);
       }

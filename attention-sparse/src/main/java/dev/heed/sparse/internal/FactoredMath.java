@@ -133,17 +133,15 @@ public interface FactoredMath {
       float[] acc);
 
   /**
-   * {@link #pack} for the split layout with bfloat16 values: the same E and F factors as float32 in
-   * node c's factor slot ({@link PackedNodeTable#bfloat16FactorRow bfloat16FactorRow(nodes, c)}, F
-   * {@link AllHeadsMath#HEADS} floats after E), and the node's 64 values rounded by {@link
-   * Bfloat16#round} in its value row ({@link PackedNodeTable#bfloat16ValueRow}), value {@code j}
-   * and {@code j + 32} in word {@code j}; reports whether every value float is finite.
+   * {@link #pack} for the factored layout with bfloat16 values ({@link
+   * PackedNodeTable#bfloat16ValueRow}): the same E and F factors as float32, then the node's 64
+   * values rounded by {@link Bfloat16#round}, value {@code j} and {@code j + 32} in word {@code j};
+   * reports whether every value float is finite.
    *
    * @param key input, not modified: 8 key terms per node
    * @param value input, not modified: 64 value floats per node
    * @param from first node
    * @param to one past the last node, at least {@code from + 1}
-   * @param nodes the table's node count, at least {@code to}
    * @param keyMax input, not modified: per head, the largest key term over all nodes
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
    * @param table output: the rows of nodes {@code from..to-1}
@@ -154,15 +152,13 @@ public interface FactoredMath {
       float[] value,
       int from,
       int to,
-      int nodes,
       float[] keyMax,
       float negativeSlope,
       float[] table);
 
   /**
-   * {@link #row} over the split layout with bfloat16 values: the same weights and sums from the
-   * factor slots, then the weighted sum of the decoded values ({@code fma(p, value, acc)} in order
-   * of t, float32). All factor slots are read before any value row.
+   * {@link #row} over the factored layout with bfloat16 values: the same weights and sums, and the
+   * weighted sum of the decoded values ({@code fma(p, value, acc)} in order of t, float32).
    *
    * @param q input, not modified: the target's query terms
    * @param qOffset offset of head 0's term in {@code q}
@@ -170,7 +166,6 @@ public interface FactoredMath {
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
    * @param table input, not modified: the table ({@link #packBfloat16})
    * @param rowBase input, not modified: the start of each entry's value words in {@code table}
-   * @param factorRow input, not modified: the start of each entry's factor slot in {@code table}
    * @param count number of entries, at least 1
    * @param s work array of at least {@code (count + 1) · 8} floats, contents ignored; holds the
    *     weights and their sums afterwards
@@ -185,14 +180,13 @@ public interface FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
-      int[] factorRow,
       int count,
       float[] s,
       float[] out,
       int outOffset);
 
   /**
-   * {@link #block} over the split layout with bfloat16 values.
+   * {@link #block} over the factored layout with bfloat16 values.
    *
    * @param q input, not modified: the target's query terms
    * @param qOffset offset of head 0's term in {@code q}
@@ -200,7 +194,6 @@ public interface FactoredMath {
    * @param negativeSlope LeakyReLU slope in {@code [0, 1)}
    * @param table input, not modified: the table ({@link #packBfloat16})
    * @param rowBase input, not modified: the start of each entry's value words in {@code table}
-   * @param factorRow input, not modified: the start of each entry's factor slot in {@code table}
    * @param count number of entries, at least 1
    * @param s work array of at least {@code count · 8} floats, contents ignored
    * @param sum input and output: the 8 running sums
@@ -213,7 +206,6 @@ public interface FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
-      int[] factorRow,
       int count,
       float[] s,
       float[] sum,

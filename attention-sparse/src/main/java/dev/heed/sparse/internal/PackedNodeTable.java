@@ -18,25 +18,23 @@ import org.slf4j.LoggerFactory;
  * {@code + c · 72}. <b>Factored layout</b> ({@link FactoredAllHeadsPass}): per node, its 8 factors
  * {@code E = exp(k - K)}, its 8 factors {@code F = exp(slope · (k - K))}, then its 64 value floats,
  * {@link #FACTORED_ROW} = 80 floats (320 bytes), at {@link #FACTORED_OFFSET} {@code + c · 80}. A
- * table is sized for either. <b>Split layout with bfloat16 values</b> ({@link
- * dev.heed.attention.NodeRowPrecision#BFLOAT16}): first every node's value row, 32 words that each
- * hold two bfloat16 values ({@link Bfloat16}), {@link #BFLOAT16_VALUE_ROW} = 32 floats (128 bytes,
- * exactly two cache lines) at {@link #SPLIT_OFFSET} {@code + c · 32}; then, from {@link
- * #bfloat16FactorRow bfloat16FactorRow(n, 0)}, every node's 8 E and 8 F factors as float32, {@link
- * #FACTOR_SLOT} = 16 floats (one 64-byte line) per node. Word {@code j} holds value {@code j} in
- * its low 16 bits and value {@code j + 32} in its high 16 bits, so one 8-word vector load gives
- * head {@code g} (a 16-bit shift) and head {@code g + 4} (a mask). The words are stored in the
- * {@code float[]} by their bits; a high half is a finite bfloat16, so no word is a NaN pattern and
- * every copy keeps its bits. Row positions are given as the start of a node's value row ({@link
- * #exactValueRow}, {@link #factoredValueRow}, {@link #bfloat16ValueRow}); in the first two layouts
- * the other terms lie a fixed number of floats before it.
+ * table is sized for either. <b>Factored layout with bfloat16 values</b> ({@link
+ * dev.heed.attention.NodeRowPrecision#BFLOAT16}): the same 8 E and 8 F factors as float32, then 32
+ * words that each hold two bfloat16 values ({@link Bfloat16}), {@link #BFLOAT16_ROW} = 48 floats
+ * (192 bytes, exactly three cache lines) at {@link #FACTORED_OFFSET} {@code + c · 48}: word {@code
+ * j} holds value {@code j} in its low 16 bits and value {@code j + 32} in its high 16 bits, so one
+ * 8-word vector load gives head {@code g} (a 16-bit shift) and head {@code g + 4} (a mask). The
+ * words are stored in the {@code float[]} by their bits; a high half is a finite bfloat16, so no
+ * word is a NaN pattern and every copy keeps its bits. Row positions are given as the start of a
+ * node's value row ({@link #exactValueRow}, {@link #factoredValueRow}); the other terms lie a fixed
+ * number of floats before it.
  *
- * <p>Why the split: the second-level cache fetches lines in aligned pairs (128 bytes; common
- * practice on Intel cores, the adjacent-line prefetcher), so what a random row costs is the pairs
- * it touches. A 192-byte row of factors and values touches two pairs wherever it starts; a 128-byte
- * value row on a 128-byte boundary touches one, and the factor lines of nodes that sit together (a
- * locality order) share pairs. The random-gather probe measured 59–63 M rows/s at 128 bytes against
- * 38–47 M at 192 ({@code benchmarks/RESULTS.md}).
+ * <p>Why the bfloat16 row keeps its factors: a split layout (128-byte value rows on 128-byte
+ * boundaries, the factors in 64-byte slots of their own, read first) cost 1.08–1.27× the CPU time
+ * per call of this one on the R-MAT layer in reverse Cuthill–McKee order, the same bits out,
+ * although the random-gather probe gathers 128-byte rows about 1.5× as fast as 192-byte ones: an
+ * entry still reads three lines in two places, and the order already serves most of them from cache
+ * ({@code benchmarks/RESULTS.md}).
  *
  * <p>Why: each entry of a row reads its source's key terms and value row at random. From the
  * caller's two arrays that is two random accesses, and as many cache lines as the arrays' alignment
@@ -46,9 +44,8 @@ import org.slf4j.LoggerFactory;
  * exact layout's offset of 4 floats puts row 0 on a 32-byte boundary, and every row after it too
  * (288 is a multiple of 32), so 288 bytes never span 6 lines (1.38× slower with offset 0, R-MAT 1M
  * nodes, 2 threads); the factored layout's offset of 12 puts every 320-byte row on a 64-byte
- * boundary, exactly five lines; the split layout's offset of 28 puts every 128-byte value row, and
- * the factor slots after them, on a 128-byte boundary. Wrong alignment (another collector, another
- * header size) only costs speed, never correctness.
+ * boundary, exactly five lines. Wrong alignment (another collector, another header size) only costs
+ * speed, never correctness.
  *
  * <p>Cost: the kernel fills the table once per call, one sequential pass that also does the input
  * check for NaN and infinities on key and value (so those arrays are read once, not twice). For
@@ -95,17 +92,10 @@ public final class PackedNodeTable {
   public static final int FACTORED_F_BEFORE_VALUES = HEADS;
 
   /**
-   * Index of node 0's value row in the split layout with bfloat16 values: 28 floats, so that with a
-   * 16-byte array header on a 128-byte boundary every 128-byte value row, and the factor slots
-   * after them, start on a 128-byte boundary.
+   * Floats per node in the factored layout with bfloat16 values: 8 E factors, 8 F factors, 32 words
+   * of two bfloat16 values (192 bytes).
    */
-  public static final int SPLIT_OFFSET = 28;
-
-  /** Floats per node of the split layout's value rows: 32 words of two bfloat16 values. */
-  public static final int BFLOAT16_VALUE_ROW = HEADS * HEADS / 2;
-
-  /** Floats per node of the split layout's factor slots: 8 E factors, then 8 F factors. */
-  public static final int FACTOR_SLOT = 2 * HEADS;
+  public static final int BFLOAT16_ROW = 2 * HEADS + HEADS * HEADS / 2;
 
   /** Most nodes a table can hold: one Java array of {@link #length} floats. */
   public static final int MAX_NODES = (Integer.MAX_VALUE - 8 - FACTORED_OFFSET) / FACTORED_ROW;
@@ -140,36 +130,26 @@ public final class PackedNodeTable {
   }
 
   /**
-   * Returns the floats of a table for n nodes in the split layout with bfloat16 values.
+   * Returns the floats of a table for n nodes in the factored layout with bfloat16 values.
    *
    * @param n node count, at most {@link #MAX_NODES}
    * @return the table's length
    */
   public static int bfloat16Length(int n) {
     assert n <= MAX_NODES;
-    return SPLIT_OFFSET + n * (BFLOAT16_VALUE_ROW + FACTOR_SLOT);
+    return FACTORED_OFFSET + n * BFLOAT16_ROW;
   }
 
   /**
-   * Returns the start of node c's 32 value words in the split layout with bfloat16 values.
+   * Returns the start of node c's 32 value words in the factored layout with bfloat16 values; its E
+   * and F factors start {@link #FACTORED_E_BEFORE_VALUES} and {@link #FACTORED_F_BEFORE_VALUES}
+   * floats before, as in the float32 factored layout.
    *
    * @param c the node
    * @return the index of the node's first value word
    */
   public static int bfloat16ValueRow(int c) {
-    return SPLIT_OFFSET + c * BFLOAT16_VALUE_ROW;
-  }
-
-  /**
-   * Returns the start of node c's factor slot in the split layout of a table for n nodes: its 8 E
-   * factors, then its 8 F factors.
-   *
-   * @param n the table's node count
-   * @param c the node
-   * @return the index of the node's first E factor
-   */
-  public static int bfloat16FactorRow(int n, int c) {
-    return SPLIT_OFFSET + n * BFLOAT16_VALUE_ROW + c * FACTOR_SLOT;
+    return FACTORED_OFFSET + c * BFLOAT16_ROW + FACTORED_E_BEFORE_VALUES;
   }
 
   /**

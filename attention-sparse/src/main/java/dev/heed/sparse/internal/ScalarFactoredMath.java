@@ -42,7 +42,7 @@ final class ScalarFactoredMath implements FactoredMath {
     boolean finite = true;
     for (int c = from; c < to; c++) {
       int p = PackedNodeTable.factoredValueRow(c);
-      factors(key, c, keyMax, negativeSlope, table, p - PackedNodeTable.FACTORED_E_BEFORE_VALUES);
+      factors(key, c, keyMax, negativeSlope, table, p);
       finite &= ScalarAllHeadsMath.copyValueRow(value, c, table, p);
     }
     return finite;
@@ -54,7 +54,6 @@ final class ScalarFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
-      int nodes,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
@@ -62,7 +61,7 @@ final class ScalarFactoredMath implements FactoredMath {
     int half = HEADS * HEADS / 2;
     for (int c = from; c < to; c++) {
       int p = PackedNodeTable.bfloat16ValueRow(c);
-      factors(key, c, keyMax, negativeSlope, table, PackedNodeTable.bfloat16FactorRow(nodes, c));
+      factors(key, c, keyMax, negativeSlope, table, p);
       int v = c * HEADS * HEADS;
       for (int j = 0; j < half; j++) {
         float lo = value[v + j];
@@ -74,10 +73,11 @@ final class ScalarFactoredMath implements FactoredMath {
     return finite;
   }
 
-  /** Node c's 8 E factors from {@code e}, then its 8 F factors. */
+  /** Node c's E and F factors, before its value row at p. */
   private static void factors(
-      float[] key, int c, float[] keyMax, float negativeSlope, float[] table, int e) {
-    int f = e + HEADS;
+      float[] key, int c, float[] keyMax, float negativeSlope, float[] table, int p) {
+    int e = p - PackedNodeTable.FACTORED_E_BEFORE_VALUES;
+    int f = p - PackedNodeTable.FACTORED_F_BEFORE_VALUES;
     for (int h = 0; h < HEADS; h++) {
       float d = key[c * HEADS + h] - keyMax[h];
       table[e + h] = FastExp.expNonPositive(d);
@@ -93,14 +93,13 @@ final class ScalarFactoredMath implements FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
-      int[] factorRow,
       int count,
       float[] s,
       float[] out,
       int outOffset) {
     float[] sum = new float[HEADS];
     float[] acc = new float[HEADS * HEADS];
-    blockBfloat16(q, qOffset, keyMax, negativeSlope, table, rowBase, factorRow, count, s, sum, acc);
+    blockBfloat16(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, acc);
     return finishRow(sum, acc, count, s, out, outOffset);
   }
 
@@ -112,12 +111,11 @@ final class ScalarFactoredMath implements FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
-      int[] factorRow,
       int count,
       float[] s,
       float[] sum,
       float[] acc) {
-    weights(q, qOffset, keyMax, negativeSlope, table, factorRow, 0, count, s, sum);
+    weights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum);
     int half = HEADS * HEADS / 2;
     for (int t = 0; t < count; t++) {
       int r = rowBase[t];
@@ -180,17 +178,7 @@ final class ScalarFactoredMath implements FactoredMath {
       float[] s,
       float[] sum,
       float[] acc) {
-    weights(
-        q,
-        qOffset,
-        keyMax,
-        negativeSlope,
-        table,
-        rowBase,
-        -PackedNodeTable.FACTORED_E_BEFORE_VALUES,
-        count,
-        s,
-        sum);
+    weights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum);
     for (int t = 0; t < count; t++) {
       int r = rowBase[t];
       for (int h = 0; h < HEADS; h++) {
@@ -203,18 +191,14 @@ final class ScalarFactoredMath implements FactoredMath {
     }
   }
 
-  /**
-   * The factored weights of a block's entries into {@code s[t·8 + h]}, added to {@code sum}; entry
-   * t's E factors start at {@code at[t] + shift}, its F factors 8 floats later.
-   */
+  /** The factored weights of a block's entries into {@code s[t·8 + h]}, added to {@code sum}. */
   private static void weights(
       float[] q,
       int qOffset,
       float[] keyMax,
       float negativeSlope,
       float[] table,
-      int[] at,
-      int shift,
+      int[] rowBase,
       int count,
       float[] s,
       float[] sum) {
@@ -226,8 +210,9 @@ final class ScalarFactoredMath implements FactoredMath {
       threshold[h] = qk < 0f ? Float.POSITIVE_INFINITY : FastExp.expNonPositive(Math.min(-qk, 0f));
     }
     for (int t = 0; t < count; t++) {
-      int e = at[t] + shift;
-      int f = e + HEADS;
+      int r = rowBase[t];
+      int e = r - PackedNodeTable.FACTORED_E_BEFORE_VALUES;
+      int f = r - PackedNodeTable.FACTORED_F_BEFORE_VALUES;
       for (int h = 0; h < HEADS; h++) {
         float eh = table[e + h];
         float p = eh >= threshold[h] ? eh : table[f + h] * rest[h];

@@ -27,9 +27,6 @@ final class VectorFactoredMath implements FactoredMath {
 
   private static final int WIDE_LANES = WIDE.length();
 
-  /** From a value row to its E factors in the float32 factored layout. */
-  private static final int E = -PackedNodeTable.FACTORED_E_BEFORE_VALUES;
-
   /** The high 16 bits of a word: its high bfloat16 as a float. */
   private static final int HIGH_HALF = 0xFFFF0000;
 
@@ -104,7 +101,6 @@ final class VectorFactoredMath implements FactoredMath {
       float[] value,
       int from,
       int to,
-      int nodes,
       float[] keyMax,
       float negativeSlope,
       float[] table) {
@@ -115,11 +111,11 @@ final class VectorFactoredMath implements FactoredMath {
     int half = HEADS * HEADS / 2;
     for (int c = from; c < to; c++) {
       int p = PackedNodeTable.bfloat16ValueRow(c);
-      int e = PackedNodeTable.bfloat16FactorRow(nodes, c);
       int v = c * HEADS * HEADS;
       FloatVector d = FloatVector.fromArray(WIDE, key, c * HEADS).sub(top);
-      VectorExp.expNonPositive(d).intoArray(table, e);
-      VectorExp.expNonPositive(d.mul(negativeSlope)).intoArray(table, e + HEADS);
+      VectorExp.expNonPositive(d).intoArray(table, p - PackedNodeTable.FACTORED_E_BEFORE_VALUES);
+      VectorExp.expNonPositive(d.mul(negativeSlope))
+          .intoArray(table, p - PackedNodeTable.FACTORED_F_BEFORE_VALUES);
       for (int g = 0; g < half; g += HEADS) {
         FloatVector lo = FloatVector.fromArray(WIDE, value, v + g);
         FloatVector hi = FloatVector.fromArray(WIDE, value, v + half + g);
@@ -146,7 +142,6 @@ final class VectorFactoredMath implements FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
-      int[] factorRow,
       int count,
       float[] s,
       float[] out,
@@ -154,7 +149,7 @@ final class VectorFactoredMath implements FactoredMath {
     assert WIDE_LANES == HEADS;
     int lw = count * HEADS;
     Arrays.fill(s, lw, lw + HEADS, 0f);
-    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, factorRow, 0, count, s, s, lw);
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, s, lw);
     if (!FloatVector.fromArray(WIDE, s, lw).compare(VectorOperators.GE, MIN_SUM).allTrue()) {
       return false;
     }
@@ -215,13 +210,12 @@ final class VectorFactoredMath implements FactoredMath {
       float negativeSlope,
       float[] table,
       int[] rowBase,
-      int[] factorRow,
       int count,
       float[] s,
       float[] sum,
       float[] acc) {
     assert WIDE_LANES == HEADS;
-    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, factorRow, 0, count, s, sum, 0);
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, 0);
     FloatVector a0 = FloatVector.fromArray(WIDE, acc, 0);
     FloatVector a1 = FloatVector.fromArray(WIDE, acc, 8);
     FloatVector a2 = FloatVector.fromArray(WIDE, acc, 16);
@@ -283,7 +277,7 @@ final class VectorFactoredMath implements FactoredMath {
     assert WIDE_LANES == HEADS;
     int lw = count * HEADS;
     Arrays.fill(s, lw, lw + HEADS, 0f);
-    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, E, count, s, s, lw);
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, s, lw);
     if (!FloatVector.fromArray(WIDE, s, lw).compare(VectorOperators.GE, MIN_SUM).allTrue()) {
       return false;
     }
@@ -337,7 +331,7 @@ final class VectorFactoredMath implements FactoredMath {
       float[] sum,
       float[] acc) {
     assert WIDE_LANES == HEADS;
-    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, E, count, s, sum, 0);
+    addFactoredWeights(q, qOffset, keyMax, negativeSlope, table, rowBase, count, s, sum, 0);
     FloatVector a0 = FloatVector.fromArray(WIDE, acc, 0);
     FloatVector a1 = FloatVector.fromArray(WIDE, acc, 8);
     FloatVector a2 = FloatVector.fromArray(WIDE, acc, 16);
@@ -376,9 +370,8 @@ final class VectorFactoredMath implements FactoredMath {
 
   /**
    * The factored weights of a block's entries ({@link FactoredMath#row}): entry t's into {@code
-   * s[t·8 ..]}, and their sums, in order of t, added to {@code sum[sumOffset ..]}; entry t's E
-   * factors start at {@code at[t] + shift}, its F factors 8 floats later. Arrays in and out, so no
-   * vector crosses the call.
+   * s[t·8 ..]}, and their sums, in order of t, added to {@code sum[sumOffset ..]}. Arrays in and
+   * out, so no vector crosses the call.
    */
   private static void addFactoredWeights(
       float[] q,
@@ -386,8 +379,7 @@ final class VectorFactoredMath implements FactoredMath {
       float[] keyMax,
       float negativeSlope,
       float[] table,
-      int[] at,
-      int shift,
+      int[] rowBase,
       int count,
       float[] s,
       float[] sum,
@@ -401,10 +393,11 @@ final class VectorFactoredMath implements FactoredMath {
         VectorExp.expNonPositive(qk.neg().min(0f)).blend(Float.POSITIVE_INFINITY, qk.lt(0f));
     FloatVector l = FloatVector.fromArray(WIDE, sum, sumOffset);
     for (int t = 0; t < count; t++) {
-      int r = at[t] + shift;
-      FloatVector e = FloatVector.fromArray(WIDE, table, r);
+      int r = rowBase[t];
+      FloatVector e =
+          FloatVector.fromArray(WIDE, table, r - PackedNodeTable.FACTORED_E_BEFORE_VALUES);
       FloatVector p =
-          FloatVector.fromArray(WIDE, table, r + HEADS)
+          FloatVector.fromArray(WIDE, table, r - PackedNodeTable.FACTORED_F_BEFORE_VALUES)
               .mul(b)
               .blend(e, e.compare(VectorOperators.GE, threshold));
       p.intoArray(s, t * HEADS);

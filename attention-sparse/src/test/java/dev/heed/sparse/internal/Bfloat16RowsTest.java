@@ -101,10 +101,8 @@ class Bfloat16RowsTest {
       float[] tableV =
           CsrAllHeadsPathTest.uniform(random, PackedNodeTable.bfloat16Length(nodes) + 3, -9f, 9f);
       float[] tableS = tableV.clone();
-      assertTrue(
-          vector.factored().packBfloat16(key, value, 0, nodes, nodes, max, 0.2f, tableV), where);
-      assertTrue(
-          scalar.factored().packBfloat16(key, value, 0, nodes, nodes, max, 0.2f, tableS), where);
+      assertTrue(vector.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, tableV), where);
+      assertTrue(scalar.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, tableS), where);
       assertArrayEquals(bits(tableS), bits(tableV), "bfloat16 table, " + where);
       int row0 = PackedNodeTable.bfloat16ValueRow(0);
       assertEquals(0x7F7F, Float.floatToRawIntBits(tableV[row0 + 7]) & 0xFFFF, "clamped, " + where);
@@ -113,11 +111,8 @@ class Bfloat16RowsTest {
       assertEquals(
           1f + 0x1p-6f, Bfloat16.high(Float.floatToRawIntBits(tableV[row0 + 10])), "tie, " + where);
       int[] rowBase = new int[count];
-      int[] factorRow = new int[count];
       for (int t = 0; t < count; t++) {
-        int c = random.nextInt(nodes);
-        rowBase[t] = PackedNodeTable.bfloat16ValueRow(c);
-        factorRow[t] = PackedNodeTable.bfloat16FactorRow(nodes, c);
+        rowBase[t] = PackedNodeTable.bfloat16ValueRow(random.nextInt(nodes));
       }
       float[] q = new float[3 + h];
       for (int x = 0; x < h; x++) {
@@ -128,13 +123,9 @@ class Bfloat16RowsTest {
       float[] outV = new float[h * h + 4];
       float[] outS = new float[h * h + 4];
       boolean okV =
-          vector
-              .factored()
-              .rowBfloat16(q, 3, max, 0.2f, tableV, rowBase, factorRow, count, sV, outV, 4);
+          vector.factored().rowBfloat16(q, 3, max, 0.2f, tableV, rowBase, count, sV, outV, 4);
       boolean okS =
-          scalar
-              .factored()
-              .rowBfloat16(q, 3, max, 0.2f, tableS, rowBase, factorRow, count, sS, outS, 4);
+          scalar.factored().rowBfloat16(q, 3, max, 0.2f, tableS, rowBase, count, sS, outS, 4);
       assertEquals(okS, okV, "accepted, " + where);
       assertArrayEquals(sS, sV, "weights and sums, " + where);
       assertArrayEquals(outS, outV, "outputs, " + where);
@@ -142,12 +133,8 @@ class Bfloat16RowsTest {
       float[] accV = CsrAllHeadsPathTest.uniform(random, h * h, -1f, 1f);
       float[] sumS = sumV.clone();
       float[] accS = accV.clone();
-      vector
-          .factored()
-          .blockBfloat16(q, 3, max, 0.2f, tableV, rowBase, factorRow, count, sV, sumV, accV);
-      scalar
-          .factored()
-          .blockBfloat16(q, 3, max, 0.2f, tableS, rowBase, factorRow, count, sS, sumS, accS);
+      vector.factored().blockBfloat16(q, 3, max, 0.2f, tableV, rowBase, count, sV, sumV, accV);
+      scalar.factored().blockBfloat16(q, 3, max, 0.2f, tableS, rowBase, count, sS, sumS, accS);
       assertArrayEquals(sumS, sumV, "block sums, " + where);
       assertArrayEquals(accS, accV, "block accumulator, " + where);
     }
@@ -160,11 +147,11 @@ class Bfloat16RowsTest {
     assertTrue(scalar.factored().keyMaxima(key, 0, nodes, max));
     for (RowMath math : List.of(vector, scalar)) {
       value[99] = Float.NaN;
-      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, nodes, max, 0.2f, table));
+      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, table));
       value[99] = Float.POSITIVE_INFINITY;
-      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, nodes, max, 0.2f, table));
+      assertFalse(math.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, table));
       value[99] = 0.5f;
-      assertTrue(math.factored().packBfloat16(key, value, 0, nodes, nodes, max, 0.2f, table));
+      assertTrue(math.factored().packBfloat16(key, value, 0, nodes, max, 0.2f, table));
     }
   }
 
