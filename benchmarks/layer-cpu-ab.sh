@@ -5,7 +5,9 @@
 #
 # Usage: benchmarks/layer-cpu-ab.sh [rounds=5] [graph=rmat] [output file] [variants...]
 #   variants are rows:order pairs, default float32:none bfloat16:none float32:rcm bfloat16:rcm
-#   float32:degree bfloat16:degree. Needs benchmarks/target/benchmarks.jar. The output defaults to
+#   float32:degree bfloat16:degree; rows:order@NAME=CLASSPATH runs that variant with CLASSPATH ahead
+#   of the jar (another build's classes or jar, to A/B two builds) and reports it as rows:order@NAME.
+#   Needs benchmarks/target/benchmarks.jar. The output defaults to
 #   benchmarks/target/layer-cpu-<graph>-<UTC time>.txt; a summary of medians and ratios follows.
 #   WARMUP and CALLS (default 8 and 15) set the untimed and timed calls per JVM; CPU_STAT=mean
 #   summarises the mean CPU per call instead of the median (the CPU clock ticks in 10 ms here).
@@ -25,10 +27,17 @@ count=${#variants[@]}
 for k in $(seq "$rounds"); do
   for x in $(seq 0 $(( count - 1 ))); do
     v=${variants[$(( (x + k) % count ))]}
-    java --add-modules jdk.incubator.vector -Xms5g -Xmx5g -XX:+UseTransparentHugePages \
-      -cp "${HEED_BENCH_CP:+$HEED_BENCH_CP:}$jar" \
+    build=""
+    cp="${HEED_BENCH_CP:+$HEED_BENCH_CP:}$jar"
+    if [[ $v == *@*=* ]]; then
+      build=${v#*@}
+      cp="${build#*=}:$cp"
+      build="@${build%%=*}"
+      v=${v%%@*}
+    fi
+    java --add-modules jdk.incubator.vector -Xms5g -Xmx5g -XX:+UseTransparentHugePages -cp "$cp" \
       dev.heed.bench.kernel.CsrLayerCpu "$graph" "${v%%:*}" "${v##*:}" 2 "${WARMUP:-8}" "${CALLS:-15}" 2>/dev/null \
-      | sed "s/^/round=$k /" >> "$out"
+      | sed "s/^/round=$k /; s/ order=\([^ ]*\)/ order=\1$build/" >> "$out"
   done
 done
 python3 - "$out" "${CPU_STAT:-median}" <<'PY'

@@ -29,6 +29,13 @@ import org.slf4j.LoggerFactory;
  * node's value row ({@link #exactValueRow}, {@link #factoredValueRow}); the other terms lie a fixed
  * number of floats before it.
  *
+ * <p>Why the bfloat16 row keeps its factors: a split layout (128-byte value rows on 128-byte
+ * boundaries, the factors in 64-byte slots of their own, read first) cost 1.08–1.27× the CPU time
+ * per call of this one on the R-MAT layer in reverse Cuthill–McKee order, the same bits out,
+ * although the random-gather probe gathers 128-byte rows about 1.5× as fast as 192-byte ones: an
+ * entry still reads three lines in two places, and the order already serves most of them from cache
+ * ({@code benchmarks/RESULTS.md}).
+ *
  * <p>Why: each entry of a row reads its source's key terms and value row at random. From the
  * caller's two arrays that is two random accesses, and as many cache lines as the arrays' alignment
  * makes them span: the data of a large {@code float[]} starts 16 bytes into a 64-byte line here
