@@ -78,7 +78,10 @@ import org.slf4j.LoggerFactory;
  *
  * <p>Thread safety: immutable; every call uses only its own scratch. Results are deterministic for
  * a fixed ND4J/OpenBLAS thread configuration (the order of each reduction does not depend on
- * timing).
+ * timing). The BLAS thread count is switched between small and large calls ({@link
+ * BlasThreadMode}); a large call that overlaps a small one on another thread may run its products
+ * on one BLAS thread, which changes their speed and, should the BLAS library split a product's sums
+ * differently, the last bits of its results.
  */
 final class DenseAttentionKernel implements AttentionKernel {
 
