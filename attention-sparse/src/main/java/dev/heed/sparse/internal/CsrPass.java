@@ -97,6 +97,12 @@ abstract class CsrPass {
      */
     Scratch[] tileRows;
 
+    /** Key row starts of a row computed whole; created by its first such row. */
+    int[] rowSources;
+
+    /** Weights of a row computed whole, entry-major; created with {@link #rowSources}. */
+    float[] rowWeights;
+
     Scratch(int heads, int keyWidth, int valueWidth) {
       work = new float[AllHeadsMath.HEADS];
       columns = new int[BLOCK];

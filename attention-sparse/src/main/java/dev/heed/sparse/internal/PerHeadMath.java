@@ -76,6 +76,73 @@ public interface PerHeadMath {
   }
 
   /**
+   * Returns whether {@link #dotRow} is offered for this head shape. The kernel asks once per call;
+   * where it is not offered, rows take the blocks of {@link #dotScores} and the online softmax.
+   *
+   * @param heads number of heads
+   * @param keyDim key width per head
+   * @param valueDim value width per head
+   * @return true if {@link #dotRow} computes rows of this shape
+   */
+  default boolean scoresWholeRows(int heads, int keyDim, int valueDim) {
+    return false;
+  }
+
+  /**
+   * Computes one whole row of scaled dot-product attention, for a shape {@link #scoresWholeRows}
+   * accepts: the scores {@code scale · Σ_k q[qo + h·keyDim + k] · keys[rowBase[t] + h·keyDim + k]}
+   * (summed as {@link #dotScores} sums them), each head's exact maximum over the row, the
+   * exponentials {@code w[t·heads + h] = exp(score - max_h)} and their sums {@code sums[h]}, and
+   * the output {@code out[outOffset + h·valueDim + x] = Σ_t w[t·heads + h] · values[rowBase[t] +
+   * h·valueDim + x] / sums[h]}. The scores, exponentials and sums are entry-major and held for the
+   * whole row, so the row needs one pass per step and no rescaling of partial sums; every sum is
+   * taken in a fixed order that depends only on the row.
+   *
+   * @param q input, not modified: the target's query row
+   * @param qo offset of the query row in {@code q}
+   * @param keys input, not modified: key rows of {@code heads · keyDim} floats
+   * @param values input, not modified: value rows of {@code heads · valueDim} floats
+   * @param rowBase input, not modified: the start of each entry's key row in {@code keys}, which is
+   *     also the start of its value row in {@code values} (key and value rows are equally wide)
+   * @param count number of entries, at least 1
+   * @param heads number of heads
+   * @param keyDim key width per head
+   * @param valueDim value width per head
+   * @param scale the factor applied to each dot product
+   * @param w output: the row's unnormalised weights, entry-major; at least {@code count · heads +
+   *     8} floats, those past {@code count · heads} overwritten with unspecified values
+   * @param sums output: each head's sum of {@code w}, at least 1
+   * @param out output: the row's {@code heads · valueDim} floats at {@code outOffset}
+   * @param outOffset offset of the row in {@code out}
+   * @return true if every score is finite; false if one overflowed to infinity or NaN, and then
+   *     {@code out} is not written (the caller computes the row another way)
+   */
+  default boolean dotRow(
+      float[] q,
+      int qo,
+      float[] keys,
+      float[] values,
+      int[] rowBase,
+      int count,
+      int heads,
+      int keyDim,
+      int valueDim,
+      float scale,
+      float[] w,
+      float[] sums,
+      float[] out,
+      int outOffset) {
+    throw new UnsupportedOperationException(
+        "whole rows are not offered for "
+            + heads
+            + " heads of "
+            + keyDim
+            + " key and "
+            + valueDim
+            + " value floats; check scoresWholeRows first");
+  }
+
+  /**
    * Computes the scaled dot-product scores of a run of consecutive source nodes for every head,
    * head-major, for two target rows at once, from keys stored by dimension (a key table transposed
    * once per call, see {@link KeyColumns}): {@code s[h·stride + t] = scale · Σ_k q[qo + h·keyDim +

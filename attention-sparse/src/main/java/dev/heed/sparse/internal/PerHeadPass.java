@@ -36,6 +36,9 @@ abstract class PerHeadPass extends CsrPass {
   /** Rows of the complete pattern that take each block of sources together. */
   static final int TILE_ROWS = 4;
 
+  /** The longest CSR row that a dot-product pass may compute whole ({@link Dot#wholeRow}). */
+  static final int ROW_ENTRIES = 1024;
+
   final PerHeadMath math;
 
   /** Whether the next row's first block is loaded ahead (64-float rows of a large CSR graph). */
@@ -121,6 +124,9 @@ abstract class PerHeadPass extends CsrPass {
   /** Row i block by block: scores, running maxima and sums, and the weighted value rows. */
   @Override
   final void sourcesRow(int i, int start, int degree, long firstEntry, Scratch sc) {
+    if (wholeRow(i, start, degree, firstEntry, sc)) {
+      return;
+    }
     beginRow(sc);
     for (int b = 0; b < degree; b += BLOCK) {
       int count = Math.min(BLOCK, degree - b);
@@ -215,6 +221,15 @@ abstract class PerHeadPass extends CsrPass {
       rowBase[t] = columns[t] * valueWidth;
     }
     math.weightedRowSums(s, BLOCK, rowBase, count, heads, valueDim, value, acc);
+  }
+
+  /**
+   * Computes row i of a CSR graph in one piece when the pass can (see {@link Dot}), writing its
+   * output and weights; returns false, having written nothing, when the row is to be taken block by
+   * block instead.
+   */
+  boolean wholeRow(int i, int start, int degree, long firstEntry, Scratch sc) {
+    return false;
   }
 
   /** Scores of the block's entries of row i, head-major into the scratch: head h's at h·BLOCK. */
@@ -317,10 +332,62 @@ abstract class PerHeadPass extends CsrPass {
     /** The complete pattern's keys by dimension ({@link KeyColumns}); null over a CSR graph. */
     private final float[] keyColumns;
 
+    /** Whether CSR rows of up to {@link #ROW_ENTRIES} entries are computed whole. */
+    private final boolean wholeRows;
+
     Dot(CsrCall call, PerHeadMath math, boolean prefetch, float scale) {
       super(call, math, prefetch);
       this.scale = scale;
       this.keyColumns = csr == null ? KeyColumns.of(key, n, keyWidth) : null;
+      this.wholeRows = csr != null && math.scoresWholeRows(heads, keyDim, valueDim);
+    }
+
+    /**
+     * A row of at most {@link #ROW_ENTRIES} entries in one call of {@link PerHeadMath#dotRow}: its
+     * scores held whole, exact maxima, one pass of exponentials, one weighted sum with no
+     * rescaling. Rows with a score that overflows are taken block by block, which recomputes it.
+     */
+    @Override
+    boolean wholeRow(int i, int start, int degree, long firstEntry, Scratch sc) {
+      if (!wholeRows || degree > ROW_ENTRIES) {
+        return false;
+      }
+      if (sc.rowSources == null) {
+        sc.rowSources = new int[ROW_ENTRIES];
+        sc.rowWeights = new float[ROW_ENTRIES * heads + 8];
+      }
+      int[] rowBase = sc.rowSources;
+      for (int t = 0; t < degree; t++) {
+        rowBase[t] = csr.column(start + t) * keyWidth;
+      }
+      float[] w = sc.rowWeights;
+      float[] l = sc.sum;
+      if (!math.dotRow(
+          query,
+          i * keyWidth,
+          key,
+          value,
+          rowBase,
+          degree,
+          heads,
+          keyDim,
+          valueDim,
+          scale,
+          w,
+          l,
+          out,
+          i * valueWidth)) {
+        return false;
+      }
+      if (weights != null) {
+        for (int t = 0; t < degree; t++) {
+          int wo = (int) ((firstEntry + t) * heads);
+          for (int h = 0; h < heads; h++) {
+            weights[wo + h] = w[t * heads + h] / l[h];
+          }
+        }
+      }
+      return true;
     }
 
     @Override

@@ -203,6 +203,186 @@ final class VectorPerHeadMath implements PerHeadMath {
     return finite;
   }
 
+  /** Whole rows for 4 heads of 16 key and 16 value floats, with 8-lane vectors. */
+  @Override
+  public boolean scoresWholeRows(int heads, int keyDim, int valueDim) {
+    return GROUP == 8 && heads == 4 && keyDim == 16 && valueDim == 16;
+  }
+
+  /**
+   * Scores two entries per vector: the eight (entry, head) products, each a multiply and a fused
+   * multiply-add over the head's two key chunks, are summed while being transposed as in {@link
+   * #dotScores} (the same operations, so the same bits per score), and lane {@code 4e + h} holds
+   * entry e's score for head h: the row's scores, entry-major, are stored a vector at a time. Each
+   * entry's eight key chunks are loaded at constant offsets from one index, so C2 checks their
+   * bounds once per entry, and the eight query chunks stay in registers for the whole row. The
+   * maxima are taken lane-wise as the scores are stored (lanes h and h + 4 are head h), the
+   * exponentials in one pass over the stored scores, and the weighted sum keeps its eight
+   * accumulator vectors in registers for the whole row. An odd last entry is scored twice in its
+   * vector; the copy changes no maximum and is left out of the sums.
+   */
+  @Override
+  public boolean dotRow(
+      float[] q,
+      int qo,
+      float[] keys,
+      float[] values,
+      int[] rowBase,
+      int count,
+      int heads,
+      int keyDim,
+      int valueDim,
+      float scale,
+      float[] w,
+      float[] sums,
+      float[] out,
+      int outOffset) {
+    assert scoresWholeRows(heads, keyDim, valueDim);
+    // three methods, not one: in one, C2 passed its node limit before inlining the exponential
+    // (then called with its vector boxed: 1.2x the CPU time per entry)
+    float[] maxima = scoreRow(q, qo, keys, rowBase, count, scale, w);
+    if (maxima == null) {
+      return false;
+    }
+    expRow(w, count, maxima, sums);
+    weightedRow(w, rowBase, count, values, sums, out, outOffset);
+    return true;
+  }
+
+  /**
+   * The scores of dotRow into w, entry-major; returns each head's maximum in lanes h and h + 4 of
+   * the returned array (the last 8 floats of w's span of 4 · count + 8), or null if a score is not
+   * finite.
+   */
+  private static float[] scoreRow(
+      float[] q, int qo, float[] keys, int[] rowBase, int count, float scale, float[] w) {
+    FloatVector q0 = FloatVector.fromArray(WIDE, q, qo);
+    FloatVector q1 = FloatVector.fromArray(WIDE, q, qo + 8);
+    FloatVector q2 = FloatVector.fromArray(WIDE, q, qo + 16);
+    FloatVector q3 = FloatVector.fromArray(WIDE, q, qo + 24);
+    FloatVector q4 = FloatVector.fromArray(WIDE, q, qo + 32);
+    FloatVector q5 = FloatVector.fromArray(WIDE, q, qo + 40);
+    FloatVector q6 = FloatVector.fromArray(WIDE, q, qo + 48);
+    FloatVector q7 = FloatVector.fromArray(WIDE, q, qo + 56);
+    FloatVector high = FloatVector.broadcast(WIDE, Float.NEGATIVE_INFINITY);
+    // e - e is 0 for a finite score, NaN for an infinite or NaN one: summed, checked once
+    FloatVector check = FloatVector.zero(WIDE);
+    int last = count - 1;
+    for (int t = 0; t < count; t += 2) {
+      int a = rowBase[t];
+      int b = rowBase[Math.min(t + 1, last)];
+      FloatVector p0 = FloatVector.fromArray(WIDE, keys, a).mul(q0);
+      FloatVector p1 = FloatVector.fromArray(WIDE, keys, a + 16).mul(q2);
+      FloatVector p2 = FloatVector.fromArray(WIDE, keys, a + 32).mul(q4);
+      FloatVector p3 = FloatVector.fromArray(WIDE, keys, a + 48).mul(q6);
+      FloatVector p4 = FloatVector.fromArray(WIDE, keys, b).mul(q0);
+      FloatVector p5 = FloatVector.fromArray(WIDE, keys, b + 16).mul(q2);
+      FloatVector p6 = FloatVector.fromArray(WIDE, keys, b + 32).mul(q4);
+      FloatVector p7 = FloatVector.fromArray(WIDE, keys, b + 48).mul(q6);
+      p0 = FloatVector.fromArray(WIDE, keys, a + 8).fma(q1, p0);
+      p1 = FloatVector.fromArray(WIDE, keys, a + 24).fma(q3, p1);
+      p2 = FloatVector.fromArray(WIDE, keys, a + 40).fma(q5, p2);
+      p3 = FloatVector.fromArray(WIDE, keys, a + 56).fma(q7, p3);
+      p4 = FloatVector.fromArray(WIDE, keys, b + 8).fma(q1, p4);
+      p5 = FloatVector.fromArray(WIDE, keys, b + 24).fma(q3, p5);
+      p6 = FloatVector.fromArray(WIDE, keys, b + 40).fma(q5, p6);
+      p7 = FloatVector.fromArray(WIDE, keys, b + 56).fma(q7, p7);
+      // the transposing sum of dotScores
+      FloatVector a01 = p0.blend(p1, BIT0).add(p1.blend(p0, BIT0).rearrange(XOR1));
+      FloatVector a23 = p2.blend(p3, BIT0).add(p3.blend(p2, BIT0).rearrange(XOR1));
+      FloatVector a45 = p4.blend(p5, BIT0).add(p5.blend(p4, BIT0).rearrange(XOR1));
+      FloatVector a67 = p6.blend(p7, BIT0).add(p7.blend(p6, BIT0).rearrange(XOR1));
+      FloatVector b03 = a01.blend(a23, BIT1).add(a23.blend(a01, BIT1).rearrange(XOR2));
+      FloatVector b47 = a45.blend(a67, BIT1).add(a67.blend(a45, BIT1).rearrange(XOR2));
+      FloatVector e = b03.blend(b47, BIT2).add(b47.blend(b03, BIT2).rearrange(XOR4)).mul(scale);
+      e.intoArray(w, 4 * t);
+      // a compare and a blend, not max: Java's max of two vectors (NaN and signed zeros) is five
+      // instructions, and every score here is finite or caught by the check below
+      high = high.blend(e, high.lt(e));
+      check = check.add(e.sub(e));
+    }
+    if (!check.compare(VectorOperators.EQ, 0f).allTrue()) {
+      return null;
+    }
+    high.max(high.rearrange(XOR4)).intoArray(w, 4 * count);
+    return w;
+  }
+
+  /**
+   * Replaces dotRow's scores in w by their exponentials after subtracting each head's maximum (in
+   * w's lanes h and h + 4 after the scores), and writes each head's sum into sums.
+   */
+  private static void expRow(float[] w, int count, float[] maxima, float[] sums) {
+    int floats = 4 * count;
+    FloatVector max = FloatVector.fromArray(WIDE, maxima, floats);
+    FloatVector total = FloatVector.zero(WIDE);
+    int x = 0;
+    for (; x <= floats - WIDE_LANES; x += WIDE_LANES) {
+      FloatVector p = VectorExp.expNonPositive(FloatVector.fromArray(WIDE, w, x).sub(max));
+      p.intoArray(w, x);
+      total = total.add(p);
+    }
+    if (x < floats) {
+      // an odd count: lanes 4-7 repeat the last entry
+      FloatVector p =
+          VectorExp.expNonPositive(FloatVector.fromArray(WIDE, w, x).sub(max)).blend(0f, BIT2);
+      p.intoArray(w, x);
+      total = total.add(p);
+    }
+    total = total.add(total.rearrange(XOR4));
+    sums[0] = total.lane(0);
+    sums[1] = total.lane(1);
+    sums[2] = total.lane(2);
+    sums[3] = total.lane(3);
+  }
+
+  /** The weighted sum of dotRow: 8 accumulator vectors in registers for the whole row. */
+  private static void weightedRow(
+      float[] w,
+      int[] rowBase,
+      int count,
+      float[] values,
+      float[] sums,
+      float[] out,
+      int outOffset) {
+    FloatVector a0 = FloatVector.zero(WIDE);
+    FloatVector a1 = a0;
+    FloatVector a2 = a0;
+    FloatVector a3 = a0;
+    FloatVector a4 = a0;
+    FloatVector a5 = a0;
+    FloatVector a6 = a0;
+    FloatVector a7 = a0;
+    for (int t = 0; t < count; t++) {
+      int r = rowBase[t];
+      int wt = 4 * t;
+      FloatVector b0 = FloatVector.broadcast(WIDE, w[wt]);
+      FloatVector b1 = FloatVector.broadcast(WIDE, w[wt + 1]);
+      FloatVector b2 = FloatVector.broadcast(WIDE, w[wt + 2]);
+      FloatVector b3 = FloatVector.broadcast(WIDE, w[wt + 3]);
+      a0 = FloatVector.fromArray(WIDE, values, r).fma(b0, a0);
+      a1 = FloatVector.fromArray(WIDE, values, r + 8).fma(b0, a1);
+      a2 = FloatVector.fromArray(WIDE, values, r + 16).fma(b1, a2);
+      a3 = FloatVector.fromArray(WIDE, values, r + 24).fma(b1, a3);
+      a4 = FloatVector.fromArray(WIDE, values, r + 32).fma(b2, a4);
+      a5 = FloatVector.fromArray(WIDE, values, r + 40).fma(b2, a5);
+      a6 = FloatVector.fromArray(WIDE, values, r + 48).fma(b3, a6);
+      a7 = FloatVector.fromArray(WIDE, values, r + 56).fma(b3, a7);
+    }
+    float s0 = sums[0];
+    float s1 = sums[1];
+    float s2 = sums[2];
+    float s3 = sums[3];
+    a0.div(s0).intoArray(out, outOffset);
+    a1.div(s0).intoArray(out, outOffset + 8);
+    a2.div(s1).intoArray(out, outOffset + 16);
+    a3.div(s1).intoArray(out, outOffset + 24);
+    a4.div(s2).intoArray(out, outOffset + 32);
+    a5.div(s2).intoArray(out, outOffset + 40);
+    a6.div(s3).intoArray(out, outOffset + 48);
+    a7.div(s3).intoArray(out, outOffset + 56);
+  }
+
   /**
    * Scores 64 consecutive entries of one head for both rows at a time in sixteen accumulator
    * vectors (eight entries each, one per lane): per key dimension, eight loads of the transposed
