@@ -1,6 +1,7 @@
 package dev.heed.sparse.internal;
 
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.heed.attention.HeadShape;
@@ -18,7 +19,9 @@ import org.junit.jupiter.api.Test;
  * pattern (scored from the transposed key table, {@link KeyColumns}) and over CSR graphs, for both
  * implementations of the inner loops: against the float64 reference for head shapes on and off the
  * vector width and for row lengths around the 8- and 64-entry groups and the 128-entry blocks, with
- * identical bits for 1 and 3 threads.
+ * identical bits for 1 and 3 threads. Rows of 4 heads × 16 floats that the vector loops compute
+ * whole ({@link PerHeadMath#dotRow}) are checked at odd and even lengths, at the longest such row
+ * and one entry past it, and with a score that overflows (the row is then taken block by block).
  */
 class CsrDotProductPathTest {
 
@@ -87,9 +90,60 @@ class CsrDotProductPathTest {
     }
   }
 
-  /** Row i holds the {@code degrees[i]} sources from {@code i} on (wrapping): consecutive runs. */
+  @Test
+  void wholeRowsAroundTheirLongestLengthMatchReference() {
+    long seed = 0xD07C2L;
+    Random random = new Random(seed);
+    HeadShape shape = new HeadShape(4, 16, 16);
+    assertTrue(
+        RowMaths.preferred().perHead().scoresWholeRows(4, 16, 16),
+        "the vector loops compute rows of 4 x 16 whole");
+    int longest = PerHeadPass.ROW_ENTRIES;
+    check(
+        random,
+        runs(new int[] {1, 2, 3, longest - 1, longest, longest + 1}, longest + 40),
+        shape,
+        seed);
+  }
+
+  // A score past the float range in a row computed whole: that row is taken block by block, which
+  // recomputes the score in float64 and clamps it, so the entry takes all of its head's weight.
+  @Test
+  void wholeRowWithAnOverflowingScoreMatchesReference() {
+    long seed = 0xD07C3L;
+    Random random = new Random(seed);
+    HeadShape shape = new HeadShape(4, 16, 16);
+    CsrGraph graph = runs(new int[] {37, 38}, 160);
+    int n = graph.nodeCount();
+    float[] q = CsrAllHeadsPathTest.uniform(random, n * shape.keyWidth(), -2f, 2f);
+    float[] k = CsrAllHeadsPathTest.uniform(random, n * shape.keyWidth(), -2f, 2f);
+    float[] v = CsrAllHeadsPathTest.uniform(random, n * shape.valueWidth(), -1f, 1f);
+    // node 5's query and node 9's key in head 2: a product of 1e40 in float64
+    for (int x = 32; x < 48; x++) {
+      q[5 * shape.keyWidth() + x] = 1e20f;
+      k[9 * shape.keyWidth() + x] = 1e20f;
+    }
+    ReferenceAttention.Result want = ReferenceAttention.attend(graph, DOT, shape, q, k, v);
+    for (RowMath math : List.of(RowMaths.preferred(), RowMaths.scalar())) {
+      Run got = run(graph, shape, math, 1, q, k, v);
+      String where = math.name() + ", seed=" + seed;
+      double error = ReferenceAttention.relativeError(want.out(), got.out());
+      assertTrue(error < 1e-5, where + ": relative error " + error);
+      error = ReferenceAttention.relativeError(want.weights(), got.weights());
+      assertTrue(error < 1e-5, where + ": weights' relative error " + error);
+      for (int x = 32; x < 48; x++) {
+        assertEquals(v[9 * shape.valueWidth() + x], got.out()[5 * shape.valueWidth() + x], where);
+      }
+    }
+  }
+
+  /** {@link #runs(int[], int)} over 160 nodes. */
   static CsrGraph runs(int[] degrees) {
-    int n = 160;
+    return runs(degrees, 160);
+  }
+
+  /** Row i holds the {@code degrees[i]} sources from {@code i} on (wrapping): consecutive runs. */
+  static CsrGraph runs(int[] degrees, int n) {
     int[] offsets = new int[n + 1];
     int total = 0;
     for (int i = 0; i < n; i++) {
