@@ -16,9 +16,10 @@ import java.util.Arrays;
  * <p>Per row, entries are taken in blocks of {@link #BLOCK}: the block's scores go into a small
  * scratch, each head's running maximum and running sum are updated with the block maximum (online
  * normalisation, Milakov &amp; Gimelshein 2018, applied per block), and the block's values are
- * added into a per-thread accumulator row scaled by their unnormalised weights. No array of E×H
- * scores is ever formed unless the caller asks for weights. The arithmetic of a row depends only on
- * that row, so results do not depend on how rows are split between threads.
+ * added into a per-thread accumulator row scaled by their unnormalised weights (a pass may compute
+ * a short row whole instead, with exact maxima: see {@link PerHeadPass}). No array of E×H scores is
+ * ever formed unless the caller asks for weights. The arithmetic of a row depends only on that row,
+ * so results do not depend on how rows are split between threads.
  *
  * <p>Scores that overflow float32 (only possible with inputs near {@link Float#MAX_VALUE}) are
  * recomputed in float64 and clamped to ±{@link Float#MAX_VALUE}, so no NaN or infinity reaches the
