@@ -98,7 +98,7 @@ abstract class CsrPass {
      */
     Scratch[] tileRows;
 
-    /** Key row starts of a row computed whole; created by its first such row. */
+    /** Key row starts of a row computed whole; created, or replaced by a longer one, as needed. */
     int[] rowSources;
 
     /** Weights of a row computed whole, entry-major; created with {@link #rowSources}. */

@@ -359,9 +359,11 @@ abstract class PerHeadPass extends CsrPass {
       if (!wholeRows || degree > ROW_ENTRIES) {
         return false;
       }
-      if (sc.rowSources == null) {
-        sc.rowSources = new int[ROW_ENTRIES];
-        sc.rowWeights = new float[ROW_ENTRIES * heads + 8];
+      if (sc.rowSources == null || sc.rowSources.length < degree) {
+        // sized by the rows met, so that small calls do not allocate for the longest row
+        int entries = Math.min(ROW_ENTRIES, Math.max(2 * degree, 64));
+        sc.rowSources = new int[entries];
+        sc.rowWeights = new float[entries * heads + 8];
       }
       int[] rowBase = sc.rowSources;
       for (int t = 0; t < degree; t++) {
