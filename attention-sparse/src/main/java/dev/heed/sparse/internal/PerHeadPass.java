@@ -351,7 +351,7 @@ abstract class PerHeadPass extends CsrPass {
 
     /**
      * A row of at most {@link #ROW_ENTRIES} entries in one call of {@link PerHeadMath#dotRow}: its
-     * scores held whole, exact maxima, one pass of exponentials, one weighted sum with no
+     * scores held whole, exact maxima, and one loop of exponentials and weighted sums with no
      * rescaling. Rows with a score that overflows are taken block by block, which recomputes it.
      */
     @Override

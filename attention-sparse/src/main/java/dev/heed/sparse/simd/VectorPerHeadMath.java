@@ -284,10 +284,10 @@ final class VectorPerHeadMath implements PerHeadMath {
    * entry e's score for head h: the row's scores, entry-major, are stored a vector at a time. Each
    * entry's eight key chunks are loaded at constant offsets from one index, so C2 checks their
    * bounds once per entry, and the eight query chunks stay in registers for the whole row. The
-   * maxima are taken lane-wise as the scores are stored (lanes h and h + 4 are head h), the
-   * exponentials in one pass over the stored scores, and the weighted sum keeps its eight
-   * accumulator vectors in registers for the whole row. An odd last entry is scored twice in its
-   * vector; the copy changes no maximum and is left out of the sums.
+   * maxima are taken lane-wise as the scores are stored (lanes h and h + 4 are head h); then one
+   * loop takes each pair's exponentials and adds its value rows into eight accumulator vectors kept
+   * in registers for the whole row. An odd last entry is scored twice in its vector; the copy
+   * changes no maximum and gets weights of 0.
    */
   @Override
   public boolean dotRow(
