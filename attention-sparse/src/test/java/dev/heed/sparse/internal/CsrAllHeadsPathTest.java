@@ -268,9 +268,10 @@ class CsrAllHeadsPathTest {
     }
   }
 
-  // The packed path checks key and value for NaN and infinities while it copies them (it skips
-  // checkCall's separate scan); it must reject the same inputs with the same message, and before
-  // any output is written.
+  // The packed path checks key and value for NaN and infinities while it copies them, and the
+  // factored layout checks key while it finds the key maxima (both skip checkCall's separate
+  // scans); with either layout, a bad query, key or value must be rejected with checkCall's
+  // message (query before key when both are bad, as checkCall), before any output is written.
   @Test
   void packedNodeTableRejectsNonFiniteInputsLikeCheckCall() {
     long seed = 0x9AC4EEL;
@@ -282,13 +283,19 @@ class CsrAllHeadsPathTest {
     float[] v = uniform(random, n * SHAPE.valueWidth(), -1f, 1f);
     assumeTrue(RowMaths.preferred().servesAllHeads(), "no 8-float vectors here");
     float[] bad = {Float.NaN, Float.POSITIVE_INFINITY, Float.NEGATIVE_INFINITY};
-    for (boolean inKey : new boolean[] {true, false}) {
-      float[] target = inKey ? k : v;
+    String[] names = {"query", "key", "value", "query and key"};
+    for (String name : names) {
+      float[] target = name.startsWith("query") ? q : name.equals("key") ? k : v;
       int[] places = {0, target.length / 2 + 3, target.length - 1};
       for (int b = 0; b < bad.length; b++) {
         int at = places[b];
         float saved = target[at];
+        int keyAt = k.length - 1 - at % k.length; // the second bad term, query and key
+        float savedKey = k[keyAt];
         target[at] = bad[b];
+        if (name.equals("query and key")) {
+          k[keyAt] = Float.NaN;
+        }
         float[] out = new float[n * SHAPE.valueWidth()];
         String want =
             assertThrows(
@@ -296,19 +303,30 @@ class CsrAllHeadsPathTest {
                     () -> AttentionKernels.checkCall(graph, GAT, SHAPE, q, k, v, out, null))
                 .getMessage();
         for (int threads = 1; threads <= 3; threads++) {
-          CsrAttentionKernel kernel = packing(threads, true);
-          String where = (inKey ? "key" : "value") + "[" + at + "] = " + bad[b] + ", " + threads;
-          IllegalArgumentException e =
-              assertThrows(
-                  IllegalArgumentException.class,
-                  () -> kernel.attend(graph, GAT, SHAPE, q, k, v, out, null),
-                  where);
-          assertEquals(want, e.getMessage(), where);
-          for (float o : out) {
-            assertEquals(0f, o, where + ": output written before the error");
+          for (boolean factored : new boolean[] {true, false}) {
+            CsrAttentionKernel kernel = packing(threads, true, factored);
+            String where =
+                name
+                    + "["
+                    + at
+                    + "] = "
+                    + bad[b]
+                    + ", "
+                    + threads
+                    + (factored ? " threads, factored" : " threads, exact");
+            IllegalArgumentException e =
+                assertThrows(
+                    IllegalArgumentException.class,
+                    () -> kernel.attend(graph, GAT, SHAPE, q, k, v, out, null),
+                    where);
+            assertEquals(want, e.getMessage(), where);
+            for (float o : out) {
+              assertEquals(0f, o, where + ": output written before the error");
+            }
           }
         }
         target[at] = saved;
+        k[keyAt] = savedKey;
       }
     }
   }
