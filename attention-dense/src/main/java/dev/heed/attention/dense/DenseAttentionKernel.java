@@ -113,6 +113,7 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   private final KernelOptions options;
   private final long targetBlockFloats;
+  private final long splitTargetBlockFloats;
   private final long minTargetRows;
   private final double unshiftedExpLimit;
   private final RowSoftmax rowSoftmax;
@@ -135,8 +136,37 @@ final class DenseAttentionKernel implements AttentionKernel {
       long minTargetRows,
       double unshiftedExpLimit,
       RowSoftmax rowSoftmax) {
+    this(
+        options,
+        targetBlockFloats,
+        targetBlockFloats,
+        minTargetRows,
+        unshiftedExpLimit,
+        rowSoftmax);
+  }
+
+  /**
+   * Creates the kernel with its own block target for split calls.
+   *
+   * @param options threads and budget
+   * @param targetBlockFloats upper bound on one score block (rows · n)
+   * @param splitTargetBlockFloats upper bound on each thread's score block when a call splits its
+   *     blocks over its threads ({@link DenseBlockPlan#SPLIT_TARGET_BLOCK_FLOATS})
+   * @param minTargetRows least block height the target allows (the budget may still force less)
+   * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum
+   * @param rowSoftmax the Java softmax of score rows, or null to take the exponentials with ND4J's
+   *     ops
+   */
+  DenseAttentionKernel(
+      KernelOptions options,
+      long targetBlockFloats,
+      long splitTargetBlockFloats,
+      long minTargetRows,
+      double unshiftedExpLimit,
+      RowSoftmax rowSoftmax) {
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
+    this.splitTargetBlockFloats = splitTargetBlockFloats;
     this.minTargetRows = minTargetRows;
     this.unshiftedExpLimit = unshiftedExpLimit;
     this.rowSoftmax = rowSoftmax;
@@ -206,7 +236,7 @@ final class DenseAttentionKernel implements AttentionKernel {
                 masked,
                 splitThreads,
                 budget,
-                targetBlockFloats,
+                splitTargetBlockFloats,
                 minTargetRows,
                 splitThreads)
             : DenseBlockPlan.of(

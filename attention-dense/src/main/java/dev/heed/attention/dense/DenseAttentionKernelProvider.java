@@ -62,8 +62,8 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
   /**
    * Creates a dense kernel with the given options. Cheap: no ND4J memory is allocated until a call.
    *
-   * @param options threads (for the Java work only: GATv2 scores, softmax) and the dense memory
-   *     budget
+   * @param options threads (for the Java work of calls that are not split: GATv2 scores, softmax)
+   *     and the dense memory budget
    * @return an immutable dense kernel
    * @throws NullPointerException if {@code options} is null
    */
@@ -74,6 +74,7 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
     return new DenseAttentionKernel(
         options,
         DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+        DenseBlockPlan.SPLIT_TARGET_BLOCK_FLOATS,
         DenseBlockPlan.MIN_TARGET_ROWS,
         DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
         RowSoftmaxes.preferred());

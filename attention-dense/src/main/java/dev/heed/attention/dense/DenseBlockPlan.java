@@ -43,6 +43,15 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow, int
   static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 20;
 
   /**
+   * Default upper bound on each thread's score block when a call splits its blocks over its
+   * threads, in floats (8 MiB): each block's products run on one BLAS thread, which packs the other
+   * operand (a head's keys or values) once per product, so taller blocks pack less. Measured on 2
+   * cores (n = 4096, 8 × 64, dot-product scores, process CPU time per call): 480 ms with 512 rows,
+   * 500–520 ms with 256, 480–490 ms with 1024 (benchmarks/RESULTS.md, "Dense path").
+   */
+  static final long SPLIT_TARGET_BLOCK_FLOATS = 1L << 21;
+
+  /**
    * Block height the target never goes below on large n (a matrix product with very few rows runs
    * far below BLAS speed); only the memory budget can make blocks shorter.
    */
