@@ -71,17 +71,24 @@ import org.slf4j.LoggerFactory;
  * caller may have open and closed before the call returns, so repeated calls do not accumulate
  * off-heap memory.
  *
- * <p>Java work (GATv2 scores, the Vector API softmax) runs on the calling thread and helpers from
- * {@link KernelWorkers}, in fixed row ranges, so it does not depend on the thread count. A small
- * call ({@link CostRegime#isSmallDenseCall}) runs on the calling thread alone, with one BLAS
- * thread.
+ * <p>Threads. A small call ({@link CostRegime#isSmallDenseCall}) runs on the calling thread alone,
+ * with one BLAS thread. A large call on the Vector API route with dot-product or additive scores is
+ * split: its blocks are taken in turn by as many threads of its own as the process gives BLAS (the
+ * calling thread and helpers from {@link KernelWorkers}), and each thread runs all of a block's
+ * work itself (both products on one BLAS thread, the softmax, the copy out), so the call hands work
+ * between threads once instead of at every step of every block and head. Measured on 2 cores (n =
+ * 4096, 8 heads × 64 dims): the kernel's time against its two matrix products alone went from 1.7×
+ * to about 1.3× (benchmarks/RESULTS.md, "Dense path"). Every other large call runs its products on
+ * BLAS's threads and its Java work (GATv2 scores, softmax) on {@code options.threads()} threads, in
+ * fixed row ranges. Either way a block covers the same rows and runs the same steps whichever
+ * thread takes it, so results do not depend on {@code options.threads()}.
  *
  * <p>Thread safety: immutable; every call uses only its own scratch. Results are deterministic for
  * a fixed ND4J/OpenBLAS thread configuration (the order of each reduction does not depend on
- * timing). The BLAS thread count is switched between small and large calls ({@link
- * BlasThreadMode}); a large call that overlaps a small one on another thread may run its products
- * on one BLAS thread, which changes their speed and, should the BLAS library split a product's sums
- * differently, the last bits of its results.
+ * timing). The BLAS thread count is switched for small and split calls ({@link BlasThreadMode}); a
+ * large call that overlaps another call on another thread may run its products on a different count
+ * than it would alone, which changes their speed and, should the BLAS library split a product's
+ * sums differently (it does for products only a few columns wide), the last bits of its results.
  */
 final class DenseAttentionKernel implements AttentionKernel {
 
@@ -106,6 +113,7 @@ final class DenseAttentionKernel implements AttentionKernel {
 
   private final KernelOptions options;
   private final long targetBlockFloats;
+  private final long splitTargetBlockFloats;
   private final long minTargetRows;
   private final double unshiftedExpLimit;
   private final RowSoftmax rowSoftmax;
@@ -128,8 +136,37 @@ final class DenseAttentionKernel implements AttentionKernel {
       long minTargetRows,
       double unshiftedExpLimit,
       RowSoftmax rowSoftmax) {
+    this(
+        options,
+        targetBlockFloats,
+        targetBlockFloats,
+        minTargetRows,
+        unshiftedExpLimit,
+        rowSoftmax);
+  }
+
+  /**
+   * Creates the kernel with its own block target for split calls.
+   *
+   * @param options threads and budget
+   * @param targetBlockFloats upper bound on one score block (rows · n)
+   * @param splitTargetBlockFloats upper bound on each thread's score block when a call splits its
+   *     blocks over its threads ({@link DenseBlockPlan#SPLIT_TARGET_BLOCK_FLOATS})
+   * @param minTargetRows least block height the target allows (the budget may still force less)
+   * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum
+   * @param rowSoftmax the Java softmax of score rows, or null to take the exponentials with ND4J's
+   *     ops
+   */
+  DenseAttentionKernel(
+      KernelOptions options,
+      long targetBlockFloats,
+      long splitTargetBlockFloats,
+      long minTargetRows,
+      double unshiftedExpLimit,
+      RowSoftmax rowSoftmax) {
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
+    this.splitTargetBlockFloats = splitTargetBlockFloats;
     this.minTargetRows = minTargetRows;
     this.unshiftedExpLimit = unshiftedExpLimit;
     this.rowSoftmax = rowSoftmax;
@@ -150,7 +187,8 @@ final class DenseAttentionKernel implements AttentionKernel {
         + options.denseMemoryBudgetBytes()
         + " bytes, Java threads (GATv2 scores, softmax) "
         + options.threads()
-        + ", BLAS threads process-wide (one for calls of n < 725)";
+        + ", BLAS threads process-wide (one for calls of n < 725; calls with dot-product or"
+        + " additive scores split their blocks over that many threads, one BLAS thread each)";
   }
 
   @Override
@@ -177,32 +215,48 @@ final class DenseAttentionKernel implements AttentionKernel {
     boolean small = CostRegime.isSmallDenseCall(n, score);
     // Java threads: GATv2 scores, and the Vector API softmax (when the route is taken)
     int javaThreads = !small && (gatv2 || rowSoftmax != null) ? options.threads() : 1;
+    boolean parallel =
+        javaThreads > 1 && (long) n * n * (gatv2 ? shape.keyDim() : 1) >= PARALLEL_MIN_WORK;
+    BlasThreadMode blasThreads = BlasThreadMode.process();
+    boolean masked = pattern instanceof CsrGraph;
+    long budget = options.denseMemoryBudgetBytes();
+    // A large call on the Java route (not GATv2) splits its blocks over as many threads of its
+    // own as BLAS has, each block's products on one BLAS thread (see the class comment), when
+    // the budget holds a block per thread.
+    int splitThreads = !small && !gatv2 && rowSoftmax != null ? blasThreads.splitThreads() : 1;
+    boolean split =
+        splitThreads > 1
+            && DenseBlockPlan.fits(n, score, shape, masked, splitThreads, budget, splitThreads);
     DenseBlockPlan plan =
-        DenseBlockPlan.of(
-            n,
-            score,
-            shape,
-            pattern instanceof CsrGraph,
-            javaThreads,
-            options.denseMemoryBudgetBytes(),
-            targetBlockFloats,
-            minTargetRows);
+        split
+            ? DenseBlockPlan.of(
+                n,
+                score,
+                shape,
+                masked,
+                splitThreads,
+                budget,
+                splitTargetBlockFloats,
+                minTargetRows,
+                splitThreads)
+            : DenseBlockPlan.of(
+                n, score, shape, masked, javaThreads, budget, targetBlockFloats, minTargetRows);
     if (LOG.isTraceEnabled()) {
       LOG.trace(
-          "dense call n={} {} {}: block rows {}, scratch {} bytes",
+          "dense call n={} {} {}: block rows {}{}, scratch {} bytes",
           n,
           shape,
           score,
           plan.blockRows(),
+          split ? ", blocks split over " + splitThreads + " threads" : "",
           plan.bytesUsed());
     }
-    boolean parallel =
-        javaThreads > 1 && (long) n * n * (gatv2 ? shape.keyDim() : 1) >= PARALLEL_MIN_WORK;
     // Allocate outside any workspace the caller has open, so close() below really frees.
     MemoryWorkspace outside = Nd4j.getWorkspaceManager().scopeOutOfWorkspaces();
-    BlasThreadMode blasThreads = BlasThreadMode.process();
     if (small) {
       blasThreads.enterSmall();
+    } else if (split) {
+      blasThreads.enterSplit();
     } else {
       blasThreads.enterLarge();
     }
@@ -218,13 +272,16 @@ final class DenseAttentionKernel implements AttentionKernel {
               weights,
               plan,
               parallel,
-              javaThreads,
+              split,
+              split ? splitThreads : javaThreads,
               unshiftedExpLimit,
               rowSoftmax)
           .run();
     } finally {
       if (small) {
         blasThreads.exitSmall();
+      } else if (split) {
+        blasThreads.exitSplit();
       } else {
         blasThreads.exitLarge();
       }
@@ -232,7 +289,10 @@ final class DenseAttentionKernel implements AttentionKernel {
     }
   }
 
-  /** The state of one call: its arguments and its own scratch. Used once, on one thread. */
+  /**
+   * The state of one call: its arguments and its own scratch. Used once; prepared and closed on the
+   * calling thread, its blocks run on the call's threads.
+   */
   private static final class Call {
     private final CsrGraph graph;
     private final ScoreFunction score;
@@ -248,6 +308,7 @@ final class DenseAttentionKernel implements AttentionKernel {
     private final DenseBlockPlan plan;
     private final HeadShape shape;
     private final boolean parallel;
+    private final boolean split;
     private final int workers;
     private final double unshiftedExpLimit;
     private final RowSoftmax rowSoftmax;
@@ -266,6 +327,7 @@ final class DenseAttentionKernel implements AttentionKernel {
         float[] weights,
         DenseBlockPlan plan,
         boolean parallel,
+        boolean split,
         int workers,
         double unshiftedExpLimit,
         RowSoftmax rowSoftmax) {
@@ -283,6 +345,7 @@ final class DenseAttentionKernel implements AttentionKernel {
       this.plan = plan;
       this.shape = shape;
       this.parallel = parallel;
+      this.split = split;
       this.workers = workers;
       this.unshiftedExpLimit = unshiftedExpLimit;
       this.rowSoftmax = rowSoftmax;
@@ -307,16 +370,26 @@ final class DenseAttentionKernel implements AttentionKernel {
       return a;
     }
 
+    // What compute() prepares once and every block then reads (on any of the call's threads).
+    private boolean additive;
+    private boolean gatv2;
+    private boolean javaRoute;
+    private boolean additiveInRows;
+    private float[][] keyRows;
+    private INDArray[] packedQuery;
+    private INDArray[] packedKey;
+    private INDArray[] packedValue;
+    private boolean[] unshifted;
+    private float scale;
+
     private void compute() {
-      boolean additive = score instanceof ScoreFunction.Additive;
-      boolean gatv2 = score instanceof ScoreFunction.Gatv2;
+      additive = score instanceof ScoreFunction.Additive;
+      gatv2 = score instanceof ScoreFunction.Gatv2;
       // The Java route forms additive scores and adds the mask inside its softmax pass over each
       // row (RowSoftmax), so neither costs a pass of its own over the score block.
-      boolean javaRoute = rowSoftmax != null;
-      boolean additiveInRows = additive && javaRoute;
-      float[][] keyRows = additiveInRows ? additiveKeyRows() : null;
-      INDArray[] packedQuery = null;
-      INDArray[] packedKey = null;
+      javaRoute = rowSoftmax != null;
+      additiveInRows = additive && javaRoute;
+      keyRows = additiveInRows ? additiveKeyRows() : null;
       if (!gatv2 && !additiveInRows) {
         packedQuery = new INDArray[heads];
         packedKey = new INDArray[heads];
@@ -334,8 +407,8 @@ final class DenseAttentionKernel implements AttentionKernel {
       }
       // On the ND4J route values are packed as [v_j, 1]: the product P·[V, 1] also yields each
       // row's sum of P. The Java route sums each row while exponentiating it.
-      INDArray[] packedValue = new INDArray[heads];
-      boolean[] unshifted = new boolean[heads];
+      packedValue = new INDArray[heads];
+      unshifted = new boolean[heads];
       for (int h = 0; h < heads; h++) {
         packedValue[h] = allocate(n, valueWidth);
         packValues(h, packedValue[h]);
@@ -343,71 +416,129 @@ final class DenseAttentionKernel implements AttentionKernel {
             rowSoftmax == null
                 && scoreBound(h) <= Math.min(unshiftedExpLimit, safeUnshiftedLimit(h));
       }
-      int blockRows = plan.blockRows();
-      INDArray scoreBlock = allocate(blockRows, n);
-      FloatBuffer scoreBuffer = scoreBlock.data().asNioFloat();
-      INDArray biasBlock = graph != null && !gatv2 && !javaRoute ? allocate(blockRows, n) : null;
-      int rowBytes = (n + 7) >>> 3;
-      byte[] allowed = graph != null && !gatv2 && javaRoute ? new byte[blockRows * rowBytes] : null;
-      FloatBuffer biasBuffer = biasBlock == null ? null : biasBlock.data().asNioFloat();
-      INDArray outBlock = allocate(blockRows, valueWidth);
-      FloatBuffer outBuffer = outBlock.data().asNioFloat();
-      float[][] workerRows = new float[workers][n];
-      float[] row = workerRows[0];
-      float[] sums = new float[blockRows];
-      boolean[] recomputed = new boolean[blockRows];
       keyByHead = gatv2 && graph == null ? transposeKeys() : null;
-      float scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
-
-      for (int first = 0; first < n; first += blockRows) {
-        int rows = Math.min(blockRows, n - first);
-        INDArray s = rows == blockRows ? scoreBlock : leadingRows(scoreBlock, rows);
-        INDArray o = rows == blockRows ? outBlock : leadingRows(outBlock, rows);
-        INDArray bias = null;
-        if (biasBlock != null) {
-          bias = rows == blockRows ? biasBlock : leadingRows(biasBlock, rows);
-          fillBias(first, rows, biasBuffer, row);
+      scale = score instanceof ScoreFunction.ScaledDotProduct s ? s.scale(keyDim) : 1f;
+      int blockRows = plan.blockRows();
+      if (!split) {
+        BlockScratch scratch = new BlockScratch(blockRows, workers);
+        for (int first = 0; first < n; first += blockRows) {
+          block(first, Math.min(blockRows, n - first), scratch, parallel);
         }
-        for (int h = 0; h < heads; h++) {
-          if (gatv2) {
-            gatv2Scores((ScoreFunction.Gatv2) score, first, rows, h, scoreBuffer, workerRows);
-          } else if (!additiveInRows) {
-            INDArray q =
-                packedQuery[h].get(NDArrayIndex.interval(first, first + rows), NDArrayIndex.all());
-            if (additive) {
-              // q_i + k_j: 0 + k_j is exact, so one rounding, as in the float64 equation.
-              s.assign(0f).addiRowVector(packedKey[h]).addiColumnVector(q);
-              Nd4j.exec(new LeakyReLU(s, s, ((ScoreFunction.Additive) score).negativeSlope()));
-            } else {
-              Nd4j.gemm(q, packedKey[h], s, false, true, scale, 0.0);
+        return;
+      }
+      // Each thread takes whole blocks, in turn, and runs all of a block's work itself: its
+      // products on one BLAS thread, then its softmax. One hand-off per call instead of one per
+      // block, head and step, and a block's scores stay in its thread's caches. Every block
+      // covers the same rows and runs the same steps whichever thread takes it.
+      BlockScratch[] scratch = new BlockScratch[workers];
+      for (int w = 0; w < workers; w++) {
+        scratch[w] = new BlockScratch(blockRows, 1);
+      }
+      int blocks = (n + blockRows - 1) / blockRows;
+      AtomicInteger nextScratch = new AtomicInteger();
+      AtomicInteger nextBlock = new AtomicInteger();
+      KernelWorkers.runShared(
+          workers - 1,
+          () -> {
+            BlockScratch own = scratch[nextScratch.getAndIncrement()];
+            for (int b = nextBlock.getAndIncrement(); b < blocks; b = nextBlock.getAndIncrement()) {
+              int first = b * blockRows;
+              block(first, Math.min(blockRows, n - first), own, false);
             }
-            if (bias != null) {
-              s.addi(bias);
-            }
-          }
-          if (javaRoute) {
-            int head = h;
-            int firstRow = first;
-            float[] headKeys = additiveInRows ? keyRows[h] : null;
-            forRowRanges(
-                rows,
-                (long) rows * n,
-                scoreBuffer,
-                workerRows,
-                (from, to, buffer, rowBuffer) ->
-                    softmaxRows(
-                        from, to, buffer, rowBuffer, sums, firstRow, head, headKeys, allowed));
-          } else if (unshifted[h]) {
-            Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
+          });
+    }
+
+    /**
+     * One thread's scratch for a block of target rows: the ND4J blocks of the two products and the
+     * Java buffers around them, all allocated on the calling thread (so {@link #owned} is only ever
+     * touched there).
+     */
+    private final class BlockScratch {
+      final int blockRows;
+      final INDArray scores;
+      final FloatBuffer scoreBuffer;
+      final INDArray bias;
+      final FloatBuffer biasBuffer;
+      final INDArray outBlock;
+      final FloatBuffer outBuffer;
+      final byte[] allowed;
+      final float[][] rows;
+      final float[] sums;
+      final boolean[] recomputed;
+
+      BlockScratch(int blockRows, int rowThreads) {
+        this.blockRows = blockRows;
+        scores = allocate(blockRows, n);
+        scoreBuffer = scores.data().asNioFloat();
+        bias = graph != null && !gatv2 && !javaRoute ? allocate(blockRows, n) : null;
+        biasBuffer = bias == null ? null : bias.data().asNioFloat();
+        int rowBytes = (n + 7) >>> 3;
+        allowed = graph != null && !gatv2 && javaRoute ? new byte[blockRows * rowBytes] : null;
+        outBlock = allocate(blockRows, valueWidth);
+        outBuffer = outBlock.data().asNioFloat();
+        rows = new float[rowThreads][n];
+        sums = new float[blockRows];
+        recomputed = new boolean[blockRows];
+      }
+    }
+
+    /**
+     * Every head of target rows {@code first..first+rows-1}: scores, softmax, the second product
+     * and the copy out. With {@code shareRows} the Java work on the block's rows is shared out
+     * among the call's threads ({@link #forRowRanges}); otherwise it all runs on this thread.
+     */
+    private void block(int first, int rows, BlockScratch scratch, boolean shareRows) {
+      boolean whole = rows == scratch.blockRows;
+      INDArray s = whole ? scratch.scores : leadingRows(scratch.scores, rows);
+      INDArray o = whole ? scratch.outBlock : leadingRows(scratch.outBlock, rows);
+      FloatBuffer scoreBuffer = scratch.scoreBuffer;
+      float[] row = scratch.rows[0];
+      INDArray bias = null;
+      if (scratch.bias != null) {
+        bias = whole ? scratch.bias : leadingRows(scratch.bias, rows);
+        fillBias(first, rows, scratch.biasBuffer, row);
+      }
+      for (int h = 0; h < heads; h++) {
+        if (gatv2) {
+          gatv2Scores(
+              (ScoreFunction.Gatv2) score, first, rows, h, scoreBuffer, scratch.rows, shareRows);
+        } else if (!additiveInRows) {
+          INDArray q =
+              packedQuery[h].get(NDArrayIndex.interval(first, first + rows), NDArrayIndex.all());
+          if (additive) {
+            // q_i + k_j: 0 + k_j is exact, so one rounding, as in the float64 equation.
+            s.assign(0f).addiRowVector(packedKey[h]).addiColumnVector(q);
+            Nd4j.exec(new LeakyReLU(s, s, ((ScoreFunction.Additive) score).negativeSlope()));
           } else {
-            Nd4j.exec(new SoftMax(s, s, 1));
+            Nd4j.gemm(q, packedKey[h], s, false, true, scale, 0.0);
           }
-          Nd4j.gemm(s, packedValue[h], o, false, false, 1.0, 0.0);
-          Arrays.fill(recomputed, false);
-          copyOut(first, rows, h, outBuffer, sums, recomputed);
-          if (weights != null) {
-            copyWeights(first, rows, h, scoreBuffer, row, sums, recomputed);
+          if (bias != null) {
+            s.addi(bias);
           }
+        }
+        if (javaRoute) {
+          int head = h;
+          float[] headKeys = additiveInRows ? keyRows[h] : null;
+          float[] sums = scratch.sums;
+          byte[] allowed = scratch.allowed;
+          forRowRanges(
+              rows,
+              (long) rows * n,
+              scoreBuffer,
+              scratch.rows,
+              shareRows,
+              (from, to, buffer, rowBuffer) ->
+                  softmaxRows(from, to, buffer, rowBuffer, sums, first, head, headKeys, allowed));
+        } else if (unshifted[h]) {
+          Nd4j.exec(new Exp(s, s)); // unnormalised; see UNSHIFTED_EXP_LIMIT
+        } else {
+          Nd4j.exec(new SoftMax(s, s, 1));
+        }
+        Nd4j.gemm(s, packedValue[h], o, false, false, 1.0, 0.0);
+        Arrays.fill(scratch.recomputed, false);
+        copyOut(first, rows, h, scratch.outBuffer, scratch.sums, scratch.recomputed);
+        if (weights != null) {
+          copyWeights(first, rows, h, scoreBuffer, row, scratch.sums, scratch.recomputed);
         }
       }
     }
@@ -707,7 +838,8 @@ final class DenseAttentionKernel implements AttentionKernel {
         int rows,
         int h,
         FloatBuffer scoreBuffer,
-        float[][] workerRows) {
+        float[][] workerRows,
+        boolean shareRows) {
       // a·LeakyReLU(x) = c·x + c'·|x| with c = a(1 + slope)/2, c' = a(1 - slope)/2: branch-free,
       // which the JIT vectorises (measured here about 1.6x faster than a·max(x, slope·x)).
       float slope = gatv2.negativeSlope();
@@ -723,6 +855,7 @@ final class DenseAttentionKernel implements AttentionKernel {
           (long) rows * n * keyDim,
           scoreBuffer,
           workerRows,
+          shareRows,
           (from, to, buffer, row) -> gatv2Rows(first, from, to, h, linear, absolute, buffer, row));
     }
 
@@ -735,13 +868,18 @@ final class DenseAttentionKernel implements AttentionKernel {
 
     /**
      * Runs {@code task} over rows {@code 0..rows-1} of the block, split in {@code workers} equal
-     * ranges over the calling thread and {@link KernelWorkers} helpers when the call is parallel
-     * and the work is at least {@link #PARALLEL_MIN_WORK}; range p always gets view p of the block
-     * and row buffer p, whichever thread runs it.
+     * ranges over the calling thread and {@link KernelWorkers} helpers when {@code shareRows} is
+     * set, the call is parallel and the work is at least {@link #PARALLEL_MIN_WORK}; range p always
+     * gets view p of the block and row buffer p, whichever thread runs it.
      */
     private void forRowRanges(
-        int rows, long work, FloatBuffer block, float[][] workerRows, RowRangeTask task) {
-      if (!parallel || work < PARALLEL_MIN_WORK) {
+        int rows,
+        long work,
+        FloatBuffer block,
+        float[][] workerRows,
+        boolean shareRows,
+        RowRangeTask task) {
+      if (!shareRows || !parallel || work < PARALLEL_MIN_WORK) {
         task.run(0, rows, block, workerRows[0]);
         return;
       }

@@ -27,11 +27,14 @@ import java.util.Objects;
  *       target rows. The block height is derived from it; a call that cannot fit even a one-row
  *       block throws {@link dev.heed.attention.MemoryBudgetExceededException}.
  *   <li>{@link KernelOptions#threads()} is <b>not</b> applied to the matrix products (nor to ND4J's
- *       exponential, on the route without the Vector API): those run on ND4J's and OpenBLAS's own
- *       thread pools, which are process-wide and set at start-up by {@code OMP_NUM_THREADS}
- *       (default: the core count). The kernel never changes that global setting. The work that runs
- *       in Java (the GATv2 score loops and the Vector API softmax) uses up to {@code threads}
- *       threads of its own per call.
+ *       exponential, on the route without the Vector API): their threads follow ND4J's and
+ *       OpenBLAS's count, which is process-wide and set at start-up by {@code OMP_NUM_THREADS}
+ *       (default: the core count). Small calls (n below 725) run on the calling thread with that
+ *       count set to one; large calls with dot-product or additive scores on the Vector API route
+ *       split their blocks over as many threads of their own as that count, each product on one
+ *       BLAS thread, softmax included, and set the count back when they end. The work that runs in
+ *       Java in other large calls (the GATv2 score loops, the Vector API softmax) uses up to {@code
+ *       threads} threads of its own per call.
  * </ul>
  *
  * <p>Thread safety: stateless; safe from any thread. The kernels it creates are immutable and may
@@ -59,8 +62,8 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
   /**
    * Creates a dense kernel with the given options. Cheap: no ND4J memory is allocated until a call.
    *
-   * @param options threads (for the Java work only: GATv2 scores, softmax) and the dense memory
-   *     budget
+   * @param options threads (for the Java work of calls that are not split: GATv2 scores, softmax)
+   *     and the dense memory budget
    * @return an immutable dense kernel
    * @throws NullPointerException if {@code options} is null
    */
@@ -71,6 +74,7 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
     return new DenseAttentionKernel(
         options,
         DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+        DenseBlockPlan.SPLIT_TARGET_BLOCK_FLOATS,
         DenseBlockPlan.MIN_TARGET_ROWS,
         DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
         RowSoftmaxes.preferred());

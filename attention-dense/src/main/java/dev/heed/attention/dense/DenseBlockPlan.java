@@ -24,11 +24,16 @@ import dev.heed.attention.ScoreFunction;
  *       runs along contiguous rows.
  * </ul>
  *
+ * <p>When a call splits its blocks over its threads, each thread holds a block of its own: the
+ * per-row scratch is held {@code blockCopies} times, and blocks are short enough that every thread
+ * gets at least two.
+ *
  * @param blockRows target rows per block, in {@code 1..n}
  * @param fixedBytes bytes that do not depend on the block height (repacked inputs, Java scratch)
- * @param bytesPerBlockRow bytes each row of the block adds
+ * @param bytesPerBlockRow bytes each row of one block adds
+ * @param blockCopies blocks held at once: 1, or the threads a split call runs its blocks on
  */
-record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
+record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow, int blockCopies) {
 
   /**
    * Default upper bound on one score block, in floats (4 MiB): large enough that each ND4J call
@@ -36,6 +41,15 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
    * near the caches. Tuned on the benchmark machine; see benchmarks/results/dense-kernel.md.
    */
   static final long DEFAULT_TARGET_BLOCK_FLOATS = 1L << 20;
+
+  /**
+   * Default upper bound on each thread's score block when a call splits its blocks over its
+   * threads, in floats (8 MiB): each block's products run on one BLAS thread, which packs the other
+   * operand (a head's keys or values) once per product, so taller blocks pack less. Measured on 2
+   * cores (n = 4096, 8 × 64, dot-product scores, process CPU time per call): 480 ms with 512 rows,
+   * 500–520 ms with 256, 480–490 ms with 1024 (benchmarks/RESULTS.md, "Dense path").
+   */
+  static final long SPLIT_TARGET_BLOCK_FLOATS = 1L << 21;
 
   /**
    * Block height the target never goes below on large n (a matrix product with very few rows runs
@@ -49,7 +63,7 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
    * @return total scratch bytes
    */
   long bytesUsed() {
-    return fixedBytes + bytesPerBlockRow * blockRows;
+    return fixedBytes + bytesPerBlockRow * blockRows * blockCopies;
   }
 
   /**
@@ -64,7 +78,7 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
    * @param targetBlockFloats upper bound on {@code blockRows · n}, unless that leaves fewer than
    *     {@code minTargetRows} rows
    * @param minTargetRows the least block height the target allows ({@link #MIN_TARGET_ROWS})
-   * @return the plan
+   * @return the plan, one block at a time
    * @throws MemoryBudgetExceededException if even a one-row block does not fit the budget
    */
   static DenseBlockPlan of(
@@ -76,10 +90,40 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
       long budgetBytes,
       long targetBlockFloats,
       long minTargetRows) {
-    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1 && minTargetRows >= 1;
+    return of(
+        n, score, shape, masked, javaThreads, budgetBytes, targetBlockFloats, minTargetRows, 1);
+  }
+
+  /**
+   * Returns whether the budget holds a one-row block per copy: whether {@link #of(int,
+   * ScoreFunction, HeadShape, boolean, int, long, long, long, int)} would succeed.
+   *
+   * @param n node count, at least 1
+   * @param score the score function
+   * @param shape heads and widths
+   * @param masked whether the pattern is a CSR mask
+   * @param javaThreads threads that each hold one Java score row
+   * @param budgetBytes the dense memory budget
+   * @param blockCopies blocks held at once
+   * @return true if a plan fits
+   */
+  static boolean fits(
+      int n,
+      ScoreFunction score,
+      HeadShape shape,
+      boolean masked,
+      int javaThreads,
+      long budgetBytes,
+      int blockCopies) {
+    return fixedBytes(n, score, shape, masked, javaThreads)
+            + perRowBytes(n, score, shape, masked) * blockCopies
+        <= budgetBytes;
+  }
+
+  private static long fixedBytes(
+      int n, ScoreFunction score, HeadShape shape, boolean masked, int javaThreads) {
     long heads = shape.heads();
     boolean nd4jScores = !(score instanceof ScoreFunction.Gatv2);
-
     long packedKeyWidth = shape.keyDim();
     long packedFloats =
         (long) n * heads * (shape.valueDim() + 1)
@@ -87,9 +131,46 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
     boolean gatv2 = score instanceof ScoreFunction.Gatv2;
     long javaScratchFloats =
         (long) n * javaThreads + (gatv2 && !masked ? (long) n * heads * shape.keyDim() : 0);
-    long fixedBytes = 4 * (packedFloats + javaScratchFloats);
-    long perRowBytes = 4 * ((masked && nd4jScores ? 2L : 1L) * n + shape.valueDim() + 2);
-    long minimum = fixedBytes + perRowBytes;
+    return 4 * (packedFloats + javaScratchFloats);
+  }
+
+  private static long perRowBytes(int n, ScoreFunction score, HeadShape shape, boolean masked) {
+    boolean nd4jScores = !(score instanceof ScoreFunction.Gatv2);
+    return 4 * ((masked && nd4jScores ? 2L : 1L) * n + shape.valueDim() + 2);
+  }
+
+  /**
+   * Plans one call whose threads may each hold a block.
+   *
+   * @param n node count, at least 1
+   * @param score the score function
+   * @param shape heads and widths
+   * @param masked whether the pattern is a CSR mask (not the complete pattern)
+   * @param javaThreads threads that each hold one Java score row
+   * @param budgetBytes the dense memory budget
+   * @param targetBlockFloats upper bound on {@code blockRows · n}, unless that leaves fewer than
+   *     {@code minTargetRows} rows
+   * @param minTargetRows the least block height the target allows ({@link #MIN_TARGET_ROWS})
+   * @param blockCopies blocks held at once (1, or the threads of a split call)
+   * @return the plan
+   * @throws MemoryBudgetExceededException if even one one-row block per copy does not fit the
+   *     budget
+   */
+  static DenseBlockPlan of(
+      int n,
+      ScoreFunction score,
+      HeadShape shape,
+      boolean masked,
+      int javaThreads,
+      long budgetBytes,
+      long targetBlockFloats,
+      long minTargetRows,
+      int blockCopies) {
+    assert n >= 1 && javaThreads >= 1 && targetBlockFloats >= 1 && minTargetRows >= 1;
+    assert blockCopies >= 1;
+    long fixedBytes = fixedBytes(n, score, shape, masked, javaThreads);
+    long perRowBytes = perRowBytes(n, score, shape, masked);
+    long minimum = fixedBytes + perRowBytes * blockCopies;
     if (minimum > budgetBytes) {
       throw new MemoryBudgetExceededException(
           "dense attention over n = "
@@ -107,8 +188,9 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
               + " bytes of scratch ("
               + fixedBytes
               + " for the per-head repacked inputs and Java scratch + "
-              + perRowBytes
-              + " for a one-row block), but the dense memory budget is "
+              + perRowBytes * blockCopies
+              + (blockCopies == 1 ? " for a one-row block" : " for a one-row block per thread")
+              + "), but the dense memory budget is "
               + budgetBytes
               + " bytes; use the sparse path (ComputePath.SPARSE, dependency"
               + " dev.heed:attention-sparse) for sparse graphs, or raise"
@@ -117,9 +199,15 @@ record DenseBlockPlan(int blockRows, long fixedBytes, long bytesPerBlockRow) {
           minimum,
           budgetBytes);
     }
-    long byBudget = (budgetBytes - fixedBytes) / perRowBytes;
+    long byBudget = (budgetBytes - fixedBytes) / (perRowBytes * blockCopies);
     long byTarget = Math.max(minTargetRows, targetBlockFloats / n);
+    if (blockCopies > 1) {
+      // two blocks or more per thread: the threads take blocks in turn, so the last ones to
+      // finish wait for at most one block
+      long byThreads = (n + 2L * blockCopies - 1) / (2L * blockCopies);
+      byTarget = Math.min(byTarget, Math.max(minTargetRows, byThreads));
+    }
     int rows = (int) Math.min(n, Math.min(byBudget, byTarget));
-    return new DenseBlockPlan(rows, fixedBytes, perRowBytes);
+    return new DenseBlockPlan(rows, fixedBytes, perRowBytes, blockCopies);
   }
 }

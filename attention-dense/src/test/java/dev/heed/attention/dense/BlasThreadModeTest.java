@@ -15,7 +15,10 @@ import java.util.SplittableRandom;
 import org.junit.jupiter.api.Test;
 import org.nd4j.linalg.factory.Nd4j;
 
-/** The lazy switching of the BLAS thread count between small and large dense work. */
+/**
+ * The switching of the BLAS thread count between small, split and large dense work: lazy after
+ * small calls, at once after split ones.
+ */
 class BlasThreadModeTest {
 
   /** A BLAS thread count that records every change. */
@@ -74,6 +77,54 @@ class BlasThreadModeTest {
     assertEquals(2, blas.threads);
     mode.exitLarge();
     assertEquals(List.of(1, 2), blas.changes);
+  }
+
+  @Test
+  void aSplitCallSetsOneThreadAndRestoresTheCountWhenItEnds() {
+    FakeBlas blas = new FakeBlas(4);
+    BlasThreadMode mode = blas.mode(true);
+    assertEquals(4, mode.splitThreads());
+    mode.enterSplit();
+    assertEquals(1, blas.threads);
+    assertEquals(4, mode.splitThreads(), "the process's count, not the one set for the call");
+    mode.enterSplit(); // a second split call on another thread
+    mode.exitSplit();
+    assertEquals(1, blas.threads, "restored only after the last split call");
+    mode.exitSplit();
+    assertEquals(4, blas.threads);
+    assertEquals(List.of(1, 4), blas.changes);
+  }
+
+  @Test
+  void aSplitCallLeavesTheModeOfOverlappingCalls() {
+    FakeBlas blas = new FakeBlas(2);
+    BlasThreadMode mode = blas.mode(true);
+    mode.enterSmall();
+    mode.exitSmall(); // one thread left set by the small call
+    mode.enterSmall();
+    mode.enterSplit();
+    mode.exitSplit(); // a small call is still running: one thread stays
+    assertEquals(1, blas.threads);
+    mode.exitSmall();
+    mode.enterSplit();
+    mode.exitSplit(); // nothing else running: the count comes back
+    assertEquals(2, blas.threads);
+    mode.enterLarge();
+    mode.enterSplit(); // a large call uses BLAS's threads: the split call shares them
+    assertEquals(2, blas.threads);
+    mode.exitSplit();
+    mode.exitLarge();
+    assertEquals(List.of(1, 2), blas.changes);
+  }
+
+  @Test
+  void turnedOffNoCallSplits() {
+    FakeBlas blas = new FakeBlas(8);
+    BlasThreadMode mode = blas.mode(false);
+    assertEquals(1, mode.splitThreads());
+    mode.enterSplit();
+    mode.exitSplit();
+    assertEquals(List.of(), blas.changes);
   }
 
   @Test

@@ -197,6 +197,26 @@ class DenseAttentionKernelTest {
     checkAgainstReference(small, randomMask(new Random(78), n, 0.2), kind, 3, 5, 79);
   }
 
+  @ParameterizedTest(name = "{0}")
+  @MethodSource("kinds")
+  void splitCallsMatchFloat64ReferenceWithShortBlocksAndATail(Kind kind) {
+    // n = 1100 is a large call: with dot-product or additive scores and a process of two or more
+    // BLAS threads it is split, each thread taking blocks of 7 rows in turn (157 full blocks and a
+    // tail of 1); GATv2 takes the shared path. Outputs and weights must equal the reference
+    // (ReferenceAttention, float64 evaluation of the equations).
+    int n = 1100;
+    AttentionKernel shortBlocks =
+        new DenseAttentionKernel(
+            new KernelOptions(2, 64L << 20),
+            DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
+            7L * n,
+            1,
+            DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
+            RowSoftmaxes.preferred());
+    checkAgainstReference(shortBlocks, CompletePattern.of(n), kind, 3, 5, 81);
+    checkAgainstReference(shortBlocks, randomMask(new Random(82), n, 0.2), kind, 3, 5, 83);
+  }
+
   static Stream<Kind> kinds() {
     return Stream.of(Kind.values());
   }

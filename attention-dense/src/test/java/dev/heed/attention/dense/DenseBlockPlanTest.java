@@ -1,6 +1,7 @@
 package dev.heed.attention.dense;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
@@ -55,6 +56,42 @@ class DenseBlockPlanTest {
     assertEquals(minimum, e.bytesNeeded());
     assertEquals(minimum - 1, e.budgetBytes());
     assertTrue(e.getMessage().contains("sparse"), e.getMessage());
+  }
+
+  static DenseBlockPlan splitPlan(int n, long budget, int threads) {
+    return DenseBlockPlan.of(
+        n,
+        DOT,
+        SHAPE,
+        false,
+        threads,
+        budget,
+        DenseBlockPlan.SPLIT_TARGET_BLOCK_FLOATS,
+        DenseBlockPlan.MIN_TARGET_ROWS,
+        threads);
+  }
+
+  @Test
+  void aSplitCallHoldsOneBlockPerThreadAndAtLeastTwoBlocksEach() {
+    DenseBlockPlan plan = splitPlan(4096, 512L << 20, 2);
+    assertEquals(512, plan.blockRows(), "8 MiB of scores per thread");
+    assertEquals(plan.fixedBytes() + 2 * 512 * plan.bytesPerBlockRow(), plan.bytesUsed());
+    assertEquals(256, splitPlan(1024, 512L << 20, 2).blockRows(), "two blocks per thread");
+    assertEquals(64, splitPlan(1024, 512L << 20, 16).blockRows(), "never below the minimum");
+  }
+
+  @Test
+  void aSplitCallFitsOnlyWhenTheBudgetHoldsABlockPerThread() {
+    int n = 4096;
+    DenseBlockPlan free = splitPlan(n, Long.MAX_VALUE, 2);
+    long minimum = free.fixedBytes() + 2 * free.bytesPerBlockRow();
+    assertTrue(DenseBlockPlan.fits(n, DOT, SHAPE, false, 2, minimum, 2));
+    assertFalse(DenseBlockPlan.fits(n, DOT, SHAPE, false, 2, minimum - 1, 2));
+    assertEquals(1, splitPlan(n, minimum, 2).blockRows());
+    MemoryBudgetExceededException e =
+        assertThrows(MemoryBudgetExceededException.class, () -> splitPlan(n, minimum - 1, 2));
+    assertEquals(minimum, e.bytesNeeded());
+    assertTrue(e.getMessage().contains("per thread"), e.getMessage());
   }
 
   @Test
