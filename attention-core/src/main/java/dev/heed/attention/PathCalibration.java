@@ -354,21 +354,31 @@ public final class PathCalibration {
         new Spec(d, 'd', DOT_4X16, 1024, 256),
         new Spec(d, 'a', ADD_4X16, 512, 64),
         new Spec(d, 'g', DOT_4X16, 512, 0),
+        // large calls' blocks split over the call's threads: per-pair costs settle from n = 2048
+        new Spec(d, 'd', DOT_4X16, 2048, 0),
+        new Spec(d, 'a', ADD_4X16, 2048, 0),
         // sparse per-head, each score: fixed, rows, entries·heads, entries·heads·width (CSR rows
-        // and, from the one complete-pattern call, the complete pattern's tiles)
+        // and, from the one complete-pattern call, the complete pattern's tiles; the n = 16384
+        // calls'
+        // tables exceed a second-level cache; for dot products of 4 × 16, rows computed whole and,
+        // from the one long-row call, rows taken in blocks)
         new Spec(s, 'd', DOT_4X16, 1024, 8),
         threadSpec(),
         new Spec(s, 'd', DOT_4X4, 2048, 128),
         new Spec(s, 'd', DOT_4X16, 512, 0),
         new Spec(s, 'd', DOT_4X16, 16384, 4),
+        new Spec(s, 'd', DOT_4X16, 2048, 1536),
+        new Spec(s, 'd', DOT_4X16, 16384, 64),
         new Spec(s, 'a', ADD_4X16, 1024, 8),
         new Spec(s, 'a', ADD_4X16, 4096, 128),
         new Spec(s, 'a', ADD_4X64, 2048, 64),
         new Spec(s, 'a', ADD_4X16, 512, 0),
         new Spec(s, 'a', ADD_4X16, 16384, 4),
+        new Spec(s, 'a', ADD_4X16, 16384, 64),
         new Spec(s, 'g', DOT_4X16, 1024, 8),
         new Spec(s, 'g', DOT_4X16, 4096, 64),
         new Spec(s, 'g', DOT_4X16, 512, 0),
+        new Spec(s, 'g', DOT_4X16, 16384, 8),
         // sparse all-heads (additive, 8 × 8), in place and over the packed node table
         new Spec(s, 'a', ADD_8X8, 1024, 4),
         new Spec(s, 'a', ADD_8X8, 4096, 64),

@@ -560,6 +560,11 @@ public final class PathCosts {
           c[i] = numberField(r, older, where, "regimes." + key + "." + older);
           continue;
         }
+        if (!r.has(term) && ZERO_IF_ABSENT.contains(term)) {
+          // a profile written before this term existed did not price its work apart
+          c[i] = 0;
+          continue;
+        }
         c[i] = numberField(r, term, where, "regimes." + key + "." + term);
       }
       coefficients.put(regime, c);
@@ -591,7 +596,12 @@ public final class PathCosts {
   private static final Map<String, String> OLDER_TERMS =
       Map.of(
           CostRegime.COMPLETE_ENTRY_WIDTH, CostRegime.ENTRY_WIDTH,
+          CostRegime.WHOLE_ROW_ENTRY_WIDTH, CostRegime.ENTRY_WIDTH,
           CostRegime.SMALL_PRODUCT, CostRegime.PRODUCT);
+
+  /** Terms added to regimes after profiles were written that such profiles read as 0. */
+  private static final java.util.Set<String> ZERO_IF_ABSENT =
+      java.util.Set.of(CostRegime.FAR_ENTRY_WIDTH);
 
   private static final String HOW_TO_FIX =
       "recalibrate with `heed calibrate` (or PathCalibration.run) to write a valid profile";

@@ -4,6 +4,7 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertSame;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
+import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
 import dev.heed.attention.internal.CostRegime;
 import dev.heed.attention.internal.CostRegime.CallSize;
@@ -104,13 +105,16 @@ class PathCostsTest {
   @Test
   void completePatternEntriesHaveATermOfTheirOwnAndOlderProfilesReadItAsACsrEntry()
       throws IOException {
-    // synthetic coefficients: per-head CSR entries cost 4e-9 s per E·H·(dk + dv), complete-pattern
-    // entries 1e-9; everything else 0
+    // synthetic coefficients: per-head CSR entries cost 4e-9 s per E·H·(dk + dv) (rows computed
+    // whole or in blocks), complete-pattern entries 1e-9; everything else 0
     Map<CostRegime, double[]> c = new java.util.EnumMap<>(CostRegime.class);
     for (CostRegime r : CostRegime.values()) {
       double[] k = new double[r.terms().size()];
       if (r.terms().contains(CostRegime.COMPLETE_ENTRY_WIDTH)) {
         k[r.terms().indexOf(CostRegime.ENTRY_WIDTH)] = 4e-9;
+        if (r.terms().contains(CostRegime.WHOLE_ROW_ENTRY_WIDTH)) {
+          k[r.terms().indexOf(CostRegime.WHOLE_ROW_ENTRY_WIDTH)] = 4e-9;
+        }
         k[r.terms().indexOf(CostRegime.COMPLETE_ENTRY_WIDTH)] = 1e-9;
       }
       c.put(r, k);
@@ -129,6 +133,96 @@ class PathCostsTest {
     assertTrue(!older.contains(CostRegime.COMPLETE_ENTRY_WIDTH), older);
     PathCosts read = PathCosts.read(Files.writeString(dir.resolve("older.json"), older));
     assertEquals(4e-9 * work, read.estimate(n, all, true, DOT, DOT_4X16, 1).sparseSeconds(), 1e-12);
+  }
+
+  @Test
+  void wholeRowEntriesHaveATermOfTheirOwnAndOlderProfilesReadItAsACsrEntry() throws IOException {
+    // synthetic coefficients: per-head CSR entries in blocks cost 4e-9 s per E·H·(dk + dv), in rows
+    // computed whole 1e-9; everything else 0
+    Map<CostRegime, double[]> c = new java.util.EnumMap<>(CostRegime.class);
+    for (CostRegime r : CostRegime.values()) {
+      double[] k = new double[r.terms().size()];
+      if (r.terms().contains(CostRegime.WHOLE_ROW_ENTRY_WIDTH)) {
+        k[r.terms().indexOf(CostRegime.ENTRY_WIDTH)] = 4e-9;
+        k[r.terms().indexOf(CostRegime.WHOLE_ROW_ENTRY_WIDTH)] = 1e-9;
+      }
+      c.put(r, k);
+    }
+    PathCosts costs = new PathCosts(c, 1, 1.0, "synthetic", "", null, "synthetic");
+    int n = 4096;
+    int width = DOT_4X16.heads() * (DOT_4X16.keyDim() + DOT_4X16.valueDim());
+    long shortRows = (long) n * CostRegime.WHOLE_ROW_MAX_ENTRIES;
+    long longRows = shortRows + n;
+    assumeTrue(
+        CostRegime.takesWholeRows(new CallSize(n, shortRows, false, DOT, DOT_4X16, 1)),
+        "whole rows need the Vector API loops");
+    assertEquals(
+        1e-9 * shortRows * width,
+        costs.estimate(n, shortRows, false, DOT, DOT_4X16, 1).sparseSeconds(),
+        1e-12);
+    assertEquals(
+        4e-9 * longRows * width,
+        costs.estimate(n, longRows, false, DOT, DOT_4X16, 1).sparseSeconds(),
+        1e-12);
+    // other shapes and scores take blocks
+    HeadShape dot4x4 = new HeadShape(4, 4, 4);
+    assertEquals(
+        4e-9 * shortRows * 4 * 8,
+        costs.estimate(n, shortRows, false, DOT, dot4x4, 1).sparseSeconds(),
+        1e-12);
+
+    // a profile written before the term: whole rows' entries cost what other CSR entries cost
+    String older = costs.toJson().replaceAll(",\\s*\"whole_row_entry_width\" : [0-9.E-]+", "");
+    assertTrue(!older.contains(CostRegime.WHOLE_ROW_ENTRY_WIDTH), older);
+    PathCosts read = PathCosts.read(Files.writeString(dir.resolve("older-rows.json"), older));
+    assertEquals(
+        4e-9 * shortRows * width,
+        read.estimate(n, shortRows, false, DOT, DOT_4X16, 1).sparseSeconds(),
+        1e-12);
+  }
+
+  @Test
+  void entriesFromBeyondTheCacheCostMoreAndOlderProfilesReadThatAsNothing() throws IOException {
+    // synthetic coefficients: per-head CSR entries cost 4e-9 s per E·H·(dk + dv), those of rows
+    // beyond the second-level cache 2e-9 more per share of the table beyond it; everything else 0
+    Map<CostRegime, double[]> c = new java.util.EnumMap<>(CostRegime.class);
+    for (CostRegime r : CostRegime.values()) {
+      double[] k = new double[r.terms().size()];
+      if (r.terms().contains(CostRegime.FAR_ENTRY_WIDTH)) {
+        k[r.terms().indexOf(CostRegime.ENTRY_WIDTH)] = 4e-9;
+        k[r.terms().indexOf(CostRegime.FAR_ENTRY_WIDTH)] = 2e-9;
+      }
+      c.put(r, k);
+    }
+    PathCosts costs = new PathCosts(c, 1, 1.0, "synthetic", "", null, "synthetic");
+    HeadShape add4x16 = new HeadShape(4, 1, 16);
+    ScoreFunction additive = ScoreFunction.additive(0.2f);
+    int width = 4 * 17;
+    long l2 = dev.heed.attention.internal.CacheSizes.l2Bytes();
+    // a table of about 8 × the cache: about seven eighths of the reads miss it
+    int n = (int) (8 * l2 / (4L * width));
+    long e = 8L * n;
+    double far = 1 - l2 / (4.0 * n * width);
+    assertEquals(7.0 / 8, far, 0.01);
+    assertEquals(
+        (4e-9 + 2e-9 * far) * e * width,
+        costs.estimate(n, e, false, additive, add4x16, 1).sparseSeconds(),
+        1e-9 * 4e-9 * e * width);
+    // a table within the cache
+    int small = (int) (l2 / (8L * width));
+    assertEquals(
+        4e-9 * 8L * small * width,
+        costs.estimate(small, 8L * small, false, additive, add4x16, 1).sparseSeconds(),
+        1e-12);
+
+    // a profile written before the term: no extra cost
+    String older = costs.toJson().replaceAll(",\\s*\"far_entry_width\" : [0-9.E-]+", "");
+    assertTrue(!older.contains(CostRegime.FAR_ENTRY_WIDTH), older);
+    PathCosts read = PathCosts.read(Files.writeString(dir.resolve("older-far.json"), older));
+    assertEquals(
+        4e-9 * e * width,
+        read.estimate(n, e, false, additive, add4x16, 1).sparseSeconds(),
+        1e-9 * 4e-9 * e * width);
   }
 
   @Test

@@ -47,8 +47,16 @@ public enum CostRegime {
    */
   SPARSE_PER_HEAD_ADDITIVE(
       "sparse_per_head_additive", ComputePath.SPARSE, perHeadTerms(), perHead()),
-  /** Sparse per-head path, scaled dot-product scores; terms as the additive regime. */
-  SPARSE_PER_HEAD_DOT("sparse_per_head_dot", ComputePath.SPARSE, perHeadTerms(), perHead()),
+  /**
+   * Sparse per-head path, scaled dot-product scores; terms as the additive regime, and E·H·(dk +
+   * dv) over a CSR graph whose rows the kernel computes whole ({@link #takesWholeRows}) in place of
+   * the CSR term.
+   */
+  SPARSE_PER_HEAD_DOT(
+      "sparse_per_head_dot",
+      ComputePath.SPARSE,
+      dotTerms(),
+      new boolean[] {false, true, true, true, true, true, true}),
   /** Sparse per-head path, GATv2 scores; terms as the additive regime. */
   SPARSE_PER_HEAD_GATV2("sparse_per_head_gatv2", ComputePath.SPARSE, perHeadTerms(), perHead()),
   /** Sparse all-heads path reading the caller's arrays in place: fixed; n rows; E. */
@@ -110,12 +118,82 @@ public enum CostRegime {
   /** The per-head regimes' term of CSR entries, which profiles also held for complete patterns. */
   public static final String ENTRY_WIDTH = "entry_width";
 
+  /**
+   * The per-head regimes' term of CSR entries in rows computed whole ({@link #takesWholeRows}),
+   * which profiles also held as {@link #ENTRY_WIDTH}.
+   */
+  public static final String WHOLE_ROW_ENTRY_WIDTH = "whole_row_entry_width";
+
+  /**
+   * The longest CSR row the sparse per-head path computes whole with dot-product scores (its scores
+   * held for the whole row, exact maxima, one weighted sum); longer rows run in blocks.
+   */
+  public static final int WHOLE_ROW_MAX_ENTRIES = 1024;
+
+  /**
+   * The per-head regimes' term of CSR entries whose key and value rows come from beyond one core's
+   * second-level cache ({@link #farFraction}); a profile without it reads 0.
+   */
+  public static final String FAR_ENTRY_WIDTH = "far_entry_width";
+
   private static List<String> perHeadTerms() {
-    return List.of("fixed", "row", "entry", ENTRY_WIDTH, COMPLETE_ENTRY_WIDTH);
+    return List.of("fixed", "row", "entry", ENTRY_WIDTH, COMPLETE_ENTRY_WIDTH, FAR_ENTRY_WIDTH);
+  }
+
+  private static List<String> dotTerms() {
+    return List.of(
+        "fixed",
+        "row",
+        "entry",
+        ENTRY_WIDTH,
+        COMPLETE_ENTRY_WIDTH,
+        FAR_ENTRY_WIDTH,
+        WHOLE_ROW_ENTRY_WIDTH);
   }
 
   private static boolean[] perHead() {
-    return new boolean[] {false, true, true, true, true};
+    return new boolean[] {false, true, true, true, true, true};
+  }
+
+  /**
+   * The share of a CSR call's key and value row reads expected to miss one core's second-level
+   * cache: {@code max(0, 1 − L2 / table)}, the table being n·H·(dk + dv) floats, for sources drawn
+   * at random (common practice for a cache under uniform random access). 0 for the complete
+   * pattern, whose tiles read each block of sources from cache.
+   *
+   * @param size the call
+   * @param l2Bytes one core's second-level cache, in bytes
+   * @return in {@code [0, 1)}
+   */
+  public static double farFraction(CallSize size, long l2Bytes) {
+    if (size.complete()) {
+      return 0;
+    }
+    HeadShape shape = size.shape();
+    double table =
+        4.0 * size.nodes() * shape.heads() * (double) (shape.keyDim() + shape.valueDim());
+    return table <= l2Bytes ? 0 : 1 - l2Bytes / table;
+  }
+
+  /**
+   * Whether the sparse per-head path computes this call's rows whole: scaled dot-product scores, 4
+   * heads of 16 key and 16 value floats, the Vector API loops on, a CSR graph (not the complete
+   * pattern) and rows of at most {@value #WHOLE_ROW_MAX_ENTRIES} entries on average. The kernel
+   * decides row by row, so for a graph whose rows straddle the limit this is the average row's
+   * choice; it also assumes vectors of at least 8 floats (AVX2 and wider), which the kernel checks.
+   *
+   * @param size the call
+   * @return true if the call's entries are priced as whole rows'
+   */
+  public static boolean takesWholeRows(CallSize size) {
+    HeadShape shape = size.shape();
+    return size.score() instanceof ScoreFunction.ScaledDotProduct
+        && !size.complete()
+        && SparseSwitches.VECTOR_LOOPS
+        && shape.heads() == 4
+        && shape.keyDim() == 16
+        && shape.valueDim() == 16
+        && size.entries() <= (long) WHOLE_ROW_MAX_ENTRIES * Math.max(1, size.nodes());
   }
 
   /**
@@ -252,14 +330,27 @@ public enum CostRegime {
               small ? n * n * h * width : 0
             };
           }
-          case SPARSE_PER_HEAD_ADDITIVE, SPARSE_PER_HEAD_DOT, SPARSE_PER_HEAD_GATV2 ->
+          case SPARSE_PER_HEAD_ADDITIVE, SPARSE_PER_HEAD_GATV2 ->
               new double[] {
                 1,
                 n,
                 e * h,
                 size.complete() ? 0 : e * h * width,
-                size.complete() ? e * h * width : 0
+                size.complete() ? e * h * width : 0,
+                e * h * width * farFraction(size, CacheSizes.l2Bytes())
               };
+          case SPARSE_PER_HEAD_DOT -> {
+            boolean whole = takesWholeRows(size);
+            yield new double[] {
+              1,
+              n,
+              e * h,
+              size.complete() || whole ? 0 : e * h * width,
+              size.complete() ? e * h * width : 0,
+              e * h * width * farFraction(size, CacheSizes.l2Bytes()),
+              whole ? e * h * width : 0
+            };
+          }
           case SPARSE_ALL_HEADS, SPARSE_ALL_HEADS_PACKED -> new double[] {1, n, e};
         };
     double speedUp = 1 + parallelEfficiency * (threadsUsed(size) - 1);

@@ -16,6 +16,12 @@ import org.junit.jupiter.api.Test;
  */
 class CostRegimeAgreementTest {
 
+  private static final List<ScoreFunction> SCORES =
+      List.of(
+          ScoreFunction.additive(0.2f),
+          ScoreFunction.scaledDotProduct(),
+          ScoreFunction.gatv2(0.2f, new float[64]));
+
   @Test
   void thresholdsMatchTheKernels() {
     assertEquals(
@@ -24,6 +30,46 @@ class CostRegimeAgreementTest {
         CsrKernelVariant.DEFAULT_MIN_COST_PER_THREAD, CostRegime.SPARSE_MIN_COST_PER_THREAD);
     assertEquals(4 * PackedNodeTable.FACTORED_ROW, CostRegime.PACKED_ROW_BYTES);
     assertEquals(AllHeadsMath.HEADS, CostRegime.ALL_HEADS_HEADS);
+    assertEquals(PerHeadPass.ROW_ENTRIES, CostRegime.WHOLE_ROW_MAX_ENTRIES);
+  }
+
+  @Test
+  void wholeRowChoicesMatchTheKernels() {
+    PerHeadMath math = RowMaths.preferred().perHead();
+    List<HeadShape> shapes =
+        List.of(
+            new HeadShape(4, 16, 16),
+            new HeadShape(4, 1, 16),
+            new HeadShape(8, 8, 8),
+            new HeadShape(4, 16, 8),
+            new HeadShape(2, 16, 16));
+    int n = 2048;
+    for (ScoreFunction score : SCORES) {
+      for (HeadShape shape : shapes) {
+        for (int degree : new int[] {8, CostRegime.WHOLE_ROW_MAX_ENTRIES, 1536}) {
+          for (boolean complete : new boolean[] {false, true}) {
+            long entries = complete ? (long) n * n : (long) n * degree;
+            CallSize size = new CallSize(n, entries, complete, score, shape, 2);
+            boolean kernelWhole =
+                score instanceof ScoreFunction.ScaledDotProduct
+                    && !complete
+                    && degree <= PerHeadPass.ROW_ENTRIES
+                    && math.scoresWholeRows(shape.heads(), shape.keyDim(), shape.valueDim());
+            assertEquals(
+                kernelWhole,
+                CostRegime.takesWholeRows(size),
+                "whole rows: "
+                    + score
+                    + " "
+                    + shape
+                    + " degree="
+                    + degree
+                    + " complete="
+                    + complete);
+          }
+        }
+      }
+    }
   }
 
   @Test
@@ -33,14 +79,9 @@ class CostRegimeAgreementTest {
     while (PackedNodeTable.bytes(firstPacked) < CsrKernelVariant.DEFAULT_MIN_PACKED_TABLE_BYTES) {
       firstPacked++;
     }
-    List<ScoreFunction> scores =
-        List.of(
-            ScoreFunction.additive(0.2f),
-            ScoreFunction.scaledDotProduct(),
-            ScoreFunction.gatv2(0.2f, new float[64]));
     List<HeadShape> shapes =
         List.of(new HeadShape(8, 1, 8), new HeadShape(8, 8, 8), new HeadShape(4, 1, 16));
-    for (ScoreFunction score : scores) {
+    for (ScoreFunction score : SCORES) {
       for (HeadShape shape : shapes) {
         if (score instanceof ScoreFunction.Additive && shape.keyDim() != 1) {
           continue;
