@@ -354,9 +354,13 @@ public final class PathCalibration {
         new Spec(d, 'd', DOT_4X16, 1024, 256),
         new Spec(d, 'a', ADD_4X16, 512, 64),
         new Spec(d, 'g', DOT_4X16, 512, 0),
-        // large calls' blocks split over the call's threads: per-pair costs settle from n = 2048
+        // large calls whose per-pair costs have settled, and split calls (blocks over the call's
+        // own threads)
         new Spec(d, 'd', DOT_4X16, 2048, 0),
         new Spec(d, 'a', ADD_4X16, 2048, 0),
+        new Spec(d, 'd', DOT_4X16, 4096, 0),
+        new Spec(d, 'a', ADD_4X16, 3072, 0),
+        new Spec(d, 'd', DOT_4X4, 3072, 0),
         // sparse per-head, each score: fixed, rows, entries·heads, entries·heads·width (CSR rows
         // and, from the one complete-pattern call, the complete pattern's tiles; the n = 16384
         // calls'

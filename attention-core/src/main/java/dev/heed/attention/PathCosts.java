@@ -597,7 +597,8 @@ public final class PathCosts {
       Map.of(
           CostRegime.COMPLETE_ENTRY_WIDTH, CostRegime.ENTRY_WIDTH,
           CostRegime.WHOLE_ROW_ENTRY_WIDTH, CostRegime.ENTRY_WIDTH,
-          CostRegime.SMALL_PRODUCT, CostRegime.PRODUCT);
+          CostRegime.SMALL_PRODUCT, CostRegime.PRODUCT,
+          CostRegime.SPLIT_PRODUCT, CostRegime.PRODUCT);
 
   /** Terms added to regimes after profiles were written that such profiles read as 0. */
   private static final java.util.Set<String> ZERO_IF_ABSENT =

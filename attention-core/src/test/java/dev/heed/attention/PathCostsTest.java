@@ -226,6 +226,47 @@ class PathCostsTest {
   }
 
   @Test
+  void splitDenseCallsPriceTheirProductsApartAndOlderProfilesReadTheLargeTerm() throws IOException {
+    // synthetic coefficients: large calls' products 1e-11 s per n²·H·(dk + dv), split calls'
+    // 5e-12; everything else 0
+    Map<CostRegime, double[]> c = new java.util.EnumMap<>(CostRegime.class);
+    for (CostRegime r : CostRegime.values()) {
+      double[] k = new double[r.terms().size()];
+      if (r == CostRegime.DENSE) {
+        k[r.terms().indexOf(CostRegime.PRODUCT)] = 1e-11;
+        k[r.terms().indexOf(CostRegime.SPLIT_PRODUCT)] = 5e-12;
+      }
+      c.put(r, k);
+    }
+    PathCosts costs = new PathCosts(c, 2, 1.0, "synthetic", "", null, "synthetic");
+    double work = DOT_4X16.heads() * (DOT_4X16.keyDim() + DOT_4X16.valueDim());
+    // 2896² < 2^23 <= 2897²
+    assertEquals(
+        1e-11 * 2896.0 * 2896 * work,
+        costs.estimate(2896, 2896L * 2896, true, DOT, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+    assertEquals(
+        5e-12 * 2897.0 * 2897 * work,
+        costs.estimate(2897, 2897L * 2897, true, DOT, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+    // GATv2 calls do not split
+    ScoreFunction gatv2 = ScoreFunction.gatv2(0.2f, new float[64]);
+    assertEquals(
+        1e-11 * 2897.0 * 2897 * work,
+        costs.estimate(2897, 2897L * 2897, true, gatv2, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+
+    // a profile written before the term: split calls' products cost what large ones cost
+    String older = costs.toJson().replaceAll(",\\s*\"split_product\" : [0-9.E-]+", "");
+    assertTrue(!older.contains(CostRegime.SPLIT_PRODUCT), older);
+    PathCosts read = PathCosts.read(Files.writeString(dir.resolve("older-split.json"), older));
+    assertEquals(
+        1e-11 * 2897.0 * 2897 * work,
+        read.estimate(2897, 2897L * 2897, true, DOT, DOT_4X16, 2).denseSeconds(),
+        1e-12);
+  }
+
+  @Test
   void smallDenseCallsPriceTheirProductsOnOneThreadAndOlderProfilesReadTheLargeTerm()
       throws IOException {
     // synthetic coefficients: large calls' products 1e-11 s per n²·H·(dk + dv), small calls'

@@ -31,14 +31,16 @@ public enum CostRegime {
    * The dense kernel: a fixed cost; its matrix products, n²·H·(dk + dv) (BLAS threads, not scaled);
    * its per-score-element Java work, n²·H (softmax; parallel); the CSR mask, n²·H for a CSR pattern
    * (ND4J adds); GATv2's Java scores, H·dk per scored pair (n² complete, E masked; parallel); the
-   * matrix products of a small call ({@link #isSmallDenseCall}), n²·H·(dk + dv) on one BLAS thread.
-   * A small call runs on one thread throughout, so its parallel terms are not divided.
+   * matrix products of a small call ({@link #isSmallDenseCall}), n²·H·(dk + dv) on one BLAS thread;
+   * the matrix products of a split call ({@link #isSplitDenseCall}), n²·H·(dk + dv), each block's
+   * on one BLAS thread of the call's own threads. A small call runs on one thread throughout, so
+   * its parallel terms are not divided.
    */
   DENSE(
       "dense",
       ComputePath.DENSE,
-      List.of("fixed", "product", "element", "mask", "gatv2", "small_product"),
-      new boolean[] {false, false, true, false, true, false}),
+      List.of("fixed", "product", "element", "mask", "gatv2", "small_product", "split_product"),
+      new boolean[] {false, false, true, false, true, false, false}),
   /**
    * Sparse per-head path, additive (GAT) scores: fixed; n rows; E·H; E·H·(dk + dv) over a CSR
    * graph; E·H·(dk + dv) over the complete pattern, whose rows run in tiles that share each block
@@ -88,6 +90,13 @@ public enum CostRegime {
    */
   public static final long DENSE_SMALL_CALL_PAIRS = 1L << 19;
 
+  /**
+   * A dense call over at least this many node pairs (n of 2,897 and more), except with GATv2
+   * scores, may split its row blocks over its own threads, each block's products on one BLAS thread
+   * ({@link #isSplitDenseCall}).
+   */
+  public static final long DENSE_SPLIT_MIN_PAIRS = 1L << 23;
+
   /** Cost units (entries + rows) per thread below which the sparse path uses fewer threads. */
   public static final long SPARSE_MIN_COST_PER_THREAD = 1L << 14;
 
@@ -108,6 +117,9 @@ public enum CostRegime {
 
   /** The dense regime's term of a small call's matrix products. */
   public static final String SMALL_PRODUCT = "small_product";
+
+  /** The dense regime's term of a split call's matrix products. */
+  public static final String SPLIT_PRODUCT = "split_product";
 
   /** The dense regime's term of matrix products, which profiles also held for small calls. */
   public static final String PRODUCT = "product";
@@ -284,6 +296,20 @@ public enum CostRegime {
   }
 
   /**
+   * Whether the dense kernel may run a call over n nodes with this score as a split call: its row
+   * blocks taken in turn by the call's own threads, each block's products on one BLAS thread. The
+   * kernel splits such a call when the Vector API softmax runs, the process has more than one BLAS
+   * thread and the memory budget holds a block per thread; the cost model assumes it does.
+   *
+   * @param n the node count
+   * @param score the score function
+   * @return true for a call the kernel splits where it can
+   */
+  public static boolean isSplitDenseCall(int n, ScoreFunction score) {
+    return !(score instanceof ScoreFunction.Gatv2) && (long) n * n >= DENSE_SPLIT_MIN_PAIRS;
+  }
+
+  /**
    * Returns the threads a call uses: for the sparse path, as the kernel decides (fewer for small
    * calls, at most n); for the dense path's Java work, all of them, or one for a small call.
    *
@@ -321,13 +347,15 @@ public enum CostRegime {
         switch (this) {
           case DENSE -> {
             boolean small = isSmallDenseCall(size.nodes(), size.score());
+            boolean split = isSplitDenseCall(size.nodes(), size.score());
             yield new double[] {
               1,
-              small ? 0 : n * n * h * width,
+              small || split ? 0 : n * n * h * width,
               n * n * h,
               size.complete() ? 0 : n * n * h,
               size.score() instanceof ScoreFunction.Gatv2 ? e * h * shape.keyDim() : 0,
-              small ? n * n * h * width : 0
+              small ? n * n * h * width : 0,
+              split ? n * n * h * width : 0
             };
           }
           case SPARSE_PER_HEAD_ADDITIVE, SPARSE_PER_HEAD_GATV2 ->

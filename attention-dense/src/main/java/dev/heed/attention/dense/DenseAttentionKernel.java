@@ -111,9 +111,18 @@ final class DenseAttentionKernel implements AttentionKernel {
    */
   private static final long PARALLEL_MIN_WORK = 1L << 18;
 
+  /**
+   * Least n² of a call that splits its blocks over its own threads (n of 2,897 and more): smaller
+   * calls, of some tens of milliseconds at 4 heads × 16, ran in phases about 1.6–1.8× slower with
+   * their two threads (as short two-thread sparse calls do on the reference machine, where the OS
+   * can place both on one core), which split calls at n = 4096 did not show.
+   */
+  static final long SPLIT_MIN_PAIRS = CostRegime.DENSE_SPLIT_MIN_PAIRS;
+
   private final KernelOptions options;
   private final long targetBlockFloats;
   private final long splitTargetBlockFloats;
+  private final long splitMinPairs;
   private final long minTargetRows;
   private final double unshiftedExpLimit;
   private final RowSoftmax rowSoftmax;
@@ -164,6 +173,38 @@ final class DenseAttentionKernel implements AttentionKernel {
       long minTargetRows,
       double unshiftedExpLimit,
       RowSoftmax rowSoftmax) {
+    this(
+        options,
+        targetBlockFloats,
+        splitTargetBlockFloats,
+        SPLIT_MIN_PAIRS,
+        minTargetRows,
+        unshiftedExpLimit,
+        rowSoftmax);
+  }
+
+  /**
+   * Creates the kernel with its own block target and least size for split calls.
+   *
+   * @param options threads and budget
+   * @param targetBlockFloats upper bound on one score block (rows · n)
+   * @param splitTargetBlockFloats upper bound on each thread's score block when a call splits its
+   *     blocks over its threads ({@link DenseBlockPlan#SPLIT_TARGET_BLOCK_FLOATS})
+   * @param splitMinPairs least n² of a call that splits ({@link #SPLIT_MIN_PAIRS}; tests pass 0)
+   * @param minTargetRows least block height the target allows (the budget may still force less)
+   * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum
+   * @param rowSoftmax the Java softmax of score rows, or null to take the exponentials with ND4J's
+   *     ops
+   */
+  DenseAttentionKernel(
+      KernelOptions options,
+      long targetBlockFloats,
+      long splitTargetBlockFloats,
+      long splitMinPairs,
+      long minTargetRows,
+      double unshiftedExpLimit,
+      RowSoftmax rowSoftmax) {
+    this.splitMinPairs = splitMinPairs;
     this.options = options;
     this.targetBlockFloats = targetBlockFloats;
     this.splitTargetBlockFloats = splitTargetBlockFloats;
@@ -223,7 +264,10 @@ final class DenseAttentionKernel implements AttentionKernel {
     // A large call on the Java route (not GATv2) splits its blocks over as many threads of its
     // own as BLAS has, each block's products on one BLAS thread (see the class comment), when
     // the budget holds a block per thread.
-    int splitThreads = !small && !gatv2 && rowSoftmax != null ? blasThreads.splitThreads() : 1;
+    int splitThreads =
+        !small && !gatv2 && rowSoftmax != null && (long) n * n >= splitMinPairs
+            ? blasThreads.splitThreads()
+            : 1;
     boolean split =
         splitThreads > 1
             && DenseBlockPlan.fits(n, score, shape, masked, splitThreads, budget, splitThreads);

@@ -210,6 +210,7 @@ class DenseAttentionKernelTest {
             new KernelOptions(2, 64L << 20),
             DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
             7L * n,
+            0,
             1,
             DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
             RowSoftmaxes.preferred());
