@@ -149,34 +149,6 @@ final class DenseAttentionKernel implements AttentionKernel {
         options,
         targetBlockFloats,
         targetBlockFloats,
-        minTargetRows,
-        unshiftedExpLimit,
-        rowSoftmax);
-  }
-
-  /**
-   * Creates the kernel with its own block target for split calls.
-   *
-   * @param options threads and budget
-   * @param targetBlockFloats upper bound on one score block (rows · n)
-   * @param splitTargetBlockFloats upper bound on each thread's score block when a call splits its
-   *     blocks over its threads ({@link DenseBlockPlan#SPLIT_TARGET_BLOCK_FLOATS})
-   * @param minTargetRows least block height the target allows (the budget may still force less)
-   * @param unshiftedExpLimit score bound up to which exp is taken without the row maximum
-   * @param rowSoftmax the Java softmax of score rows, or null to take the exponentials with ND4J's
-   *     ops
-   */
-  DenseAttentionKernel(
-      KernelOptions options,
-      long targetBlockFloats,
-      long splitTargetBlockFloats,
-      long minTargetRows,
-      double unshiftedExpLimit,
-      RowSoftmax rowSoftmax) {
-    this(
-        options,
-        targetBlockFloats,
-        splitTargetBlockFloats,
         SPLIT_MIN_PAIRS,
         minTargetRows,
         unshiftedExpLimit,

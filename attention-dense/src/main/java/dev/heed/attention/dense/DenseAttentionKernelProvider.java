@@ -75,6 +75,7 @@ public final class DenseAttentionKernelProvider implements AttentionKernelProvid
         options,
         DenseBlockPlan.DEFAULT_TARGET_BLOCK_FLOATS,
         DenseBlockPlan.SPLIT_TARGET_BLOCK_FLOATS,
+        DenseAttentionKernel.SPLIT_MIN_PAIRS,
         DenseBlockPlan.MIN_TARGET_ROWS,
         DenseAttentionKernel.UNSHIFTED_EXP_LIMIT,
         RowSoftmaxes.preferred());
