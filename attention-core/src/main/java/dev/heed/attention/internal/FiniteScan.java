@@ -19,6 +19,19 @@ public interface FiniteScan {
   int firstNonFinite(float[] values);
 
   /**
+   * Returns whether every element of {@code values[from..to-1]} is finite; the plain loop unless an
+   * implementation has a faster one.
+   *
+   * @param values input, not modified
+   * @param from first index to look at
+   * @param to one past the last index to look at
+   * @return true if no element in the range is NaN or infinite
+   */
+  default boolean isFinite(float[] values, int from, int to) {
+    return firstNonFinite(values, from, to) < 0;
+  }
+
+  /**
    * The plain loop, and the reference the vector form must agree with.
    *
    * @param values input, not modified

@@ -50,6 +50,16 @@ public final class VectorFiniteScan implements FiniteScan {
     return -1;
   }
 
+  @Override
+  public boolean isFinite(float[] values, int from, int to) {
+    for (int c = from; c < to; c += CHUNK) {
+      if (!chunkIsFinite(values, c, Math.min(to, c + CHUNK))) {
+        return false;
+      }
+    }
+    return true;
+  }
+
   private static boolean chunkIsFinite(float[] values, int from, int to) {
     // four sums, so that the adds do not wait on each other
     FloatVector z0 = FloatVector.zero(SPECIES);

@@ -55,6 +55,37 @@ class FiniteScanTest {
   }
 
   @Test
+  void rangeScanSeesOnlyItsRange() {
+    int chunk = 1 << 14;
+    int length = 3 * chunk + 77;
+    Random random = new Random(0xF1417FL);
+    float[] values = new float[length];
+    for (int i = 0; i < length; i++) {
+      values[i] = (float) random.nextGaussian();
+    }
+    int[][] ranges = {{0, 0}, {0, 1}, {5, 12}, {chunk - 3, chunk + 9}, {7, length}, {0, length}};
+    for (FiniteScan scan : List.of(FiniteScans.preferred(), FiniteScans.plain())) {
+      for (int[] r : ranges) {
+        String where = scan + ", range " + r[0] + ".." + r[1];
+        assertTrue(scan.isFinite(values, r[0], r[1]), where);
+        for (int at : new int[] {r[0] - 1, r[0], r[1] - 1, r[1]}) {
+          if (at < 0 || at >= length) {
+            continue;
+          }
+          for (float bad : BAD) {
+            float saved = values[at];
+            values[at] = bad;
+            boolean inside = at >= r[0] && at < r[1];
+            assertEquals(
+                !inside, scan.isFinite(values, r[0], r[1]), where + ", " + bad + " at " + at);
+            values[at] = saved;
+          }
+        }
+      }
+    }
+  }
+
+  @Test
   void vectorScanRunsWhereTheBuildExpectsIt() {
     // The build passes --add-modules jdk.incubator.vector and this property to the test JVM (as
     // for the dense softmax); the check must then take the vector form.

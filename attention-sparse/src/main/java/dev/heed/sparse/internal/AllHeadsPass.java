@@ -2,7 +2,10 @@ package dev.heed.sparse.internal;
 
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.ScoreFunction;
+import dev.heed.attention.internal.FiniteScan;
+import dev.heed.attention.internal.FiniteScans;
 import java.util.Arrays;
+import java.util.BitSet;
 
 /**
  * What the two all-heads passes share: additive (GAT) scores with {@link AllHeadsMath#HEADS} heads
@@ -20,17 +23,29 @@ import java.util.Arrays;
  *
  * <p>Node rows are read from the caller's arrays or from the packed node table ({@link
  * PackedNodeTable}), whichever the subclass was given; this class only needs where a node's value
- * row starts and how long a table row is.
+ * row starts and how long a table row is. A row of one entry always copies its source's value row
+ * from the caller's array (the exact floats, whatever the table holds), so the table needs rows
+ * only for the sources of longer rows ({@link TableRowReads}): {@link #fill} packs those and only
+ * checks the others' inputs. (The loads ahead still touch a row of one entry's table row: skipping
+ * those rows there cost more than the loads.)
  *
  * <p>Thread safety: as {@link CsrPass}.
  */
 abstract class AllHeadsPass extends CsrPass {
+
+  private static final FiniteScan FINITE = FiniteScans.preferred();
 
   final AllHeadsMath math;
   final float slope;
 
   /** The packed node table, or null: keys and values in the caller's arrays. */
   final float[] table;
+
+  /**
+   * The nodes whose table rows are read ({@link TableRowReads}), or null: every node's (or no
+   * table).
+   */
+  private final BitSet tableReads;
 
   /** Where value rows are read: the table, or the caller's value array. */
   final float[] valueRows;
@@ -55,8 +70,10 @@ abstract class AllHeadsPass extends CsrPass {
    * firstRow} floats later.
    *
    * @param keysInTable whether the exact path reads key terms from the table in place
-   * @param roundedValues whether the table's values are rounded (bfloat16): the exact softmax and
-   *     one-entry rows then read the caller's value array
+   * @param roundedValues whether the table's values are rounded (bfloat16): the exact softmax then
+   *     reads the caller's value array
+   * @param tableReads the nodes whose table rows are read ({@link TableRowReads}), or null to fill
+   *     every node's row; null without a table
    */
   AllHeadsPass(
       CsrCall call,
@@ -67,10 +84,13 @@ abstract class AllHeadsPass extends CsrPass {
       int firstRow,
       int firstValueRow,
       int rowStride,
-      boolean roundedValues) {
+      boolean roundedValues,
+      BitSet tableReads) {
     super(call, prefetch);
     assert applies(call.score(), call.shape()) && rowMath.servesAllHeads();
     assert !keysInTable || table != null;
+    assert tableReads == null || table != null;
+    this.tableReads = tableReads;
     this.math = rowMath.allHeads();
     this.spans = rowMath.perHead();
     this.slope = ((ScoreFunction.Additive) call.score()).negativeSlope();
@@ -96,11 +116,56 @@ abstract class AllHeadsPass extends CsrPass {
   }
 
   /**
+   * Fills the packed node table's rows that are read among nodes {@code from..to-1} ({@link
+   * #tableReads}) and checks the other nodes' inputs as {@link #pack} would.
+   *
+   * @return true if every key and value float read is finite
+   */
+  final boolean fill(int from, int to) {
+    if (tableReads == null) {
+      return pack(from, to);
+    }
+    boolean finite = true;
+    int c = from;
+    while (c < to) {
+      int read = tableReads.nextSetBit(c);
+      int unread = read < 0 || read > to ? to : read;
+      if (unread > c) {
+        finite &= checkUnpacked(c, unread);
+        c = unread;
+      }
+      if (c < to) {
+        int end = Math.min(to, tableReads.nextClearBit(c));
+        finite &= pack(c, end);
+        c = end;
+      }
+    }
+    return finite;
+  }
+
+  /**
    * Fills the packed node table for nodes {@code from..to-1}.
    *
    * @return true if every key and value float read is finite
    */
   abstract boolean pack(int from, int to);
+
+  /**
+   * Checks what {@link #pack} would check for nodes {@code from..to-1} without filling their rows.
+   *
+   * @return true if every float checked is finite
+   */
+  abstract boolean checkUnpacked(int from, int to);
+
+  /** Whether the values of nodes {@code from..to-1} are finite. */
+  final boolean valuesFinite(int from, int to) {
+    return FINITE.isFinite(value, from * valueWidth, to * valueWidth);
+  }
+
+  /** Whether the key terms of nodes {@code from..to-1} are finite. */
+  final boolean keysFinite(int from, int to) {
+    return FINITE.isFinite(key, from * keyWidth, to * keyWidth);
+  }
 
   /** Start of node c's value row in {@link #valueRows}. */
   final int valueRow(int c) {
@@ -177,13 +242,14 @@ abstract class AllHeadsPass extends CsrPass {
    * A whole row of at most {@link #BLOCK} entries: its {@code count} entries have their columns at
    * {@code columns[offset..]} and, if {@code keys} is not null, their key rows at {@code
    * keys[offset·8..]}; {@code firstEntry} is the CSR index of its first entry. A row of one entry
-   * is {@link AllHeadsMath#singleEntryRow}: the same output bits as any other way, and a weight of
-   * exactly 1 per head (every score here is finite: non-finite ones are recomputed, clamped).
+   * is {@link AllHeadsMath#singleEntryRow} of the caller's value row: the same output bits as any
+   * other way, and a weight of exactly 1 per head (every score here is finite: non-finite ones are
+   * recomputed, clamped).
    */
   private void shortRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     if (count == 1) {
-      math.singleEntryRow(exactValues, exactValueRow(columns[offset]), out, i * valueWidth);
+      math.singleEntryRow(value, columns[offset] * valueWidth, out, i * valueWidth);
       if (weights != null) {
         int w = (int) (firstEntry * heads);
         Arrays.fill(weights, w, w + heads, 1f);

@@ -1,5 +1,7 @@
 package dev.heed.sparse.internal;
 
+import java.util.BitSet;
+
 /**
  * The all-heads path with the exact online softmax ({@link AllHeadsPass}): per row, scores, row
  * maxima and exponentials. A row that fits in one block runs in one call ({@link
@@ -17,10 +19,13 @@ final class ExactAllHeadsPass extends AllHeadsPass {
   /**
    * Creates the pass.
    *
-   * @param table the packed node table in its exact layout, filled by {@link #pack} before any row
+   * @param table the packed node table in its exact layout, filled by {@link #fill} before any row
    *     runs; or null to read the caller's arrays
+   * @param tableReads the nodes whose table rows are read ({@link TableRowReads}), or null: every
+   *     node's; null without a table
    */
-  ExactAllHeadsPass(CsrCall call, RowMath math, boolean prefetch, float[] table) {
+  ExactAllHeadsPass(
+      CsrCall call, RowMath math, boolean prefetch, float[] table, BitSet tableReads) {
     super(
         call,
         math,
@@ -30,13 +35,20 @@ final class ExactAllHeadsPass extends AllHeadsPass {
         table == null ? 0 : PackedNodeTable.EXACT_OFFSET,
         table == null ? 0 : PackedNodeTable.exactValueRow(0),
         table == null ? AllHeadsMath.HEADS * AllHeadsMath.HEADS : PackedNodeTable.EXACT_ROW,
-        false);
+        false,
+        tableReads);
   }
 
   @Override
   boolean pack(int from, int to) {
     assert table != null;
     return math.pack(key, value, from, to, table);
+  }
+
+  /** The exact layout's copy checks key terms and values. */
+  @Override
+  boolean checkUnpacked(int from, int to) {
+    return keysFinite(from, to) && valuesFinite(from, to);
   }
 
   @Override

@@ -1,6 +1,7 @@
 package dev.heed.sparse.internal;
 
 import java.util.Arrays;
+import java.util.BitSet;
 
 /**
  * The all-heads path with factored weights ({@link FactoredMath}) over the factored layout of the
@@ -36,12 +37,14 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
   /**
    * Creates the pass over a CSR graph.
    *
-   * @param table the packed node table, filled in its factored layout by {@link #pack} before any
+   * @param table the packed node table, filled in its factored layout by {@link #fill} before any
    *     row runs
    * @param keyMax input, not modified: each head's largest key term over all nodes
    * @param bfloat16 whether the table holds its value rows as bfloat16 ({@link
    *     PackedNodeTable#BFLOAT16_ROW}); rows recomputed exactly, and rows of one entry, then read
    *     the caller's float32 values
+   * @param tableReads the nodes whose table rows are read ({@link TableRowReads}), or null: every
+   *     node's
    */
   FactoredAllHeadsPass(
       CsrCall call,
@@ -49,7 +52,8 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
       boolean prefetch,
       float[] table,
       float[] keyMax,
-      boolean bfloat16) {
+      boolean bfloat16,
+      BitSet tableReads) {
     super(
         call,
         math,
@@ -59,7 +63,8 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
         PackedNodeTable.FACTORED_OFFSET,
         bfloat16 ? PackedNodeTable.bfloat16ValueRow(0) : PackedNodeTable.factoredValueRow(0),
         bfloat16 ? PackedNodeTable.BFLOAT16_ROW : PackedNodeTable.FACTORED_ROW,
-        bfloat16);
+        bfloat16,
+        tableReads);
     assert csr != null && table != null && keyMax.length == AllHeadsMath.HEADS;
     this.factored = math.factored();
     this.keyMax = keyMax;
@@ -71,6 +76,12 @@ final class FactoredAllHeadsPass extends AllHeadsPass {
     return bfloat16
         ? factored.packBfloat16(key, value, from, to, keyMax, slope, table)
         : factored.pack(key, value, from, to, keyMax, slope, table);
+  }
+
+  /** The factored copy checks values only: the key maxima have checked every key term. */
+  @Override
+  boolean checkUnpacked(int from, int to) {
+    return valuesFinite(from, to);
   }
 
   /** Factored rows read no key terms. */
