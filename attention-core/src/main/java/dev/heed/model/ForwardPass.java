@@ -216,7 +216,7 @@ final class ForwardPass {
     }
     PathEstimate estimate = costs.estimate(pattern, score, shape, threads);
     layerEstimate = layerEstimate == null ? estimate : layerEstimate.plus(estimate);
-    ComputePath path = estimate.faster();
+    ComputePath path = PathChoice.autoPath(estimate, kernels.startUpSeconds(ComputePath.DENSE));
     if (LOG.isDebugEnabled()) {
       LOG.debug(
           "AUTO: layer {} '{}' ({} nodes, {} entries, {}): {} path; {}",

@@ -124,7 +124,8 @@ public final class LayerRun {
   /**
    * Returns the times the path cost model predicted for the layer's attention on each path, when
    * {@link PathChoice#AUTO} chose its path by them (summed over the layer's attention calls).
-   * {@link #path()} is the faster one unless its kernel was missing.
+   * {@link #path()} is the faster one unless its kernel was missing, or the dense path was faster
+   * by no more than its start-up and its back end had not started ({@link PathChoice}).
    *
    * @return the prediction, or empty for an explicit path or a layer that does not attend
    */

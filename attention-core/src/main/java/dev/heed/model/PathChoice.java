@@ -3,6 +3,7 @@ package dev.heed.model;
 import dev.heed.attention.ComputePath;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.PathCosts;
+import dev.heed.attention.PathEstimate;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
 import java.util.Objects;
@@ -16,9 +17,13 @@ import java.util.Objects;
  * The model's coefficients come from the profile the model was given ({@link
  * AttentionModel#withPathCosts}), else {@link PathCosts#current()}: one calibrated on this machine
  * with {@code heed calibrate}, or the reference machine's. The choice and both predicted times are
- * in {@link LayerRun#estimate()} and logged at debug level. If the kernel AUTO picked is not on the
- * class path, AUTO uses the other one and logs a warning; an explicit {@link #DENSE} or {@link
- * #SPARSE} fails instead.
+ * in {@link LayerRun#estimate()} and logged at debug level. Until the dense path's back end (ND4J)
+ * has started in the JVM, a model's AUTO also charges the dense path its start-up, about 1.5 s
+ * once: it takes the dense path only for a call predicted to save more than that, so small calls (a
+ * few nodes' receptive fields) never start ND4J for microseconds; once something has started it (a
+ * large call, an explicit {@link #DENSE}, a wide projection), AUTO compares the calls alone. If the
+ * kernel AUTO picked is not on the class path, AUTO uses the other one and logs a warning; an
+ * explicit {@link #DENSE} or {@link #SPARSE} fails instead.
  *
  * <p>Thread safety: an enum, immutable.
  */
@@ -31,7 +36,8 @@ public enum PathChoice {
   AUTO;
 
   /**
-   * Returns the path this choice takes for one attention call (for AUTO, before any fallback).
+   * Returns the path this choice takes for one attention call (for AUTO, the cost model's faster
+   * path, before the dense start-up charge and any fallback).
    *
    * @param pattern the pattern the layer attends over
    * @param score the layer's score function
@@ -56,5 +62,20 @@ public enum PathChoice {
       case AUTO ->
           Objects.requireNonNull(costs, "costs").estimate(pattern, score, shape, threads).faster();
     };
+  }
+
+  /**
+   * AUTO's path for a call with this prediction when starting the dense path would cost {@code
+   * denseStartUpSeconds} more: the faster path, except the sparse one where the dense path is
+   * predicted to save no more than its start-up (ties go sparse, as in {@link
+   * PathEstimate#faster()}).
+   */
+  static ComputePath autoPath(PathEstimate estimate, double denseStartUpSeconds) {
+    ComputePath faster = estimate.faster();
+    if (faster == ComputePath.DENSE
+        && estimate.sparseSeconds() - estimate.denseSeconds() <= denseStartUpSeconds) {
+      return ComputePath.SPARSE;
+    }
+    return faster;
   }
 }

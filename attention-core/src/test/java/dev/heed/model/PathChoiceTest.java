@@ -52,6 +52,56 @@ class PathChoiceTest {
         NullPointerException.class, () -> PathChoice.AUTO.pathFor(chain, dot, shape, 1, null));
   }
 
+  // The dense back end's start-up (ND4J, about 1.5 s once per JVM) is charged to the dense path
+  // until it has started: AUTO then goes dense only for a call predicted to save more than that
+  // (a one-time cost charged to the call that would pay it; the rule is documented in PathChoice).
+  @Test
+  void autoChargesTheDenseStartUpUntilTheBackEndHasStarted() throws IOException {
+    PathEstimate slightlyDense = new PathEstimate(1e-5, 2e-5);
+    assertEquals(ComputePath.SPARSE, PathChoice.autoPath(slightlyDense, 1.5));
+    assertEquals(ComputePath.DENSE, PathChoice.autoPath(slightlyDense, 0));
+    assertEquals(ComputePath.DENSE, PathChoice.autoPath(new PathEstimate(0.1, 2.0), 1.5));
+    assertEquals(ComputePath.SPARSE, PathChoice.autoPath(new PathEstimate(0.1, 1.6), 1.5));
+    assertEquals(ComputePath.SPARSE, PathChoice.autoPath(new PathEstimate(2.0, 0.1), 0));
+    assertEquals(ComputePath.SPARSE, PathChoice.autoPath(new PathEstimate(1.0, 1.0), 0));
+
+    AttentionModel base = TestModels.load(TestModels.resource("mixed.heed"));
+    ReferenceAttentionKernel reference = new ReferenceAttentionKernel();
+    CsrGraph graph = TestModels.fixtureGraph();
+    float[] x = TestModels.npyResource("features.npy").toFloats();
+    List<ComputePath> asked = new ArrayList<>();
+    for (double startUp : new double[] {1.5, 0}) {
+      asked.clear();
+      KernelSource source =
+          new KernelSource() {
+            @Override
+            public AttentionKernel kernel(ComputePath path) {
+              asked.add(path);
+              return reporting(path, reference);
+            }
+
+            @Override
+            public double startUpSeconds(ComputePath path) {
+              return path == ComputePath.DENSE ? startUp : 0;
+            }
+          };
+      // the dense path predicted microseconds faster on every attention layer
+      AttentionModel model =
+          base.withPathCosts(SyntheticCosts.linear(0, 1e-15, 1e-5, 1e-12)).withKernelSource(source);
+      for (LayerRun run : model.forward(graph, x, PathChoice.AUTO, false).layerRuns()) {
+        if (run.estimate().isEmpty()) {
+          continue;
+        }
+        assertEquals(ComputePath.DENSE, run.estimate().get().faster(), run.toString());
+        ComputePath want = startUp > 0 ? ComputePath.SPARSE : ComputePath.DENSE;
+        assertEquals(Optional.of(want), run.path(), "start-up " + startUp + ": " + run);
+      }
+      assertTrue(
+          startUp > 0 ? !asked.contains(ComputePath.DENSE) : asked.contains(ComputePath.DENSE),
+          "start-up " + startUp + ", kernels asked for: " + asked);
+    }
+  }
+
   @Test
   void autoFallsBackToTheOtherKernelButExplicitPathsDoNot() throws IOException {
     AttentionModel base = TestModels.load(TestModels.resource("mixed.heed"));

@@ -5,6 +5,9 @@ import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
+import com.fasterxml.jackson.databind.ObjectMapper;
+import com.fasterxml.jackson.databind.node.ObjectNode;
+import dev.heed.attention.PathCosts;
 import dev.heed.classify.Classification;
 import dev.heed.classify.ClassifyOptions;
 import dev.heed.classify.NodeClassifier;
@@ -115,6 +118,48 @@ class DemoCommandIT {
     assertTrue(m.find(), out);
     assertEquals(String.format(Locale.ROOT, "%.3f", (double) right / test), m.group(1), out);
     assertTrue(out.contains(String.format(Locale.ROOT, "%,d", test)), out);
+  }
+
+  /**
+   * A profile calibrated on a machine can price a warm dense call of a few dozen nodes at
+   * microseconds (5 µs for n = 32 on the reference machine), below the sparse path's; AUTO must
+   * still not start ND4J (about 1.5 s once) for calls that save less than that. Here every dense
+   * coefficient is 0, so the cost model alone would send every attention call to the dense path.
+   */
+  @Test
+  void aProfileWithFreeDenseCallsDoesNotStartNd4jForTheDemo() throws Exception {
+    ObjectMapper json = new ObjectMapper();
+    ObjectNode profile;
+    try (InputStream in = PathCosts.class.getResourceAsStream("builtin-path-costs.json")) {
+      profile = (ObjectNode) json.readTree(in);
+    }
+    ObjectNode dense = (ObjectNode) profile.get("regimes").get("dense");
+    for (String term : names(dense.fieldNames())) {
+      dense.put(term, 0.0);
+    }
+    Path costs = shared.resolve("free-dense-path-costs.json");
+    json.writeValue(costs.toFile(), profile);
+    Path classLog = shared.resolve("free-dense-classes.log");
+    CliProcess.Result r =
+        CliProcess.runWithJvmOptions(
+            shared,
+            List.of(
+                "-Xlog:class+load=info:file=" + classLog,
+                "-D" + PathCosts.LOCATION_PROPERTY + "=" + costs),
+            "classify",
+            "--demo",
+            "--demo-dir",
+            shared.resolve("demo-free-dense").toString());
+    assertEquals(0, r.exitCode(), r.toString());
+    String classes = Files.readString(classLog, StandardCharsets.UTF_8);
+    assertTrue(classes.contains("dev.heed.cli.DemoRun"), "class log not written: " + classLog);
+    assertFalse(classes.contains("org.nd4j."), "AUTO started ND4J for the demo's small calls");
+  }
+
+  private static List<String> names(java.util.Iterator<String> names) {
+    List<String> all = new java.util.ArrayList<>();
+    names.forEachRemaining(all::add);
+    return all;
   }
 
   /**

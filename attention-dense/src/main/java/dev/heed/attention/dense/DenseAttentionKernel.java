@@ -8,6 +8,7 @@ import dev.heed.attention.KernelOptions;
 import dev.heed.attention.ReferenceAttention;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.attention.internal.CostRegime;
+import dev.heed.attention.internal.DenseStartUp;
 import dev.heed.attention.internal.KernelWorkers;
 import dev.heed.attention.internal.RowSoftmax;
 import dev.heed.graph.AttentionPattern;
@@ -219,6 +220,7 @@ final class DenseAttentionKernel implements AttentionKernel {
     if (n == 0) {
       return;
     }
+    DenseStartUp.markStarted(); // before ND4J's first use: AUTO no longer charges its start-up
     boolean gatv2 = score instanceof ScoreFunction.Gatv2;
     // A small call (n below 725, not GATv2) runs on the calling thread with one BLAS thread.
     // Measured on 2 cores, 4 heads × 16 dims, additive and dot-product scores, all on one thread

@@ -1,5 +1,6 @@
 package dev.heed.attention.dense;
 
+import dev.heed.attention.internal.DenseStartUp;
 import dev.heed.attention.internal.MatrixProduct;
 import org.nd4j.linalg.api.buffer.DataType;
 import org.nd4j.linalg.api.ndarray.INDArray;
@@ -23,6 +24,7 @@ public final class Nd4jMatrixProduct implements MatrixProduct {
 
   @Override
   public float[] multiply(float[] x, int n, int in, float[] w, int out) {
+    DenseStartUp.markStarted(); // before ND4J's first use: AUTO no longer charges its start-up
     INDArray xa = Nd4j.create(x, new long[] {n, in}, 'c');
     INDArray wa = Nd4j.create(w, new long[] {in, out}, 'c');
     INDArray ya = Nd4j.create(DataType.FLOAT, new long[] {n, out}, 'c');
