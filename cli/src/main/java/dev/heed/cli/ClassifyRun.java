@@ -1,5 +1,6 @@
 package dev.heed.cli;
 
+import dev.heed.attention.ComputePath;
 import dev.heed.attention.KernelOptions;
 import dev.heed.classify.Classification;
 import dev.heed.classify.ClassifyOptions;
@@ -19,6 +20,7 @@ import java.nio.file.Path;
 import java.util.ArrayList;
 import java.util.List;
 import java.util.Locale;
+import java.util.Optional;
 
 /**
  * The classify code path shared by {@code heed classify} and {@code heed classify --demo}: reads
@@ -254,6 +256,16 @@ final class ClassifyRun {
         inputs.featureSeconds(),
         layerTotal,
         classifySeconds);
+    if (result.layerRuns().stream()
+        .anyMatch(
+            r ->
+                r.path().equals(Optional.of(ComputePath.SPARSE))
+                    && r.estimate().map(e -> e.faster() == ComputePath.DENSE).orElse(false))) {
+      err.printf(
+          Locale.ROOT,
+          "  (layers predicted faster on the dense path ran sparse: AUTO charges the dense path"
+              + " ND4J's start-up, about 1.5 s, until it has started)%n");
+    }
     err.flush();
   }
 }

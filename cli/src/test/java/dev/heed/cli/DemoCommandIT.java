@@ -154,6 +154,7 @@ class DemoCommandIT {
     String classes = Files.readString(classLog, StandardCharsets.UTF_8);
     assertTrue(classes.contains("dev.heed.cli.DemoRun"), "class log not written: " + classLog);
     assertFalse(classes.contains("org.nd4j."), "AUTO started ND4J for the demo's small calls");
+    assertTrue(r.stderr().contains("AUTO charges the dense path"), r.toString());
   }
 
   private static List<String> names(java.util.Iterator<String> names) {
