@@ -201,7 +201,7 @@ abstract class AllHeadsPass extends CsrPass {
         row(i, sc);
       } else {
         int count = csr.rowEnd(j - 1) - start;
-        int[] columns = blockColumns(start, count, sc);
+        int[] columns = readsColumns() ? blockColumns(start, count, sc) : null;
         float[] keys = groupKeys(columns, count, sc);
         for (int r = i; r < j; r++) {
           int rowStart = csr.rowStart(r);
@@ -249,7 +249,8 @@ abstract class AllHeadsPass extends CsrPass {
   private void shortRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     if (count == 1) {
-      math.singleEntryRow(value, columns[offset] * valueWidth, out, i * valueWidth);
+      int source = columns != null ? columns[offset] : csr.column((int) firstEntry);
+      math.singleEntryRow(value, source * valueWidth, out, i * valueWidth);
       if (weights != null) {
         int w = (int) (firstEntry * heads);
         Arrays.fill(weights, w, w + heads, 1f);
@@ -258,6 +259,12 @@ abstract class AllHeadsPass extends CsrPass {
     }
     oneBlockRow(i, columns, keys, offset, count, firstEntry, sc);
   }
+
+  /**
+   * Whether this pass's short rows read their sources from the group's column copy ({@link
+   * #blockColumns}); if not, a group's rows are given null columns and read the graph's.
+   */
+  abstract boolean readsColumns();
 
   /**
    * The key rows that a group of short rows needs from {@link #gatherKeys}, or null if those rows

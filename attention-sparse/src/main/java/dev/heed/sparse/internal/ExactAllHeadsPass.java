@@ -57,6 +57,11 @@ final class ExactAllHeadsPass extends AllHeadsPass {
   }
 
   @Override
+  boolean readsColumns() {
+    return true;
+  }
+
+  @Override
   void oneBlockRow(
       int i, int[] columns, float[] keys, int offset, int count, long firstEntry, Scratch sc) {
     float[] s = scores(i, columns, keys, offset, count, firstEntry, sc);
