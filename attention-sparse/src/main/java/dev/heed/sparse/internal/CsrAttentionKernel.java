@@ -283,35 +283,27 @@ public final class CsrAttentionKernel implements AttentionKernel {
       HeadShape shape,
       boolean factored,
       int useThreads) {
-    int chunks = Math.min(n, useThreads * CHUNKS_PER_THREAD);
+    int chunks = nodeChunks(n, useThreads);
     int width = shape.keyWidth();
     float[][] maxima = new float[chunks][];
     AtomicBoolean queryFinite = new AtomicBoolean(true);
     AtomicBoolean keyFinite = new AtomicBoolean(true);
-    AtomicInteger next = new AtomicInteger();
-    Runnable share =
-        () -> {
-          for (int c = next.getAndIncrement(); c < chunks; c = next.getAndIncrement()) {
-            int from = (int) ((long) n * c / chunks);
-            int to = (int) ((long) n * (c + 1) / chunks);
-            if (!FINITE.isFinite(query, from * width, to * width)) {
-              queryFinite.set(false);
-            }
-            if (factored) {
-              float[] max = new float[AllHeadsMath.HEADS];
-              Arrays.fill(max, Float.NEGATIVE_INFINITY);
-              if (!math.factored().keyMaxima(key, from, to, max)) {
-                keyFinite.set(false);
-              }
-              maxima[c] = max;
-            }
+    forEachNodeRange(
+        n,
+        useThreads,
+        (chunk, from, to) -> {
+          if (!FINITE.isFinite(query, from * width, to * width)) {
+            queryFinite.set(false);
           }
-        };
-    if (useThreads == 1) {
-      share.run();
-    } else {
-      KernelWorkers.runShared(useThreads - 1, share);
-    }
+          if (factored) {
+            float[] max = new float[AllHeadsMath.HEADS];
+            Arrays.fill(max, Float.NEGATIVE_INFINITY);
+            if (!math.factored().keyMaxima(key, from, to, max)) {
+              keyFinite.set(false);
+            }
+            maxima[chunk] = max;
+          }
+        });
     if (!queryFinite.get()) {
       AttentionKernels.checkFinite("query", query, width);
       throw new AssertionError("the query check flagged a value that the full check passed");
@@ -338,22 +330,47 @@ public final class CsrAttentionKernel implements AttentionKernel {
    * @return true if every key and value float is finite
    */
   private static boolean pack(AllHeadsPass pass, int n, int useThreads) {
-    if (useThreads == 1) {
-      return pass.fill(0, n);
-    }
-    int chunks = Math.min(n, useThreads * CHUNKS_PER_THREAD);
-    AtomicInteger next = new AtomicInteger();
     AtomicBoolean finite = new AtomicBoolean(true);
+    forEachNodeRange(
+        n,
+        useThreads,
+        (chunk, from, to) -> {
+          if (!pass.fill(from, to)) {
+            finite.set(false);
+          }
+        });
+    return finite.get();
+  }
+
+  /** One range of a phase over nodes: chunk {@code chunk}, nodes {@code from..to-1}. */
+  @FunctionalInterface
+  private interface NodeRange {
+    void run(int chunk, int from, int to);
+  }
+
+  /** The ranges {@link #forEachNodeRange} splits n nodes into: one on one thread. */
+  private static int nodeChunks(int n, int useThreads) {
+    return useThreads == 1 ? 1 : Math.min(n, useThreads * CHUNKS_PER_THREAD);
+  }
+
+  /**
+   * Runs {@code body} over {@link #nodeChunks} equal ranges of nodes {@code 0..n-1}, which the
+   * calling thread and {@code useThreads - 1} helpers claim until none are left.
+   */
+  private static void forEachNodeRange(int n, int useThreads, NodeRange body) {
+    if (useThreads == 1) {
+      body.run(0, 0, n);
+      return;
+    }
+    int chunks = nodeChunks(n, useThreads);
+    AtomicInteger next = new AtomicInteger();
     KernelWorkers.runShared(
         useThreads - 1,
         () -> {
           for (int c = next.getAndIncrement(); c < chunks; c = next.getAndIncrement()) {
-            if (!pass.fill((int) ((long) n * c / chunks), (int) ((long) n * (c + 1) / chunks))) {
-              finite.set(false);
-            }
+            body.run(c, (int) ((long) n * c / chunks), (int) ((long) n * (c + 1) / chunks));
           }
         });
-    return finite.get();
   }
 
   /** Runs every row of the pass on {@code useThreads} threads. */

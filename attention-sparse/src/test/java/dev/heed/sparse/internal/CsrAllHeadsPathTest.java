@@ -6,6 +6,7 @@ import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertSame;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
+import static org.junit.jupiter.api.Assertions.fail;
 import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
 import dev.heed.attention.AttentionKernels;
@@ -297,11 +298,7 @@ class CsrAllHeadsPathTest {
           k[keyAt] = Float.NaN;
         }
         float[] out = new float[n * SHAPE.valueWidth()];
-        String want =
-            assertThrows(
-                    IllegalArgumentException.class,
-                    () -> AttentionKernels.checkCall(graph, GAT, SHAPE, q, k, v, out, null))
-                .getMessage();
+        String want = checkCallMessage(graph, q, k, v, out);
         for (int threads = 1; threads <= 3; threads++) {
           for (boolean factored : new boolean[] {true, false}) {
             CsrAttentionKernel kernel = packing(threads, true, factored);
@@ -314,20 +311,45 @@ class CsrAllHeadsPathTest {
                     + ", "
                     + threads
                     + (factored ? " threads, factored" : " threads, exact");
-            IllegalArgumentException e =
-                assertThrows(
-                    IllegalArgumentException.class,
-                    () -> kernel.attend(graph, GAT, SHAPE, q, k, v, out, null),
-                    where);
-            assertEquals(want, e.getMessage(), where);
-            for (float o : out) {
-              assertEquals(0f, o, where + ": output written before the error");
-            }
+            assertRejectedBeforeOutput(kernel, graph, q, k, v, out, want, where);
           }
         }
         target[at] = saved;
         k[keyAt] = savedKey;
       }
+    }
+  }
+
+  /** checkCall's message for a GAT call (8 heads of 8) with these inputs, which must be bad. */
+  static String checkCallMessage(CsrGraph graph, float[] q, float[] k, float[] v, float[] out) {
+    return assertThrows(
+            IllegalArgumentException.class,
+            () -> AttentionKernels.checkCall(graph, GAT, SHAPE, q, k, v, out, null))
+        .getMessage();
+  }
+
+  /**
+   * Asserts that the kernel rejects the GAT call (8 heads of 8) with checkCall's message {@code
+   * want} and leaves {@code out}, which holds zeros, untouched: inputs are checked before any
+   * output is written.
+   */
+  static void assertRejectedBeforeOutput(
+      CsrAttentionKernel kernel,
+      CsrGraph graph,
+      float[] q,
+      float[] k,
+      float[] v,
+      float[] out,
+      String want,
+      String where) {
+    IllegalArgumentException e =
+        assertThrows(
+            IllegalArgumentException.class,
+            () -> kernel.attend(graph, GAT, SHAPE, q, k, v, out, null),
+            where);
+    assertEquals(want, e.getMessage(), where);
+    if (!Arrays.equals(new float[out.length], out)) {
+      fail(where + ": output written before the error");
     }
   }
 

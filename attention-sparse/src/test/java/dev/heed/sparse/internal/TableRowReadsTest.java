@@ -3,12 +3,10 @@ package dev.heed.sparse.internal;
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertSame;
-import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 import static org.junit.jupiter.api.Assertions.fail;
 import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
-import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.HeadShape;
 import dev.heed.attention.NodeRowPrecision;
 import dev.heed.attention.ScoreFunction;
@@ -30,7 +28,7 @@ import org.junit.jupiter.api.Test;
 class TableRowReadsTest {
 
   private static final HeadShape SHAPE = new HeadShape(8, 1, 8);
-  private static final ScoreFunction GAT = ScoreFunction.additive(0.2f);
+  private static final ScoreFunction GAT = ScoreFunction.additive(ScoreFunction.GAT_NEGATIVE_SLOPE);
 
   /**
    * A graph where many nodes no longer row reads: empty rows, rows of one entry (the node itself or
@@ -196,11 +194,7 @@ class TableRowReadsTest {
         float saved = target[at];
         target[at] = Float.NaN;
         float[] out = new float[n * SHAPE.valueWidth()];
-        String want =
-            assertThrows(
-                    IllegalArgumentException.class,
-                    () -> AttentionKernels.checkCall(graph, GAT, SHAPE, q, k, v, out, null))
-                .getMessage();
+        String want = CsrAllHeadsPathTest.checkCallMessage(graph, q, k, v, out);
         for (int threads = 1; threads <= 3; threads++) {
           for (int layout = 0; layout < 3; layout++) {
             CsrAttentionKernel kernel =
@@ -211,15 +205,8 @@ class TableRowReadsTest {
                     layout == 2 ? NodeRowPrecision.BFLOAT16 : NodeRowPrecision.FLOAT32);
             String where =
                 name + " of unread node " + node + ", " + threads + " threads, layout " + layout;
-            IllegalArgumentException e =
-                assertThrows(
-                    IllegalArgumentException.class,
-                    () -> kernel.attend(graph, GAT, SHAPE, q, k, v, out, null),
-                    where);
-            assertEquals(want, e.getMessage(), where);
-            if (!Arrays.equals(new float[out.length], out)) {
-              fail(where + ": output written before the error");
-            }
+            CsrAllHeadsPathTest.assertRejectedBeforeOutput(
+                kernel, graph, q, k, v, out, want, where);
           }
         }
         target[at] = saved;
