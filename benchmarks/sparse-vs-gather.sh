@@ -3,7 +3,10 @@
 # one run: alternates the C random-gather probe benchmarks/probe/random-gather.c (256 MiB table of
 # 256-byte rows, 2 threads) with the JMH benchmark of the layer (R-MAT 1M nodes, 8 heads x 8 dims, 2
 # threads), so that each JMH result sits between two gather measurements taken minutes apart.
-# A shared machine's limits move between minutes; quote the median of the ratios.
+# A shared machine's limits move between minutes; quote the median of the ratios. The probe asks
+# for transparent huge pages (HUGE_PAGES=1), as the benchmark's forks do
+# (-XX:+UseTransparentHugePages): without them its rows cost a page walk each and the limit reads
+# 1.2-1.4x lower on the reference guest (results/raw/node-rows-order/limits-stream-gather-idle.txt).
 #
 # Usage: benchmarks/sparse-vs-gather.sh [rounds] [output folder]
 #   needs benchmarks/target/benchmarks.jar (mvn -B -pl benchmarks -am package -DskipTests), a C
@@ -35,7 +38,7 @@ probe="$here/target/probe/random-gather"
   || "$cc" -O3 -pthread -o "$probe" "$probe_src" \
   || { echo "could not compile $probe_src with $cc" >&2; exit 2; }
 gather() {
-  "$probe" 256 2 > "$out/c-gather-$1.txt"
+  HUGE_PAGES=1 "$probe" 256 2 > "$out/c-gather-$1.txt"
 }
 for k in $(seq "$rounds"); do
   gather "$k"

@@ -30,6 +30,10 @@
 #include <unistd.h>
 #endif
 
+#define PROBE_NAME "random-gather"
+#define PROBE_USAGE "random-gather [table_MiB=256] [threads=2] [trials=7]"
+#include "probe.h"
+
 #ifndef ROW_FLOATS
 #define ROW_FLOATS 64
 #endif
@@ -46,28 +50,6 @@ struct part {
   size_t to;
   int core;
 };
-
-static double seconds(void) {
-  struct timespec t;
-  clock_gettime(CLOCK_MONOTONIC, &t);
-  return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-static void *allocate(size_t bytes, int huge_pages) {
-  const size_t alignment = (size_t)2 << 20;
-  void *p = NULL;
-  bytes = (bytes + alignment - 1) / alignment * alignment;
-  if (posix_memalign(&p, alignment, bytes) != 0) {
-    fprintf(stderr, "random-gather: cannot allocate %zu bytes\n", bytes);
-    exit(1);
-  }
-#ifdef __linux__
-  madvise(p, bytes, huge_pages ? MADV_HUGEPAGE : MADV_NOHUGEPAGE);
-#else
-  (void)huge_pages;
-#endif
-  return p;
-}
 
 /* splitmix64 (Steele, Lea, Flood, OOPSLA 2014): seeded, fast, good enough for row picks */
 static uint64_t next_random(uint64_t *state) {
@@ -109,26 +91,6 @@ static void *gather_part(void *arg) {
 #endif
   gather_rows(p->table, p->indices, p->out, p->from, p->to);
   return NULL;
-}
-
-static int by_value(const void *a, const void *b) {
-  double x = *(const double *)a, y = *(const double *)b;
-  return (x > y) - (x < y);
-}
-
-static long argument(int argc, char **argv, int i, long fallback, long low, long high) {
-  if (argc <= i) {
-    return fallback;
-  }
-  char *end;
-  long v = strtol(argv[i], &end, 10);
-  if (*end != '\0' || v < low || v > high) {
-    fprintf(stderr, "random-gather: argument %d is '%s', expected an integer in %ld..%ld\n"
-                    "usage: random-gather [table_MiB=256] [threads=2] [trials=7]\n",
-            i, argv[i], low, high);
-    exit(2);
-  }
-  return v;
 }
 
 int main(int argc, char **argv) {
