@@ -11,9 +11,11 @@
  * in {@code dev.heed.sparse.internal}, which is not API. Start the JVM with {@code --add-modules
  * jdk.incubator.vector} to run the Vector API inner loops (measured about 5× faster than the plain
  * Java ones on a 1M-node GAT layer, which are used otherwise, with one logged WARN). For graphs of
- * hundreds of MiB, {@code -XX:+UseTransparentHugePages} also helps (random gathers miss the TLB).
- * Setting the system property {@code heed.sparse.vector=false} keeps this kernel on the plain loops
- * even when the Vector API is available (a remedy should the vector loops misbehave on some JVM).
+ * hundreds of MiB, {@code -XX:+UseTransparentHugePages} also helps (random gathers miss the TLB);
+ * on Linux the kernel logs that once, at INFO, when a large call finds the process without huge
+ * pages. Setting the system property {@code heed.sparse.vector=false} keeps this kernel on the
+ * plain loops even when the Vector API is available (a remedy should the vector loops misbehave on
+ * some JVM).
  *
  * <p>Threads: each call uses the calling thread plus up to {@code threads - 1} daemon helper
  * threads from one JVM-wide pool ({@code heed-kernel-worker-N}, shared with the dense kernel) that

@@ -210,6 +210,8 @@ public final class CsrAttentionKernel implements AttentionKernel {
           useThreads);
       return;
     }
+    HugePageAdvice.considerOnce(
+        4L * (bfloat16 ? PackedNodeTable.bfloat16Length(n) : PackedNodeTable.length(n)), n);
     try {
       boolean factored = variant.factoredWeights();
       float[] keyMax = checkQueryAndKeyMaxima(loops, query, key, n, shape, factored, useThreads);
