@@ -20,7 +20,8 @@ import org.slf4j.LoggerFactory;
  * than it gains (each 2 MiB page is built when first touched), so it is advice, not a default.
  *
  * <p>Evidence read, once: {@code /proc/self/smaps_rollup}'s {@code AnonHugePages} (the process's
- * anonymous memory on huge pages; 0 means none) and {@code
+ * anonymous memory on transparent huge pages) and {@code Private_Hugetlb} / {@code Shared_Hugetlb}
+ * (on explicit ones, {@code -XX:+UseLargePages}), all 0 meaning none, and {@code
  * /sys/kernel/mm/transparent_hugepage/enabled} (the bracketed mode). Anything missing or unreadable
  * (another operating system, a restricted container) means no advice.
  *
@@ -34,6 +35,11 @@ final class HugePageAdvice {
   private static final Logger LOG = LoggerFactory.getLogger(HugePageAdvice.class);
   private static final AtomicBoolean CHECKED = new AtomicBoolean();
   private static final Pattern ANON_HUGE = Pattern.compile("(?m)^AnonHugePages:\\s*(\\d+)\\s*kB");
+
+  /** Huge pages of hugetlbfs ({@code -XX:+UseLargePages} without transparent huge pages). */
+  private static final Pattern HUGETLB =
+      Pattern.compile("(?m)^(?:Private|Shared)_Hugetlb:\\s*(\\d+)\\s*kB");
+
   private static final Pattern MODE = Pattern.compile("\\[(\\w+)\\]");
 
   private HugePageAdvice() {}
@@ -83,11 +89,17 @@ final class HugePageAdvice {
     if (!huge.find() || !mode.find() || Long.parseLong(huge.group(1)) > 0) {
       return null;
     }
+    Matcher hugetlb = HUGETLB.matcher(smapsRollup);
+    while (hugetlb.find()) {
+      if (Long.parseLong(hugetlb.group(1)) > 0) {
+        return null; // the heap is on explicit huge pages
+      }
+    }
     String prefix =
         "Sparse attention over "
             + nodes
             + " nodes reads node rows at random places, and this process has no transparent huge"
-            + " pages (AnonHugePages 0 kB), so those reads also miss the page-translation cache.";
+            + " pages (AnonHugePages 0 kB, no hugetlbfs pages), so those reads also miss the page-translation cache.";
     String measured =
         " On a 1M-node GAT layer huge pages measured 1.1-1.3x faster; they cost a short-lived"
             + " process more than they save (README: Huge pages).";

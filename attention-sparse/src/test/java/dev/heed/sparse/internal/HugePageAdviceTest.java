@@ -45,6 +45,14 @@ class HugePageAdviceTest {
   }
 
   @Test
+  void aHeapOnExplicitHugePagesGetsNoAdvice() {
+    String rollup = rollup(0) + "Shared_Hugetlb:        0 kB\nPrivate_Hugetlb:  4194304 kB\n";
+    assertNull(HugePageAdvice.advice(rollup, MADVISE, 1_048_576));
+    String none = rollup(0) + "Shared_Hugetlb:        0 kB\nPrivate_Hugetlb:        0 kB\n";
+    assertNotNull(HugePageAdvice.advice(none, MADVISE, 1_048_576));
+  }
+
+  @Test
   void aKernelWithHugePagesOffIsNamed() {
     String advice = HugePageAdvice.advice(rollup(0), "always madvise [never]\n", 300_000);
     assertNotNull(advice);
