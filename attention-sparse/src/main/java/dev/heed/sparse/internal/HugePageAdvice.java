@@ -99,7 +99,8 @@ final class HugePageAdvice {
         "Sparse attention over "
             + nodes
             + " nodes reads node rows at random places, and this process has no transparent huge"
-            + " pages (AnonHugePages 0 kB, no hugetlbfs pages), so those reads also miss the page-translation cache.";
+            + " pages (AnonHugePages 0 kB, no hugetlbfs pages), so those reads also miss the"
+            + " page-translation cache.";
     String measured =
         " On a 1M-node GAT layer huge pages measured 1.1-1.3x faster; they cost a short-lived"
             + " process more than they save (README: Huge pages).";
