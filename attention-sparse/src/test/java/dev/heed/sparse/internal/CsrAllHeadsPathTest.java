@@ -11,6 +11,7 @@ import static org.junit.jupiter.api.Assumptions.assumeTrue;
 
 import dev.heed.attention.AttentionKernels;
 import dev.heed.attention.HeadShape;
+import dev.heed.attention.NodeRowPrecision;
 import dev.heed.attention.ReferenceAttention;
 import dev.heed.attention.ScoreFunction;
 import dev.heed.graph.AttentionPattern;
@@ -97,13 +98,20 @@ class CsrAllHeadsPathTest {
 
   /** A kernel that uses the node table for every graph, in its factored or its exact layout. */
   private static CsrAttentionKernel packing(int threads, boolean packed, boolean factored) {
+    return packing(threads, packed, factored, CsrKernelVariant.DEFAULT.nodeRows());
+  }
+
+  /** As {@link #packing(int, boolean, boolean)}, with the given node-row precision. */
+  static CsrAttentionKernel packing(
+      int threads, boolean packed, boolean factored, NodeRowPrecision rows) {
     return new CsrAttentionKernel(
         threads,
         RowMaths.preferred(),
         CsrKernelVariant.DEFAULT
             .withMinCostPerThread(1)
             .withMinPackedTableBytes(packed ? 0 : Long.MAX_VALUE)
-            .withFactoredWeights(factored));
+            .withFactoredWeights(factored)
+            .withNodeRows(rows));
   }
 
   @Test

@@ -129,21 +129,47 @@ class TableRowReadsTest {
       absV[x] = Math.abs(v[x]);
     }
     float[] weightedAbs =
-        run(kernel(1, false, true, NodeRowPrecision.FLOAT32), graph, q, k, absV)[0];
+        run(
+            CsrAllHeadsPathTest.packing(1, false, true, NodeRowPrecision.FLOAT32),
+            graph,
+            q,
+            k,
+            absV)[0];
     float[][] firstOut = new float[3][];
     for (int threads = 1; threads <= 3; threads++) {
       String where = threads + " threads, seed=" + seed;
       float[][] unpacked =
-          run(kernel(threads, false, true, NodeRowPrecision.FLOAT32), graph, q, k, v);
-      float[][] exact = run(kernel(threads, true, false, NodeRowPrecision.FLOAT32), graph, q, k, v);
+          run(
+              CsrAllHeadsPathTest.packing(threads, false, true, NodeRowPrecision.FLOAT32),
+              graph,
+              q,
+              k,
+              v);
+      float[][] exact =
+          run(
+              CsrAllHeadsPathTest.packing(threads, true, false, NodeRowPrecision.FLOAT32),
+              graph,
+              q,
+              k,
+              v);
       assertArrayEquals(unpacked[0], exact[0], where + ": exact layout, outputs");
       assertArrayEquals(unpacked[1], exact[1], where + ": exact layout, weights");
       float[][] factored =
-          run(kernel(threads, true, true, NodeRowPrecision.FLOAT32), graph, q, k, v);
+          run(
+              CsrAllHeadsPathTest.packing(threads, true, true, NodeRowPrecision.FLOAT32),
+              graph,
+              q,
+              k,
+              v);
       double apart = CsrAllHeadsPathTest.relativeError(unpacked[0], factored[0]);
       assertTrue(apart < 1e-6, where + ": factored and exact outputs differ by " + apart);
       float[][] rounded =
-          run(kernel(threads, true, true, NodeRowPrecision.BFLOAT16), graph, q, k, v);
+          run(
+              CsrAllHeadsPathTest.packing(threads, true, true, NodeRowPrecision.BFLOAT16),
+              graph,
+              q,
+              k,
+              v);
       assertArrayEquals(factored[1], rounded[1], where + ": bfloat16 weights are float32's");
       for (int x = 0; x < rounded[0].length; x++) {
         double bound = (0x1p-8 + 0x1p-16) * weightedAbs[x];
@@ -198,7 +224,7 @@ class TableRowReadsTest {
         for (int threads = 1; threads <= 3; threads++) {
           for (int layout = 0; layout < 3; layout++) {
             CsrAttentionKernel kernel =
-                kernel(
+                CsrAllHeadsPathTest.packing(
                     threads,
                     true,
                     layout > 0,
@@ -212,18 +238,6 @@ class TableRowReadsTest {
         target[at] = saved;
       }
     }
-  }
-
-  private static CsrAttentionKernel kernel(
-      int threads, boolean packed, boolean factored, NodeRowPrecision rows) {
-    return new CsrAttentionKernel(
-        threads,
-        RowMaths.preferred(),
-        CsrKernelVariant.DEFAULT
-            .withMinCostPerThread(1)
-            .withMinPackedTableBytes(packed ? 0 : Long.MAX_VALUE)
-            .withFactoredWeights(factored)
-            .withNodeRows(rows));
   }
 
   /** Outputs and weights of one call. */
