@@ -1,15 +1,18 @@
 /*
  * What the C probes share: a monotonic clock, 2 MiB-aligned allocation with or without transparent
- * huge pages, a comparison for qsort over doubles, and checked integer arguments. Each probe sets
+ * huge pages (asked for with HUGE_PAGES=1), pinning a thread to a core, the median of a run's
+ * trials, and checked integer arguments. Each probe sets
  * PROBE_NAME and PROBE_USAGE before including this file.
  */
 #ifndef HEED_PROBE_H
 #define HEED_PROBE_H
 
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <time.h>
 #ifdef __linux__
+#include <sched.h>
 #include <sys/mman.h>
 #endif
 
@@ -35,9 +38,33 @@ static void *allocate(size_t bytes, int huge_pages) {
   return p;
 }
 
+/* whether HUGE_PAGES in the environment asks for transparent huge pages */
+static int huge_pages_requested(void) {
+  const char *huge_env = getenv("HUGE_PAGES");
+  return huge_env != NULL && atoi(huge_env) != 0;
+}
+
+/* pins the calling thread to a core, best effort (Linux only) */
+static void pin_to_core(int core) {
+#ifdef __linux__
+  cpu_set_t cores;
+  CPU_ZERO(&cores);
+  CPU_SET(core, &cores);
+  pthread_setaffinity_np(pthread_self(), sizeof cores, &cores);
+#else
+  (void)core;
+#endif
+}
+
 static int by_value(const void *a, const void *b) {
   double x = *(const double *)a, y = *(const double *)b;
   return (x > y) - (x < y);
+}
+
+/* sorts values[0..n-1] in place and returns their median */
+static double sorted_median(double *values, int n) {
+  qsort(values, n, sizeof(double), by_value);
+  return n % 2 ? values[n / 2] : 0.5 * (values[n / 2 - 1] + values[n / 2]);
 }
 
 /* argv[i] as an integer in low..high, or fallback if absent; exits with the usage otherwise */

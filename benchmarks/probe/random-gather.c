@@ -25,8 +25,6 @@
 #include <string.h>
 #include <time.h>
 #ifdef __linux__
-#include <sched.h>
-#include <sys/mman.h>
 #include <unistd.h>
 #endif
 
@@ -83,12 +81,7 @@ static void gather_rows(const float *restrict table, const uint32_t *restrict in
 
 static void *gather_part(void *arg) {
   const struct part *p = arg;
-#ifdef __linux__
-  cpu_set_t cores;
-  CPU_ZERO(&cores);
-  CPU_SET(p->core, &cores);
-  pthread_setaffinity_np(pthread_self(), sizeof cores, &cores); /* best effort */
-#endif
+  pin_to_core(p->core);
   gather_rows(p->table, p->indices, p->out, p->from, p->to);
   return NULL;
 }
@@ -97,8 +90,7 @@ int main(int argc, char **argv) {
   long table_mib = argument(argc, argv, 1, 256, 1, 1L << 16);
   int threads = (int)argument(argc, argv, 2, 2, 1, MAX_THREADS);
   int trials = (int)argument(argc, argv, 3, 7, 1, MAX_TRIALS);
-  const char *huge_env = getenv("HUGE_PAGES");
-  int huge_pages = huge_env != NULL && atoi(huge_env) != 0;
+  int huge_pages = huge_pages_requested();
 
   const size_t row_bytes = ROW_FLOATS * sizeof(float);
   const size_t rows = ((size_t)table_mib << 20) / row_bytes;
@@ -152,9 +144,7 @@ int main(int argc, char **argv) {
 
   double sorted[MAX_TRIALS];
   memcpy(sorted, rates, trials * sizeof(double));
-  qsort(sorted, trials, sizeof(double), by_value);
-  double median = trials % 2 ? sorted[trials / 2]
-                             : 0.5 * (sorted[trials / 2 - 1] + sorted[trials / 2]);
+  double median = sorted_median(sorted, trials);
   double low = sorted[0], high = sorted[trials - 1];
   double to_mrows = 1e3 / (double)row_bytes;
   printf("GATHER threads=%d table_MiB=%ld row_bytes=%zu rows=%zu pattern=random huge=%d"

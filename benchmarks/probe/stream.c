@@ -22,8 +22,6 @@
 #include <string.h>
 #include <time.h>
 #ifdef __linux__
-#include <sched.h>
-#include <sys/mman.h>
 #include <unistd.h>
 #endif
 
@@ -51,12 +49,7 @@ struct part {
 
 static void *run_part(void *arg) {
   struct part *p = arg;
-#ifdef __linux__
-  cpu_set_t cores;
-  CPU_ZERO(&cores);
-  CPU_SET(p->core, &cores);
-  pthread_setaffinity_np(pthread_self(), sizeof cores, &cores); /* best effort */
-#endif
+  pin_to_core(p->core);
   if (p->op == READ) {
     lanes s0 = {0}, s1 = {0}, s2 = {0}, s3 = {0};
     for (size_t i = p->from; i < p->to; i += 4 * LANES) {
@@ -100,8 +93,7 @@ int main(int argc, char **argv) {
   long array_mib = argument(argc, argv, 1, 512, 1, 1L << 16);
   int threads = (int)argument(argc, argv, 2, 2, 1, MAX_THREADS);
   int trials = (int)argument(argc, argv, 3, 7, 1, MAX_TRIALS);
-  const char *huge_env = getenv("HUGE_PAGES");
-  int huge_pages = huge_env != NULL && atoi(huge_env) != 0;
+  int huge_pages = huge_pages_requested();
 
   /* whole blocks of 4 vectors per thread, so no loop needs a tail */
   const size_t block = 4 * LANES * (size_t)threads;
@@ -143,9 +135,7 @@ int main(int argc, char **argv) {
         rates[trial] = counted / elapsed / 1e9;
       }
     }
-    qsort(rates, trials, sizeof(double), by_value);
-    double median = trials % 2 ? rates[trials / 2]
-                               : 0.5 * (rates[trials / 2 - 1] + rates[trials / 2]);
+    double median = sorted_median(rates, trials);
     printf("STREAM op=%s threads=%d array_MiB=%ld huge=%d  GB/s median=%.2f min=%.2f max=%.2f"
            "  (check %.3g)\n",
            OP_NAMES[o], threads, array_mib, huge_pages, median, rates[0], rates[trials - 1],
